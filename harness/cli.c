@@ -1,0 +1,95 @@
+/* cli.c — dispatch of driftmark's commands, --help and --version. */
+#include "cli.h"
+
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "dm_build_info.h"
+#include "dm_error.h"
+
+typedef struct command {
+    const char *name;
+    int (*run)(int argc, char **argv);
+    const char *usage;
+    const char *summary;
+} command;
+
+static const command commands[] = {
+    { "list", dm_cmd_list, "list [--json]", "every problem and method with its parameters" },
+    { "period", dm_cmd_period, "period PROBLEM [key=value ...] [--json]",
+      "regime, energy and closed-form period of one starting state" },
+};
+static const size_t n_commands = sizeof commands / sizeof commands[0];
+
+static void print_help(FILE *out)
+{
+    fprintf(out,
+            "driftmark %s - long-run energy and phase benchmarks of time integrators\n"
+            "for conservative (Hamiltonian) systems.\n\n"
+            "usage: driftmark COMMAND [ARGS]\n\n",
+            DM_VERSION);
+    for (size_t i = 0; i < n_commands; i++)
+        fprintf(out, "  driftmark %-40s %s\n", commands[i].usage, commands[i].summary);
+    fprintf(out, "  driftmark %-40s %s\n", "--help", "this text");
+    fprintf(out, "  driftmark %-40s %s\n", "--version", "version and build provenance");
+}
+
+int dm_cli_usage_error(const char *command_name, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    fprintf(stderr, "driftmark: %s: ", command_name);
+    vfprintf(stderr, fmt, ap);
+    fputc('\n', stderr);
+    va_end(ap);
+    return 2;
+}
+
+int dm_cli_parse_pair(const char *command_name, const char *arg, char *key, size_t size,
+                      double *value)
+{
+    const char *eq = strchr(arg, '=');
+    if (eq == NULL || eq == arg)
+        return dm_cli_usage_error(command_name, "'%s' is not of the form key=value", arg);
+    size_t len = (size_t)(eq - arg);
+    if (len >= size)
+        return dm_cli_usage_error(command_name, "key in '%s' is too long", arg);
+    memcpy(key, arg, len);
+    key[len] = '\0';
+    if (dm_parse_double(eq + 1, value) != 0)
+        return dm_cli_usage_error(command_name,
+                                  "value of '%s' is not a finite number: '%s'", key, eq + 1);
+    return 0;
+}
+
+int dm_cli_main(int argc, char **argv)
+{
+    if (argc < 2) {
+        print_help(stderr);
+        return 2;
+    }
+    const char *name = argv[1];
+    if (strcmp(name, "--help") == 0 || strcmp(name, "-h") == 0 || strcmp(name, "help") == 0) {
+        print_help(stdout);
+        return 0;
+    }
+    if (strcmp(name, "--version") == 0) {
+        printf("driftmark %s (commit %s; %s; %s)\n", DM_VERSION, DM_GIT_COMMIT, DM_COMPILER,
+               DM_C_FLAGS);
+        return 0;
+    }
+    for (size_t i = 0; i < n_commands; i++)
+        if (strcmp(commands[i].name, name) == 0)
+            return commands[i].run(argc - 1, argv + 1);
+
+    const char *names[sizeof commands / sizeof commands[0]];
+    for (size_t i = 0; i < n_commands; i++)
+        names[i] = commands[i].name;
+    const char *hint = dm_suggest(name, names, n_commands);
+    if (hint)
+        fprintf(stderr, "driftmark: unknown command '%s' (did you mean '%s'?)\n", name, hint);
+    else
+        fprintf(stderr, "driftmark: unknown command '%s' (try --help)\n", name);
+    return 2;
+}

@@ -1,0 +1,23 @@
+/* cli.h — the command line. Each command lives in its own harness/cmd_*.c file and is
+ * one row of the table in cli.c. Commands return the process exit status:
+ * 0 success, 2 bad input, 1 any other failure. */
+#ifndef DM_CLI_H
+#define DM_CLI_H
+
+#include <stdio.h>
+
+int dm_cli_main(int argc, char **argv);
+
+int dm_cmd_list(int argc, char **argv);
+int dm_cmd_period(int argc, char **argv);
+
+/* Splits "key=value" into a key (copied into key, size bytes) and a parsed finite
+ * double. Writes a one-line message to stderr and returns 2 on bad input. */
+int dm_cli_parse_pair(const char *command, const char *arg, char *key, size_t size,
+                      double *value);
+
+/* Prints "driftmark: <command>: <message>" to stderr and returns 2. */
+int dm_cli_usage_error(const char *command, const char *fmt, ...)
+    __attribute__((format(printf, 2, 3)));
+
+#endif

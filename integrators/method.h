@@ -1,0 +1,130 @@
+/* method.h — the one interface every integrator implements.
+ *
+ * A method is a const dm_method table. Splitting methods are only data (a dm_splitting
+ * coefficient table) run by the engine in splitting.c; the others (Runge-Kutta,
+ * implicit midpoint, the CVODE adapter) supply create/step/destroy. The harness only
+ * calls dm_stepper_create / dm_stepper_step / dm_stepper_destroy and never asks which
+ * method it holds.
+ *
+ * Stepping is out of place: dm_stepper_step(s, from, to) reads the state at `from` and
+ * writes the state one step later into `to`. The caller ping-pongs two buffers, so it
+ * sees both ends of every step (for section crossings) and nothing copies the state.
+ * `from` must be the `to` of the previous call, or the point given to
+ * dm_stepper_restart; methods may keep caches (the force at the last point, CVODE's
+ * history) that rely on it.
+ */
+#ifndef DM_METHOD_H
+#define DM_METHOD_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "dm_error.h"
+#include "problem.h"
+
+typedef enum dm_family {
+    DM_FAMILY_SPLITTING,
+    DM_FAMILY_RUNGE_KUTTA,
+    DM_FAMILY_IMPLICIT,
+    DM_FAMILY_ADAPTIVE
+} dm_family;
+
+const char *dm_family_name(dm_family family);
+
+/* A splitting method: alternating kicks p -= c h grad V(q) and drifts
+ * q += c h grad T(p), starting with a kick when kick_first, else with a drift.
+ * With kick_first, kick[0], drift[0], kick[1], drift[1], ... (n_kick = n_drift or
+ * n_drift + 1); otherwise drift[0], kick[0], drift[1], ... (n_drift = n_kick or
+ * n_kick + 1). The sums of drift[] and of kick[] are both 1. */
+typedef struct dm_splitting {
+    bool kick_first;
+    int n_drift, n_kick;
+    const double *drift;
+    const double *kick;
+} dm_splitting;
+
+/* Per-run knobs. Fixed-step methods read h; adaptive ones rtol/atol and t_stop. */
+typedef struct dm_method_config {
+    double h;             /* step size (may be negative for backward integration) */
+    double rtol, atol;    /* adaptive methods */
+    double t_stop;        /* adaptive methods never step past this time */
+    bool compensated;     /* Kahan-compensated q and p updates (splitting methods) */
+    int max_iterations;   /* implicit methods: fixed-point iteration cap (0: default) */
+} dm_method_config;
+
+/* Work really done, counted by the method itself. */
+typedef struct dm_counts {
+    uint64_t steps;
+    uint64_t force_evals;      /* grad V evaluations */
+    uint64_t velocity_evals;   /* grad T evaluations */
+    uint64_t rhs_evals;        /* adaptive: right-hand-side calls */
+    uint64_t jac_evals;        /* adaptive: Jacobian evaluations */
+    uint64_t error_test_fails; /* adaptive */
+    uint64_t conv_fails;       /* adaptive: nonlinear solver convergence failures */
+    uint64_t nonlin_iters;     /* implicit and adaptive: nonlinear iterations */
+    uint64_t max_iters_in_step;/* implicit: most iterations one step needed */
+} dm_counts;
+
+/* One end of a step. x holds q (x[0..dof)) then p (x[dof..2 dof)). */
+typedef struct dm_point {
+    double t;
+    double *x;
+    /* V(q) at this point when the step computed it anyway (FSAL force), else NaN:
+     * lets an energy monitor skip a potential evaluation. */
+    double potential;
+} dm_point;
+
+typedef struct dm_method dm_method;
+typedef struct dm_stepper dm_stepper;
+
+struct dm_stepper {
+    const dm_method *method;
+    const dm_instance *inst;
+    int dof;
+    dm_method_config config;
+    dm_counts counts;
+    dm_error error;            /* why the last step failed */
+    /* Method-private state follows in the implementation's own struct, of which this
+     * is the first member. */
+};
+
+struct dm_method {
+    const char *id;            /* CLI identifier: "verlet" */
+    const char *name;          /* published name */
+    const char *reference;     /* where the method or its coefficients are published */
+    dm_family family;
+    int order;
+    bool symplectic;
+    bool symmetric;            /* time-reversible */
+    bool adaptive;             /* steps chosen by the method: reads rtol/atol */
+    int force_evals_per_step;  /* grad V per step in a long run (FSAL merged);
+                                  0 for adaptive methods */
+    const dm_splitting *splitting;  /* non-NULL: run by the splitting engine */
+
+    /* Non-splitting methods. create allocates everything the steps will need. */
+    dm_stepper *(*create)(const dm_method *m, const dm_instance *inst,
+                          const dm_method_config *config, const dm_point *start,
+                          dm_error *err);
+    /* Returns DM_OK, or an error code with s->error filled (solver flag name). */
+    dm_status (*step)(dm_stepper *s, const dm_point *from, dm_point *to);
+    dm_status (*restart)(dm_stepper *s, const dm_point *at);
+    void (*destroy)(dm_stepper *s);
+};
+
+/* ---- registry (registry.c) ---- */
+extern const dm_method *const dm_methods[];
+extern const size_t dm_method_count;
+const dm_method *dm_method_find(const char *id);
+
+/* ---- the stepper API the harness uses ---- */
+dm_stepper *dm_stepper_create(const dm_method *m, const dm_instance *inst,
+                              const dm_method_config *config, const dm_point *start,
+                              dm_error *err);
+dm_status dm_stepper_step(dm_stepper *s, const dm_point *from, dm_point *to);
+/* Forget caches and continue from `at` (a new starting point, or after changing h). */
+dm_status dm_stepper_restart(dm_stepper *s, const dm_point *at);
+/* Change the fixed step (fixed-step methods only); implies a restart at `at`. */
+dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at);
+void dm_stepper_destroy(dm_stepper *s);
+
+#endif

@@ -1,0 +1,73 @@
+/* registry.c — the list of methods and the stepper API the harness calls. */
+#include <math.h>
+#include <string.h>
+
+#include "method.h"
+#include "splitting.h"
+
+/* A new method: one file in integrators/ and one line here. */
+const dm_method *const dm_methods[] = {
+    NULL, /* replaced as methods land */
+};
+const size_t dm_method_count = 0;
+
+const dm_method *dm_method_find(const char *id)
+{
+    for (size_t i = 0; i < dm_method_count; i++)
+        if (strcmp(dm_methods[i]->id, id) == 0)
+            return dm_methods[i];
+    return NULL;
+}
+
+const char *dm_family_name(dm_family family)
+{
+    switch (family) {
+    case DM_FAMILY_SPLITTING: return "splitting";
+    case DM_FAMILY_RUNGE_KUTTA: return "runge-kutta";
+    case DM_FAMILY_IMPLICIT: return "implicit";
+    case DM_FAMILY_ADAPTIVE: return "adaptive";
+    }
+    return "unknown";
+}
+
+dm_stepper *dm_stepper_create(const dm_method *m, const dm_instance *inst,
+                              const dm_method_config *config, const dm_point *start,
+                              dm_error *err)
+{
+    if (m->splitting != NULL)
+        return dm_splitting_create(m, inst, config, start, err);
+    return m->create(m, inst, config, start, err);
+}
+
+dm_status dm_stepper_step(dm_stepper *s, const dm_point *from, dm_point *to)
+{
+    if (s->method->splitting != NULL)
+        return dm_splitting_step(s, from, to);
+    return s->method->step(s, from, to);
+}
+
+dm_status dm_stepper_restart(dm_stepper *s, const dm_point *at)
+{
+    if (s->method->splitting != NULL)
+        return dm_splitting_restart(s, at);
+    return s->method->restart(s, at);
+}
+
+dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at)
+{
+    if (s->method->adaptive)
+        return dm_error_set(&s->error, DM_EINPUT, "%s: adaptive methods choose their own steps",
+                            s->method->id);
+    s->config.h = h;
+    return dm_stepper_restart(s, at);
+}
+
+void dm_stepper_destroy(dm_stepper *s)
+{
+    if (s == NULL)
+        return;
+    if (s->method->splitting != NULL)
+        dm_splitting_destroy(s);
+    else
+        s->method->destroy(s);
+}

@@ -1,0 +1,15 @@
+/* splitting.h — the one engine that runs every splitting coefficient table.
+ * Private to integrators/: the harness goes through method.h. */
+#ifndef DM_SPLITTING_H
+#define DM_SPLITTING_H
+
+#include "method.h"
+
+dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
+                                const dm_method_config *config, const dm_point *start,
+                                dm_error *err);
+dm_status dm_splitting_step(dm_stepper *s, const dm_point *from, dm_point *to);
+dm_status dm_splitting_restart(dm_stepper *s, const dm_point *at);
+void dm_splitting_destroy(dm_stepper *s);
+
+#endif

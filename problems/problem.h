@@ -1,0 +1,132 @@
+/* problem.h — the problem registry's one interface.
+ *
+ * Every problem is a separable Hamiltonian H(q, p) = T(p) + V(q) with `dof` degrees of
+ * freedom, described by one const dm_problem table in its own file under problems/ and
+ * one line in registry.c. The harness and the integrators only ever see this table and
+ * a dm_instance built from it; they never ask which problem they hold.
+ */
+#ifndef DM_PROBLEM_H
+#define DM_PROBLEM_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "dm_error.h"
+
+#define DM_MAX_DOF 6      /* degrees of freedom of the largest problem we hold */
+#define DM_MAX_PARAMS 8   /* user-facing parameters of one problem */
+#define DM_MAX_REGIMES 4
+#define DM_MAX_INVARIANTS 4
+#define DM_AUX_MAX 24     /* problem-private derived constants kept in an instance */
+
+/* Parameter flags. */
+enum {
+    DM_PARAM_MIN_OPEN = 1u << 0, /* value must be > min (else >= min) */
+    DM_PARAM_MAX_OPEN = 1u << 1, /* value must be < max (else <= max) */
+    DM_PARAM_START = 1u << 2     /* one of several ways to give the starting state
+                                    (amplitude or energy): at most one may be given */
+};
+
+typedef struct dm_param {
+    const char *name;     /* key in suites and on the command line */
+    double fallback;      /* value used when the user gives none (ignored for START
+                             parameters that were not chosen) */
+    double min, max;      /* valid range; use -INFINITY / INFINITY for none */
+    unsigned flags;
+    const char *meaning;  /* one line for `driftmark list` */
+} dm_param;
+
+typedef struct dm_regime {
+    const char *id;       /* "libration", "rotation", "one_well", "bound", ... */
+    const char *meaning;
+} dm_regime;
+
+/* The default Poincare-type section of a problem: the trajectory crosses it when
+ * q[coord] passes upward (increasing) through `level`, or through level + k * wrap for
+ * any integer k when wrap > 0 (angles in rotation). */
+typedef struct dm_section {
+    int coord;
+    double level;
+    double wrap;
+} dm_section;
+
+typedef struct dm_problem dm_problem;
+
+/* One concrete problem: parameters resolved, starting state built, regime and the
+ * closed-form period known. Plain data, no allocation; copy it freely. */
+typedef struct dm_instance {
+    const dm_problem *problem;
+    double par[DM_MAX_PARAMS];  /* every parameter's value, in the table's order */
+    unsigned given;             /* bit i set when the user gave parameter i */
+    int dof;
+    double q0[DM_MAX_DOF], p0[DM_MAX_DOF];
+    double energy;              /* H(q0, p0) */
+    int regime;                 /* index into problem->regimes */
+    double period;              /* closed-form period of this regime (always finite:
+                                   states with no period are refused by setup) */
+    bool has_v_min;             /* the potential has a finite minimum ... */
+    double v_min;               /* ... of this value */
+    dm_section section;
+    double first_crossing;      /* time of the exact orbit's first section crossing
+                                   in (0, period]; crossing n is at
+                                   first_crossing + (n - 1) * period */
+    double aux[DM_AUX_MAX];     /* constants derived by setup for the problem's own use */
+} dm_instance;
+
+struct dm_problem {
+    const char *id;             /* registry name: "pendulum" */
+    const char *name;           /* one-line human description */
+    int dof;
+    int n_params;
+    dm_param params[DM_MAX_PARAMS];
+    int n_regimes;
+    dm_regime regimes[DM_MAX_REGIMES];
+
+    /* Called with inst->par and inst->given filled (defaults where not given, ranges
+     * already checked). Builds q0, p0, energy, regime, period, v_min, section,
+     * first_crossing and aux. Refuses, with a clear message, every state that has no
+     * finite period: on a separatrix, at an equilibrium, unbound. */
+    dm_status (*setup)(dm_instance *inst, dm_error *err);
+
+    double (*potential)(const dm_instance *inst, const double *q);
+    /* Writes grad V(q) into grad and returns V(q): both come from the same
+     * intermediate results (sincos, 1/r), so a monitor gets V for free. */
+    double (*force)(const dm_instance *inst, const double *q, double *grad);
+    double (*kinetic)(const dm_instance *inst, const double *p);
+    /* Writes grad T(p) (the velocity dq/dt) into v. */
+    void (*velocity)(const dm_instance *inst, const double *p, double *v);
+    /* Hessian of V, dof x dof row-major; NULL when not provided. */
+    void (*hessian)(const dm_instance *inst, const double *q, double *hess);
+    /* Exact solution at time t from (q0, p0); NULL when none is known. */
+    void (*exact)(const dm_instance *inst, double t, double *q, double *p);
+
+    /* Extra conserved quantities the harness may monitor (angular momentum, ...). */
+    int n_invariants;
+    const char *invariant_names[DM_MAX_INVARIANTS];
+    void (*invariants)(const dm_instance *inst, const double *q, const double *p,
+                       double *out);
+};
+
+/* ---- registry (registry.c) ---- */
+extern const dm_problem *const dm_problems[];
+extern const size_t dm_problem_count;
+const dm_problem *dm_problem_find(const char *id);
+
+/* Builds an instance from key=value pairs. Checks every key (unknown key: error with a
+ * "did you mean" hint), every value (finite, in range), that at most one START
+ * parameter is given, then calls the problem's setup. */
+dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
+                           const char *const *keys, const double *values, dm_error *err);
+
+/* H(q, p). */
+double dm_instance_energy(const dm_instance *inst, const double *q, const double *p);
+
+/* Index of parameter `name` in problem->params, or -1. */
+int dm_problem_param_index(const dm_problem *problem, const char *name);
+
+/* Time in (0, T] of the first upward section crossing of the exact orbit, found from
+ * inst->problem->exact by bracketing and bisection to machine precision. For setups
+ * that have no closed form for it. */
+double dm_first_crossing_from_exact(const dm_instance *inst);
+
+#endif

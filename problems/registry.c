@@ -1,0 +1,148 @@
+/* registry.c — the list of problems, and the checks every problem's parameters share. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "problem.h"
+
+extern const dm_problem dm_problem_harmonic;
+
+/* A new problem: one file in problems/ and one line here. */
+const dm_problem *const dm_problems[] = {
+    &dm_problem_harmonic,
+};
+const size_t dm_problem_count = sizeof dm_problems / sizeof dm_problems[0];
+
+const dm_problem *dm_problem_find(const char *id)
+{
+    for (size_t i = 0; i < dm_problem_count; i++)
+        if (strcmp(dm_problems[i]->id, id) == 0)
+            return dm_problems[i];
+    return NULL;
+}
+
+int dm_problem_param_index(const dm_problem *problem, const char *name)
+{
+    for (int i = 0; i < problem->n_params; i++)
+        if (strcmp(problem->params[i].name, name) == 0)
+            return i;
+    return -1;
+}
+
+static void describe_range(const dm_param *p, char *buf, size_t size)
+{
+    char lo[64], hi[64];
+    if (isinf(p->min))
+        snprintf(lo, sizeof lo, "(-inf");
+    else
+        snprintf(lo, sizeof lo, "%s%.17g", (p->flags & DM_PARAM_MIN_OPEN) ? "(" : "[", p->min);
+    if (isinf(p->max))
+        snprintf(hi, sizeof hi, "inf)");
+    else
+        snprintf(hi, sizeof hi, "%.17g%s", p->max, (p->flags & DM_PARAM_MAX_OPEN) ? ")" : "]");
+    snprintf(buf, size, "%s, %s", lo, hi);
+}
+
+dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
+                           const char *const *keys, const double *values, dm_error *err)
+{
+    memset(inst, 0, sizeof *inst);
+    inst->problem = problem;
+    inst->dof = problem->dof;
+    for (int i = 0; i < problem->n_params; i++)
+        inst->par[i] = problem->params[i].fallback;
+
+    const char *names[DM_MAX_PARAMS];
+    for (int i = 0; i < problem->n_params; i++)
+        names[i] = problem->params[i].name;
+
+    int start_given = -1;
+    for (size_t k = 0; k < n; k++) {
+        int i = dm_problem_param_index(problem, keys[k]);
+        if (i < 0) {
+            const char *hint = dm_suggest(keys[k], names, (size_t)problem->n_params);
+            if (hint)
+                return dm_error_set(err, DM_EINPUT,
+                                    "%s: unknown parameter '%s' (did you mean '%s'?)",
+                                    problem->id, keys[k], hint);
+            return dm_error_set(err, DM_EINPUT, "%s: unknown parameter '%s'", problem->id,
+                                keys[k]);
+        }
+        const dm_param *p = &problem->params[i];
+        double v = values[k];
+        if (inst->given & (1u << i))
+            return dm_error_set(err, DM_EINPUT, "%s: parameter '%s' given twice",
+                                problem->id, p->name);
+        if (!isfinite(v))
+            return dm_error_set(err, DM_EINPUT, "%s: %s must be a finite number", problem->id,
+                                p->name);
+        bool below = (p->flags & DM_PARAM_MIN_OPEN) ? !(v > p->min) : !(v >= p->min);
+        bool above = (p->flags & DM_PARAM_MAX_OPEN) ? !(v < p->max) : !(v <= p->max);
+        if (below || above) {
+            char range[160];
+            describe_range(p, range, sizeof range);
+            return dm_error_set(err, DM_EINPUT, "%s: %s = %.17g is outside its range %s",
+                                problem->id, p->name, v, range);
+        }
+        if (p->flags & DM_PARAM_START) {
+            if (start_given >= 0)
+                return dm_error_set(err, DM_EINPUT,
+                                    "%s: give either %s or %s, not both", problem->id,
+                                    problem->params[start_given].name, p->name);
+            start_given = i;
+        }
+        inst->par[i] = v;
+        inst->given |= 1u << i;
+    }
+    return problem->setup(inst, err);
+}
+
+double dm_instance_energy(const dm_instance *inst, const double *q, const double *p)
+{
+    return inst->problem->kinetic(inst, p) + inst->problem->potential(inst, q);
+}
+
+/* Section value: how far q[coord] is past the nearest level below it, so that an upward
+ * crossing shows as a step from a value near `wrap` (or negative) to a small positive one. */
+static double unwrapped_offset(const dm_section *s, const double *q)
+{
+    return q[s->coord] - s->level;
+}
+
+double dm_first_crossing_from_exact(const dm_instance *inst)
+{
+    const dm_section *s = &inst->section;
+    const int grid = 4096;
+    double T = inst->period;
+    double q[DM_MAX_DOF], p[DM_MAX_DOF];
+    double tprev = 0.0;
+    inst->problem->exact(inst, 0.0, q, p);
+    double fprev = unwrapped_offset(s, q);
+    double kprev = s->wrap > 0 ? floor(fprev / s->wrap) : (fprev >= 0 ? 0.0 : -1.0);
+    for (int i = 1; i <= grid; i++) {
+        double t = T * i / grid;
+        inst->problem->exact(inst, t, q, p);
+        double f = unwrapped_offset(s, q);
+        double k = s->wrap > 0 ? floor(f / s->wrap) : (f >= 0 ? 0.0 : -1.0);
+        if (k > kprev) {
+            /* Upward crossing of level + k * wrap inside (tprev, t]: bisect. */
+            double target = s->wrap > 0 ? k * s->wrap : 0.0;
+            double a = tprev, b = t;
+            for (int it = 0; it < 200 && b - a > 0; it++) {
+                double mid = 0.5 * (a + b);
+                if (mid <= a || mid >= b)
+                    break;
+                inst->problem->exact(inst, mid, q, p);
+                if (unwrapped_offset(s, q) >= target)
+                    b = mid;
+                else
+                    a = mid;
+            }
+            return b;
+        }
+        tprev = t;
+        fprev = f;
+        kprev = k;
+    }
+    return NAN;
+}

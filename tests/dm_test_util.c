@@ -1,0 +1,61 @@
+#include "dm_test_util.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+double dm_rel_diff(double a, double b)
+{
+    double d = fabs(a - b);
+    return b != 0.0 ? d / fabs(b) : d;
+}
+
+void dm_assert_close_impl(double a, double b, double tol, const char *sa, const char *sb,
+                          const char *file, int line)
+{
+    double r = dm_rel_diff(a, b);
+    if (!(r <= tol)) {
+        print_error("%s = %.17g\n%s = %.17g\nrelative difference %.3e > %.3e\n", sa, a, sb, b,
+                    r, tol);
+        _fail(file, line);
+    }
+}
+
+static void slurp(const char *path, char *buf, size_t size)
+{
+    if (buf == NULL || size == 0)
+        return;
+    buf[0] = '\0';
+    FILE *f = fopen(path, "r");
+    if (f == NULL)
+        return;
+    size_t n = fread(buf, 1, size - 1, f);
+    buf[n] = '\0';
+    fclose(f);
+}
+
+int dm_run_capture(const char *cmd, char *out, size_t out_size, char *err, size_t err_size)
+{
+    char o[] = "/tmp/dm_test_outXXXXXX";
+    char e[] = "/tmp/dm_test_errXXXXXX";
+    int fo = mkstemp(o), fe = mkstemp(e);
+    if (fo < 0 || fe < 0)
+        return -1;
+    close(fo);
+    close(fe);
+    size_t len = strlen(cmd) + strlen(o) + strlen(e) + 32;
+    char *full = malloc(len);
+    snprintf(full, len, "%s >%s 2>%s", cmd, o, e);
+    int rc = system(full);
+    free(full);
+    slurp(o, out, out_size);
+    slurp(e, err, err_size);
+    unlink(o);
+    unlink(e);
+    if (rc == -1 || !WIFEXITED(rc))
+        return -1;
+    return WEXITSTATUS(rc);
+}

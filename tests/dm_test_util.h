@@ -1,0 +1,24 @@
+/* dm_test_util.h — small helpers shared by the cmocka tests. */
+#ifndef DM_TEST_UTIL_H
+#define DM_TEST_UTIL_H
+
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <cmocka.h>
+
+/* |a - b| / |b| (or |a - b| when b == 0). */
+double dm_rel_diff(double a, double b);
+
+/* Fails the test with both values printed when |a - b| > tol * max(|b|, floor). */
+#define assert_close(a, b, tol)                                                        \
+    dm_assert_close_impl((a), (b), (tol), #a, #b, __FILE__, __LINE__)
+void dm_assert_close_impl(double a, double b, double tol, const char *sa, const char *sb,
+                          const char *file, int line);
+
+/* Runs a shell command; captures stdout and stderr (each up to size bytes, NUL-ended)
+ * and returns the exit status (or -1). */
+int dm_run_capture(const char *cmd, char *out, size_t out_size, char *err, size_t err_size);
+
+#endif
