@@ -16,6 +16,8 @@ typedef struct command {
 } command;
 
 static const command commands[] = {
+    { "run", dm_cmd_run, "run [SUITE.yaml] [-o OUT.h5]",
+      "run a suite (default: the built-in one) and write its results file" },
     { "list", dm_cmd_list, "list [--json]", "every problem and method with its parameters" },
     { "period", dm_cmd_period, "period PROBLEM [key=value ...] [--json]",
       "regime, energy and closed-form period of one starting state" },

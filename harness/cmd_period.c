@@ -1,7 +1,177 @@
-/* cmd_period.c — placeholder; lands with issue 2. */
+/* cmd_period.c — `driftmark period PROBLEM [key=value ...] [--json]`: the regime,
+ * energy, closed-form period, starting state and first section crossing of one
+ * starting state, all from the problem's setup (no integration). */
+#include <getopt.h>
+#include <stdbool.h>
+#include <stdio.h>
+#include <string.h>
+
 #include "cli.h"
+#include "problem.h"
+
+#define CMD "period"
+
+static void print_usage(FILE *out)
+{
+    fprintf(out, "usage: driftmark period PROBLEM [key=value ...] [--json]\n"
+                 "  prints the regime, energy, closed-form period, starting state and first\n"
+                 "  section crossing time of PROBLEM (see `driftmark list` for the keys)\n");
+}
+
+static void print_vector_text(const char *label, const double *v, int n)
+{
+    printf("%-16s", label);
+    for (int i = 0; i < n; i++)
+        printf("%s%.17g", i ? " " : "", v[i]);
+    printf("\n");
+}
+
+static void print_vector_json(const double *v, int n)
+{
+    printf("[");
+    for (int i = 0; i < n; i++)
+        printf("%s%.17g", i ? ", " : "", v[i]);
+    printf("]");
+}
+
+/* Problem and parameter names are C identifiers of our own, but keep the JSON valid
+ * for any text. */
+static void print_json_string(const char *s)
+{
+    putchar('"');
+    for (const unsigned char *c = (const unsigned char *)s; *c; c++) {
+        if (*c == '"' || *c == '\\')
+            printf("\\%c", *c);
+        else if (*c < 0x20)
+            printf("\\u%04x", *c);
+        else
+            putchar(*c);
+    }
+    putchar('"');
+}
+
+static void print_text(const dm_instance *inst)
+{
+    const dm_problem *pr = inst->problem;
+    printf("%-16s%s\n", "problem", pr->id);
+    const char *label = "parameters";
+    for (int i = 0; i < pr->n_params; i++) {
+        bool start = pr->params[i].flags & DM_PARAM_START;
+        bool given = inst->given & (1u << i);
+        /* Of the ways of starting only the one given: which fallback a setup used when
+         * none was given is its own business, and q0, p0, energy below show the state. */
+        if (start && !given)
+            continue;
+        printf("%-16s%s = %.17g%s\n", label, pr->params[i].name, inst->par[i],
+               given ? "" : " (default)");
+        label = "";
+    }
+    printf("%-16s%s\n", "regime", pr->regimes[inst->regime].id);
+    printf("%-16s%.17g\n", "energy", inst->energy);
+    printf("%-16s%.17g\n", "period", inst->period);
+    print_vector_text("q0", inst->q0, inst->dof);
+    print_vector_text("p0", inst->p0, inst->dof);
+    printf("%-16sq[%d] = %.17g upward\n", "section", inst->section.coord, inst->section.level);
+    printf("%-16s%.17g\n", "first_crossing", inst->first_crossing);
+}
+
+static void print_json(const dm_instance *inst)
+{
+    const dm_problem *pr = inst->problem;
+    printf("{\"problem\": ");
+    print_json_string(pr->id);
+    printf(", \"parameters\": {");
+    bool first = true;
+    for (int i = 0; i < pr->n_params; i++) {
+        if ((pr->params[i].flags & DM_PARAM_START) && !(inst->given & (1u << i)))
+            continue;
+        printf("%s", first ? "" : ", ");
+        print_json_string(pr->params[i].name);
+        printf(": %.17g", inst->par[i]);
+        first = false;
+    }
+    printf("}, \"regime\": ");
+    print_json_string(pr->regimes[inst->regime].id);
+    printf(", \"energy\": %.17g, \"period\": %.17g, \"q0\": ", inst->energy, inst->period);
+    print_vector_json(inst->q0, inst->dof);
+    printf(", \"p0\": ");
+    print_vector_json(inst->p0, inst->dof);
+    printf(", \"section\": {\"coord\": %d, \"level\": %.17g}", inst->section.coord,
+           inst->section.level);
+    printf(", \"first_crossing\": %.17g}\n", inst->first_crossing);
+}
 
 int dm_cmd_period(int argc, char **argv)
 {
-    return dm_cli_usage_error("period", "not built yet");
+    static const struct option options[] = {
+        { "json", no_argument, NULL, 'j' },
+        { "help", no_argument, NULL, 'h' },
+        { NULL, 0, NULL, 0 },
+    };
+    bool json = false;
+    opterr = 0; /* our own one-line messages */
+    optind = 1;
+    int c;
+    /* GNU getopt_long permutes: --json may come anywhere among the key=value pairs. */
+    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
+        switch (c) {
+        case 'j':
+            json = true;
+            break;
+        case 'h':
+            print_usage(stdout);
+            return 0;
+        default:
+            if (optopt != 0 && optopt != '?')
+                return dm_cli_usage_error(CMD, "unknown option '-%c' (try --help)", optopt);
+            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
+                                      argv[optind - 1]);
+        }
+    }
+    if (optind >= argc)
+        return dm_cli_usage_error(CMD, "missing PROBLEM (see `driftmark list`)");
+
+    const char *id = argv[optind++];
+    const dm_problem *problem = dm_problem_find(id);
+    if (problem == NULL) {
+        const char *names[64];
+        size_t n_names = dm_problem_count < 64 ? dm_problem_count : 64;
+        for (size_t i = 0; i < n_names; i++)
+            names[i] = dm_problems[i]->id;
+        const char *hint = dm_suggest(id, names, n_names);
+        if (hint)
+            return dm_cli_usage_error(CMD, "unknown problem '%s' (did you mean '%s'?)", id,
+                                      hint);
+        return dm_cli_usage_error(CMD, "unknown problem '%s' (see `driftmark list`)", id);
+    }
+
+    enum { MAX_PAIRS = 2 * DM_MAX_PARAMS, KEY_SIZE = 64 };
+    size_t n = (size_t)(argc - optind);
+    if (n > MAX_PAIRS)
+        return dm_cli_usage_error(CMD, "%s: too many key=value pairs (%zu; it has %d parameters)",
+                                  problem->id, n, problem->n_params);
+    char key_store[MAX_PAIRS][KEY_SIZE];
+    const char *keys[MAX_PAIRS];
+    double values[MAX_PAIRS];
+    for (size_t k = 0; k < n; k++) {
+        int rc = dm_cli_parse_pair(CMD, argv[optind + (int)k], key_store[k], KEY_SIZE,
+                                   &values[k]);
+        if (rc != 0)
+            return rc;
+        keys[k] = key_store[k];
+    }
+
+    dm_instance inst;
+    dm_error err;
+    dm_error_clear(&err);
+    dm_status st = dm_instance_init(&inst, problem, n, keys, values, &err);
+    if (st != DM_OK) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
+        return st == DM_EINPUT ? 2 : 1;
+    }
+    if (json)
+        print_json(&inst);
+    else
+        print_text(&inst);
+    return 0;
 }

@@ -6,10 +6,14 @@
 #include "problem.h"
 
 extern const dm_problem dm_problem_harmonic;
+extern const dm_problem dm_problem_morse;
+extern const dm_problem dm_problem_kepler;
 
 /* A new problem: one file in problems/ and one line here. */
 const dm_problem *const dm_problems[] = {
     &dm_problem_harmonic,
+    &dm_problem_morse,
+    &dm_problem_kepler,
 };
 const size_t dm_problem_count = sizeof dm_problems / sizeof dm_problems[0];
 

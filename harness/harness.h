@@ -1,0 +1,229 @@
+/* harness.h — the data the harness passes between its parts:
+ *
+ *   suite.c     YAML suite text  -> dm_suite (a validated list of dm_run_spec)
+ *   runner.c    dm_run_spec      -> dm_run_result (runs one integration with the monitors)
+ *   metrics.c   dm_run_result    -> per-run metrics; per-sweep fitted orders
+ *   results.c   dm_suite + results -> the HDF5 results file (contract: results/README.md)
+ *   table.c     summary rows     -> the aligned table / csv / json printed at the end and by `show`
+ *
+ * The harness never knows which method or problem it runs: it sees dm_instance and
+ * dm_method tables only.
+ */
+#ifndef DM_HARNESS_H
+#define DM_HARNESS_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+
+#include "dm_error.h"
+#include "method.h"
+#include "problem.h"
+
+#define DM_RUN_ID_MAX 160
+#define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
+#define DM_NAME_MAX 128
+#define DM_CONFIG_MAX 1024
+
+/* ---- what one run is ---- */
+
+typedef enum dm_knob {
+    DM_KNOB_H,                  /* fixed step given as h */
+    DM_KNOB_STEPS_PER_PERIOD,   /* fixed step given as period / n */
+    DM_KNOB_RTOL                /* adaptive tolerance */
+} dm_knob;
+
+typedef struct dm_run_spec {
+    char id[DM_RUN_ID_MAX];          /* readable, stable: pendulum-amplitude2.5.verlet-n64 */
+    char hash[DM_HASH_HEX];          /* hash of config (every setting that changes numbers) */
+    char config[DM_CONFIG_MAX];      /* canonical text of the complete configuration */
+    dm_instance inst;                /* problem, parameters, start, regime, period */
+    /* the problem parameters as the user wrote them (for ids and attributes) */
+    size_t n_given;
+    const char *given_keys[DM_MAX_PARAMS];
+    double given_values[DM_MAX_PARAMS];
+    const dm_method *method;
+    dm_method_config method_config;  /* h (resolved), rtol, atol, compensated, t_stop */
+    dm_knob knob;                    /* how the step or tolerance was given */
+    double knob_value;               /* h, steps per period, or rtol as written */
+    double t_end;                    /* horizon in time units */
+    double periods;                  /* horizon in periods (t_end / period) */
+    size_t samples;                  /* buckets in the stored series */
+    double energy_limit;             /* |dE| above this: diverged (from the suite) */
+    int sweep;                       /* index into dm_suite.sweeps, or -1 */
+} dm_run_spec;
+
+/* A sweep: the runs of one problem variant under one method entry whose knob varies. */
+typedef struct dm_sweep {
+    char name[DM_RUN_ID_MAX];        /* pendulum-amplitude2.5.verlet */
+    dm_knob knob;
+    size_t n_runs;
+    size_t *runs;                    /* indices into dm_suite.runs, in knob order */
+} dm_sweep;
+
+typedef struct dm_suite {
+    char name[DM_NAME_MAX];
+    char output[1024];               /* results file path */
+    char *text;                      /* the suite text verbatim (owned) */
+    char source[1024];               /* file name, or "(built-in default suite)" */
+    double energy_limit;             /* |dE| above this: diverged (default 1) */
+    uint64_t step_budget;            /* runs needing more steps are refused up front */
+    size_t n_runs;
+    dm_run_spec *runs;               /* owned */
+    size_t n_sweeps;
+    dm_sweep *sweeps;                /* owned */
+} dm_suite;
+
+/* Parses and validates a whole suite before anything runs. Errors are one line,
+ * "FILE:LINE:COLUMN: what is wrong (what was expected)". */
+dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
+                         const char *source, dm_error *err);
+dm_status dm_suite_load(dm_suite *suite, const char *path, dm_error *err);
+dm_status dm_suite_default(dm_suite *suite, dm_error *err);
+void dm_suite_free(dm_suite *suite);
+
+extern const char dm_default_suite_text[];
+
+/* ---- what one run produced ---- */
+
+typedef enum dm_run_status {
+    DM_RUN_OK,
+    DM_RUN_DIVERGED,        /* NaN, Inf or |dE| above the limit */
+    DM_RUN_FAILED,          /* the solver gave up (CVODE flag, no convergence) */
+    DM_RUN_INTERRUPTED
+} dm_run_status;
+
+const char *dm_run_status_name(dm_run_status status);
+
+/* The stored series: `n` buckets covering the horizon; each keeps dE at its end and
+ * the min and max of dE over every step inside it, so no peak is lost by thinning. */
+typedef struct dm_series {
+    size_t n;                        /* buckets filled (<= capacity) */
+    size_t capacity;
+    double *time;                    /* bucket end times (time of the last step in it) */
+    double *energy_error;
+    double *energy_error_min;
+    double *energy_error_max;
+    double *global_error;            /* phase-space distance to the exact solution, or NULL */
+    int n_invariants;
+    double *invariant_error[DM_MAX_INVARIANTS];  /* relative errors, or NULL */
+} dm_series;
+
+/* Section crossings, kept within a fixed budget: when full, every second one is
+ * dropped and the stride doubles, so memory stays flat in run length while the
+ * metrics are computed from every crossing as it happens. */
+typedef struct dm_crossings {
+    size_t n, capacity;
+    uint64_t stride;                 /* keep crossing numbers that are multiples */
+    uint64_t total;                  /* crossings seen */
+    double *number;                  /* crossing number (1, 2, ...) as double */
+    double *time;
+    double *phase_error;             /* 2 pi (t_n - t_n,exact) / T_exact */
+} dm_crossings;
+
+typedef struct dm_run_metrics {
+    double energy_scale;             /* E_scale of dE = (H - H0) / E_scale */
+    const char *energy_scale_rule;   /* "H0 - V_min" or "|H0|" */
+    double max_energy_error;         /* max over every step of |dE| */
+    double final_energy_error;
+    double energy_drift_per_period;  /* least-squares slope of dE against t / T */
+    double drift_exponent;           /* slope of log running max |dE| against log t */
+    double period_exact;
+    double period_measured;
+    double period_rel_error;
+    double phase_error_per_period;   /* slope of phase error against crossing number */
+    double phase_error_final;
+    double max_global_error;         /* NaN when no exact solution */
+    double max_invariant_error[DM_MAX_INVARIANTS];
+    uint64_t steps;
+    dm_counts counts;
+    double t_reached;                /* time of the last step taken */
+    double wall_seconds;
+    double ns_per_step;
+} dm_run_metrics;
+
+typedef struct dm_run_result {
+    dm_run_status status;
+    char reason[DM_ERROR_MSG_MAX];   /* why not ok; empty when ok */
+    dm_run_metrics metrics;
+    dm_series series;
+    dm_crossings crossings;
+} dm_run_result;
+
+/* Runs one spec. Fills *result (allocates its series; free with dm_run_result_free).
+ * A numerical fault is not an error of this call: it returns DM_OK with
+ * result->status set. `stop` (may be NULL) is polled between buckets: when it becomes
+ * non-zero the run ends as interrupted. */
+dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
+                 dm_error *err);
+void dm_run_result_free(dm_run_result *result);
+
+/* Slope of log(running max |dE|) against log t over the stored buckets, sampled
+ * evenly in log t from t_end / 1000 on: about 0 for a bounded error, 0.5 for a random
+ * walk, 1 for a linear drift. NaN when the error is exactly zero or too few buckets. */
+double dm_drift_exponent(const dm_series *series);
+
+/* ---- across a sweep ---- */
+
+typedef struct dm_sweep_fit {
+    double energy_order;             /* slope of log max |dE| against log h */
+    double phase_order;              /* slope of log |phase error per period| against log h */
+    size_t n_points;                 /* runs that entered the fit (ok, finite, > 0) */
+} dm_sweep_fit;
+
+/* Least-squares slope of log(y) against log(x) over the points with x, y > 0 and
+ * finite; returns NaN with fewer than 2 points. */
+double dm_fit_loglog_slope(const double *x, const double *y, size_t n, size_t *used);
+
+void dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
+                          const dm_run_result *results, dm_sweep_fit *fit);
+
+/* ---- the results file (results.c) ---- */
+
+/* Writes the whole results file: to a temporary file beside `path`, renamed into
+ * place at the end, so a failure never leaves a half-written file under that name. */
+dm_status dm_results_write(const char *path, const dm_suite *suite,
+                           const dm_run_result *results, const dm_sweep_fit *fits,
+                           const char *start_time_utc, dm_error *err);
+
+/* ---- the summary table (table.c) ---- */
+
+/* One summary row: the fields of /summary in the results file. */
+typedef struct dm_summary_row {
+    char run_id[DM_RUN_ID_MAX];
+    char hash[DM_HASH_HEX];
+    char problem[32];
+    char regime[32];
+    char method[32];
+    int order;
+    double h;                        /* NaN for adaptive */
+    double rtol;                     /* NaN for fixed step */
+    uint64_t steps;
+    uint64_t force_evals;
+    double max_energy_error;
+    double final_energy_error;
+    double energy_drift_per_period;
+    double drift_exponent;
+    double period_exact;
+    double period_measured;
+    double period_rel_error;
+    double phase_error_per_period;
+    double phase_error_final;
+    double wall_seconds;
+    double ns_per_step;
+    char status[16];
+    char reason[256];
+} dm_summary_row;
+
+void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
+                         const dm_run_result *result);
+
+typedef enum dm_table_format { DM_TABLE_TEXT, DM_TABLE_CSV, DM_TABLE_JSON } dm_table_format;
+void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_format format);
+
+/* Reads /summary back from a results file (for `show`). Allocates *rows. */
+dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,
+                                  dm_error *err);
+
+#endif

@@ -1,0 +1,179 @@
+/* rk.c — explicit Runge–Kutta baselines: explicit Euler and classical RK4. Neither is
+ * symplectic nor symmetric: they are the contrast against which the geometric methods
+ * are measured (energy drift, growing phase error).
+ *
+ * One small engine runs any explicit Butcher tableau on y = (q, p) with
+ * dq/dt = grad T(p), dp/dt = -grad V(q). */
+#include <math.h>
+#include <stdlib.h>
+
+#include "method.h"
+
+#define RK_MAX_STAGES 4
+
+typedef struct rk_tableau {
+    int stages;
+    double a[RK_MAX_STAGES][RK_MAX_STAGES]; /* strictly lower triangular */
+    double b[RK_MAX_STAGES];
+} rk_tableau;
+
+typedef struct rk_stepper {
+    dm_stepper base;
+    const rk_tableau *tableau;
+    double *k;        /* stages x 2 dof slopes */
+    double *stage;    /* 2 dof: the state at which a slope is taken */
+    const double *state_x;
+    double t_origin;
+    uint64_t steps_since_origin;
+} rk_stepper;
+
+/* Explicit Euler: y1 = y0 + h f(y0) (Hairer, Nørsett, Wanner, Solving ODEs I, 2nd ed.
+ * (1993), §I.7). */
+static const rk_tableau euler_tableau = { .stages = 1, .b = { 1.0 } };
+
+/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, Table II.1.2). */
+static const rk_tableau rk4_tableau = {
+    .stages = 4,
+    .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
+    .b = { 1.0 / 6.0, 1.0 / 3.0, 1.0 / 3.0, 1.0 / 6.0 },
+};
+
+static void restart_at(rk_stepper *s, const dm_point *at)
+{
+    s->state_x = at->x;
+    s->t_origin = at->t;
+    s->steps_since_origin = 0;
+}
+
+static dm_stepper *rk_create(const rk_tableau *tab, const dm_method *m,
+                             const dm_instance *inst, const dm_method_config *config,
+                             const dm_point *start, dm_error *err)
+{
+    if (!isfinite(config->h) || config->h == 0.0) {
+        dm_error_set(err, DM_EINPUT, "%s: step size h = %g must be finite and nonzero",
+                     m->id, config->h);
+        return NULL;
+    }
+    int n = 2 * inst->dof;
+    rk_stepper *s = calloc(1, sizeof *s);
+    double *work = calloc((size_t)(tab->stages + 1) * (size_t)n, sizeof *work);
+    if (s == NULL || work == NULL) {
+        free(s);
+        free(work);
+        dm_error_set(err, DM_ENOMEM, "%s: out of memory creating the stepper", m->id);
+        return NULL;
+    }
+    s->base.method = m;
+    s->base.inst = inst;
+    s->base.dof = inst->dof;
+    s->base.config = *config;
+    s->tableau = tab;
+    s->k = work;
+    s->stage = work + (size_t)tab->stages * (size_t)n;
+    restart_at(s, start);
+    return &s->base;
+}
+
+static dm_stepper *euler_create(const dm_method *m, const dm_instance *inst,
+                                const dm_method_config *config, const dm_point *start,
+                                dm_error *err)
+{
+    return rk_create(&euler_tableau, m, inst, config, start, err);
+}
+
+static dm_stepper *rk4_create(const dm_method *m, const dm_instance *inst,
+                              const dm_method_config *config, const dm_point *start,
+                              dm_error *err)
+{
+    return rk_create(&rk4_tableau, m, inst, config, start, err);
+}
+
+static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
+{
+    rk_stepper *s = (rk_stepper *)base;
+    const rk_tableau *tab = s->tableau;
+    const dm_instance *inst = base->inst;
+    const dm_problem *problem = inst->problem;
+    int dof = base->dof, n = 2 * dof;
+    double h = base->config.h;
+    const double *y0 = from->x;
+    if (y0 != s->state_x)
+        restart_at(s, from);
+
+    for (int i = 0; i < tab->stages; i++) {
+        for (int c = 0; c < n; c++) {
+            double sum = 0.0;
+            for (int j = 0; j < i; j++)
+                sum += tab->a[i][j] * s->k[j * n + c];
+            s->stage[c] = y0[c] + h * sum;
+        }
+        double *k = s->k + i * n;
+        problem->velocity(inst, s->stage + dof, k);
+        problem->force(inst, s->stage, k + dof);
+        for (int c = dof; c < n; c++)
+            k[c] = -k[c];
+    }
+    for (int c = 0; c < n; c++) {
+        double sum = 0.0;
+        for (int i = 0; i < tab->stages; i++)
+            sum += tab->b[i] * s->k[i * n + c];
+        to->x[c] = y0[c] + h * sum;
+    }
+    base->counts.force_evals += (uint64_t)tab->stages;
+    base->counts.velocity_evals += (uint64_t)tab->stages;
+    base->counts.steps++;
+    s->steps_since_origin++;
+    to->t = s->t_origin + (double)s->steps_since_origin * h;
+    to->potential = NAN; /* no slope is taken at the step's end */
+    s->state_x = to->x;
+    return DM_OK;
+}
+
+static dm_status rk_restart(dm_stepper *base, const dm_point *at)
+{
+    if (!isfinite(base->config.h) || base->config.h == 0.0)
+        return dm_error_set(&base->error, DM_EINPUT,
+                            "%s: step size h = %g must be finite and nonzero",
+                            base->method->id, base->config.h);
+    restart_at((rk_stepper *)base, at);
+    return DM_OK;
+}
+
+static void rk_destroy(dm_stepper *base)
+{
+    rk_stepper *s = (rk_stepper *)base;
+    free(s->k);
+    free(s);
+}
+
+const dm_method dm_euler = {
+    .id = "euler",
+    .name = "explicit Euler",
+    .reference = "Hairer, Nørsett, Wanner, Solving Ordinary Differential Equations I, "
+                 "2nd ed. (1993), §I.7",
+    .family = DM_FAMILY_RUNGE_KUTTA,
+    .order = 1,
+    .symplectic = false,
+    .symmetric = false,
+    .force_evals_per_step = 1,
+    .create = euler_create,
+    .step = rk_step,
+    .restart = rk_restart,
+    .destroy = rk_destroy,
+};
+
+const dm_method dm_rk4 = {
+    .id = "rk4",
+    .name = "classical Runge-Kutta 4th order",
+    .reference = "W. Kutta, Z. Math. Phys. 46 (1901) 435-453; Hairer, Nørsett, Wanner, "
+                 "Solving ODEs I, 2nd ed. (1993), Table II.1.2",
+    .family = DM_FAMILY_RUNGE_KUTTA,
+    .order = 4,
+    .symplectic = false,
+    .symmetric = false,
+    .force_evals_per_step = 4,
+    .create = rk4_create,
+    .step = rk_step,
+    .restart = rk_restart,
+    .destroy = rk_destroy,
+};

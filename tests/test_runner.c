@@ -1,0 +1,208 @@
+/* test_runner.c — the runner's monitors and metrics on runs whose answers are known. */
+#include "dm_test_util.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "harness.h"
+
+/* A run spec built by hand (the suite reader is tested on its own). */
+static void make_spec(dm_run_spec *spec, const char *problem, const char *key, double value,
+                      const char *method, double steps_per_period, double rtol,
+                      double periods, size_t samples)
+{
+    memset(spec, 0, sizeof *spec);
+    const dm_problem *pb = dm_problem_find(problem);
+    assert_non_null(pb);
+    const char *keys[1] = { key };
+    double values[1] = { value };
+    dm_error err = { 0 };
+    assert_int_equal(dm_instance_init(&spec->inst, pb, key ? 1 : 0, keys, values, &err), DM_OK);
+    spec->method = dm_method_find(method);
+    assert_non_null(spec->method);
+    snprintf(spec->id, sizeof spec->id, "%s.%s", problem, method);
+    double T = spec->inst.period;
+    spec->t_end = periods * T;
+    spec->periods = periods;
+    spec->samples = samples;
+    spec->energy_limit = 1.0;
+    spec->sweep = -1;
+    if (spec->method->adaptive) {
+        spec->knob = DM_KNOB_RTOL;
+        spec->method_config.rtol = rtol;
+        spec->method_config.atol = rtol * 1e-3;
+    } else {
+        spec->knob = DM_KNOB_STEPS_PER_PERIOD;
+        spec->knob_value = steps_per_period;
+        spec->method_config.h = T / steps_per_period;
+    }
+    spec->method_config.t_stop = spec->t_end;
+}
+
+static void run_ok(const dm_run_spec *spec, dm_run_result *r)
+{
+    dm_error err = { 0 };
+    assert_int_equal(dm_run(spec, r, NULL, &err), DM_OK);
+    if (r->status != DM_RUN_OK)
+        print_error("run %s: %s\n", spec->id, r->reason);
+    assert_int_equal(r->status, DM_RUN_OK);
+}
+
+/* Hairer, Lubich & Wanner, Geometric Numerical Integration (2006): Störmer–Verlet on
+ * q'' = -w^2 q turns with the numerical frequency w~ = (2/h) arcsin(w h / 2), so each
+ * period the phase advances by 2 pi (w / w~ - 1) against the exact one. */
+static void verlet_phase_error_per_period_matches_numerical_frequency(void **state)
+{
+    dm_run_spec spec;
+    const double n = 64.0, w = 1.0;
+    make_spec(&spec, "harmonic", NULL, 0, "verlet", n, 0, 1e5, 1024);
+    dm_run_result r;
+    run_ok(&spec, &r);
+    double h = spec.method_config.h;
+    double w_num = (2.0 / h) * asin(w * h / 2.0);
+    double expected = 2.0 * M_PI * (w / w_num - 1.0);
+    assert_close(r.metrics.phase_error_per_period, expected, 1e-8);
+    assert_true(r.crossings.total >= 99999);
+    dm_run_result_free(&r);
+}
+
+/* The closed-form period is the reference (tests of problems/ check it against
+ * quadrature); a 4th-order method at 256 steps per period must reproduce it. */
+static void yoshida4_measures_pendulum_period_to_1e9(void **state)
+{
+    dm_run_spec spec;
+    make_spec(&spec, "pendulum", "amplitude", 2.5, "yoshida4", 256, 0, 1000, 512);
+    dm_run_result r;
+    run_ok(&spec, &r);
+    assert_true(fabs(r.metrics.period_measured - spec.inst.period) <= 1e-9 * spec.inst.period);
+    assert_true(r.crossings.total >= 999);
+    dm_run_result_free(&r);
+}
+
+/* Common practice (backward error analysis, Hairer–Lubich–Wanner ch. IX and X): a
+ * symplectic method's energy error stays bounded (exponent ~ 0), a non-symplectic
+ * one drifts linearly (~ 1). */
+static void drift_exponent_separates_verlet_from_rk4(void **state)
+{
+    dm_run_spec spec;
+    dm_run_result r;
+    make_spec(&spec, "pendulum", "amplitude", 2.0, "verlet", 32, 0, 1e4, 2048);
+    run_ok(&spec, &r);
+    double verlet = r.metrics.drift_exponent;
+    dm_run_result_free(&r);
+    make_spec(&spec, "pendulum", "amplitude", 2.0, "rk4", 32, 0, 1e4, 2048);
+    run_ok(&spec, &r);
+    double rk4 = r.metrics.drift_exponent;
+    dm_run_result_free(&r);
+    print_message("drift exponent: verlet %.3f, rk4 %.3f\n", verlet, rk4);
+    assert_true(verlet < 0.2);
+    assert_true(rk4 > 0.8);
+}
+
+/* No peak is lost by thinning: the largest |dE| over the stored bucket extremes equals
+ * the largest over every single step, recomputed here by a plain loop. */
+static void bucket_extremes_keep_every_peak(void **state)
+{
+    dm_run_spec spec;
+    make_spec(&spec, "pendulum", "amplitude", 3.0, "verlet", 40, 0, 50, 16);
+    dm_run_result r;
+    run_ok(&spec, &r);
+
+    const dm_instance *inst = &spec.inst;
+    double buf[2][2 * DM_MAX_DOF] = { { inst->q0[0], inst->p0[0] } };
+    dm_point a = { 0.0, buf[0], NAN }, b = { 0.0, buf[1], NAN };
+    dm_point *cur = &a, *nxt = &b;
+    dm_error err = { 0 };
+    dm_stepper *s = dm_stepper_create(spec.method, inst, &spec.method_config, cur, &err);
+    assert_non_null(s);
+    double H0 = dm_instance_energy(inst, inst->q0, inst->p0), peak = 0.0;
+    for (uint64_t k = 0; k < r.metrics.steps; k++) {
+        assert_int_equal(dm_stepper_step(s, cur, nxt), DM_OK);
+        double dE = (dm_instance_energy(inst, nxt->x, nxt->x + 1) - H0) / r.metrics.energy_scale;
+        peak = fmax(peak, fabs(dE));
+        dm_point *t = cur;
+        cur = nxt;
+        nxt = t;
+    }
+    dm_stepper_destroy(s);
+    assert_true(r.series.n == 16);
+    double stored = 0.0;
+    for (size_t i = 0; i < r.series.n; i++) {
+        stored = fmax(stored, fabs(r.series.energy_error_min[i]));
+        stored = fmax(stored, fabs(r.series.energy_error_max[i]));
+        assert_true(r.series.energy_error_min[i] <= r.series.energy_error[i]);
+        assert_true(r.series.energy_error[i] <= r.series.energy_error_max[i]);
+    }
+    assert_close(stored, peak, 1e-15);
+    assert_close(r.metrics.max_energy_error, peak, 1e-15);
+    /* 50 periods of 40 steps; the last bucket ends on the horizon. */
+    assert_true(r.metrics.steps == 2000);
+    assert_close(r.series.time[r.series.n - 1], spec.t_end, 1e-15);
+    dm_run_result_free(&r);
+}
+
+/* Crossings stay within a fixed budget however long the run, thinned evenly. */
+static void crossing_store_stays_within_budget(void **state)
+{
+    dm_run_spec spec;
+    make_spec(&spec, "harmonic", NULL, 0, "verlet", 16, 0, 1000, 64);
+    dm_run_result r;
+    run_ok(&spec, &r);
+    /* Verlet turns at w~ = (2/h) arcsin(w h / 2) (Hairer–Lubich–Wanner 2006), so it
+     * crosses t_end w~ / (2 pi) times, within one. */
+    double h = spec.method_config.h;
+    double turns = spec.t_end * (2.0 / h) * asin(h / 2.0) / (2.0 * M_PI);
+    assert_true(fabs((double)r.crossings.total - turns) <= 1.0);
+    assert_true(r.crossings.n <= r.crossings.capacity);
+    assert_true(r.crossings.stride >= 16);
+    for (size_t i = 0; i < r.crossings.n; i++)
+        assert_true((uint64_t)r.crossings.number[i] % r.crossings.stride == 0);
+    dm_run_result_free(&r);
+}
+
+/* The same run twice gives the same numbers bit for bit. */
+static void same_run_twice_is_bit_identical(void **state)
+{
+    dm_run_spec spec;
+    make_spec(&spec, "pendulum", "amplitude", 1.0, "yoshida4", 50, 0, 200, 128);
+    dm_run_result a, b;
+    run_ok(&spec, &a);
+    run_ok(&spec, &b);
+    assert_int_equal(a.series.n, b.series.n);
+    assert_memory_equal(a.series.energy_error, b.series.energy_error, a.series.n * sizeof(double));
+    assert_memory_equal(a.series.energy_error_max, b.series.energy_error_max,
+                        a.series.n * sizeof(double));
+    assert_int_equal(a.crossings.n, b.crossings.n);
+    assert_memory_equal(a.crossings.time, b.crossings.time, a.crossings.n * sizeof(double));
+    dm_run_result_free(&a);
+    dm_run_result_free(&b);
+}
+
+/* Kepler: angular momentum is conserved by every splitting method to round-off
+ * (common practice: symplectic splittings of central-force problems preserve it). */
+static void verlet_conserves_kepler_angular_momentum(void **state)
+{
+    dm_run_spec spec;
+    make_spec(&spec, "kepler", "eccentricity", 0.6, "verlet", 500, 0, 100, 64);
+    dm_run_result r;
+    run_ok(&spec, &r);
+    assert_true(r.series.n_invariants >= 1);
+    assert_true(r.metrics.max_invariant_error[0] < 1e-12);
+    assert_true(r.metrics.max_global_error > 0.0);
+    dm_run_result_free(&r);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(verlet_phase_error_per_period_matches_numerical_frequency),
+        cmocka_unit_test(yoshida4_measures_pendulum_period_to_1e9),
+        cmocka_unit_test(drift_exponent_separates_verlet_from_rk4),
+        cmocka_unit_test(bucket_extremes_keep_every_peak),
+        cmocka_unit_test(crossing_store_stays_within_budget),
+        cmocka_unit_test(same_run_twice_is_bit_identical),
+        cmocka_unit_test(verlet_conserves_kepler_angular_momentum),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
