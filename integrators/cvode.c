@@ -24,6 +24,7 @@
 #include <sunnonlinsol/sunnonlinsol_fixedpoint.h>
 #include <sunnonlinsol/sunnonlinsol_newton.h>
 
+#include "cvode.h"
 #include "method.h"
 
 extern const dm_method dm_cvode_bdf;
@@ -52,9 +53,6 @@ typedef struct cvode_stepper {
     long nni_last;   /* nonlinear iterations after the previous step */
     dm_counts carried; /* CVODE's counters before the last CVodeReInit (which zeroes them) */
     char cvode_msg[320]; /* CVODE's own text for the last error or warning */
-    /* Jacobian scratch: the Hessian of V and two velocities for d(grad T)/dp. */
-    double hess[DM_MAX_DOF * DM_MAX_DOF];
-    double p_shift[DM_MAX_DOF], v_plus[DM_MAX_DOF], v_minus[DM_MAX_DOF];
 } cvode_stepper;
 
 /* y' = (grad T(p), -grad V(q)): one velocity and one force evaluation. */
@@ -77,42 +75,52 @@ static int rhs(sunrealtype t, N_Vector y, N_Vector ydot, void *user_data)
     return 0;
 }
 
-/* J = df/dy = [[0, d2T/dp2], [-Hess V(q), 0]] in CVODE's column-major dense matrix.
+/* J = df/dy = [[0, d2T/dp2], [-Hess V(q), 0]], column-major.
  * d2T/dp2 comes from central differences of velocity(): exact up to rounding for the
  * quadratic kinetic energies T = p^2/(2m) all our problems have, and a Newton
  * Jacobian needs no more for any smooth T. The step per component is
  * cbrt(eps) * max(1, |p_j|), which balances truncation against rounding for a central
- * difference (common practice). */
+ * difference (common practice). Scratch lives on the stack: nothing is allocated. */
+int dm_cvode_jacobian(const dm_instance *inst, const double *x, double *jac)
+{
+    const int dof = inst->dof, n = 2 * dof;
+    const double *p = x + dof;
+    double hess[DM_MAX_DOF * DM_MAX_DOF];
+    double p_shift[DM_MAX_DOF], v_plus[DM_MAX_DOF], v_minus[DM_MAX_DOF];
+#define DM_J(i, j) jac[(size_t)(j) * (size_t)n + (size_t)(i)]
+    for (int k = 0; k < n * n; k++)
+        jac[k] = 0.0;
+    inst->problem->hessian(inst, x, hess);
+    for (int i = 0; i < dof; i++)
+        for (int j = 0; j < dof; j++)
+            DM_J(dof + i, j) = -hess[i * dof + j];
+
+    const double cbrt_eps = 6.0554544523933395e-06; /* cbrt(2^-52) */
+    for (int j = 0; j < dof; j++)
+        p_shift[j] = p[j];
+    for (int j = 0; j < dof; j++) {
+        double delta = cbrt_eps * fmax(1.0, fabs(p[j]));
+        delta = (p[j] + delta) - p[j]; /* the spacing really represented */
+        p_shift[j] = p[j] + delta;
+        inst->problem->velocity(inst, p_shift, v_plus);
+        p_shift[j] = p[j] - delta;
+        inst->problem->velocity(inst, p_shift, v_minus);
+        p_shift[j] = p[j];
+        for (int i = 0; i < dof; i++)
+            DM_J(i, dof + j) = (v_plus[i] - v_minus[i]) / (2.0 * delta);
+    }
+#undef DM_J
+    return 2 * dof;
+}
+
+/* CVODE's Jacobian callback: SUNDenseMatrix data is column-major with leading
+ * dimension 2 dof, the layout dm_cvode_jacobian writes. */
 static int jacobian(sunrealtype t, N_Vector y, N_Vector fy, SUNMatrix J, void *user_data,
                     N_Vector tmp1, N_Vector tmp2, N_Vector tmp3)
 {
     cvode_stepper *c = user_data;
-    const dm_instance *inst = c->base.inst;
-    const int dof = c->base.dof;
-    const double *x = N_VGetArrayPointer(y);
-    const double *p = x + dof;
-
-    SUNMatZero(J);
-    inst->problem->hessian(inst, x, c->hess);
-    for (int i = 0; i < dof; i++)
-        for (int j = 0; j < dof; j++)
-            SM_ELEMENT_D(J, dof + i, j) = -c->hess[i * dof + j];
-
-    const double cbrt_eps = 6.0554544523933395e-06; /* cbrt(2^-52) */
-    for (int j = 0; j < dof; j++)
-        c->p_shift[j] = p[j];
-    for (int j = 0; j < dof; j++) {
-        double delta = cbrt_eps * fmax(1.0, fabs(p[j]));
-        delta = (p[j] + delta) - p[j]; /* the spacing really represented */
-        c->p_shift[j] = p[j] + delta;
-        inst->problem->velocity(inst, c->p_shift, c->v_plus);
-        c->p_shift[j] = p[j] - delta;
-        inst->problem->velocity(inst, c->p_shift, c->v_minus);
-        c->p_shift[j] = p[j];
-        for (int i = 0; i < dof; i++)
-            SM_ELEMENT_D(J, i, dof + j) = (c->v_plus[i] - c->v_minus[i]) / (2.0 * delta);
-    }
-    c->base.counts.velocity_evals += 2u * (uint64_t)dof;
+    int evals = dm_cvode_jacobian(c->base.inst, N_VGetArrayPointer(y), SM_DATA_D(J));
+    c->base.counts.velocity_evals += (uint64_t)evals;
     return 0;
 }
 

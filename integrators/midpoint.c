@@ -1,6 +1,6 @@
 /* midpoint.c — the implicit midpoint rule y1 = y0 + h f((y0 + y1) / 2): symplectic,
  * symmetric, second order (Hairer, Lubich, Wanner, Geometric Numerical Integration,
- * 2nd ed. (2006), eq. (I.1.7), Theorem VI.4.2 via the 1-stage Gauss method).
+ * 2nd ed. (2006), ch. I.1 and §VI.4: the 1-stage Gauss method; from memory of the book).
  *
  * The implicit equation is solved by fixed-point iteration on the midpoint
  * k = y0 + (h/2) f(k), to machine precision: the iteration stops when the update is
@@ -168,7 +168,7 @@ const dm_method dm_midpoint = {
     .id = "midpoint",
     .name = "implicit midpoint rule",
     .reference = "Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. "
-                 "(2006), eq. (I.1.7) and §VI.4",
+                 "(2006), ch. I.1 and §VI.4",
     .family = DM_FAMILY_IMPLICIT,
     .order = 2,
     .symplectic = true,

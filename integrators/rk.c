@@ -27,11 +27,11 @@ typedef struct rk_stepper {
     uint64_t steps_since_origin;
 } rk_stepper;
 
-/* Explicit Euler: y1 = y0 + h f(y0) (Hairer, Nørsett, Wanner, Solving ODEs I, 2nd ed.
- * (1993), §I.7). */
+/* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
 static const rk_tableau euler_tableau = { .stages = 1, .b = { 1.0 } };
 
-/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, Table II.1.2). */
+/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, §II.1; from
+ * memory of the book). */
 static const rk_tableau rk4_tableau = {
     .stages = 4,
     .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
@@ -149,8 +149,7 @@ static void rk_destroy(dm_stepper *base)
 const dm_method dm_euler = {
     .id = "euler",
     .name = "explicit Euler",
-    .reference = "Hairer, Nørsett, Wanner, Solving Ordinary Differential Equations I, "
-                 "2nd ed. (1993), §I.7",
+    .reference = "L. Euler, Institutionum calculi integralis (1768); common practice",
     .family = DM_FAMILY_RUNGE_KUTTA,
     .order = 1,
     .symplectic = false,
@@ -166,7 +165,7 @@ const dm_method dm_rk4 = {
     .id = "rk4",
     .name = "classical Runge-Kutta 4th order",
     .reference = "W. Kutta, Z. Math. Phys. 46 (1901) 435-453; Hairer, Nørsett, Wanner, "
-                 "Solving ODEs I, 2nd ed. (1993), Table II.1.2",
+                 "Solving ODEs I, 2nd ed. (1993), §II.1",
     .family = DM_FAMILY_RUNGE_KUTTA,
     .order = 4,
     .symplectic = false,

@@ -1,6 +1,6 @@
 /* symeuler.c — the two symplectic Euler methods, first order, not symmetric (each is
  * the other's adjoint). Hairer, Lubich, Wanner, Geometric Numerical Integration,
- * 2nd ed. (2006), Theorem VI.3.3 and eq. (I.1.9). */
+ * 2nd ed. (2006), ch. I.1 and §VI.3 (section numbers from memory of the book). */
 #include "method.h"
 
 static const double one[] = { 1.0 };
@@ -15,7 +15,7 @@ const dm_method dm_symeuler_a = {
     .id = "symeuler-a",
     .name = "symplectic Euler (kick then drift)",
     .reference = "Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. "
-                 "(2006), eq. (VI.3.1) with the roles of q and p as in (I.1.9)",
+                 "(2006), ch. I.1 and §VI.3",
     .family = DM_FAMILY_SPLITTING,
     .order = 1,
     .symplectic = true,
@@ -34,7 +34,7 @@ const dm_method dm_symeuler_b = {
     .id = "symeuler-b",
     .name = "symplectic Euler (drift then kick)",
     .reference = "Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. "
-                 "(2006), eq. (VI.3.2)",
+                 "(2006), ch. I.1 and §VI.3",
     .family = DM_FAMILY_SPLITTING,
     .order = 1,
     .symplectic = true,

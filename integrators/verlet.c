@@ -1,5 +1,6 @@
 /* verlet.c — Störmer–Verlet, the symmetric second-order splitting, in both arrangements.
- * Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. (2006), ch. I.3, VI.3. */
+ * Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. (2006), ch. I.3 and
+ * §VI.3 (section numbers from memory of the book). */
 #include "method.h"
 
 /* Kick-drift-kick ("velocity Verlet"): half kick, full drift, half kick. The closing
@@ -15,7 +16,7 @@ const dm_method dm_verlet = {
     .id = "verlet",
     .name = "Störmer–Verlet (kick-drift-kick)",
     .reference = "Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. "
-                 "(2006), eq. (I.3.6)",
+                 "(2006), ch. I.3 (velocity form)",
     .family = DM_FAMILY_SPLITTING,
     .order = 2,
     .symplectic = true,
@@ -36,7 +37,7 @@ const dm_method dm_verlet_dkd = {
     .id = "verlet-dkd",
     .name = "Störmer–Verlet (drift-kick-drift)",
     .reference = "Hairer, Lubich, Wanner, Geometric Numerical Integration, 2nd ed. "
-                 "(2006), eq. (I.3.7)",
+                 "(2006), ch. I.3 (position form)",
     .family = DM_FAMILY_SPLITTING,
     .order = 2,
     .symplectic = true,

@@ -9,7 +9,7 @@
  * next step's first (FSAL): s force evaluations per step. */
 #include "method.h"
 
-/* ---- 4th order: the triple jump (Yoshida 1990, eq. 4.14) ----
+/* ---- 4th order: the triple jump (Yoshida 1990, section 4) ----
  * x1 = 1 / (2 - 2^(1/3)), x0 = -2^(1/3) / (2 - 2^(1/3)); stages x1, x0, x1.
  * 2^(1/3) to 32 digits (common practice; checked against cbrt(2) in the tests). */
 #define CBRT2 1.2599210498948731647672106072782
@@ -25,7 +25,7 @@ static const dm_splitting y4 = {
 const dm_method dm_yoshida4 = {
     .id = "yoshida4",
     .name = "Yoshida 4th-order triple jump",
-    .reference = "H. Yoshida, Phys. Lett. A 150 (1990) 262-268, eq. (4.14); also "
+    .reference = "H. Yoshida, Phys. Lett. A 150 (1990) 262-268 (triple jump); also "
                  "Forest & Ruth, Physica D 43 (1990) 105-117",
     .family = DM_FAMILY_SPLITTING,
     .order = 4,
