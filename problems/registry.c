@@ -6,12 +6,16 @@
 #include "problem.h"
 
 extern const dm_problem dm_problem_harmonic;
+extern const dm_problem dm_problem_pendulum;
+extern const dm_problem dm_problem_double_well;
 extern const dm_problem dm_problem_morse;
 extern const dm_problem dm_problem_kepler;
 
 /* A new problem: one file in problems/ and one line here. */
 const dm_problem *const dm_problems[] = {
     &dm_problem_harmonic,
+    &dm_problem_pendulum,
+    &dm_problem_double_well,
     &dm_problem_morse,
     &dm_problem_kepler,
 };
