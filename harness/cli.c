@@ -21,6 +21,10 @@ static const command commands[] = {
     { "list", dm_cmd_list, "list [--json]", "every problem and method with its parameters" },
     { "period", dm_cmd_period, "period PROBLEM [key=value ...] [--json]",
       "regime, energy and closed-form period of one starting state" },
+    { "show", dm_cmd_show, "show FILE.h5 [--format table|csv|json]",
+      "the summary table of a results file" },
+    { "bench", dm_cmd_bench, "bench [--quick] [--json]",
+      "cost of the harness against hand-written loops, of HDF5 and of the CVODE adapter" },
 };
 static const size_t n_commands = sizeof commands / sizeof commands[0];
 

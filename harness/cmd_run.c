@@ -1,6 +1,8 @@
 /* cmd_run.c — `driftmark run [SUITE] [-o OUT]`: validate the whole suite, run it,
  * write the results file, print the summary table. */
 #include <getopt.h>
+#include <pthread.h>
+#include <stdatomic.h>
 #include <math.h>
 #include <signal.h>
 #include <stdio.h>
@@ -53,26 +55,121 @@ static void progress(size_t done, size_t total, const char *current, double elap
     fflush(stderr);
 }
 
+/* The pool: workers take runs in the order `order` (longest first, so one long run
+ * does not finish alone at the end) and store each result at its own index, so the
+ * results file is the same whatever the number of jobs. */
+typedef struct pool {
+    dm_suite *suite;
+    dm_run_result *results;
+    const size_t *order;
+    atomic_size_t next;
+    atomic_size_t done;
+    atomic_int failed;
+    pthread_mutex_t lock;          /* guards the progress line and the first error */
+    dm_error error;
+    bool tty;
+    struct timespec t0;
+    const char *current;
+} pool;
+
+static void *worker(void *arg)
+{
+    pool *p = arg;
+    for (;;) {
+        if (stop_flag || atomic_load(&p->failed))
+            break;
+        size_t slot = atomic_fetch_add(&p->next, 1);
+        if (slot >= p->suite->n_runs)
+            break;
+        size_t i = p->order[slot];
+        const dm_run_spec *spec = &p->suite->runs[i];
+        if (p->tty) {
+            pthread_mutex_lock(&p->lock);
+            p->current = spec->id;
+            progress(atomic_load(&p->done), p->suite->n_runs, spec->id, seconds_since(&p->t0));
+            pthread_mutex_unlock(&p->lock);
+        }
+        dm_error err = { 0 };
+        if (dm_run(spec, &p->results[i], &stop_flag, &err) != DM_OK) {
+            pthread_mutex_lock(&p->lock);
+            if (!atomic_load(&p->failed)) {
+                p->error = err;
+                dm_error_prefix(&p->error, "%s: ", spec->id);
+            }
+            atomic_store(&p->failed, 1);
+            pthread_mutex_unlock(&p->lock);
+            break;
+        }
+        size_t d = atomic_fetch_add(&p->done, 1) + 1;
+        if (p->tty) {
+            pthread_mutex_lock(&p->lock);
+            progress(d, p->suite->n_runs, p->current ? p->current : "", seconds_since(&p->t0));
+            pthread_mutex_unlock(&p->lock);
+        }
+    }
+    return NULL;
+}
+
+/* Work estimate of a run: force evaluations for fixed steps; adaptive methods are
+ * guessed from the horizon and the tolerance (their steps grow as rtol shrinks). */
+static double estimated_cost(const dm_run_spec *spec)
+{
+    const dm_method *m = spec->method;
+    if (!m->adaptive) {
+        double per = m->force_evals_per_step > 0 ? m->force_evals_per_step : 4;
+        return per * spec->t_end / fabs(spec->method_config.h);
+    }
+    double digits = -log10(spec->method_config.rtol);
+    return spec->periods * 20.0 * digits * digits;
+}
+
+static const dm_suite *cost_suite;
+static int by_cost_descending(const void *a, const void *b)
+{
+    size_t i = *(const size_t *)a, j = *(const size_t *)b;
+    double ci = estimated_cost(&cost_suite->runs[i]), cj = estimated_cost(&cost_suite->runs[j]);
+    if (ci != cj)
+        return ci > cj ? -1 : 1;
+    return i < j ? -1 : (i > j);
+}
+
+static int default_jobs(void)
+{
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    return n > 0 ? (int)n : 1;
+}
+
 static void print_usage(FILE *out)
 {
-    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5]\n"
-                 "  with no SUITE, runs the built-in default suite\n");
+    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5] [-j JOBS]\n"
+                 "  with no SUITE, runs the built-in default suite\n"
+                 "  -j, --jobs N   runs at once (default: every core)\n");
 }
 
 int dm_cmd_run(int argc, char **argv)
 {
     static const struct option options[] = {
         { "output", required_argument, NULL, 'o' },
+        { "jobs", required_argument, NULL, 'j' },
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
     const char *output = NULL;
+    int jobs = default_jobs();
     int c;
     optind = 1;
     opterr = 0;
-    while ((c = getopt_long(argc, argv, "+o:h", options, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, "+o:j:h", options, NULL)) != -1) {
         switch (c) {
         case 'o': output = optarg; break;
+        case 'j': {
+            double v;
+            if (dm_parse_double(optarg, &v) != 0 || v < 1 || v > 1024 || v != floor(v))
+                return dm_cli_usage_error("run", "--jobs takes a whole number from 1 to 1024, not '%s'",
+                                          optarg);
+            jobs = (int)v;
+            break;
+        }
         case 'h': print_usage(stdout); return 0;
         case '?':
         default:
@@ -87,14 +184,12 @@ int dm_cmd_run(int argc, char **argv)
 
     dm_suite suite;
     dm_error err = { 0 };
-    dm_status st = optind < argc ? dm_suite_load(&suite, argv[optind], &err)
-                                 : dm_suite_default(&suite, &err);
+    dm_status st = optind < argc ? dm_suite_load(&suite, argv[optind], output, &err)
+                                 : dm_suite_default(&suite, output, &err);
     if (st != DM_OK) {
         fprintf(stderr, "driftmark: run: %s\n", err.msg);
         return st == DM_EINPUT ? 2 : 1;
     }
-    if (output != NULL)
-        snprintf(suite.output, sizeof suite.output, "%s", output);
 
     dm_run_result *results = calloc(suite.n_runs, sizeof *results);
     dm_sweep_fit *fits = calloc(suite.n_sweeps ? suite.n_sweeps : 1, sizeof *fits);
@@ -117,29 +212,50 @@ int dm_cmd_run(int argc, char **argv)
 
     char started[32];
     utc_now(started, sizeof started);
-    bool tty = isatty(STDERR_FILENO);
-    struct timespec t0;
-    clock_gettime(CLOCK_MONOTONIC, &t0);
-    int exit_code = 0;
-    size_t done = 0;
-    for (size_t i = 0; i < suite.n_runs; i++) {
-        if (stop_flag)
-            break;
-        if (tty)
-            progress(i, suite.n_runs, suite.runs[i].id, seconds_since(&t0));
-        st = dm_run(&suite.runs[i], &results[i], &stop_flag, &err);
-        if (st != DM_OK) {
-            fprintf(stderr, "%sdriftmark: run: %s: %s\n", tty ? "\n" : "", suite.runs[i].id,
-                    err.msg);
-            exit_code = 1;
-            break;
-        }
-        done = i + 1;
+    size_t *order = malloc(sizeof *order * (suite.n_runs ? suite.n_runs : 1));
+    if (order == NULL) {
+        fprintf(stderr, "driftmark: run: out of memory for %zu runs\n", suite.n_runs);
+        return 1;
     }
-    if (tty) {
-        progress(done, suite.n_runs, "", seconds_since(&t0));
+    for (size_t i = 0; i < suite.n_runs; i++)
+        order[i] = i;
+    cost_suite = &suite;
+    qsort(order, suite.n_runs, sizeof *order, by_cost_descending);
+
+    pool p = { .suite = &suite, .results = results, .order = order, .tty = isatty(STDERR_FILENO) };
+    atomic_init(&p.next, 0);
+    atomic_init(&p.done, 0);
+    atomic_init(&p.failed, 0);
+    pthread_mutex_init(&p.lock, NULL);
+    clock_gettime(CLOCK_MONOTONIC, &p.t0);
+    if ((size_t)jobs > suite.n_runs)
+        jobs = suite.n_runs > 0 ? (int)suite.n_runs : 1;
+    pthread_t threads[1024];
+    int started_threads = 0;
+    for (int j = 1; j < jobs; j++) {
+        if (pthread_create(&threads[started_threads], NULL, worker, &p) == 0)
+            started_threads++;
+    }
+    worker(&p); /* the main thread is one of the jobs */
+    for (int j = 0; j < started_threads; j++)
+        pthread_join(threads[j], NULL);
+    pthread_mutex_destroy(&p.lock);
+    free(order);
+    if (p.tty) {
+        progress(atomic_load(&p.done), suite.n_runs, "", seconds_since(&p.t0));
         fputc('\n', stderr);
     }
+    int exit_code = 0;
+    if (atomic_load(&p.failed)) {
+        fprintf(stderr, "driftmark: run: %s\n", p.error.msg);
+        exit_code = 1;
+    }
+    /* Rows in suite order: every run that ran, completed or interrupted. */
+    size_t done = 0;
+    for (size_t i = 0; i < suite.n_runs; i++)
+        if (results[i].status != DM_RUN_NOT_RUN)
+            done++;
+    struct timespec t0 = p.t0;
 
     for (size_t w = 0; w < suite.n_sweeps; w++)
         dm_sweep_fit_compute(&suite, &suite.sweeps[w], results, &fits[w]);
@@ -151,9 +267,11 @@ int dm_cmd_run(int argc, char **argv)
             exit_code = 1;
         }
     }
-    for (size_t i = 0; i < done; i++)
-        dm_summary_row_fill(&rows[i], &suite.runs[i], &results[i]);
-    dm_table_print(stdout, rows, done, DM_TABLE_TEXT);
+    size_t n_rows = 0;
+    for (size_t i = 0; i < suite.n_runs; i++)
+        if (results[i].status != DM_RUN_NOT_RUN)
+            dm_summary_row_fill(&rows[n_rows++], &suite.runs[i], &results[i]);
+    dm_table_print(stdout, rows, n_rows, DM_TABLE_TEXT);
     if (suite.n_sweeps > 0) {
         printf("\n%-56s %12s %12s %6s\n", "sweep", "energy order", "phase order", "points");
         for (size_t w = 0; w < suite.n_sweeps; w++)

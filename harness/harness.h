@@ -76,11 +76,12 @@ typedef struct dm_suite {
 } dm_suite;
 
 /* Parses and validates a whole suite before anything runs. Errors are one line,
- * "FILE:LINE:COLUMN: what is wrong (what was expected)". */
+ * "FILE:LINE:COLUMN: what is wrong (what was expected)". `output`, when not NULL,
+ * replaces the suite's own output path (the command line's -o) and is the one checked. */
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
-                         const char *source, dm_error *err);
-dm_status dm_suite_load(dm_suite *suite, const char *path, dm_error *err);
-dm_status dm_suite_default(dm_suite *suite, dm_error *err);
+                         const char *source, const char *output, dm_error *err);
+dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err);
+dm_status dm_suite_default(dm_suite *suite, const char *output, dm_error *err);
 void dm_suite_free(dm_suite *suite);
 
 extern const char dm_default_suite_text[];
@@ -88,6 +89,7 @@ extern const char dm_default_suite_text[];
 /* ---- what one run produced ---- */
 
 typedef enum dm_run_status {
+    DM_RUN_NOT_RUN = 0,     /* never started (a zeroed result): not written to files */
     DM_RUN_OK,
     DM_RUN_DIVERGED,        /* NaN, Inf or |dE| above the limit */
     DM_RUN_FAILED,          /* the solver gave up (CVODE flag, no convergence) */

@@ -17,6 +17,7 @@
 const char *dm_run_status_name(dm_run_status status)
 {
     switch (status) {
+    case DM_RUN_NOT_RUN: return "not_run";
     case DM_RUN_OK: return "ok";
     case DM_RUN_DIVERGED: return "diverged";
     case DM_RUN_FAILED: return "failed";

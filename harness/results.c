@@ -1,0 +1,767 @@
+/* results.c — dm_suite + run results -> the HDF5 results file, and /summary back.
+ *
+ * The layout is our file contract, documented in results/README.md; change both
+ * together and raise DM_SCHEMA_VERSION when a reader would be misled.
+ *
+ * The file is written under a temporary name in the target's own directory and renamed
+ * into place only after HDF5 closed it without error, so a crash, a full disk or a
+ * file-size limit never leaves a half-written file under the final name.
+ */
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdbool.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/utsname.h>
+#include <unistd.h>
+
+#include <hdf5.h>
+#include <sundials/sundials_config.h>
+
+#include "dm_build_info.h"
+#include "harness.h"
+
+#define DM_FORMAT_NAME "driftmark-results"
+#define DM_SCHEMA_VERSION 1
+#define DM_CHUNK_MAX 4096
+#define DM_DEFLATE_LEVEL 4
+
+/* HDF5 prints its error stack to stderr by default; we report one line ourselves. */
+typedef struct quiet_hdf5 {
+    H5E_auto2_t func;
+    void *data;
+} quiet_hdf5;
+
+static void hdf5_quiet(quiet_hdf5 *q)
+{
+    H5Eget_auto2(H5E_DEFAULT, &q->func, &q->data);
+    H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
+}
+
+static void hdf5_restore(const quiet_hdf5 *q)
+{
+    H5Eset_auto2(H5E_DEFAULT, q->func, q->data);
+}
+
+/* ---- types ---- */
+
+/* Fixed-length, null-terminated UTF-8 string of `size` bytes (with the NUL). */
+static hid_t fixed_string_type(size_t size)
+{
+    hid_t t = H5Tcopy(H5T_C_S1);
+    if (t < 0)
+        return t;
+    if (H5Tset_size(t, size > 0 ? size : 1) < 0 || H5Tset_strpad(t, H5T_STR_NULLTERM) < 0 ||
+        H5Tset_cset(t, H5T_CSET_UTF8) < 0) {
+        H5Tclose(t);
+        return -1;
+    }
+    return t;
+}
+
+static hid_t vlen_string_type(void)
+{
+    hid_t t = H5Tcopy(H5T_C_S1);
+    if (t < 0)
+        return t;
+    if (H5Tset_size(t, H5T_VARIABLE) < 0 || H5Tset_cset(t, H5T_CSET_UTF8) < 0) {
+        H5Tclose(t);
+        return -1;
+    }
+    return t;
+}
+
+/* ---- attributes: every helper returns 0 or -1 ---- */
+
+static int attr_write(hid_t loc, const char *name, hid_t file_type, hid_t mem_type,
+                      const void *value)
+{
+    hid_t space = H5Screate(H5S_SCALAR);
+    if (space < 0)
+        return -1;
+    hid_t a = H5Acreate2(loc, name, file_type, space, H5P_DEFAULT, H5P_DEFAULT);
+    int rc = -1;
+    if (a >= 0) {
+        rc = H5Awrite(a, mem_type, value) < 0 ? -1 : 0;
+        if (H5Aclose(a) < 0)
+            rc = -1;
+    }
+    H5Sclose(space);
+    return rc;
+}
+
+/* Text attributes are variable-length UTF-8: h5py reads them as str. */
+static int attr_text(hid_t loc, const char *name, const char *value)
+{
+    hid_t t = vlen_string_type();
+    if (t < 0)
+        return -1;
+    const char *v = value != NULL ? value : "";
+    int rc = attr_write(loc, name, t, t, &v);
+    H5Tclose(t);
+    return rc;
+}
+
+static int attr_double(hid_t loc, const char *name, double value)
+{
+    return attr_write(loc, name, H5T_IEEE_F64LE, H5T_NATIVE_DOUBLE, &value);
+}
+
+static int attr_u64(hid_t loc, const char *name, uint64_t value)
+{
+    return attr_write(loc, name, H5T_STD_U64LE, H5T_NATIVE_UINT64, &value);
+}
+
+static int attr_int(hid_t loc, const char *name, int value)
+{
+    return attr_write(loc, name, H5T_STD_I32LE, H5T_NATIVE_INT, &value);
+}
+
+static int attr_bool(hid_t loc, const char *name, bool value)
+{
+    int8_t v = value ? 1 : 0;
+    return attr_write(loc, name, H5T_STD_I8LE, H5T_NATIVE_INT8, &v);
+}
+
+/* ---- datasets ---- */
+
+/* One-dimensional dataset of n elements: chunked min(n, 4096), shuffle + deflate 4.
+ * An empty dataset (n == 0) is contiguous: HDF5 refuses chunks of size zero. */
+static int dataset_write(hid_t loc, const char *name, hid_t file_type, hid_t mem_type,
+                         const void *data, size_t n)
+{
+    hsize_t dims[1] = { (hsize_t)n };
+    hid_t space = H5Screate_simple(1, dims, NULL);
+    if (space < 0)
+        return -1;
+    hid_t dcpl = H5Pcreate(H5P_DATASET_CREATE);
+    int rc = -1;
+    if (dcpl < 0)
+        goto out_space;
+    if (n > 0) {
+        hsize_t chunk[1] = { (hsize_t)(n < DM_CHUNK_MAX ? n : DM_CHUNK_MAX) };
+        if (H5Pset_chunk(dcpl, 1, chunk) < 0)
+            goto out_dcpl;
+        if (H5Zfilter_avail(H5Z_FILTER_DEFLATE) > 0) {
+            if (H5Pset_shuffle(dcpl) < 0 || H5Pset_deflate(dcpl, DM_DEFLATE_LEVEL) < 0)
+                goto out_dcpl;
+        }
+    }
+    hid_t d = H5Dcreate2(loc, name, file_type, space, H5P_DEFAULT, dcpl, H5P_DEFAULT);
+    if (d < 0)
+        goto out_dcpl;
+    rc = 0;
+    if (n > 0 && H5Dwrite(d, mem_type, H5S_ALL, H5S_ALL, H5P_DEFAULT, data) < 0)
+        rc = -1;
+    if (H5Dclose(d) < 0)
+        rc = -1;
+out_dcpl:
+    H5Pclose(dcpl);
+out_space:
+    H5Sclose(space);
+    return rc;
+}
+
+static int dataset_double(hid_t loc, const char *name, const double *data, size_t n)
+{
+    return dataset_write(loc, name, H5T_IEEE_F64LE, H5T_NATIVE_DOUBLE, data, n);
+}
+
+static int dataset_u64(hid_t loc, const char *name, const uint64_t *data, size_t n)
+{
+    return dataset_write(loc, name, H5T_STD_U64LE, H5T_NATIVE_UINT64, data, n);
+}
+
+/* Fixed-length UTF-8 strings, as wide as the longest plus its NUL. */
+static int dataset_strings(hid_t loc, const char *name, const char *const *items, size_t n)
+{
+    size_t width = 1;
+    for (size_t i = 0; i < n; i++)
+        if (strlen(items[i]) + 1 > width)
+            width = strlen(items[i]) + 1;
+    char *buf = calloc(n > 0 ? n : 1, width);
+    if (buf == NULL)
+        return -1;
+    for (size_t i = 0; i < n; i++)
+        memcpy(buf + i * width, items[i], strlen(items[i]));
+    hid_t t = fixed_string_type(width);
+    int rc = t < 0 ? -1 : dataset_write(loc, name, t, t, buf, n);
+    if (t >= 0)
+        H5Tclose(t);
+    free(buf);
+    return rc;
+}
+
+/* ---- /summary ---- */
+
+typedef struct summary_field {
+    const char *name;
+    size_t offset;
+    int kind;          /* 's' string (size bytes), 'i' int, 'u' uint64, 'd' double */
+    size_t size;
+} summary_field;
+
+#define S_FIELD(f) { #f, offsetof(dm_summary_row, f), 's', sizeof(((dm_summary_row *)0)->f) }
+#define N_FIELD(f, k) { #f, offsetof(dm_summary_row, f), k, sizeof(((dm_summary_row *)0)->f) }
+
+static const summary_field summary_fields[] = {
+    S_FIELD(run_id), S_FIELD(hash), S_FIELD(problem), S_FIELD(regime), S_FIELD(method),
+    N_FIELD(order, 'i'), N_FIELD(h, 'd'), N_FIELD(rtol, 'd'), N_FIELD(steps, 'u'),
+    N_FIELD(force_evals, 'u'), N_FIELD(max_energy_error, 'd'),
+    N_FIELD(final_energy_error, 'd'), N_FIELD(energy_drift_per_period, 'd'),
+    N_FIELD(drift_exponent, 'd'), N_FIELD(period_exact, 'd'), N_FIELD(period_measured, 'd'),
+    N_FIELD(period_rel_error, 'd'), N_FIELD(phase_error_per_period, 'd'),
+    N_FIELD(phase_error_final, 'd'), N_FIELD(wall_seconds, 'd'), N_FIELD(ns_per_step, 'd'),
+    S_FIELD(status), S_FIELD(reason),
+};
+static const size_t n_summary_fields = sizeof summary_fields / sizeof summary_fields[0];
+
+/* The compound type of one summary row: in memory (the C struct's layout, native
+ * numbers) or in the file (packed, little-endian). */
+static hid_t summary_type(bool in_file)
+{
+    size_t total = 0;
+    for (size_t i = 0; i < n_summary_fields; i++)
+        total += summary_fields[i].kind == 's' ? summary_fields[i].size
+                 : summary_fields[i].kind == 'i' ? 4 : 8;
+    hid_t t = H5Tcreate(H5T_COMPOUND, in_file ? total : sizeof(dm_summary_row));
+    if (t < 0)
+        return -1;
+    size_t offset = 0;
+    for (size_t i = 0; i < n_summary_fields; i++) {
+        const summary_field *f = &summary_fields[i];
+        hid_t member;
+        bool owned = false;
+        switch (f->kind) {
+        case 's': member = fixed_string_type(f->size); owned = true; break;
+        case 'i': member = in_file ? H5T_STD_I32LE : H5T_NATIVE_INT; break;
+        case 'u': member = in_file ? H5T_STD_U64LE : H5T_NATIVE_UINT64; break;
+        default: member = in_file ? H5T_IEEE_F64LE : H5T_NATIVE_DOUBLE; break;
+        }
+        herr_t rc = member < 0 ? -1
+                               : H5Tinsert(t, f->name, in_file ? offset : f->offset, member);
+        if (owned && member >= 0)
+            H5Tclose(member);
+        if (rc < 0) {
+            H5Tclose(t);
+            return -1;
+        }
+        offset += f->kind == 's' ? f->size : f->kind == 'i' ? 4 : 8;
+    }
+    return t;
+}
+
+static int write_summary(hid_t file, const dm_summary_row *rows, size_t n)
+{
+    hid_t ft = summary_type(true), mt = summary_type(false);
+    int rc = -1;
+    if (ft >= 0 && mt >= 0)
+        rc = dataset_write(file, "summary", ft, mt, rows, n);
+    if (ft >= 0)
+        H5Tclose(ft);
+    if (mt >= 0)
+        H5Tclose(mt);
+    return rc;
+}
+
+/* ---- the parts of the file ---- */
+
+static int write_root(hid_t file, const dm_suite *suite, const char *start_time_utc)
+{
+    char hdf5_version[64];
+    unsigned maj = 0, min = 0, rel = 0;
+    H5get_libversion(&maj, &min, &rel);
+    snprintf(hdf5_version, sizeof hdf5_version, "%u.%u.%u", maj, min, rel);
+    char host[256] = "unknown", system[400] = "unknown";
+    struct utsname u;
+    if (uname(&u) == 0) {
+        snprintf(host, sizeof host, "%s", u.nodename);
+        snprintf(system, sizeof system, "%s %s %s", u.sysname, u.release, u.machine);
+    } else if (gethostname(host, sizeof host) != 0) {
+        snprintf(host, sizeof host, "unknown");
+    }
+    host[sizeof host - 1] = '\0';
+    int rc = 0;
+    rc |= attr_text(file, "format", DM_FORMAT_NAME);
+    rc |= attr_int(file, "schema_version", DM_SCHEMA_VERSION);
+    rc |= attr_text(file, "driftmark_version", DM_VERSION);
+    rc |= attr_text(file, "git_commit", DM_GIT_COMMIT);
+    rc |= attr_text(file, "compiler", DM_COMPILER);
+    rc |= attr_text(file, "c_flags", DM_C_FLAGS);
+    rc |= attr_text(file, "build_type", DM_BUILD_TYPE);
+    rc |= attr_text(file, "sundials_version", SUNDIALS_VERSION);
+    rc |= attr_text(file, "hdf5_version", hdf5_version);
+    rc |= attr_text(file, "host", host);
+    rc |= attr_text(file, "system", system);
+    rc |= attr_text(file, "start_time_utc", start_time_utc ? start_time_utc : "");
+    rc |= attr_text(file, "suite_name", suite->name);
+    rc |= attr_text(file, "suite_source", suite->source);
+    rc |= attr_text(file, "suite_text", suite->text ? suite->text : "");
+    rc |= attr_u64(file, "n_runs_planned", suite->n_runs);
+    rc |= attr_u64(file, "n_sweeps", suite->n_sweeps);
+    return rc;
+}
+
+static const char *knob_name(dm_knob knob)
+{
+    switch (knob) {
+    case DM_KNOB_H: return "h";
+    case DM_KNOB_STEPS_PER_PERIOD: return "steps_per_period";
+    case DM_KNOB_RTOL: return "rtol";
+    }
+    return "unknown";
+}
+
+/* An HDF5 link name may not contain '/' (nor be "."): keep names we did not make safe. */
+static void safe_name(const char *in, char *out, size_t size)
+{
+    snprintf(out, size, "%s", in);
+    for (char *s = out; *s; s++)
+        if (*s == '/')
+            *s = '_';
+    if (strcmp(out, ".") == 0)
+        snprintf(out, size, "_");
+}
+
+static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
+                     const dm_run_result *res)
+{
+    char gname[DM_RUN_ID_MAX];
+    safe_name(spec->id, gname, sizeof gname);
+    hid_t g = H5Gcreate2(runs, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0)
+        return -1;
+    const dm_instance *inst = &spec->inst;
+    const dm_problem *pr = inst->problem;
+    const dm_method *m = spec->method;
+    const dm_run_metrics *mt = &res->metrics;
+    bool adaptive = m->adaptive;
+    int rc = 0;
+
+    /* the problem */
+    rc |= attr_text(g, "problem", pr->id);
+    char given[512] = "";
+    size_t used = 0;
+    for (int i = 0; i < pr->n_params; i++) {
+        char aname[96];
+        snprintf(aname, sizeof aname, "param_%s", pr->params[i].name);
+        rc |= attr_double(g, aname, inst->par[i]);
+        if ((inst->given & (1u << i)) && used < sizeof given) {
+            int w = snprintf(given + used, sizeof given - used, "%s%s", used ? "," : "",
+                             pr->params[i].name);
+            used += w > 0 ? (size_t)w : 0;
+        }
+    }
+    rc |= attr_text(g, "given_parameters", given);
+    rc |= attr_text(g, "regime", pr->regimes[inst->regime].id);
+    rc |= attr_double(g, "energy", inst->energy);
+    rc |= attr_double(g, "period", inst->period);
+    rc |= attr_double(g, "first_crossing", inst->first_crossing);
+
+    /* the method */
+    rc |= attr_text(g, "method", m->id);
+    rc |= attr_text(g, "method_name", m->name);
+    rc |= attr_text(g, "method_family", dm_family_name(m->family));
+    rc |= attr_int(g, "method_order", m->order);
+    rc |= attr_bool(g, "method_symplectic", m->symplectic);
+    rc |= attr_bool(g, "method_symmetric", m->symmetric);
+    rc |= attr_bool(g, "method_adaptive", m->adaptive);
+    rc |= attr_double(g, "h", adaptive ? NAN : spec->method_config.h);
+    rc |= attr_double(g, "rtol", adaptive ? spec->method_config.rtol : NAN);
+    rc |= attr_double(g, "atol", adaptive ? spec->method_config.atol : NAN);
+    rc |= attr_bool(g, "compensated", spec->method_config.compensated);
+    rc |= attr_text(g, "knob", knob_name(spec->knob));
+    rc |= attr_double(g, "knob_value", spec->knob_value);
+
+    /* the run */
+    rc |= attr_text(g, "run_id", spec->id);
+    rc |= attr_text(g, "hash", spec->hash);
+    rc |= attr_text(g, "config", spec->config);
+    rc |= attr_double(g, "t_end", spec->t_end);
+    rc |= attr_double(g, "periods", spec->periods);
+    rc |= attr_u64(g, "samples", spec->samples);
+    rc |= attr_text(g, "sweep", spec->sweep >= 0 && (size_t)spec->sweep < suite->n_sweeps
+                                    ? suite->sweeps[spec->sweep].name
+                                    : "");
+    dm_summary_row row;
+    dm_summary_row_fill(&row, spec, res);
+    rc |= attr_text(g, "status", row.status);
+    rc |= attr_text(g, "reason", res->reason);
+
+    /* metrics */
+    rc |= attr_double(g, "energy_scale", mt->energy_scale);
+    rc |= attr_text(g, "energy_scale_rule", mt->energy_scale_rule ? mt->energy_scale_rule : "");
+    rc |= attr_double(g, "max_energy_error", mt->max_energy_error);
+    rc |= attr_double(g, "final_energy_error", mt->final_energy_error);
+    rc |= attr_double(g, "energy_drift_per_period", mt->energy_drift_per_period);
+    rc |= attr_double(g, "drift_exponent", mt->drift_exponent);
+    rc |= attr_double(g, "period_exact", mt->period_exact);
+    rc |= attr_double(g, "period_measured", mt->period_measured);
+    rc |= attr_double(g, "period_rel_error", mt->period_rel_error);
+    rc |= attr_double(g, "phase_error_per_period", mt->phase_error_per_period);
+    rc |= attr_double(g, "phase_error_final", mt->phase_error_final);
+    rc |= attr_double(g, "max_global_error", mt->max_global_error);
+    rc |= attr_double(g, "t_reached", mt->t_reached);
+    rc |= attr_double(g, "wall_seconds", mt->wall_seconds);
+    rc |= attr_double(g, "ns_per_step", mt->ns_per_step);
+    rc |= attr_u64(g, "crossings_total", res->crossings.total);
+    rc |= attr_u64(g, "crossings_stride", res->crossings.stride);
+
+    /* work counted by the method: every dm_counts field */
+    const dm_counts *k = &mt->counts;
+    rc |= attr_u64(g, "steps", k->steps);
+    rc |= attr_u64(g, "force_evals", k->force_evals);
+    rc |= attr_u64(g, "velocity_evals", k->velocity_evals);
+    rc |= attr_u64(g, "rhs_evals", k->rhs_evals);
+    rc |= attr_u64(g, "jac_evals", k->jac_evals);
+    rc |= attr_u64(g, "error_test_fails", k->error_test_fails);
+    rc |= attr_u64(g, "conv_fails", k->conv_fails);
+    rc |= attr_u64(g, "nonlin_iters", k->nonlin_iters);
+    rc |= attr_u64(g, "max_iters_in_step", k->max_iters_in_step);
+
+    /* series and crossings */
+    const dm_series *s = &res->series;
+    rc |= dataset_double(g, "time", s->time, s->n);
+    rc |= dataset_double(g, "energy_error", s->energy_error, s->n);
+    rc |= dataset_double(g, "energy_error_min", s->energy_error_min, s->n);
+    rc |= dataset_double(g, "energy_error_max", s->energy_error_max, s->n);
+    if (s->global_error != NULL)
+        rc |= dataset_double(g, "global_error", s->global_error, s->n);
+    for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++) {
+        if (s->invariant_error[i] == NULL)
+            continue;
+        const char *inv = i < pr->n_invariants && pr->invariant_names[i]
+                              ? pr->invariant_names[i]
+                              : "invariant";
+        char raw[96], dname[96];
+        snprintf(raw, sizeof raw, "%s_error", inv);
+        safe_name(raw, dname, sizeof dname);
+        rc |= dataset_double(g, dname, s->invariant_error[i], s->n);
+        snprintf(raw, sizeof raw, "max_%s_error", inv);
+        safe_name(raw, dname, sizeof dname);
+        rc |= attr_double(g, dname, mt->max_invariant_error[i]);
+    }
+    const dm_crossings *c = &res->crossings;
+    rc |= dataset_double(g, "crossing_number", c->number, c->n);
+    rc |= dataset_double(g, "crossing_time", c->time, c->n);
+    rc |= dataset_double(g, "phase_error", c->phase_error, c->n);
+
+    if (H5Gclose(g) < 0)
+        rc = -1;
+    return rc;
+}
+
+static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
+                       const dm_run_result *results, const dm_sweep_fit *fit)
+{
+    char gname[DM_RUN_ID_MAX];
+    safe_name(sw->name, gname, sizeof gname);
+    hid_t g = H5Gcreate2(sweeps, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0)
+        return -1;
+    size_t n = sw->n_runs;
+    const char **ids = calloc(n ? n : 1, sizeof *ids);
+    double *knob = calloc(n ? n : 1, sizeof *knob);
+    double *h = calloc(n ? n : 1, sizeof *h);
+    double *energy = calloc(n ? n : 1, sizeof *energy);
+    double *phase = calloc(n ? n : 1, sizeof *phase);
+    uint64_t *evals = calloc(n ? n : 1, sizeof *evals);
+    int rc = -1;
+    if (ids && knob && h && energy && phase && evals) {
+        size_t kept = 0;
+        for (size_t i = 0; i < sw->n_runs; i++) {
+            const dm_run_spec *spec = &suite->runs[sw->runs[i]];
+            const dm_run_result *res = &results[sw->runs[i]];
+            if (res->status == DM_RUN_NOT_RUN)
+                continue;
+            ids[kept] = spec->id;
+            knob[kept] = spec->knob_value;
+            h[kept] = sw->knob == DM_KNOB_RTOL ? spec->method_config.rtol
+                                               : spec->method_config.h;
+            energy[kept] = res->metrics.max_energy_error;
+            phase[kept] = res->metrics.phase_error_per_period;
+            evals[kept] = res->metrics.counts.force_evals;
+            kept++;
+        }
+        n = kept;
+        rc = 0;
+        rc |= attr_text(g, "knob", knob_name(sw->knob));
+        rc |= attr_double(g, "energy_order", fit ? fit->energy_order : NAN);
+        rc |= attr_double(g, "phase_order", fit ? fit->phase_order : NAN);
+        rc |= attr_u64(g, "n_points", fit ? fit->n_points : 0);
+        rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
+        rc |= dataset_strings(g, "run_id", ids, n);
+        rc |= dataset_double(g, sw->knob == DM_KNOB_RTOL ? "rtol" : "h", h, n);
+        if (sw->knob == DM_KNOB_STEPS_PER_PERIOD)
+            rc |= dataset_double(g, "steps_per_period", knob, n);
+        rc |= dataset_u64(g, "force_evals", evals, n);
+        rc |= dataset_double(g, "max_energy_error", energy, n);
+        rc |= dataset_double(g, "phase_error_per_period", phase, n);
+    }
+    free(ids);
+    free(knob);
+    free(h);
+    free(energy);
+    free(phase);
+    free(evals);
+    if (H5Gclose(g) < 0)
+        rc = -1;
+    return rc;
+}
+
+static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_result *results,
+                           const dm_sweep_fit *fits, const char *start_time_utc,
+                           const char **what)
+{
+    *what = "root attributes";
+    if (write_root(file, suite, start_time_utc) != 0)
+        return DM_EIO;
+
+    /* Runs that never started (DM_RUN_NOT_RUN) are left out everywhere. */
+    *what = "/summary";
+    dm_summary_row *rows = calloc(suite->n_runs ? suite->n_runs : 1, sizeof *rows);
+    if (rows == NULL)
+        return DM_ENOMEM;
+    size_t n_rows = 0;
+    for (size_t i = 0; i < suite->n_runs; i++)
+        if (results[i].status != DM_RUN_NOT_RUN)
+            dm_summary_row_fill(&rows[n_rows++], &suite->runs[i], &results[i]);
+    int rc = write_summary(file, rows, n_rows);
+    free(rows);
+    rc |= attr_u64(file, "n_runs_written", n_rows);
+    if (rc != 0)
+        return DM_EIO;
+
+    *what = "/runs";
+    hid_t runs = H5Gcreate2(file, "runs", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (runs < 0)
+        return DM_EIO;
+    for (size_t i = 0; i < suite->n_runs && rc == 0; i++)
+        if (results[i].status != DM_RUN_NOT_RUN)
+            rc = write_run(runs, suite, &suite->runs[i], &results[i]);
+    if (H5Gclose(runs) < 0 || rc != 0)
+        return DM_EIO;
+
+    *what = "/sweeps";
+    hid_t sweeps = H5Gcreate2(file, "sweeps", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (sweeps < 0)
+        return DM_EIO;
+    for (size_t i = 0; i < suite->n_sweeps && rc == 0; i++)
+        rc = write_sweep(sweeps, suite, &suite->sweeps[i], results, fits ? &fits[i] : NULL);
+    if (H5Gclose(sweeps) < 0 || rc != 0)
+        return DM_EIO;
+    return DM_OK;
+}
+
+dm_status dm_results_write(const char *path, const dm_suite *suite,
+                           const dm_run_result *results, const dm_sweep_fit *fits,
+                           const char *start_time_utc, dm_error *err)
+{
+    /* ".NAME.tmp-PID" in the target's directory: rename() is atomic only within one
+     * file system, and the dot keeps it out of plain listings. */
+    char tmp[1200];
+    const char *slash = strrchr(path, '/');
+    const char *base = slash ? slash + 1 : path;
+    int dir_len = slash ? (int)(slash - path + 1) : 0;
+    if (*base == '\0')
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name", path);
+    int w = snprintf(tmp, sizeof tmp, "%.*s.%s.tmp-%ld", dir_len, path, base, (long)getpid());
+    if (w < 0 || (size_t)w >= sizeof tmp)
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': path too long", path);
+
+    quiet_hdf5 q;
+    hdf5_quiet(&q);
+    /* Strong close: closing the file also closes anything a failed write left open. */
+    hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
+    if (fapl >= 0)
+        H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG);
+    errno = 0;
+    hid_t file = H5Fcreate(tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl >= 0 ? fapl : H5P_DEFAULT);
+    int create_errno = errno;
+    if (fapl >= 0)
+        H5Pclose(fapl);
+    if (file < 0) {
+        hdf5_restore(&q);
+        unlink(tmp);
+        return dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", tmp,
+                            create_errno ? strerror(create_errno) : "HDF5 refused to create it");
+    }
+    const char *what = "";
+    dm_status st = write_all(file, suite, results, fits, start_time_utc, &what);
+    errno = 0;
+    if (H5Fclose(file) < 0 && st == DM_OK) {
+        st = DM_EIO;
+        what = "closing the file";
+    }
+    int close_errno = errno;
+    hdf5_restore(&q);
+    if (st != DM_OK) {
+        unlink(tmp);
+        if (st == DM_ENOMEM)
+            return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': writing %s failed%s%s",
+                            path, what, close_errno ? ": " : "",
+                            close_errno ? strerror(close_errno) : "");
+    }
+    if (rename(tmp, path) != 0) {
+        int e = errno;
+        unlink(tmp);
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': rename from '%s' "
+                            "failed: %s", path, tmp, strerror(e));
+    }
+    return DM_OK;
+}
+
+/* ---- reading /summary back ---- */
+
+/* Reads a text attribute, fixed-length or variable-length, into buf. Returns 0 or -1. */
+static int read_text_attr(hid_t loc, const char *name, char *buf, size_t size)
+{
+    if (H5Aexists(loc, name) <= 0)
+        return -1;
+    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
+    if (a < 0)
+        return -1;
+    int rc = -1;
+    hid_t ft = H5Aget_type(a);
+    hid_t space = H5Aget_space(a);
+    if (ft >= 0 && space >= 0 && H5Tget_class(ft) == H5T_STRING &&
+        H5Sget_simple_extent_npoints(space) == 1) {
+        /* The memory type copies the file's character set: HDF5 does not convert
+         * between ASCII and UTF-8. */
+        if (H5Tis_variable_str(ft) > 0) {
+            hid_t mt = H5Tcopy(ft);
+            char *value = NULL;
+            if (mt >= 0 && H5Aread(a, mt, &value) >= 0 && value != NULL) {
+                snprintf(buf, size, "%s", value);
+                rc = 0;
+            }
+            if (value != NULL)
+                H5free_memory(value);
+            if (mt >= 0)
+                H5Tclose(mt);
+        } else {
+            size_t n = H5Tget_size(ft);
+            char *value = calloc(n + 1, 1);
+            hid_t mt = H5Tcopy(ft);
+            if (value && mt >= 0 && H5Tset_size(mt, n + 1) >= 0 &&
+                H5Tset_strpad(mt, H5T_STR_NULLTERM) >= 0 && H5Aread(a, mt, value) >= 0) {
+                snprintf(buf, size, "%s", value);
+                rc = 0;
+            }
+            free(value);
+            if (mt >= 0)
+                H5Tclose(mt);
+        }
+    }
+    if (space >= 0)
+        H5Sclose(space);
+    if (ft >= 0)
+        H5Tclose(ft);
+    H5Aclose(a);
+    return rc;
+}
+
+static int read_int_attr(hid_t loc, const char *name, long long *out)
+{
+    if (H5Aexists(loc, name) <= 0)
+        return -1;
+    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
+    if (a < 0)
+        return -1;
+    int rc = -1;
+    hid_t ft = H5Aget_type(a);
+    if (ft >= 0 && H5Tget_class(ft) == H5T_INTEGER && H5Aread(a, H5T_NATIVE_LLONG, out) >= 0)
+        rc = 0;
+    if (ft >= 0)
+        H5Tclose(ft);
+    H5Aclose(a);
+    return rc;
+}
+
+static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
+                                   size_t *n, dm_error *err)
+{
+    char format[64] = "";
+    if (read_text_attr(file, "format", format, sizeof format) != 0 ||
+        strcmp(format, DM_FORMAT_NAME) != 0)
+        return dm_error_set(err, DM_EINPUT, "%s is not a driftmark results file (its root has "
+                            "no format attribute \"%s\")", path, DM_FORMAT_NAME);
+    long long schema = 0;
+    if (read_int_attr(file, "schema_version", &schema) != 0)
+        return dm_error_set(err, DM_EINPUT, "%s is not a driftmark results file (no "
+                            "schema_version attribute)", path);
+    if (schema > DM_SCHEMA_VERSION)
+        return dm_error_set(err, DM_EINPUT, "%s was written by a newer driftmark (schema %lld; "
+                            "this one reads schema %d and older)", path, schema,
+                            DM_SCHEMA_VERSION);
+    if (H5Lexists(file, "summary", H5P_DEFAULT) <= 0)
+        return dm_error_set(err, DM_EIO, "cannot read %s: it has no /summary dataset", path);
+    hid_t d = H5Dopen2(file, "summary", H5P_DEFAULT);
+    if (d < 0)
+        return dm_error_set(err, DM_EIO, "cannot read %s: /summary is damaged", path);
+    dm_status st = DM_OK;
+    hid_t space = H5Dget_space(d);
+    hid_t ft = H5Dget_type(d);
+    hid_t mt = summary_type(false);
+    hssize_t count = space >= 0 ? H5Sget_simple_extent_npoints(space) : -1;
+    if (count < 0 || ft < 0 || mt < 0 || H5Tget_class(ft) != H5T_COMPOUND ||
+        H5Sget_simple_extent_ndims(space) != 1) {
+        st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is not a table of runs", path);
+    } else {
+        dm_summary_row *buf = calloc(count > 0 ? (size_t)count : 1, sizeof *buf);
+        if (buf == NULL) {
+            st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        } else if (count > 0 && H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) < 0) {
+            free(buf);
+            st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is damaged or truncated",
+                              path);
+        } else {
+            for (hssize_t i = 0; i < count; i++) {
+                /* Never trust a file's strings to be terminated. */
+                buf[i].run_id[sizeof buf[i].run_id - 1] = '\0';
+                buf[i].hash[sizeof buf[i].hash - 1] = '\0';
+                buf[i].problem[sizeof buf[i].problem - 1] = '\0';
+                buf[i].regime[sizeof buf[i].regime - 1] = '\0';
+                buf[i].method[sizeof buf[i].method - 1] = '\0';
+                buf[i].status[sizeof buf[i].status - 1] = '\0';
+                buf[i].reason[sizeof buf[i].reason - 1] = '\0';
+            }
+            *rows = buf;
+            *n = (size_t)count;
+        }
+    }
+    if (mt >= 0)
+        H5Tclose(mt);
+    if (ft >= 0)
+        H5Tclose(ft);
+    if (space >= 0)
+        H5Sclose(space);
+    H5Dclose(d);
+    return st;
+}
+
+dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,
+                                  dm_error *err)
+{
+    *rows = NULL;
+    *n = 0;
+    FILE *f = fopen(path, "rb");
+    if (f == NULL)
+        return dm_error_set(err, DM_EIO, "cannot open %s: %s", path, strerror(errno));
+    fclose(f);
+    quiet_hdf5 q;
+    hdf5_quiet(&q);
+    dm_status st;
+    hid_t file = H5Fis_hdf5(path) > 0 ? H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT) : -1;
+    if (file < 0) {
+        st = dm_error_set(err, DM_EIO, "cannot read %s: not an HDF5 file or truncated", path);
+    } else {
+        st = read_summary_open(file, path, rows, n, err);
+        H5Fclose(file);
+    }
+    hdf5_restore(&q);
+    return st;
+}

@@ -1,0 +1,1279 @@
+/* suite.c — YAML suite text -> a validated dm_suite (the list of runs and sweeps).
+ *
+ * libyaml's document API builds the node tree (every node carries its line and column);
+ * this file only walks it. Everything is checked before anything runs: a suite that
+ * would fail after an hour of integration because of a typo in its last entry is
+ * refused at once, with one line "FILE:LINE:COLUMN: what is wrong (what was expected)".
+ *
+ * Expansion: every problem entry gives one or more variants (a list of values is a
+ * sweep over that parameter; several lists form their product, parameters in the
+ * problem table's order, the first one outermost). The runs are
+ *   for each problem variant, for each method entry, for each knob value
+ * in file order. A (variant, method entry) pair with two or more knob values is a sweep.
+ */
+#include <errno.h>
+#include <inttypes.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <yaml.h>
+
+#include "harness.h"
+
+#define DM_DEFAULT_SAMPLES 4096
+#define DM_MAX_SAMPLES 10000000
+#define DM_DEFAULT_STEP_BUDGET 1e10
+#define DM_MAX_PERIODS 1e12
+#define DM_RTOL_MIN 1e-14
+#define DM_RTOL_MAX 1e-1
+#define DM_RANGE_MAX 100          /* values one {from, to, factor} range may give */
+#define DM_LIST_MAX 1000          /* values one list may give */
+#define DM_SUITE_MAX_RUNS 10000   /* runs one suite may expand to */
+/* The CVODE adapter's own rule when atol is not given (integrators/cvode.c): a
+ * thousandth of rtol. Resolved here so the configuration text and hash record it. */
+#define DM_ATOL_PER_RTOL 1e-3
+
+/* ---- locations and errors ---- */
+
+typedef struct parse_ctx {
+    yaml_document_t *doc;
+    const char *source;
+    dm_error *err;
+} parse_ctx;
+
+static size_t node_line(const yaml_node_t *node)
+{
+    return node->start_mark.line + 1;
+}
+
+static size_t node_column(const yaml_node_t *node)
+{
+    return node->start_mark.column + 1;
+}
+
+static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+
+static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
+{
+    char what[DM_ERROR_MSG_MAX];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(what, sizeof what, fmt, ap);
+    va_end(ap);
+    return dm_error_set(c->err, DM_EINPUT, "%s:%zu:%zu: %s", c->source, node_line(node),
+                        node_column(node), what);
+}
+
+/* Adds the location of `node` in front of an error written elsewhere
+ * (dm_instance_init's parameter and regime messages). */
+static dm_status prefix_at(parse_ctx *c, const yaml_node_t *node)
+{
+    dm_error_prefix(c->err, "%s:%zu:%zu: ", c->source, node_line(node), node_column(node));
+    c->err->code = DM_EINPUT;
+    return DM_EINPUT;
+}
+
+static yaml_node_t *node_at(parse_ctx *c, int index)
+{
+    return yaml_document_get_node(c->doc, index);
+}
+
+static const char *node_kind(const yaml_node_t *node)
+{
+    switch (node->type) {
+    case YAML_SCALAR_NODE: return "a scalar";
+    case YAML_SEQUENCE_NODE: return "a list";
+    case YAML_MAPPING_NODE: return "a mapping";
+    default: return "an empty node";
+    }
+}
+
+static const char *scalar_text(const yaml_node_t *node)
+{
+    return (const char *)node->data.scalar.value;
+}
+
+static bool scalar_is_quoted(const yaml_node_t *node)
+{
+    return node->data.scalar.style == YAML_SINGLE_QUOTED_SCALAR_STYLE ||
+           node->data.scalar.style == YAML_DOUBLE_QUOTED_SCALAR_STYLE;
+}
+
+/* "a, b, c" for an "(expected one of ...)" hint. */
+static void join_names(const char *const *names, size_t n, char *buf, size_t size)
+{
+    buf[0] = '\0';
+    size_t used = 0;
+    for (size_t i = 0; i < n && used + 1 < size; i++) {
+        int w = snprintf(buf + used, size - used, "%s%s", i ? ", " : "", names[i]);
+        if (w < 0)
+            break;
+        used += (size_t)w;
+    }
+}
+
+static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
+                              const char *word, const char *const *names, size_t n)
+{
+    const char *hint = dm_suggest(word, names, n);
+    if (hint != NULL)
+        return fail_at(c, node, "unknown %s '%s' (did you mean '%s'?)", what, word, hint);
+    char list[400];
+    join_names(names, n, list, sizeof list);
+    return fail_at(c, node, "unknown %s '%s' (expected one of: %s)", what, word, list);
+}
+
+/* ---- scalar readers ---- */
+
+static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
+                         const char **name)
+{
+    *key = node_at(c, pair->key);
+    if ((*key)->type != YAML_SCALAR_NODE)
+        return fail_at(c, *key, "a key must be a plain name, found %s (expected name: value)",
+                       node_kind(*key));
+    *name = scalar_text(*key);
+    return DM_OK;
+}
+
+/* A mapping must not give a key twice (libyaml accepts it; YAML forbids it). */
+static dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
+{
+    for (const yaml_node_pair_t *a = map->data.mapping.pairs.start;
+         a < map->data.mapping.pairs.top; a++) {
+        yaml_node_t *ka = node_at(c, a->key);
+        if (ka->type != YAML_SCALAR_NODE)
+            continue;
+        for (const yaml_node_pair_t *b = map->data.mapping.pairs.start; b < a; b++) {
+            yaml_node_t *kb = node_at(c, b->key);
+            if (kb->type == YAML_SCALAR_NODE && strcmp(scalar_text(ka), scalar_text(kb)) == 0)
+                return fail_at(c, ka, "key '%s' given twice (first at line %zu)",
+                               scalar_text(ka), node_line(kb));
+        }
+    }
+    return DM_OK;
+}
+
+static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
+                            double *out)
+{
+    if (node->type != YAML_SCALAR_NODE)
+        return fail_at(c, node, "%s must be a number, found %s (expected a number such as 0.5)",
+                       what, node_kind(node));
+    if (!scalar_is_quoted(node) && scalar_text(node)[0] == '\0')
+        return fail_at(c, node, "%s has no value (expected a number)", what);
+    if (scalar_is_quoted(node))
+        return fail_at(c, node,
+                       "%s must be a number, found the quoted string \"%s\" (expected an "
+                       "unquoted number)",
+                       what, scalar_text(node));
+    if (dm_parse_double(scalar_text(node), out) != 0)
+        return fail_at(c, node,
+                       "%s: '%s' is not a finite number (expected a number such as 0.5 or "
+                       "1.0e-3)",
+                       what, scalar_text(node));
+    return DM_OK;
+}
+
+static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
+                              double *out)
+{
+    dm_status st = get_number(c, node, what, out);
+    if (st != DM_OK)
+        return st;
+    if (!(*out > 0.0))
+        return fail_at(c, node, "%s = %g must be positive (expected a number > 0)", what, *out);
+    return DM_OK;
+}
+
+static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
+                           double lo, double hi, double *out)
+{
+    dm_status st = get_number(c, node, what, out);
+    if (st != DM_OK)
+        return st;
+    if (*out != floor(*out) || *out < lo || *out > hi)
+        return fail_at(c, node, "%s = %s is out of range (expected a whole number in [%.0f, %.0f])",
+                       what, scalar_text(node), lo, hi);
+    return DM_OK;
+}
+
+static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
+{
+    if (node->type == YAML_SCALAR_NODE && !scalar_is_quoted(node)) {
+        if (strcmp(scalar_text(node), "true") == 0) {
+            *out = true;
+            return DM_OK;
+        }
+        if (strcmp(scalar_text(node), "false") == 0) {
+            *out = false;
+            return DM_OK;
+        }
+    }
+    if (node->type != YAML_SCALAR_NODE)
+        return fail_at(c, node, "%s must be true or false, found %s", what, node_kind(node));
+    return fail_at(c, node, "%s: '%s' is not a boolean (expected true or false)", what,
+                   scalar_text(node));
+}
+
+static dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
+                            char *buf, size_t size)
+{
+    if (node->type != YAML_SCALAR_NODE)
+        return fail_at(c, node, "%s must be a text, found %s", what, node_kind(node));
+    const char *s = scalar_text(node);
+    if (s[0] == '\0')
+        return fail_at(c, node, "%s is empty (expected a non-empty text)", what);
+    if (strlen(s) >= size)
+        return fail_at(c, node, "%s is too long (expected at most %zu characters)", what,
+                       size - 1);
+    memcpy(buf, s, strlen(s) + 1);
+    return DM_OK;
+}
+
+/* ---- value lists: a scalar, a list, or (for knobs) a geometric range ---- */
+
+typedef struct value_list {
+    size_t n;
+    double v[DM_LIST_MAX];
+    const yaml_node_t *node[DM_LIST_MAX];  /* where each value was written */
+} value_list;
+
+/* {from, to, factor}: from * factor^k for k = 0, 1, ... up to `to` inclusive (within
+ * a relative 1e-9, so that 0.1 * 0.5^3 reaches 0.0125); the last value is `to`
+ * itself when it lands there. */
+static dm_status get_range(parse_ctx *c, const yaml_node_t *map, const char *what,
+                           bool whole, value_list *out)
+{
+    static const char *const keys[] = { "from", "to", "factor" };
+    const yaml_node_t *found[3] = { NULL, NULL, NULL };
+    double val[3] = { 0, 0, 0 };
+    dm_status st = check_unique_keys(c, map);
+    if (st != DM_OK)
+        return st;
+    for (const yaml_node_pair_t *p = map->data.mapping.pairs.start;
+         p < map->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        int k = -1;
+        for (int i = 0; i < 3; i++)
+            if (strcmp(name, keys[i]) == 0)
+                k = i;
+        if (k < 0)
+            return fail_unknown(c, key, "range key", name, keys, 3);
+        found[k] = node_at(c, p->value);
+        char label[80];
+        snprintf(label, sizeof label, "%s %s", what, keys[k]);
+        if ((st = get_positive(c, found[k], label, &val[k])) != DM_OK)
+            return st;
+    }
+    for (int i = 0; i < 3; i++)
+        if (found[i] == NULL)
+            return fail_at(c, map, "%s range lacks '%s' (expected {from: A, to: B, factor: F})",
+                           what, keys[i]);
+    double from = val[0], to = val[1], factor = val[2];
+    if (factor == 1.0)
+        return fail_at(c, found[2], "%s range factor is 1 (expected > 1 going up or < 1 going "
+                       "down)", what);
+    if (factor > 1.0 && to < from)
+        return fail_at(c, found[1], "%s range goes up (factor %g) but to = %g is below from = "
+                       "%g (expected to >= from, or a factor < 1)", what, factor, to, from);
+    if (factor < 1.0 && to > from)
+        return fail_at(c, found[1], "%s range goes down (factor %g) but to = %g is above from "
+                       "= %g (expected to <= from, or a factor > 1)", what, factor, to, from);
+    out->n = 0;
+    const double slack = 1e-9;
+    for (int k = 0;; k++) {
+        double v = from * pow(factor, k);
+        bool past = factor > 1.0 ? v > to * (1 + slack) : v < to * (1 - slack);
+        if (past)
+            break;
+        if (fabs(v - to) <= slack * to)
+            v = to;
+        if (whole)
+            v = round(v);
+        if (whole && out->n > 0 && v == out->v[out->n - 1])
+            continue; /* rounding merged two neighbours */
+        if (out->n == DM_RANGE_MAX)
+            return fail_at(c, map, "%s range gives more than %d values (expected a shorter "
+                           "range or a larger factor)", what, DM_RANGE_MAX);
+        out->v[out->n] = v;
+        out->node[out->n] = map;
+        out->n++;
+    }
+    return DM_OK;
+}
+
+static dm_status get_values(parse_ctx *c, const yaml_node_t *node, const char *what,
+                            bool allow_range, bool whole, value_list *out)
+{
+    dm_status st;
+    out->n = 0;
+    if (node->type == YAML_SCALAR_NODE) {
+        if ((st = get_number(c, node, what, &out->v[0])) != DM_OK)
+            return st;
+        out->node[0] = node;
+        out->n = 1;
+        return DM_OK;
+    }
+    if (node->type == YAML_SEQUENCE_NODE) {
+        const yaml_node_item_t *start = node->data.sequence.items.start;
+        const yaml_node_item_t *top = node->data.sequence.items.top;
+        if (top == start)
+            return fail_at(c, node, "%s is an empty list (expected at least one value)", what);
+        if (top - start > DM_LIST_MAX)
+            return fail_at(c, node, "%s lists more than %d values", what, DM_LIST_MAX);
+        for (const yaml_node_item_t *it = start; it < top; it++) {
+            yaml_node_t *item = node_at(c, *it);
+            if ((st = get_number(c, item, what, &out->v[out->n])) != DM_OK)
+                return st;
+            out->node[out->n++] = item;
+        }
+        return DM_OK;
+    }
+    if (node->type == YAML_MAPPING_NODE && allow_range)
+        return get_range(c, node, what, whole, out);
+    return fail_at(c, node, "%s must be a number or a list of numbers%s, found %s", what,
+                   allow_range ? " or {from, to, factor}" : "", node_kind(node));
+}
+
+/* ---- the parsed entries ---- */
+
+typedef struct problem_entry {
+    const yaml_node_t *node;
+    const dm_problem *problem;
+    int n_given;
+    int param[DM_MAX_PARAMS];         /* table indices of the given parameters, ascending */
+    value_list *values[DM_MAX_PARAMS];
+} problem_entry;
+
+typedef struct method_entry {
+    const yaml_node_t *node;
+    const dm_method *method;
+    dm_knob knob;
+    value_list *values;
+    bool atol_given;
+    double atol;
+    bool compensated;
+} method_entry;
+
+typedef struct variant {
+    const problem_entry *entry;
+    dm_instance inst;
+    size_t n_given;
+    const char *keys[DM_MAX_PARAMS];
+    double values[DM_MAX_PARAMS];
+    char part[DM_RUN_ID_MAX];         /* "pendulum-amplitude2.5" */
+} variant;
+
+typedef struct suite_build {
+    parse_ctx ctx;
+    problem_entry *problems;
+    size_t n_problems;
+    method_entry *methods;
+    size_t n_methods;
+    const yaml_node_t *horizon_node;
+    bool horizon_in_periods;
+    double horizon;
+    size_t samples;
+    double energy_limit;
+    double step_budget;
+    const yaml_node_t *output_node;   /* NULL: output derived from the name */
+    const char *output_override;      /* the command line's -o, or NULL */
+    const yaml_node_t *step_budget_node;
+    const yaml_node_t **run_nodes;    /* per run: where its knob value was written */
+} suite_build;
+
+static void build_free(suite_build *b)
+{
+    for (size_t i = 0; i < b->n_problems; i++)
+        for (int k = 0; k < b->problems[i].n_given; k++)
+            free(b->problems[i].values[k]);
+    free(b->problems);
+    for (size_t i = 0; i < b->n_methods; i++)
+        free(b->methods[i].values);
+    free(b->methods);
+    free(b->run_nodes);
+}
+
+static const char *const top_keys[] = { "name", "output", "horizon", "samples",
+                                        "energy_limit", "step_budget", "problems",
+                                        "methods" };
+enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_SAMPLES, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
+       TOP_PROBLEMS, TOP_METHODS, TOP_COUNT };
+
+static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
+{
+    parse_ctx *c = &b->ctx;
+    static const char *const keys[] = { "periods", "time" };
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "horizon must be a mapping, found %s (expected {periods: N} "
+                       "or {time: T})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    if (st != DM_OK)
+        return st;
+    const yaml_node_pair_t *start = node->data.mapping.pairs.start;
+    const yaml_node_pair_t *top = node->data.mapping.pairs.top;
+    if (top == start)
+        return fail_at(c, node, "horizon is empty (expected {periods: N} or {time: T})");
+    for (const yaml_node_pair_t *p = start; p < top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        bool periods = strcmp(name, "periods") == 0;
+        if (!periods && strcmp(name, "time") != 0)
+            return fail_unknown(c, key, "horizon key", name, keys, 2);
+        if (p > start)
+            return fail_at(c, key, "horizon gives both periods and time (expected one of them)");
+        const yaml_node_t *value = node_at(c, p->value);
+        if ((st = get_positive(c, value, periods ? "horizon periods" : "horizon time",
+                               &b->horizon)) != DM_OK)
+            return st;
+        if (periods && b->horizon > DM_MAX_PERIODS)
+            return fail_at(c, value, "horizon of %g periods is too long (expected at most %g)",
+                           b->horizon, DM_MAX_PERIODS);
+        b->horizon_in_periods = periods;
+        b->horizon_node = value;
+    }
+    return DM_OK;
+}
+
+static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
+                                     problem_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    memset(e, 0, sizeof *e);
+    e->node = node;
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a problems entry must be a mapping, found %s (expected "
+                       "{problem: NAME, parameter: value, ...})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    if (st != DM_OK)
+        return st;
+    /* First find which problem, wherever its key stands, then read its parameters. */
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        if (strcmp(name, "problem") != 0)
+            continue;
+        const yaml_node_t *value = node_at(c, p->value);
+        char id[DM_NAME_MAX];
+        if ((st = get_string(c, value, "problem", id, sizeof id)) != DM_OK)
+            return st;
+        e->problem = dm_problem_find(id);
+        if (e->problem == NULL) {
+            const char *names[64];
+            size_t n = dm_problem_count < 64 ? dm_problem_count : 64;
+            for (size_t i = 0; i < n; i++)
+                names[i] = dm_problems[i]->id;
+            return fail_unknown(c, value, "problem", id, names, n);
+        }
+    }
+    if (e->problem == NULL)
+        return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...})");
+
+    const dm_problem *pr = e->problem;
+    const char *names[DM_MAX_PARAMS];
+    for (int i = 0; i < pr->n_params; i++)
+        names[i] = pr->params[i].name;
+    value_list *by_param[DM_MAX_PARAMS] = { NULL };
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        get_key(c, p, &key, &name);
+        if (strcmp(name, "problem") == 0)
+            continue;
+        int i = dm_problem_param_index(pr, name);
+        if (i < 0) {
+            char what[80];
+            snprintf(what, sizeof what, "%s parameter", pr->id);
+            st = fail_unknown(c, key, what, name, names, (size_t)pr->n_params);
+            goto fail;
+        }
+        by_param[i] = malloc(sizeof *by_param[i]);
+        if (by_param[i] == NULL) {
+            st = dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
+            goto fail;
+        }
+        char what[80];
+        snprintf(what, sizeof what, "%s %s", pr->id, name);
+        if ((st = get_values(c, node_at(c, p->value), what, false, false, by_param[i])) !=
+            DM_OK)
+            goto fail;
+    }
+    /* Keep the given parameters in the table's order: ids and the variant product
+     * follow it, so they do not depend on how the user ordered the keys. */
+    for (int i = 0; i < pr->n_params; i++)
+        if (by_param[i] != NULL) {
+            e->param[e->n_given] = i;
+            e->values[e->n_given] = by_param[i];
+            e->n_given++;
+        }
+    return DM_OK;
+fail:
+    for (int i = 0; i < DM_MAX_PARAMS; i++)
+        free(by_param[i]);
+    return st;
+}
+
+static const char *knob_key(dm_knob knob)
+{
+    switch (knob) {
+    case DM_KNOB_H: return "h";
+    case DM_KNOB_STEPS_PER_PERIOD: return "steps_per_period";
+    case DM_KNOB_RTOL: return "rtol";
+    }
+    return "?";
+}
+
+static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, method_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    static const char *const keys[] = { "method", "h", "steps_per_period", "rtol", "atol",
+                                        "compensated" };
+    memset(e, 0, sizeof *e);
+    e->node = node;
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a methods entry must be a mapping, found %s (expected "
+                       "{method: NAME, h: STEP} or {method: NAME, rtol: TOL})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    if (st != DM_OK)
+        return st;
+    const yaml_node_pair_t *start = node->data.mapping.pairs.start;
+    const yaml_node_pair_t *top = node->data.mapping.pairs.top;
+    for (const yaml_node_pair_t *p = start; p < top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        size_t k = 0;
+        while (k < 6 && strcmp(name, keys[k]) != 0)
+            k++;
+        if (k == 6)
+            return fail_unknown(c, key, "method key", name, keys, 6);
+        if (k != 0)
+            continue;
+        const yaml_node_t *value = node_at(c, p->value);
+        char id[DM_NAME_MAX];
+        if ((st = get_string(c, value, "method", id, sizeof id)) != DM_OK)
+            return st;
+        e->method = dm_method_find(id);
+        if (e->method == NULL) {
+            const char *names[128];
+            size_t n = dm_method_count < 128 ? dm_method_count : 128;
+            for (size_t i = 0; i < n; i++)
+                names[i] = dm_methods[i]->id;
+            return fail_unknown(c, value, "method", id, names, n);
+        }
+    }
+    if (e->method == NULL)
+        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
+
+    const dm_method *m = e->method;
+    const yaml_node_t *knob_key_node = NULL;
+    const yaml_node_t *knob_value = NULL;
+    for (const yaml_node_pair_t *p = start; p < top; p++) {
+        yaml_node_t *key = node_at(c, p->key);
+        const char *name = scalar_text(key);
+        const yaml_node_t *value = node_at(c, p->value);
+        if (strcmp(name, "method") == 0)
+            continue;
+        if (strcmp(name, "compensated") == 0) {
+            if ((st = get_bool(c, value, "compensated", &e->compensated)) != DM_OK)
+                return st;
+            if (e->compensated && m->splitting == NULL)
+                return fail_at(c, key, "%s: compensated summation applies to splitting "
+                               "methods only (expected compensated: false or a splitting "
+                               "method)", m->id);
+            continue;
+        }
+        if (strcmp(name, "atol") == 0) {
+            if (!m->adaptive)
+                return fail_at(c, key, "%s is a fixed-step method: atol does not apply "
+                               "(expected h or steps_per_period)", m->id);
+            if ((st = get_positive(c, value, "atol", &e->atol)) != DM_OK)
+                return st;
+            e->atol_given = true;
+            continue;
+        }
+        dm_knob knob = strcmp(name, "h") == 0 ? DM_KNOB_H
+                       : strcmp(name, "steps_per_period") == 0 ? DM_KNOB_STEPS_PER_PERIOD
+                                                               : DM_KNOB_RTOL;
+        if (knob_key_node != NULL)
+            return fail_at(c, key, "%s given after %s (expected exactly one of h, "
+                           "steps_per_period, rtol)", name, scalar_text(knob_key_node));
+        if (m->adaptive && knob != DM_KNOB_RTOL)
+            return fail_at(c, key, "%s chooses its own steps: %s does not apply (expected "
+                           "rtol)", m->id, name);
+        if (!m->adaptive && knob == DM_KNOB_RTOL)
+            return fail_at(c, key, "%s is a fixed-step method: rtol does not apply (expected "
+                           "h or steps_per_period)", m->id);
+        knob_key_node = key;
+        knob_value = value;
+        e->knob = knob;
+    }
+    if (knob_key_node == NULL)
+        return fail_at(c, node, m->adaptive
+                                    ? "%s needs a tolerance (expected rtol: TOL)"
+                                    : "%s needs a step (expected h: STEP or "
+                                      "steps_per_period: N)",
+                       m->id);
+
+    e->values = malloc(sizeof *e->values);
+    if (e->values == NULL)
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
+    const char *what = knob_key(e->knob);
+    bool whole = e->knob == DM_KNOB_STEPS_PER_PERIOD;
+    if ((st = get_values(c, knob_value, what, true, whole, e->values)) != DM_OK)
+        return st;
+    for (size_t i = 0; i < e->values->n; i++) {
+        double v = e->values->v[i];
+        const yaml_node_t *at = e->values->node[i];
+        switch (e->knob) {
+        case DM_KNOB_H:
+            if (!(v > 0.0))
+                return fail_at(c, at, "h = %g must be positive (expected 0 < h < period)", v);
+            break;
+        case DM_KNOB_STEPS_PER_PERIOD:
+            if (!(v >= 1.0) || v != floor(v) || v > 1e15)
+                return fail_at(c, at, "steps_per_period = %g is not a whole number >= 1 "
+                               "(expected 1, 2, 3, ...)", v);
+            break;
+        case DM_KNOB_RTOL:
+            if (!(v >= DM_RTOL_MIN && v <= DM_RTOL_MAX))
+                return fail_at(c, at, "rtol = %g is outside [%g, %g] (expected a relative "
+                               "tolerance in that range)", v, DM_RTOL_MIN, DM_RTOL_MAX);
+            break;
+        }
+    }
+    return DM_OK;
+}
+
+static dm_status parse_list(suite_build *b, const yaml_node_t *node, bool problems)
+{
+    parse_ctx *c = &b->ctx;
+    const char *what = problems ? "problems" : "methods";
+    if (node->type != YAML_SEQUENCE_NODE)
+        return fail_at(c, node, "%s must be a list, found %s (expected entries starting with "
+                       "'- ')", what, node_kind(node));
+    const yaml_node_item_t *start = node->data.sequence.items.start;
+    const yaml_node_item_t *top = node->data.sequence.items.top;
+    size_t n = (size_t)(top - start);
+    if (n == 0)
+        return fail_at(c, node, "%s is an empty list (expected at least one entry)", what);
+    if (problems) {
+        b->problems = calloc(n, sizeof *b->problems);
+        if (b->problems == NULL)
+            return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
+    } else {
+        b->methods = calloc(n, sizeof *b->methods);
+        if (b->methods == NULL)
+            return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
+    }
+    for (const yaml_node_item_t *it = start; it < top; it++) {
+        const yaml_node_t *item = node_at(c, *it);
+        dm_status st;
+        if (problems) {
+            st = parse_problem_entry(b, item, &b->problems[b->n_problems]);
+            b->n_problems++; /* counted even on failure: build_free releases it */
+        } else {
+            st = parse_method_entry(b, item, &b->methods[b->n_methods]);
+            b->n_methods++;
+        }
+        if (st != DM_OK)
+            return st;
+    }
+    return DM_OK;
+}
+
+/* ---- expansion ---- */
+
+static uint64_t fnv1a64(const char *text)
+{
+    /* FNV-1a, 64-bit offset basis and prime (Fowler, Noll, Vo; IETF draft
+     * draft-eastlake-fnv, common practice). */
+    uint64_t h = UINT64_C(14695981039346656037);
+    for (const unsigned char *s = (const unsigned char *)text; *s; s++) {
+        h ^= *s;
+        h *= UINT64_C(1099511628211);
+    }
+    return h;
+}
+
+/* Appends to buf; returns false when it no longer fits. */
+static bool appendf(char *buf, size_t size, size_t *used, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+
+static bool appendf(char *buf, size_t size, size_t *used, const char *fmt, ...)
+{
+    if (*used >= size)
+        return false;
+    va_list ap;
+    va_start(ap, fmt);
+    int w = vsnprintf(buf + *used, size - *used, fmt, ap);
+    va_end(ap);
+    if (w < 0 || (size_t)w >= size - *used) {
+        *used = size;
+        return false;
+    }
+    *used += (size_t)w;
+    return true;
+}
+
+static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
+{
+    parse_ctx *c = &b->ctx;
+    size_t total = 0;
+    for (size_t i = 0; i < b->n_problems; i++) {
+        size_t n = 1;
+        for (int k = 0; k < b->problems[i].n_given; k++) {
+            n *= b->problems[i].values[k]->n;
+            if (n > DM_SUITE_MAX_RUNS)
+                return fail_at(c, b->problems[i].node, "this entry expands to more than %d "
+                               "problem variants (expected fewer values)", DM_SUITE_MAX_RUNS);
+        }
+        total += n;
+        if (total > DM_SUITE_MAX_RUNS)
+            return fail_at(c, b->problems[i].node, "the problems expand to more than %d "
+                           "variants (expected fewer values)", DM_SUITE_MAX_RUNS);
+    }
+    variant *v = calloc(total, sizeof *v);
+    if (v == NULL)
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
+    size_t nv = 0;
+    for (size_t i = 0; i < b->n_problems; i++) {
+        const problem_entry *e = &b->problems[i];
+        size_t pick[DM_MAX_PARAMS] = { 0 };
+        for (;;) {
+            variant *x = &v[nv];
+            x->entry = e;
+            x->n_given = (size_t)e->n_given;
+            size_t used = 0;
+            bool fits = appendf(x->part, sizeof x->part, &used, "%s", e->problem->id);
+            for (int k = 0; k < e->n_given; k++) {
+                x->keys[k] = e->problem->params[e->param[k]].name;
+                x->values[k] = e->values[k]->v[pick[k]];
+                fits = fits && appendf(x->part, sizeof x->part, &used, "-%s%g", x->keys[k],
+                                       x->values[k]);
+            }
+            if (!fits) {
+                free(v);
+                return fail_at(c, e->node, "run name for this entry is too long (expected "
+                               "fewer parameters)");
+            }
+            if (dm_instance_init(&x->inst, e->problem, x->n_given, x->keys, x->values,
+                                 c->err) != DM_OK) {
+                free(v);
+                return prefix_at(c, e->node);
+            }
+            nv++;
+            /* Odometer over the value lists, the last parameter turning fastest. */
+            int k = e->n_given - 1;
+            while (k >= 0 && ++pick[k] == e->values[k]->n) {
+                pick[k] = 0;
+                k--;
+            }
+            if (k < 0)
+                break;
+        }
+    }
+    *out = v;
+    *n_out = nv;
+    return DM_OK;
+}
+
+static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
+                          const method_entry *me, size_t knob_index, dm_run_spec *spec)
+{
+    parse_ctx *c = &b->ctx;
+    const dm_method *m = me->method;
+    const dm_instance *inst = &x->inst;
+    const yaml_node_t *at = me->values->node[knob_index];
+    double kv = me->values->v[knob_index];
+    memset(spec, 0, sizeof *spec);
+    spec->inst = *inst;
+    spec->n_given = x->n_given;
+    for (size_t k = 0; k < x->n_given; k++) {
+        spec->given_keys[k] = x->keys[k];
+        spec->given_values[k] = x->values[k];
+    }
+    spec->method = m;
+    spec->knob = me->knob;
+    spec->knob_value = kv;
+    spec->samples = b->samples;
+    spec->sweep = -1;
+
+    double period = inst->period;
+    if (b->horizon_in_periods) {
+        spec->periods = b->horizon;
+        spec->t_end = b->horizon * period;
+    } else {
+        spec->t_end = b->horizon;
+        spec->periods = b->horizon / period;
+        if (spec->periods > DM_MAX_PERIODS)
+            return fail_at(c, b->horizon_node, "horizon time %g is %g periods of %s (expected "
+                           "at most %g periods)", b->horizon, spec->periods, x->part,
+                           DM_MAX_PERIODS);
+    }
+
+    dm_method_config *mc = &spec->method_config;
+    mc->t_stop = spec->t_end;
+    mc->compensated = me->compensated;
+    char method_part[DM_RUN_ID_MAX];
+    size_t used = 0;
+    bool fits = true;
+    double steps_needed = NAN;
+    switch (me->knob) {
+    case DM_KNOB_H:
+        mc->h = kv;
+        fits = appendf(method_part, sizeof method_part, &used, "%s-h%g", m->id, kv);
+        break;
+    case DM_KNOB_STEPS_PER_PERIOD:
+        mc->h = period / kv;
+        fits = appendf(method_part, sizeof method_part, &used, "%s-n%g", m->id, kv);
+        break;
+    case DM_KNOB_RTOL:
+        mc->h = 0.0; /* adaptive: the method chooses */
+        mc->rtol = kv;
+        mc->atol = me->atol_given ? me->atol : DM_ATOL_PER_RTOL * kv;
+        fits = appendf(method_part, sizeof method_part, &used, "%s-rtol%g", m->id, kv);
+        if (me->atol_given)
+            fits = fits && appendf(method_part, sizeof method_part, &used, "-atol%g", me->atol);
+        break;
+    }
+    if (me->compensated)
+        fits = fits && appendf(method_part, sizeof method_part, &used, "-compensated");
+    used = 0;
+    fits = fits && appendf(spec->id, sizeof spec->id, &used, "%s.%s", x->part, method_part);
+    if (!fits)
+        return fail_at(c, at, "run name '%s.%s' is too long (expected at most %d characters)",
+                       x->part, method_part, DM_RUN_ID_MAX - 1);
+
+    if (!m->adaptive) {
+        /* h must resolve the orbit; steps_per_period >= 1 already means h <= period. */
+        if (me->knob == DM_KNOB_H && !(mc->h < period))
+            return fail_at(c, at, "run %s: h = %g is not below the period %.17g (expected "
+                           "0 < h < period)", spec->id, mc->h, period);
+        steps_needed = ceil(spec->t_end / mc->h);
+        if (steps_needed > b->step_budget)
+            return fail_at(c, at, "run %s needs %.3g steps, more than the step budget of %.3g "
+                           "(expected a larger h, a shorter horizon or a larger step_budget)",
+                           spec->id, steps_needed, b->step_budget);
+    }
+
+    /* The canonical configuration: everything that changes the numbers, nothing that
+     * does not (ids, names, the order of entries). */
+    const dm_problem *pr = inst->problem;
+    char *cfg = spec->config;
+    size_t cu = 0;
+    bool ok = appendf(cfg, DM_CONFIG_MAX, &cu, "problem=%s", pr->id);
+    for (int i = 0; i < pr->n_params; i++)
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " %s=%.17g", pr->params[i].name,
+                           inst->par[i]);
+    ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " given=");
+    bool first = true;
+    for (int i = 0; i < pr->n_params; i++)
+        if (inst->given & (1u << i)) {
+            ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, "%s%s", first ? "" : ",",
+                               pr->params[i].name);
+            first = false;
+        }
+    ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " method=%s", m->id);
+    if (m->adaptive)
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " rtol=%.17g atol=%.17g", mc->rtol,
+                           mc->atol);
+    else
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " h=%.17g", mc->h);
+    ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu,
+                       " compensated=%s t_end=%.17g samples=%zu energy_limit=%.17g",
+                       mc->compensated ? "true" : "false", spec->t_end, spec->samples,
+                       suite->energy_limit);
+    if (!ok)
+        return fail_at(c, at, "configuration of run %s is too long", spec->id);
+    snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, fnv1a64(spec->config));
+    return DM_OK;
+}
+
+static dm_status add_sweep(dm_suite *suite, const char *base, dm_knob knob, size_t first,
+                           size_t n, dm_error *err)
+{
+    dm_sweep *sw = &suite->sweeps[suite->n_sweeps];
+    memset(sw, 0, sizeof *sw);
+    snprintf(sw->name, sizeof sw->name, "%s", base);
+    for (int k = 2;; k++) {
+        bool taken = false;
+        for (size_t i = 0; i < suite->n_sweeps; i++)
+            if (strcmp(suite->sweeps[i].name, sw->name) == 0)
+                taken = true;
+        if (!taken)
+            break;
+        char suffix[16];
+        snprintf(suffix, sizeof suffix, "-%d", k);
+        int keep = (int)(sizeof sw->name - 1 - strlen(suffix));
+        snprintf(sw->name, sizeof sw->name, "%.*s%s", keep, base, suffix);
+    }
+    sw->knob = knob;
+    sw->n_runs = n;
+    sw->runs = malloc(n * sizeof *sw->runs);
+    if (sw->runs == NULL)
+        return dm_error_set(err, DM_ENOMEM, "out of memory expanding the suite");
+    for (size_t i = 0; i < n; i++) {
+        sw->runs[i] = first + i;
+        suite->runs[first + i].sweep = (int)suite->n_sweeps;
+    }
+    suite->n_sweeps++;
+    return DM_OK;
+}
+
+static dm_status expand_runs(suite_build *b, dm_suite *suite)
+{
+    parse_ctx *c = &b->ctx;
+    variant *v = NULL;
+    size_t nv = 0;
+    dm_status st = expand_variants(b, &v, &nv);
+    if (st != DM_OK)
+        return st;
+    size_t per_variant = 0, sweeps_per_variant = 0;
+    for (size_t j = 0; j < b->n_methods; j++) {
+        per_variant += b->methods[j].values->n;
+        sweeps_per_variant += b->methods[j].values->n >= 2;
+    }
+    if (nv * per_variant > DM_SUITE_MAX_RUNS) {
+        free(v);
+        return fail_at(c, b->methods[0].node, "the suite expands to %zu runs (expected at "
+                       "most %d)", nv * per_variant, DM_SUITE_MAX_RUNS);
+    }
+    suite->runs = calloc(nv * per_variant, sizeof *suite->runs);
+    suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
+    b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
+    if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL) {
+        free(v);
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
+    }
+    for (size_t i = 0; i < nv; i++) {
+        for (size_t j = 0; j < b->n_methods; j++) {
+            const method_entry *me = &b->methods[j];
+            size_t first = suite->n_runs;
+            for (size_t k = 0; k < me->values->n; k++) {
+                dm_run_spec *spec = &suite->runs[suite->n_runs];
+                if ((st = make_run(b, suite, &v[i], me, k, spec)) != DM_OK)
+                    goto done;
+                for (size_t r = 0; r < suite->n_runs; r++) {
+                    if (strcmp(suite->runs[r].id, spec->id) != 0)
+                        continue;
+                    if (strcmp(suite->runs[r].config, spec->config) == 0)
+                        st = fail_at(c, me->values->node[k], "run %s is given twice (first "
+                                     "at line %zu; expected every run to differ)", spec->id,
+                                     node_line(b->run_nodes[r]));
+                    else
+                        st = fail_at(c, me->values->node[k], "run id %s names two different "
+                                     "runs (first at line %zu; expected values that differ "
+                                     "within 6 significant digits)", spec->id,
+                                     node_line(b->run_nodes[r]));
+                    goto done;
+                }
+                b->run_nodes[suite->n_runs] = me->values->node[k];
+                suite->n_runs++;
+            }
+            if (me->values->n >= 2) {
+                /* a prefix of the run ids just made, so it always fits */
+                char base[DM_RUN_ID_MAX];
+                int w = snprintf(base, sizeof base, "%s.%s", v[i].part, me->method->id);
+                (void)w;
+                if ((st = add_sweep(suite, base, me->knob, first, me->values->n, c->err)) !=
+                    DM_OK)
+                    goto done;
+            }
+        }
+    }
+done:
+    free(v);
+    return st;
+}
+
+/* The results file is written beside its final name and renamed into place, so the
+ * directory must exist and be writable before the first run starts. */
+static dm_status check_output(suite_build *b, const char *output, const yaml_node_t *at)
+{
+    parse_ctx *c = &b->ctx;
+    char dir[1024];
+    const char *slash = strrchr(output, '/');
+    if (slash == NULL)
+        snprintf(dir, sizeof dir, ".");
+    else if (slash == output)
+        snprintf(dir, sizeof dir, "/");
+    else
+        snprintf(dir, sizeof dir, "%.*s", (int)(slash - output), output);
+    if (slash != NULL && slash[1] == '\0')
+        return fail_at(c, at, "output '%s' names a directory (expected a file name such as "
+                       "results/study.h5)", output);
+    struct stat sb;
+    if (stat(dir, &sb) != 0)
+        return fail_at(c, at, "output directory '%s'%s does not exist (expected an existing, "
+                       "writable directory)", dir,
+                       b->output_node ? "" : " of the default output results/NAME.h5");
+    if (!S_ISDIR(sb.st_mode))
+        return fail_at(c, at, "output directory '%s' is not a directory (expected an existing, "
+                       "writable directory)", dir);
+    if (access(dir, W_OK | X_OK) != 0)
+        return fail_at(c, at, "output directory '%s' is not writable: %s (expected a writable "
+                       "directory)", dir, strerror(errno));
+    if (stat(output, &sb) == 0 && S_ISDIR(sb.st_mode))
+        return fail_at(c, at, "output '%s' is a directory (expected a file name)", output);
+    return DM_OK;
+}
+
+/* "runs/well-study.yaml" -> "well-study"; anything without a stem -> "suite". */
+static void name_from_source(const char *source, char *name, size_t size)
+{
+    const char *base = strrchr(source, '/');
+    base = base ? base + 1 : source;
+    size_t len = strcspn(base, ".");
+    if (len == 0 || base[0] == '(' || len >= size)
+        snprintf(name, size, "suite");
+    else
+        snprintf(name, size, "%.*s", (int)len, base);
+}
+
+static dm_status parse_document(suite_build *b, dm_suite *suite)
+{
+    parse_ctx *c = &b->ctx;
+    yaml_node_t *root = yaml_document_get_root_node(c->doc);
+    if (root == NULL)
+        return dm_error_set(c->err, DM_EINPUT, "%s:1:1: the suite is empty (expected a "
+                            "mapping with horizon, problems and methods)", c->source);
+    if (root->type != YAML_MAPPING_NODE)
+        return fail_at(c, root, "the suite must be a mapping, found %s (expected name: ..., "
+                       "horizon: ..., problems: ..., methods: ...)", node_kind(root));
+    dm_status st = check_unique_keys(c, root);
+    if (st != DM_OK)
+        return st;
+
+    const yaml_node_t *value_of[TOP_COUNT] = { NULL };
+    for (const yaml_node_pair_t *p = root->data.mapping.pairs.start;
+         p < root->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        int k = 0;
+        while (k < TOP_COUNT && strcmp(name, top_keys[k]) != 0)
+            k++;
+        if (k == TOP_COUNT)
+            return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
+        const yaml_node_t *value = node_at(c, p->value);
+        value_of[k] = value;
+        double x;
+        switch (k) {
+        case TOP_NAME:
+            st = get_string(c, value, "name", suite->name, sizeof suite->name);
+            if (st == DM_OK && strchr(suite->name, '/') != NULL)
+                st = fail_at(c, value, "name '%s' contains '/' (expected a plain name)",
+                             suite->name);
+            break;
+        case TOP_OUTPUT:
+            st = get_string(c, value, "output", suite->output, sizeof suite->output);
+            b->output_node = value;
+            break;
+        case TOP_HORIZON:
+            st = parse_horizon(b, value);
+            break;
+        case TOP_SAMPLES:
+            st = get_whole(c, value, "samples", 1, DM_MAX_SAMPLES, &x);
+            b->samples = (size_t)x;
+            break;
+        case TOP_ENERGY_LIMIT:
+            st = get_positive(c, value, "energy_limit", &b->energy_limit);
+            break;
+        case TOP_STEP_BUDGET:
+            st = get_number(c, value, "step_budget", &b->step_budget);
+            if (st == DM_OK && !(b->step_budget >= 1.0 && b->step_budget <= 1e18))
+                st = fail_at(c, value, "step_budget = %g is out of range (expected a number "
+                             "in [1, 1e18])", b->step_budget);
+            b->step_budget_node = value;
+            break;
+        case TOP_PROBLEMS:
+            st = parse_list(b, value, true);
+            break;
+        case TOP_METHODS:
+            st = parse_list(b, value, false);
+            break;
+        }
+        if (st != DM_OK)
+            return st;
+    }
+    static const struct { int key; const char *expected; } required[] = {
+        { TOP_HORIZON, "horizon: {periods: N} or {time: T}" },
+        { TOP_PROBLEMS, "problems: a list of {problem: NAME, ...}" },
+        { TOP_METHODS, "methods: a list of {method: NAME, h: STEP}" },
+    };
+    for (size_t i = 0; i < sizeof required / sizeof required[0]; i++)
+        if (value_of[required[i].key] == NULL)
+            return fail_at(c, root, "missing required key '%s' (expected %s)",
+                           top_keys[required[i].key], required[i].expected);
+
+    if (value_of[TOP_NAME] == NULL)
+        name_from_source(c->source, suite->name, sizeof suite->name);
+    if (value_of[TOP_OUTPUT] == NULL)
+        snprintf(suite->output, sizeof suite->output, "results/%s.h5", suite->name);
+    suite->energy_limit = b->energy_limit;
+    suite->step_budget = (uint64_t)b->step_budget;
+
+    if ((st = expand_runs(b, suite)) != DM_OK)
+        return st;
+    if (b->output_override != NULL) {
+        /* The command line names the file: check that one, and say so if it is bad. */
+        snprintf(suite->output, sizeof suite->output, "%s", b->output_override);
+        dm_error *err = c->err;
+        dm_error saved_err = *err;
+        st = check_output(b, suite->output, root);
+        if (st != DM_OK) {
+            /* drop the suite location: the path came from the command line */
+            const char *msg = strstr(err->msg, ": output");
+            char text[DM_ERROR_MSG_MAX];
+            snprintf(text, sizeof text, "-o %.200s%.300s", suite->output, msg ? msg : err->msg);
+            *err = saved_err;
+            return dm_error_set(err, DM_EINPUT, "%s", text);
+        }
+        return DM_OK;
+    }
+    return check_output(b, suite->output, b->output_node ? b->output_node : root);
+}
+
+dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
+                         const char *source, const char *output, dm_error *err)
+{
+    memset(suite, 0, sizeof *suite);
+    dm_error_clear(err);
+    dm_error local;
+    if (err == NULL)
+        err = &local;
+    snprintf(suite->source, sizeof suite->source, "%s", source);
+    suite->text = malloc(length + 1);
+    if (suite->text == NULL)
+        return dm_error_set(err, DM_ENOMEM, "out of memory reading %s", source);
+    memcpy(suite->text, text, length);
+    suite->text[length] = '\0';
+
+    yaml_parser_t parser;
+    yaml_document_t doc;
+    if (!yaml_parser_initialize(&parser)) {
+        dm_suite_free(suite);
+        return dm_error_set(err, DM_ENOMEM, "out of memory starting the YAML reader");
+    }
+    yaml_parser_set_input_string(&parser, (const unsigned char *)text, length);
+    if (!yaml_parser_load(&parser, &doc)) {
+        const char *problem = parser.problem ? parser.problem : "unreadable YAML";
+        if (parser.context != NULL)
+            dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: YAML syntax error: %s (%s at line %zu, "
+                         "column %zu)", source, parser.problem_mark.line + 1,
+                         parser.problem_mark.column + 1, problem, parser.context,
+                         parser.context_mark.line + 1, parser.context_mark.column + 1);
+        else
+            dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: YAML syntax error: %s (expected valid "
+                         "YAML)", source, parser.problem_mark.line + 1,
+                         parser.problem_mark.column + 1, problem);
+        yaml_parser_delete(&parser);
+        dm_suite_free(suite);
+        return DM_EINPUT;
+    }
+
+    suite_build b;
+    memset(&b, 0, sizeof b);
+    b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .err = err };
+    b.output_override = output;
+    b.samples = DM_DEFAULT_SAMPLES;
+    b.energy_limit = 1.0;
+    b.step_budget = DM_DEFAULT_STEP_BUDGET;
+    dm_status st = parse_document(&b, suite);
+
+    /* One suite per file: a second document is almost surely a mistake. */
+    if (st == DM_OK) {
+        yaml_document_t next;
+        if (!yaml_parser_load(&parser, &next)) {
+            st = dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: YAML syntax error: %s (expected "
+                              "valid YAML)", source, parser.problem_mark.line + 1,
+                              parser.problem_mark.column + 1,
+                              parser.problem ? parser.problem : "unreadable YAML");
+        } else {
+            yaml_node_t *extra = yaml_document_get_root_node(&next);
+            if (extra != NULL)
+                st = dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: a second YAML document "
+                                  "(expected one suite per file)", source,
+                                  extra->start_mark.line + 1, extra->start_mark.column + 1);
+            yaml_document_delete(&next);
+        }
+    }
+    build_free(&b);
+    yaml_document_delete(&doc);
+    yaml_parser_delete(&parser);
+    if (st != DM_OK)
+        dm_suite_free(suite);
+    return st;
+}
+
+dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err)
+{
+    memset(suite, 0, sizeof *suite);
+    FILE *f = fopen(path, "rb");
+    if (f == NULL)
+        return dm_error_set(err, DM_EINPUT, "cannot open suite %s: %s", path, strerror(errno));
+    size_t cap = 4096, n = 0;
+    char *buf = malloc(cap);
+    while (buf != NULL) {
+        n += fread(buf + n, 1, cap - n, f);
+        if (n < cap)
+            break;
+        char *grown = realloc(buf, cap * 2);
+        if (grown == NULL) {
+            free(buf);
+            buf = NULL;
+            break;
+        }
+        buf = grown;
+        cap *= 2;
+    }
+    bool bad = ferror(f);
+    int saved = errno;
+    fclose(f);
+    if (buf == NULL)
+        return dm_error_set(err, DM_ENOMEM, "out of memory reading suite %s", path);
+    if (bad) {
+        free(buf);
+        return dm_error_set(err, DM_EINPUT, "cannot read suite %s: %s", path, strerror(saved));
+    }
+    dm_status st = dm_suite_parse(suite, buf, n, path, output, err);
+    free(buf);
+    return st;
+}
+
+dm_status dm_suite_default(dm_suite *suite, const char *output, dm_error *err)
+{
+    return dm_suite_parse(suite, dm_default_suite_text, strlen(dm_default_suite_text),
+                          "(built-in default suite)", output, err);
+}
+
+void dm_suite_free(dm_suite *suite)
+{
+    if (suite == NULL)
+        return;
+    free(suite->text);
+    for (size_t i = 0; i < suite->n_sweeps; i++)
+        free(suite->sweeps[i].runs);
+    free(suite->sweeps);
+    free(suite->runs);
+    memset(suite, 0, sizeof *suite);
+}
