@@ -159,7 +159,7 @@ int dm_cmd_run(int argc, char **argv)
     int c;
     optind = 1;
     opterr = 0;
-    while ((c = getopt_long(argc, argv, "+o:j:h", options, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, "o:j:h", options, NULL)) != -1) {
         switch (c) {
         case 'o': output = optarg; break;
         case 'j': {
