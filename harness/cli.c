@@ -16,8 +16,10 @@ typedef struct command {
 } command;
 
 static const command commands[] = {
-    { "run", dm_cmd_run, "run [SUITE.yaml] [-o OUT.h5]",
+    { "run", dm_cmd_run, "run [SUITE.yaml] [-o OUT.h5] [-j N] [--force]",
       "run a suite (default: the built-in one) and write its results file" },
+    { "run", dm_cmd_run, "run --resume FILE.h5 [-j N]",
+      "continue an interrupted suite from its results file" },
     { "list", dm_cmd_list, "list [--json]", "every problem and method with its parameters" },
     { "period", dm_cmd_period, "period PROBLEM [key=value ...] [--json]",
       "regime, energy and closed-form period of one starting state" },
@@ -36,9 +38,9 @@ static void print_help(FILE *out)
             "usage: driftmark COMMAND [ARGS]\n\n",
             DM_VERSION);
     for (size_t i = 0; i < n_commands; i++)
-        fprintf(out, "  driftmark %-40s %s\n", commands[i].usage, commands[i].summary);
-    fprintf(out, "  driftmark %-40s %s\n", "--help", "this text");
-    fprintf(out, "  driftmark %-40s %s\n", "--version", "version and build provenance");
+        fprintf(out, "  driftmark %-47s %s\n", commands[i].usage, commands[i].summary);
+    fprintf(out, "  driftmark %-47s %s\n", "--help", "this text");
+    fprintf(out, "  driftmark %-47s %s\n", "--version", "version and build provenance");
 }
 
 int dm_cli_usage_error(const char *command_name, const char *fmt, ...)

@@ -189,6 +189,17 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
                            const dm_run_result *results, const dm_sweep_fit *fits,
                            const char *start_time_utc, dm_error *err);
 
+/* For --resume: reads back every run of the file at `path` whose id and configuration
+ * hash match a run of `suite` and that completed (ok, diverged or failed), into
+ * results[i] (which must be zeroed: DM_RUN_NOT_RUN). Interrupted runs are left to run
+ * again. *kept counts the runs read. */
+dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
+                               dm_run_result *results, size_t *kept, dm_error *err);
+
+/* The suite text stored in a results file, and where it came from (malloc'd text). */
+dm_status dm_results_read_suite_text(const char *path, char **text, char *source,
+                                     size_t source_size, dm_error *err);
+
 /* ---- the summary table (table.c) ---- */
 
 /* One summary row: the fields of /summary in the results file. */

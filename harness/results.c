@@ -11,6 +11,7 @@
 #include <math.h>
 #include <stdarg.h>
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -763,5 +764,256 @@ dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_
         H5Fclose(file);
     }
     hdf5_restore(&q);
+    return st;
+}
+
+/* ---- reading whole runs back (for --resume) ---- */
+
+static int read_double_attr(hid_t loc, const char *name, double *out)
+{
+    if (H5Aexists(loc, name) <= 0)
+        return -1;
+    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
+    if (a < 0)
+        return -1;
+    int rc = H5Aread(a, H5T_NATIVE_DOUBLE, out) >= 0 ? 0 : -1;
+    H5Aclose(a);
+    return rc;
+}
+
+static int read_u64_attr(hid_t loc, const char *name, uint64_t *out)
+{
+    if (H5Aexists(loc, name) <= 0)
+        return -1;
+    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
+    if (a < 0)
+        return -1;
+    int rc = H5Aread(a, H5T_NATIVE_UINT64, out) >= 0 ? 0 : -1;
+    H5Aclose(a);
+    return rc;
+}
+
+/* Reads a one-dimensional double dataset of exactly `n` elements into a new array, or
+ * n = (size_t)-1 to take whatever length it has (returned in *n). */
+static int read_doubles(hid_t g, const char *name, size_t *n, size_t capacity, double **out)
+{
+    hid_t d = H5Dopen2(g, name, H5P_DEFAULT);
+    if (d < 0)
+        return -1;
+    hid_t space = H5Dget_space(d);
+    hssize_t count = space >= 0 ? H5Sget_simple_extent_npoints(space) : -1;
+    int rc = -1;
+    if (count >= 0 && (*n == (size_t)-1 || (size_t)count == *n) && (size_t)count <= capacity) {
+        double *buf = calloc(capacity > 0 ? capacity : 1, sizeof(double));
+        if (buf != NULL &&
+            (count == 0 || H5Dread(d, H5T_NATIVE_DOUBLE, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) >= 0)) {
+            *out = buf;
+            *n = (size_t)count;
+            rc = 0;
+        } else {
+            free(buf);
+        }
+    }
+    if (space >= 0)
+        H5Sclose(space);
+    H5Dclose(d);
+    return rc;
+}
+
+static dm_run_status status_from_name(const char *name)
+{
+    if (strcmp(name, "ok") == 0)
+        return DM_RUN_OK;
+    if (strcmp(name, "diverged") == 0)
+        return DM_RUN_DIVERGED;
+    if (strcmp(name, "failed") == 0)
+        return DM_RUN_FAILED;
+    if (strcmp(name, "interrupted") == 0)
+        return DM_RUN_INTERRUPTED;
+    return DM_RUN_NOT_RUN;
+}
+
+/* One run's group back into a result, exactly as it was written: every double is
+ * stored in full, so rewriting it reproduces the datasets bit for bit. */
+static int read_run(hid_t g, const dm_run_spec *spec, dm_run_result *r)
+{
+    memset(r, 0, sizeof *r);
+    const dm_problem *pr = spec->inst.problem;
+    dm_run_metrics *mt = &r->metrics;
+    char text[DM_ERROR_MSG_MAX];
+    int rc = 0;
+    rc |= read_text_attr(g, "status", text, sizeof text);
+    r->status = rc == 0 ? status_from_name(text) : DM_RUN_NOT_RUN;
+    rc |= read_text_attr(g, "reason", r->reason, sizeof r->reason);
+    rc |= read_double_attr(g, "energy_scale", &mt->energy_scale);
+    rc |= read_text_attr(g, "energy_scale_rule", text, sizeof text);
+    /* the rule is one of the runner's two static strings */
+    mt->energy_scale_rule = strcmp(text, "H0 - V_min") == 0 ? "H0 - V_min" : "|H0|";
+    static const struct { const char *name; size_t offset; } doubles[] = {
+        { "max_energy_error", offsetof(dm_run_metrics, max_energy_error) },
+        { "final_energy_error", offsetof(dm_run_metrics, final_energy_error) },
+        { "energy_drift_per_period", offsetof(dm_run_metrics, energy_drift_per_period) },
+        { "drift_exponent", offsetof(dm_run_metrics, drift_exponent) },
+        { "period_exact", offsetof(dm_run_metrics, period_exact) },
+        { "period_measured", offsetof(dm_run_metrics, period_measured) },
+        { "period_rel_error", offsetof(dm_run_metrics, period_rel_error) },
+        { "phase_error_per_period", offsetof(dm_run_metrics, phase_error_per_period) },
+        { "phase_error_final", offsetof(dm_run_metrics, phase_error_final) },
+        { "max_global_error", offsetof(dm_run_metrics, max_global_error) },
+        { "t_reached", offsetof(dm_run_metrics, t_reached) },
+        { "wall_seconds", offsetof(dm_run_metrics, wall_seconds) },
+        { "ns_per_step", offsetof(dm_run_metrics, ns_per_step) },
+    };
+    for (size_t i = 0; i < sizeof doubles / sizeof doubles[0]; i++)
+        rc |= read_double_attr(g, doubles[i].name, (double *)((char *)mt + doubles[i].offset));
+    static const struct { const char *name; size_t offset; } counts[] = {
+        { "steps", offsetof(dm_counts, steps) },
+        { "force_evals", offsetof(dm_counts, force_evals) },
+        { "velocity_evals", offsetof(dm_counts, velocity_evals) },
+        { "rhs_evals", offsetof(dm_counts, rhs_evals) },
+        { "jac_evals", offsetof(dm_counts, jac_evals) },
+        { "error_test_fails", offsetof(dm_counts, error_test_fails) },
+        { "conv_fails", offsetof(dm_counts, conv_fails) },
+        { "nonlin_iters", offsetof(dm_counts, nonlin_iters) },
+        { "max_iters_in_step", offsetof(dm_counts, max_iters_in_step) },
+    };
+    for (size_t i = 0; i < sizeof counts / sizeof counts[0]; i++)
+        rc |= read_u64_attr(g, counts[i].name, (uint64_t *)((char *)&mt->counts + counts[i].offset));
+    mt->steps = mt->counts.steps;
+    rc |= read_u64_attr(g, "crossings_total", &r->crossings.total);
+    rc |= read_u64_attr(g, "crossings_stride", &r->crossings.stride);
+
+    dm_series *s = &r->series;
+    size_t cap = spec->samples, n = (size_t)-1;
+    s->capacity = cap;
+    rc |= read_doubles(g, "time", &n, cap, &s->time);
+    s->n = n;
+    rc |= read_doubles(g, "energy_error", &n, cap, &s->energy_error);
+    rc |= read_doubles(g, "energy_error_min", &n, cap, &s->energy_error_min);
+    rc |= read_doubles(g, "energy_error_max", &n, cap, &s->energy_error_max);
+    if (pr->exact != NULL)
+        rc |= read_doubles(g, "global_error", &n, cap, &s->global_error);
+    s->n_invariants = pr->invariants != NULL ? pr->n_invariants : 0;
+    for (int i = 0; i < DM_MAX_INVARIANTS; i++)
+        mt->max_invariant_error[i] = NAN;
+    for (int i = 0; i < s->n_invariants; i++) {
+        char raw[96], name[96];
+        snprintf(raw, sizeof raw, "%s_error", pr->invariant_names[i]);
+        safe_name(raw, name, sizeof name);
+        rc |= read_doubles(g, name, &n, cap, &s->invariant_error[i]);
+        snprintf(raw, sizeof raw, "max_%s_error", pr->invariant_names[i]);
+        safe_name(raw, name, sizeof name);
+        rc |= read_double_attr(g, name, &mt->max_invariant_error[i]);
+    }
+    dm_crossings *c = &r->crossings;
+    size_t cc = (size_t)-1, ccap = cap < 64 ? 64 : cap;
+    c->capacity = ccap;
+    rc |= read_doubles(g, "crossing_number", &cc, ccap, &c->number);
+    c->n = cc;
+    rc |= read_doubles(g, "crossing_time", &cc, ccap, &c->time);
+    rc |= read_doubles(g, "phase_error", &cc, ccap, &c->phase_error);
+    if (rc != 0) {
+        dm_run_result_free(r);
+        return -1;
+    }
+    return 0;
+}
+
+dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
+                               dm_run_result *results, size_t *kept, dm_error *err)
+{
+    *kept = 0;
+    dm_summary_row *rows = NULL;
+    size_t n = 0;
+    dm_status st = dm_results_read_summary(path, &rows, &n, err);
+    if (st != DM_OK)
+        return st;
+    quiet_hdf5 q;
+    hdf5_quiet(&q);
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    hid_t runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
+    if (runs < 0) {
+        st = dm_error_set(err, DM_EIO, "cannot read %s: it has no /runs group", path);
+        goto done;
+    }
+    for (size_t k = 0; k < n; k++) {
+        dm_run_status was = status_from_name(rows[k].status);
+        /* Interrupted runs are run again from the start. */
+        if (was == DM_RUN_NOT_RUN || was == DM_RUN_INTERRUPTED)
+            continue;
+        for (size_t i = 0; i < suite->n_runs; i++) {
+            const dm_run_spec *spec = &suite->runs[i];
+            if (strcmp(spec->id, rows[k].run_id) != 0)
+                continue;
+            /* Same id but another configuration (a changed suite): run it again. */
+            if (strcmp(spec->hash, rows[k].hash) != 0 || results[i].status != DM_RUN_NOT_RUN)
+                break;
+            char gname[DM_RUN_ID_MAX];
+            safe_name(spec->id, gname, sizeof gname);
+            hid_t g = H5Gopen2(runs, gname, H5P_DEFAULT);
+            if (g < 0 || read_run(g, spec, &results[i]) != 0) {
+                if (g >= 0)
+                    H5Gclose(g);
+                st = dm_error_set(err, DM_EIO, "cannot read %s: run %s is damaged", path,
+                                  spec->id);
+                goto done;
+            }
+            H5Gclose(g);
+            (*kept)++;
+            break;
+        }
+    }
+done:
+    if (runs >= 0)
+        H5Gclose(runs);
+    if (file >= 0)
+        H5Fclose(file);
+    hdf5_restore(&q);
+    free(rows);
+    return st;
+}
+
+dm_status dm_results_read_suite_text(const char *path, char **text, char *source,
+                                     size_t source_size, dm_error *err)
+{
+    *text = NULL;
+    dm_summary_row *rows = NULL;
+    size_t n = 0;
+    /* the same checks as `show`: ours, not newer, readable */
+    dm_status st = dm_results_read_summary(path, &rows, &n, err);
+    free(rows);
+    if (st != DM_OK)
+        return st;
+    quiet_hdf5 q;
+    hdf5_quiet(&q);
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    st = dm_error_set(err, DM_EIO, "cannot read %s: it holds no suite text", path);
+    if (file >= 0 && H5Aexists(file, "suite_text") > 0) {
+        hid_t a = H5Aopen(file, "suite_text", H5P_DEFAULT);
+        hid_t ft = a >= 0 ? H5Aget_type(a) : -1;
+        if (ft >= 0 && H5Tis_variable_str(ft) > 0) {
+            hid_t mt = H5Tcopy(ft);
+            char *value = NULL;
+            if (mt >= 0 && H5Aread(a, mt, &value) >= 0 && value != NULL) {
+                *text = strdup(value);
+                st = *text ? DM_OK : dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+            }
+            if (value != NULL)
+                H5free_memory(value);
+            if (mt >= 0)
+                H5Tclose(mt);
+        }
+        if (ft >= 0)
+            H5Tclose(ft);
+        if (a >= 0)
+            H5Aclose(a);
+        if (st == DM_OK && read_text_attr(file, "suite_source", source, source_size) != 0)
+            snprintf(source, source_size, "%s", path);
+    }
+    if (file >= 0)
+        H5Fclose(file);
+    hdf5_restore(&q);
+    if (st == DM_OK)
+        dm_error_clear(err);
     return st;
 }

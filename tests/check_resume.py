@@ -1,0 +1,147 @@
+#!/usr/bin/python3
+"""Nothing lost: an existing file is not replaced without --force; SIGINT and SIGTERM
+stop a suite with a valid file holding every completed run (the running one marked
+interrupted) and exit 130 / 143; --resume runs only what is missing, and the numerical
+datasets then equal those of an uninterrupted run bit for bit.
+
+usage: check_resume.py PATH/TO/driftmark
+"""
+import os
+import signal
+import subprocess
+import sys
+import tempfile
+import time
+
+import h5py
+
+EXE = sys.argv[1]
+failures = []
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+
+
+SUITE = """\
+name: resume-check
+output: {out}
+horizon: {{periods: 5000}}
+samples: 256
+problems:
+  - {{problem: pendulum, amplitude: [1.0, 2.0]}}
+  - {{problem: kepler, eccentricity: 0.4}}
+methods:
+  - {{method: verlet, steps_per_period: [64, 128]}}
+  - {{method: yoshida4, steps_per_period: 48}}
+  - {{method: cvode-adams, rtol: 1.0e-7}}
+"""
+
+NUMERIC = ("time", "energy_error", "energy_error_min", "energy_error_max", "global_error",
+           "crossing_number", "crossing_time", "phase_error", "angular_momentum_error")
+
+
+def text(v):
+    return v.decode() if isinstance(v, bytes) else str(v)
+
+
+def statuses(path):
+    with h5py.File(path, "r") as f:
+        return {text(r["run_id"]): text(r["status"]) for r in f["summary"][()]}
+
+
+def same_datasets(a, b, label):
+    with h5py.File(a, "r") as fa, h5py.File(b, "r") as fb:
+        ids = [text(x) for x in fa["summary"]["run_id"]]
+        check(ids == [text(x) for x in fb["summary"]["run_id"]], f"{label}: same runs, same order")
+        for rid in ids:
+            for ds in NUMERIC:
+                if ds in fa["runs"][rid]:
+                    check(fa["runs"][rid][ds][()].tobytes() == fb["runs"][rid][ds][()].tobytes(),
+                          f"{label}: {rid}/{ds} bit-identical")
+            for key in ("steps", "force_evals", "max_energy_error", "phase_error_per_period"):
+                check(fa["runs"][rid].attrs[key] == fb["runs"][rid].attrs[key], f"{label}: {rid} {key}")
+        for name in fa["sweeps"]:
+            check(fa["sweeps"][name].attrs["energy_order"] == fb["sweeps"][name].attrs["energy_order"],
+                  f"{label}: sweep {name} fit")
+
+
+def run(args, **kw):
+    return subprocess.run([EXE, "run"] + args, capture_output=True, text=True, **kw)
+
+
+def main():
+    with tempfile.TemporaryDirectory() as tmp:
+        full = os.path.join(tmp, "full.h5")
+        part = os.path.join(tmp, "part.h5")
+        suite = os.path.join(tmp, "s.yaml")
+        with open(suite, "w") as f:
+            f.write(SUITE.format(out=part))
+
+        p = run([suite, "-o", full, "-j", "2"])
+        check(p.returncode == 0, f"uninterrupted run: exit {p.returncode} {p.stderr.strip()}")
+        n_runs = len(statuses(full))
+        check(n_runs == 12, f"12 runs, got {n_runs}")
+
+        # an existing file is refused without --force, and left as it was
+        before = open(full, "rb").read()
+        p = run([suite, "-o", full])
+        check(p.returncode == 2 and "already exists" in p.stderr and p.stderr.count("\n") == 1,
+              f"existing file refused in one line, exit 2: {p.returncode} {p.stderr!r}")
+        check(open(full, "rb").read() == before, "refused run leaves the file untouched")
+
+        # a file whose runs are partly complete: edit one run to 'interrupted' and drop
+        # another, the way an interrupted suite leaves it (deterministic, no timing)
+        subprocess.run(["cp", full, part], check=True)
+        with h5py.File(part, "r+") as f:
+            rows = f["summary"][()]
+            victim = text(rows[3]["run_id"])
+            rows[3]["status"] = b"interrupted"
+            gone = text(rows[7]["run_id"])
+            keep = [i for i in range(len(rows)) if i != 7]
+            del f["summary"]
+            f.create_dataset("summary", data=rows[keep])
+            f["runs"][victim].attrs["status"] = "interrupted"
+            del f["runs"][gone]
+        p = run(["--resume", part, "-j", "1"])
+        check(p.returncode == 0, f"resume: exit {p.returncode} {p.stderr.strip()}")
+        check("keeping 10 completed runs, running 2" in p.stderr, f"resume keeps 10, runs 2: {p.stderr!r}")
+        same_datasets(full, part, "resumed file")
+
+        # --resume refuses a suite file or -o beside it, and a foreign file
+        p = run([suite, "--resume", part])
+        check(p.returncode == 2 and p.stderr.count("\n") == 1, "--resume with a suite file refused")
+        junk = os.path.join(tmp, "junk.h5")
+        with open(junk, "w") as f:
+            f.write("not hdf5\n")
+        p = run(["--resume", junk])
+        check(p.returncode == 2 and p.stderr.count("\n") == 1, f"--resume of a non-HDF5 file: {p.stderr!r}")
+
+        # real signals: stop mid-suite, a valid file, exit 128 + signal, then resume
+        for sig, code in ((signal.SIGINT, 130), (signal.SIGTERM, 143)):
+            os.remove(part)
+            proc = subprocess.Popen([EXE, "run", suite, "-j", "1"], stdout=subprocess.PIPE,
+                                    stderr=subprocess.PIPE, text=True)
+            time.sleep(0.7)
+            proc.send_signal(sig)
+            out, err = proc.communicate(timeout=120)
+            check(proc.returncode == code, f"signal {sig}: exit {proc.returncode}, want {code}: {err!r}")
+            st = statuses(part)
+            check(len(st) >= 1 and "interrupted" in st.values(),
+                  f"signal {sig}: file written with an interrupted run: {st}")
+            check(len(st) < n_runs, f"signal {sig}: stopped before the end")
+            check(not [x for x in os.listdir(tmp) if ".tmp-" in x], "no temporary file left")
+            p = run(["--resume", part])
+            check(p.returncode == 0, f"resume after signal {sig}: {p.stderr.strip()}")
+            same_datasets(full, part, f"resumed after signal {sig}")
+
+    if failures:
+        print(f"0 passed, {len(failures)} failed")
+        sys.exit(1)
+    print("resume: 1 passed, 0 failed")
+
+
+if __name__ == "__main__":
+    main()
