@@ -4,8 +4,9 @@
 usage: python3 results/plot_results.py RESULTS.h5 [-o OUTDIR]
 
 Writes, for each problem variant in the file:
-  <variant>-energy.png  |energy error| against time (log-log), the line the value at each
-                        bucket end, the band the min..max of |dE| inside each bucket;
+  <variant>-energy.png  |energy error| against time (log-log): the line is the largest
+                        |dE| inside each bucket (no peak is lost), the band spans the
+                        bucket's min..max of |dE|;
   <variant>-phase.png   phase error against time at each section crossing;
 and cost.png: force evaluations against max |dE|, one panel per problem variant.
 
@@ -28,9 +29,17 @@ def text(v):
     return v.decode() if isinstance(v, bytes) else str(v)
 
 
-def variant_of(run_id):
-    """The problem part of a run id: everything before the method part."""
-    return run_id.split(".", 1)[0]
+def variant_of(group):
+    """The problem variant of a run, from its attributes (run ids cannot be split on
+    '.', since their numbers have decimal points): problem-<param><value>..."""
+    given = [x for x in text(group.attrs["given_parameters"]).split(",") if x]
+    parts = [text(group.attrs["problem"])]
+    parts += [f"{name}{float(group.attrs['param_' + name]):g}" for name in given]
+    return "-".join(parts)
+
+
+def method_part(run):
+    return run["id"][len(run["variant"]) + 1:] if run["id"].startswith(run["variant"] + ".") else run["id"]
 
 
 def load(path):
@@ -44,6 +53,7 @@ def load(path):
             g = f["runs"][rid]
             runs.append({
                 "id": rid,
+                "variant": variant_of(g),
                 "method": text(row["method"]),
                 "status": text(row["status"]),
                 "force_evals": float(row["force_evals"]),
@@ -65,16 +75,18 @@ def plot_energy(variant, runs, out):
         t = r["time"] / r["period"]
         if len(t) == 0:
             continue
+        peak = np.maximum(np.abs(r["dE_min"]), np.abs(r["dE_max"]))
         lo = np.minimum(np.abs(r["dE_min"]), np.abs(r["dE_max"]))
-        hi = np.maximum(np.abs(r["dE_min"]), np.abs(r["dE_max"]))
-        # a bucket whose dE changes sign has |dE| reaching 0 inside it
-        lo = np.where(r["dE_min"] * r["dE_max"] <= 0, 0.0, lo)
-        tiny = np.finfo(float).tiny
-        (line,) = ax.loglog(t, np.maximum(np.abs(r["dE"]), tiny), lw=0.8, label=r["id"].split(".", 1)[1])
-        ax.fill_between(t, np.maximum(lo, tiny), np.maximum(hi, tiny), color=line.get_color(), alpha=0.2, lw=0)
+        # A bucket whose dE changes sign has |dE| reaching 0 inside it, which a log axis
+        # cannot show: its band is drawn down to 1e-3 of the run's median peak.
+        positive = peak[peak > 0]
+        floor = 1e-3 * np.median(positive) if len(positive) else 1e-300
+        lo = np.where(r["dE_min"] * r["dE_max"] <= 0, floor, np.maximum(lo, floor))
+        (line,) = ax.loglog(t, np.maximum(peak, floor), lw=0.9, label=method_part(r))
+        ax.fill_between(t, lo, np.maximum(peak, floor), color=line.get_color(), alpha=0.15, lw=0)
     ax.set_xlabel("time / period")
     ax.set_ylabel("|energy error| (relative to E scale)")
-    ax.set_title(f"{variant}: energy error (line: bucket end; band: bucket min..max)")
+    ax.set_title(f"{variant}: energy error\n(line: largest |dE| in each bucket; band: its min..max)", fontsize=10)
     ax.legend(fontsize=7)
     fig.tight_layout()
     fig.savefig(out, dpi=110)
@@ -86,7 +98,7 @@ def plot_phase(variant, runs, out):
     for r in runs:
         if len(r["crossing_time"]) == 0:
             continue
-        ax.plot(r["crossing_time"] / r["period"], r["phase_error"], lw=0.8, label=r["id"].split(".", 1)[1])
+        ax.plot(r["crossing_time"] / r["period"], r["phase_error"], lw=0.8, label=method_part(r))
     ax.set_xscale("log")
     ax.set_yscale("symlog", linthresh=1e-9)
     ax.set_xlabel("time / period")
@@ -131,7 +143,7 @@ def main():
     runs = load(a.results)
     groups = {}
     for r in runs:
-        groups.setdefault(variant_of(r["id"]), []).append(r)
+        groups.setdefault(r["variant"], []).append(r)
     written = []
     for variant, rs in groups.items():
         for kind, fn in (("energy", plot_energy), ("phase", plot_phase)):
