@@ -45,11 +45,14 @@ static double seconds_since(const struct timespec *t0)
 }
 
 /* One line, redrawn in place: runs done of total, the current run, elapsed, left. */
-static void progress(size_t done, size_t total, const char *current, double elapsed)
+/* `work` is the estimated fraction of the suite's work done (runs differ in cost by
+ * orders of magnitude, so the time left is not judged by the count of runs). */
+static void progress(size_t done, size_t total, double work, const char *current,
+                     double elapsed)
 {
     char left[32] = "?";
-    if (done > 0)
-        snprintf(left, sizeof left, "%.0fs", elapsed * (double)(total - done) / (double)done);
+    if (work > 0.0 && done > 0)
+        snprintf(left, sizeof left, "%.0fs", elapsed * (1.0 - work) / work);
     int width = 24;
     int filled = total > 0 ? (int)((double)width * (double)done / (double)total) : width;
     char bar[32];
@@ -75,9 +78,12 @@ typedef struct pool {
     pthread_mutex_t lock;          /* guards the progress line and the first error */
     dm_error error;
     bool tty;
+    double cost_total, cost_done;  /* estimated work, for the time left (under lock) */
     struct timespec t0;
     const char *current;
 } pool;
+
+static double estimated_cost(const dm_run_spec *spec);
 
 static void *worker(void *arg)
 {
@@ -93,7 +99,8 @@ static void *worker(void *arg)
         if (p->tty) {
             pthread_mutex_lock(&p->lock);
             p->current = spec->id;
-            progress(atomic_load(&p->done), p->n_order, spec->id, seconds_since(&p->t0));
+            progress(atomic_load(&p->done), p->n_order, p->cost_done / p->cost_total, spec->id,
+                     seconds_since(&p->t0));
             pthread_mutex_unlock(&p->lock);
         }
         dm_error err = { 0 };
@@ -108,11 +115,12 @@ static void *worker(void *arg)
             break;
         }
         size_t d = atomic_fetch_add(&p->done, 1) + 1;
-        if (p->tty) {
-            pthread_mutex_lock(&p->lock);
-            progress(d, p->n_order, p->current ? p->current : "", seconds_since(&p->t0));
-            pthread_mutex_unlock(&p->lock);
-        }
+        pthread_mutex_lock(&p->lock);
+        p->cost_done += estimated_cost(spec);
+        if (p->tty)
+            progress(d, p->n_order, p->cost_done / p->cost_total,
+                     p->current ? p->current : "", seconds_since(&p->t0));
+        pthread_mutex_unlock(&p->lock);
     }
     return NULL;
 }
@@ -279,6 +287,11 @@ int dm_cmd_run(int argc, char **argv)
 
     pool p = { .suite = &suite, .results = results, .order = order, .n_order = n_order,
                .tty = isatty(STDERR_FILENO) };
+    p.cost_total = 0.0;
+    for (size_t i = 0; i < n_order; i++)
+        p.cost_total += estimated_cost(&suite.runs[order[i]]);
+    if (!(p.cost_total > 0.0))
+        p.cost_total = 1.0;
     atomic_init(&p.next, 0);
     atomic_init(&p.done, 0);
     atomic_init(&p.failed, 0);
@@ -296,7 +309,8 @@ int dm_cmd_run(int argc, char **argv)
         pthread_join(threads[j], NULL);
     pthread_mutex_destroy(&p.lock);
     if (p.tty) {
-        progress(atomic_load(&p.done), n_order, "", seconds_since(&p.t0));
+        progress(atomic_load(&p.done), n_order, p.cost_done / p.cost_total, "",
+                 seconds_since(&p.t0));
         fputc('\n', stderr);
     }
     if (atomic_load(&p.failed)) {
