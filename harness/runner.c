@@ -172,6 +172,30 @@ static double locate_crossing(const dm_instance *inst, int k, double level, doub
     return t0 + s * dt;
 }
 
+/* Every crossing as it happens: located inside its step, numbered, compared with the
+ * exact orbit's, fitted and kept within the budget. */
+typedef struct crossing_log {
+    const dm_instance *inst;
+    double period;
+    dm_crossings *store;
+    line_fit fit;
+    uint64_t count;
+    double last_phase;
+} crossing_log;
+
+static void crossing_add(crossing_log *log, int k, double level, double t0, const double *x0,
+                         double t1, const double *x1)
+{
+    double tc = locate_crossing(log->inst, k, level, t0, x0, t1, x1);
+    log->count++;
+    double T = log->period;
+    double t_exact = log->inst->first_crossing + (double)(log->count - 1) * T;
+    double phase = 2.0 * M_PI * (tc - t_exact) / T;
+    line_fit_add(&log->fit, (double)log->count, phase);
+    crossings_store(log->store, log->count, tc, phase);
+    log->last_phase = phase;
+}
+
 /* State of the section monitor between steps. */
 typedef struct section_watch {
     int k;
@@ -259,14 +283,21 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
 
     section_watch sec = { 0 };
     section_init(&sec, inst, inst->q0);
-    line_fit phase_fit = { 0 }, drift_fit = { 0 };
+    crossing_log log = { .inst = inst, .period = T, .store = &result->crossings,
+                         .last_phase = NAN };
+    line_fit drift_fit = { 0 };
     uint64_t k = 0;                 /* steps taken */
-    uint64_t crossing_count = 0;
     double max_abs = 0.0, dE = 0.0;
-    double last_phase = NAN;
     dm_run_status status = DM_RUN_OK;
     char *reason = result->reason;
     const size_t reason_size = sizeof result->reason;
+
+    /* The fused loop (method.h) when the method and the problem offer it: the same
+     * monitors, bit for bit, with the force inline. Probed with zero steps. */
+    dm_watch w = { .H0 = H0, .inv_scale = inv_scale, .energy_limit = energy_limit,
+                   .coord = sec.k, .wrap = sec.wrap, .level = sec.level, .armed = sec.armed };
+    memcpy(w.x, cur->x, sizeof(double) * 2 * (size_t)n);
+    const bool fused = fixed && dm_stepper_advance(s, &w, 0) != DM_WATCH_UNSUPPORTED;
 
     double t_start = now_seconds();
     for (size_t bucket = 0; bucket < samples && status == DM_RUN_OK; bucket++) {
@@ -275,61 +306,84 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
         if (fixed ? k >= k_end : cur->t >= t_bucket_end)
             continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
         double bmin = INFINITY, bmax = -INFINITY;
-        for (;;) {
-            dm_status st = dm_stepper_step(s, cur, nxt);
-            if (st != DM_OK) {
-                status = DM_RUN_FAILED;
-                snprintf(reason, reason_size, "%s", s->error.msg);
-                break;
-            }
-            k++;
-            if (fixed)
-                nxt->t = (double)k * h;
-            const double *x = nxt->x;
-            double V = nxt->potential;
-            if (V != V)
-                V = pb->potential(inst, x);
-            dE = (pb->kinetic(inst, x + n) + V - H0) * inv_scale;
-            if (dE < bmin)
-                bmin = dE;
-            if (dE > bmax)
-                bmax = dE;
-            if (!(fabs(dE) <= energy_limit)) {
-                status = DM_RUN_DIVERGED;
-                snprintf(reason, reason_size,
-                         "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
-                         dE, energy_limit, (unsigned long long)k, nxt->t);
-                break;
-            }
-            /* Section: one comparison per step unless a crossing happened. */
-            double qk = x[sec.k];
-            bool crossed = false;
-            double level = sec.level;
-            if (sec.wrap > 0.0) {
-                if (qk >= sec.level) {
-                    crossed = true;
-                    sec.level += sec.wrap;
-                } else if (qk < sec.level - sec.wrap) {
-                    sec.level -= sec.wrap;
+        if (fused) {
+            w.bmin = INFINITY;
+            w.bmax = -INFINITY;
+            for (;;) {
+                dm_watch_event ev = dm_stepper_advance(s, &w, k_end);
+                if (ev == DM_WATCH_CROSSING) {
+                    crossing_add(&log, w.coord, w.crossed_level, (double)(w.k - 1) * h,
+                                 w.x_prev, (double)w.k * h, w.x);
+                    continue;
                 }
-            } else {
-                crossed = sec.armed && qk >= sec.level;
-                sec.armed = qk < sec.level;
-            }
-            if (crossed) {
-                double tc = locate_crossing(inst, sec.k, level, cur->t, cur->x, nxt->t, x);
-                crossing_count++;
-                double t_exact = inst->first_crossing + (double)(crossing_count - 1) * T;
-                double phase = 2.0 * M_PI * (tc - t_exact) / T;
-                line_fit_add(&phase_fit, (double)crossing_count, phase);
-                crossings_store(&result->crossings, crossing_count, tc, phase);
-                last_phase = phase;
-            }
-            dm_point *tmp = cur;
-            cur = nxt;
-            nxt = tmp;
-            if (fixed ? k >= k_end : cur->t >= t_bucket_end)
+                if (ev == DM_WATCH_DIVERGED) {
+                    status = DM_RUN_DIVERGED;
+                    snprintf(reason, reason_size,
+                             "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
+                             w.dE, energy_limit, (unsigned long long)w.k, (double)w.k * h);
+                }
                 break;
+            }
+            k = w.k;
+            cur->t = (double)k * h;
+            memcpy(cur->x, w.x, sizeof(double) * 2 * (size_t)n);
+            bmin = w.bmin;
+            bmax = w.bmax;
+            dE = w.dE;
+        } else {
+            for (;;) {
+                dm_status st = dm_stepper_step(s, cur, nxt);
+                if (st != DM_OK) {
+                    status = DM_RUN_FAILED;
+                    snprintf(reason, reason_size, "%s", s->error.msg);
+                    break;
+                }
+                k++;
+                if (fixed)
+                    nxt->t = (double)k * h;
+                const double *x = nxt->x;
+                double V = nxt->potential;
+                if (V != V)
+                    V = pb->potential(inst, x);
+                dE = (pb->kinetic(inst, x + n) + V - H0) * inv_scale;
+                if (dE < bmin)
+                    bmin = dE;
+                if (dE > bmax)
+                    bmax = dE;
+                bool diverged = !(fabs(dE) <= energy_limit);
+                /* Section: one comparison per step unless a crossing happened. */
+                bool crossed = false;
+                double level = sec.level;
+                if (!diverged) {
+                    double qk = x[sec.k];
+                    if (sec.wrap > 0.0) {
+                        if (qk >= sec.level) {
+                            crossed = true;
+                            sec.level += sec.wrap;
+                        } else if (qk < sec.level - sec.wrap) {
+                            sec.level -= sec.wrap;
+                        }
+                    } else {
+                        crossed = sec.armed && qk >= sec.level;
+                        sec.armed = qk < sec.level;
+                    }
+                }
+                if (crossed)
+                    crossing_add(&log, sec.k, level, cur->t, cur->x, nxt->t, x);
+                dm_point *tmp = cur;
+                cur = nxt;
+                nxt = tmp;
+                if (diverged) {
+                    /* the bucket records the diverged state at its own time */
+                    status = DM_RUN_DIVERGED;
+                    snprintf(reason, reason_size,
+                             "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
+                             dE, energy_limit, (unsigned long long)k, cur->t);
+                    break;
+                }
+                if (fixed ? k >= k_end : cur->t >= t_bucket_end)
+                    break;
+            }
         }
         if (bmin > bmax)
             break; /* failed on the bucket's first step: nothing to record */
@@ -383,18 +437,18 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     m->energy_drift_per_period = line_fit_slope(&drift_fit);
     m->drift_exponent = dm_drift_exponent(&result->series);
     m->period_exact = T;
-    double slope = line_fit_slope(&phase_fit);
+    double slope = line_fit_slope(&log.fit);
     m->phase_error_per_period = slope;
     m->period_rel_error = slope / (2.0 * M_PI);
     m->period_measured = T * (1.0 + m->period_rel_error);
-    m->phase_error_final = last_phase;
+    m->phase_error_final = log.last_phase;
     m->max_global_error = NAN;
     if (result->series.global_error != NULL) {
         m->max_global_error = 0.0;
         for (size_t i = 0; i < result->series.n; i++)
             m->max_global_error = fmax(m->max_global_error, result->series.global_error[i]);
     }
-    result->crossings.total = crossing_count;
+    result->crossings.total = log.count;
     dm_stepper_destroy(s);
     return DM_OK;
 }

@@ -3,8 +3,8 @@
  * A method is a const dm_method table. Splitting methods are only data (a dm_splitting
  * coefficient table) run by the engine in splitting.c; the others (Runge-Kutta,
  * implicit midpoint, the CVODE adapter) supply create/step/destroy. The harness only
- * calls dm_stepper_create / dm_stepper_step / dm_stepper_destroy and never asks which
- * method it holds.
+ * calls dm_stepper_create / dm_stepper_step / dm_stepper_counts / dm_stepper_destroy
+ * and never asks which method it holds.
  *
  * Stepping is out of place: dm_stepper_step(s, from, to) reads the state at `from` and
  * writes the state one step later into `to`. The caller ping-pongs two buffers, so it
@@ -50,6 +50,7 @@ typedef struct dm_method_config {
     double t_stop;        /* adaptive methods never step past this time */
     bool compensated;     /* Kahan-compensated q and p updates (splitting methods) */
     int max_iterations;   /* implicit methods: fixed-point iteration cap (0: default) */
+    bool plain_steps;     /* never use a problem's fused loop (tests compare the paths) */
 } dm_method_config;
 
 /* Work really done, counted by the method itself. */
@@ -82,7 +83,8 @@ struct dm_stepper {
     const dm_instance *inst;
     int dof;
     dm_method_config config;
-    dm_counts counts;
+    dm_counts counts;          /* read through dm_stepper_counts: a method may bring it
+                                  up to date only when asked (sync_counts) */
     dm_error error;            /* why the last step failed */
     /* Method-private state follows in the implementation's own struct, of which this
      * is the first member. */
@@ -109,7 +111,61 @@ struct dm_method {
     dm_status (*step)(dm_stepper *s, const dm_point *from, dm_point *to);
     dm_status (*restart)(dm_stepper *s, const dm_point *at);
     void (*destroy)(dm_stepper *s);
+    /* Optional (NULL: s->counts is always current). Brings s->counts up to date for a
+     * method that reads its counters lazily instead of after every step (the CVODE
+     * adapter asks CVODE for them only here, on restart, on failure and at t_stop). */
+    void (*sync_counts)(dm_stepper *s);
 };
+
+/* ---- the fused loop ----
+ * For a splitting method (without compensated sums) on a problem that provides
+ * split_block, the steps and the harness's per-step monitors run in one loop with the
+ * force inline, as fast as a hand-written loop. The results are bit for bit those of
+ * the per-step path (dm_stepper_step plus the runner's own monitors). */
+
+/* A splitting table scaled by h: kicks p -= kick[j] grad V, drifts q += drift[j] grad T. */
+typedef struct dm_split_plan {
+    bool kick_first;
+    int n_kick, n_drift;
+    const double *kick;
+    const double *drift;
+} dm_split_plan;
+
+/* What a step leaves for the next one: the force at the current q (FSAL) and the work
+ * counted since the stepper last collected it. */
+typedef struct dm_split_cache {
+    double grad[DM_MAX_DOF];
+    double potential;
+    bool valid;
+    uint64_t forces, velocities;
+} dm_split_cache;
+
+/* The per-step monitors, run inside the fused loop exactly as runner.c runs them. */
+typedef struct dm_watch {
+    /* fixed for the run */
+    double H0, inv_scale, energy_limit;
+    int coord;
+    double wrap;
+    /* carried from call to call */
+    uint64_t k;                     /* steps taken */
+    double x[2 * DM_MAX_DOF];       /* the state after step k */
+    double level;                   /* section: see runner.c */
+    bool armed;
+    double bmin, bmax, dE;          /* extremes of dE in the current bucket, last dE */
+    /* set on an event */
+    double x_prev[2 * DM_MAX_DOF];  /* the state before the last step */
+    double crossed_level;
+} dm_watch;
+
+typedef enum dm_watch_event {
+    DM_WATCH_END,         /* k reached k_end */
+    DM_WATCH_CROSSING,    /* the last step crossed the section */
+    DM_WATCH_DIVERGED,    /* the last step's dE is NaN, Inf or beyond energy_limit */
+    DM_WATCH_UNSUPPORTED  /* no fused loop for this method and problem: step one by one */
+} dm_watch_event;
+
+/* Runs steps with the monitors until k_end or an event. */
+dm_watch_event dm_stepper_advance(dm_stepper *s, dm_watch *watch, uint64_t k_end);
 
 /* ---- registry (registry.c) ---- */
 extern const dm_method *const dm_methods[];
@@ -125,6 +181,9 @@ dm_status dm_stepper_step(dm_stepper *s, const dm_point *from, dm_point *to);
 dm_status dm_stepper_restart(dm_stepper *s, const dm_point *at);
 /* Change the fixed step (fixed-step methods only); implies a restart at `at`. */
 dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at);
+/* The work counted so far, brought up to date (sync_counts); read it here, not from
+ * s->counts, whenever the run may not have reached t_stop. */
+const dm_counts *dm_stepper_counts(dm_stepper *s);
 void dm_stepper_destroy(dm_stepper *s);
 
 #endif

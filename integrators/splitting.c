@@ -33,6 +33,10 @@ typedef struct splitting_stepper {
     int kicks_computed_per_step;
     bool first_is_kick, last_is_kick;
 
+    /* The same coefficients as kicks and drifts apart, for the fused loop. */
+    double *kick_h, *drift_h;
+    dm_split_cache cache;  /* the fused loop's FSAL force and counts */
+
     double *grad;         /* grad V at the q of the last kick (the FSAL force) */
     double cached_potential;
     double *velocity;     /* scratch for grad T(p) */
@@ -54,6 +58,8 @@ static void reset_caches(splitting_stepper *s, const dm_point *at)
     memset(s->comp, 0, 2 * (size_t)s->base.dof * sizeof *s->comp);
     s->t_origin = at->t;
     s->steps_since_origin = 0;
+    s->cache.valid = false;
+    s->cache.potential = NAN;
 }
 
 static void scale_coefficients(splitting_stepper *s)
@@ -65,6 +71,10 @@ static void scale_coefficients(splitting_stepper *s)
     for (int k = 0; k < s->n_ops; k++) {
         s->is_kick[k] = kick;
         s->ch[k] = kick ? t->kick[ik++] * h : t->drift[id++] * h;
+        if (kick)
+            s->kick_h[ik - 1] = s->ch[k];
+        else
+            s->drift_h[id - 1] = s->ch[k];
         kick = !kick;
     }
 }
@@ -92,7 +102,7 @@ dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
     int n_ops = t->n_kick + t->n_drift;
     splitting_stepper *s = calloc(1, sizeof *s);
     bool *is_kick = calloc((size_t)n_ops, sizeof *is_kick);
-    double *work = calloc((size_t)n_ops + 4 * (size_t)dof, sizeof *work);
+    double *work = calloc(2 * (size_t)n_ops + 4 * (size_t)dof, sizeof *work);
     if (s == NULL || is_kick == NULL || work == NULL) {
         free(s);
         free(is_kick);
@@ -108,7 +118,9 @@ dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
     s->n_ops = n_ops;
     s->is_kick = is_kick;
     s->ch = work;
-    s->grad = work + n_ops;
+    s->kick_h = work + n_ops;
+    s->drift_h = s->kick_h + t->n_kick;
+    s->grad = work + 2 * n_ops;
     s->velocity = s->grad + dof;
     s->comp = s->velocity + dof;
     s->first_is_kick = t->kick_first;
@@ -201,6 +213,29 @@ dm_status dm_splitting_step(dm_stepper *base, const dm_point *from, dm_point *to
     s->state_x = to->x;
     base->counts.steps++;
     return DM_OK;
+}
+
+dm_watch_event dm_splitting_advance(dm_stepper *base, dm_watch *watch, uint64_t k_end)
+{
+    splitting_stepper *s = (splitting_stepper *)base;
+    const dm_instance *inst = base->inst;
+    if (inst->problem->split_block == NULL || base->config.compensated ||
+        base->config.plain_steps)
+        return DM_WATCH_UNSUPPORTED;
+    const dm_split_plan plan = {
+        .kick_first = s->table->kick_first,
+        .n_kick = s->table->n_kick,
+        .n_drift = s->table->n_drift,
+        .kick = s->kick_h,
+        .drift = s->drift_h,
+    };
+    uint64_t k0 = watch->k;
+    int event = inst->problem->split_block(inst, &plan, &s->cache, watch, k_end);
+    base->counts.steps += watch->k - k0;
+    base->counts.force_evals += s->cache.forces;
+    base->counts.velocity_evals += s->cache.velocities;
+    s->cache.forces = s->cache.velocities = 0;
+    return (dm_watch_event)event;
 }
 
 void dm_splitting_destroy(dm_stepper *base)

@@ -11,5 +11,7 @@ dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
 dm_status dm_splitting_step(dm_stepper *s, const dm_point *from, dm_point *to);
 dm_status dm_splitting_restart(dm_stepper *s, const dm_point *at);
 void dm_splitting_destroy(dm_stepper *s);
+/* The fused loop, when the problem has one and the run is not compensated. */
+dm_watch_event dm_splitting_advance(dm_stepper *s, dm_watch *watch, uint64_t k_end);
 
 #endif

@@ -203,6 +203,10 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     }
 }
 
+/* The splitting engine's fused loop with this problem's functions inline. */
+#define DM_BLOCK_DOF 1
+#include "splitting_block.h"
+
 const dm_problem dm_problem_double_well = {
     .id = "double_well",
     .name = "quartic double well V = -a x^2/2 + b x^4/4",
@@ -232,6 +236,7 @@ const dm_problem dm_problem_double_well = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
+    .split_block = dm_split_block,
     .hessian = hessian,
     .exact = exact,
 };

@@ -64,6 +64,10 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = -a * w * sin(w * t);
 }
 
+/* The splitting engine's fused loop with this problem's functions inline. */
+#define DM_BLOCK_DOF 1
+#include "splitting_block.h"
+
 const dm_problem dm_problem_harmonic = {
     .id = "harmonic",
     .name = "harmonic oscillator V = w^2 x^2 / 2 (exact oracle)",
@@ -83,6 +87,7 @@ const dm_problem dm_problem_harmonic = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
+    .split_block = dm_split_block,
     .hessian = hessian,
     .exact = exact,
 };

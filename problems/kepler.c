@@ -234,6 +234,10 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
     out[2] = -p[0] * L - mu * q[1] / r;
 }
 
+/* The splitting engine's fused loop with this problem's functions inline. */
+#define DM_BLOCK_DOF 2
+#include "splitting_block.h"
+
 const dm_problem dm_problem_kepler = {
     .id = "kepler",
     .name = "planar Kepler problem H = |p|^2 / 2 - mu / |q| (relative coordinates)",
@@ -254,6 +258,7 @@ const dm_problem dm_problem_kepler = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
+    .split_block = dm_split_block,
     .hessian = hessian,
     .exact = exact,
     .n_invariants = 3,

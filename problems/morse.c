@@ -190,6 +190,10 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = m * c * w * side * sin_wt / (alpha * den);
 }
 
+/* The splitting engine's fused loop with this problem's functions inline. */
+#define DM_BLOCK_DOF 1
+#include "splitting_block.h"
+
 const dm_problem dm_problem_morse = {
     .id = "morse",
     .name = "Morse oscillator V = D (1 - exp(-alpha (x - xe)))^2, kinetic p^2 / (2 mass)",
@@ -215,6 +219,7 @@ const dm_problem dm_problem_morse = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
+    .split_block = dm_split_block,
     .hessian = hessian,
     .exact = exact,
 };

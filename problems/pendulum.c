@@ -171,6 +171,10 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     }
 }
 
+/* The splitting engine's fused loop with this problem's functions inline. */
+#define DM_BLOCK_DOF 1
+#include "splitting_block.h"
+
 const dm_problem dm_problem_pendulum = {
     .id = "pendulum",
     .name = "plane pendulum theta'' = -(g/L) sin theta, H = p^2/2 - w0^2 cos theta",
@@ -198,6 +202,7 @@ const dm_problem dm_problem_pendulum = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
+    .split_block = dm_split_block,
     .hessian = hessian,
     .exact = exact,
 };

@@ -10,6 +10,7 @@
 
 #include <stdbool.h>
 #include <stddef.h>
+#include <stdint.h>
 
 #include "dm_error.h"
 
@@ -51,6 +52,11 @@ typedef struct dm_section {
 } dm_section;
 
 typedef struct dm_problem dm_problem;
+
+/* The fused loop (integrators/splitting_block.h) is declared with these. */
+struct dm_split_plan;
+struct dm_split_cache;
+struct dm_watch;
 
 /* One concrete problem: parameters resolved, starting state built, regime and the
  * closed-form period known. Plain data, no allocation; copy it freely. */
@@ -99,6 +105,13 @@ struct dm_problem {
     void (*hessian)(const dm_instance *inst, const double *q, double *hess);
     /* Exact solution at time t from (q0, p0); NULL when none is known. */
     void (*exact)(const dm_instance *inst, double t, double *q, double *p);
+
+    /* Optional: the splitting engine's steps and the run's per-step monitors in one
+     * loop compiled with this problem's force inline — one line in the problem file,
+     * `#include "splitting_block.h"` (see there). NULL: the per-step path is used. */
+    int (*split_block)(const dm_instance *inst, const struct dm_split_plan *plan,
+                       struct dm_split_cache *cache, struct dm_watch *watch,
+                       uint64_t k_end);
 
     /* Extra conserved quantities the harness may monitor (angular momentum, ...). */
     int n_invariants;

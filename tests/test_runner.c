@@ -206,6 +206,77 @@ static void verlet_conserves_kepler_angular_momentum(void **state)
     dm_run_result_free(&r);
 }
 
+/* The fused loop (integrators/splitting_block.h) and the per-step path compute the same
+ * operations in the same order: every stored number, count and metric agrees bit for
+ * bit, for kick-first and drift-first tables, with and without FSAL, in one and two
+ * degrees of freedom, through crossings of wrapped sections and through a divergence. */
+static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
+{
+    static const struct {
+        const char *problem, *key;
+        double value;
+        const char *method;
+        double steps_per_period;
+    } cases[] = {
+        { "pendulum", "amplitude", 2.5, "verlet", 64 },
+        { "pendulum", "energy", 1.5, "verlet-dkd", 64 },   /* rotation: wrapped section */
+        { "pendulum", "amplitude", 1.0, "symeuler-a", 50 },
+        { "double_well", "energy", -0.1, "symeuler-b", 50 },
+        { "morse", "energy", 0.6, "yoshida4", 40 },
+        { "kepler", "eccentricity", 0.6, "yoshida6", 200 },
+        { "harmonic", NULL, 0, "suzuki4", 30 },
+        { "kepler", "eccentricity", 0.6, "verlet", 100 }, /* made to diverge, below */
+    };
+    for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
+        dm_run_spec spec;
+        make_spec(&spec, cases[c].problem, cases[c].key, cases[c].value, cases[c].method,
+                  cases[c].steps_per_period, 0, 300, 100);
+        dm_run_result fused, plain;
+        dm_error err = { 0 };
+        bool last = c + 1 == sizeof cases / sizeof cases[0];
+        if (last) {
+            /* a limit just under the run's own largest |dE|: it diverges where that
+             * peak is first reached */
+            assert_int_equal(dm_run(&spec, &fused, NULL, &err), DM_OK);
+            spec.energy_limit = 0.999 * fused.metrics.max_energy_error;
+            dm_run_result_free(&fused);
+        }
+        assert_int_equal(dm_run(&spec, &fused, NULL, &err), DM_OK);
+        spec.method_config.plain_steps = true;
+        assert_int_equal(dm_run(&spec, &plain, NULL, &err), DM_OK);
+        print_message("%s %s: %s, %llu steps, %llu crossings\n", cases[c].problem,
+                      cases[c].method, dm_run_status_name(fused.status),
+                      (unsigned long long)fused.metrics.steps,
+                      (unsigned long long)fused.crossings.total);
+        assert_int_equal(fused.status, plain.status);
+        assert_string_equal(fused.reason, plain.reason);
+        assert_true(fused.metrics.steps == plain.metrics.steps);
+        assert_true(fused.metrics.counts.force_evals == plain.metrics.counts.force_evals);
+        assert_true(fused.metrics.counts.velocity_evals == plain.metrics.counts.velocity_evals);
+        assert_int_equal(fused.series.n, plain.series.n);
+        size_t bytes = fused.series.n * sizeof(double);
+        assert_memory_equal(fused.series.time, plain.series.time, bytes);
+        assert_memory_equal(fused.series.energy_error, plain.series.energy_error, bytes);
+        assert_memory_equal(fused.series.energy_error_min, plain.series.energy_error_min, bytes);
+        assert_memory_equal(fused.series.energy_error_max, plain.series.energy_error_max, bytes);
+        assert_memory_equal(fused.series.global_error, plain.series.global_error, bytes);
+        assert_true(fused.crossings.total == plain.crossings.total);
+        assert_int_equal(fused.crossings.n, plain.crossings.n);
+        assert_memory_equal(fused.crossings.time, plain.crossings.time,
+                            fused.crossings.n * sizeof(double));
+        assert_memory_equal(&fused.metrics.phase_error_per_period,
+                            &plain.metrics.phase_error_per_period, sizeof(double));
+        assert_memory_equal(&fused.metrics.max_energy_error, &plain.metrics.max_energy_error,
+                            sizeof(double));
+        if (last)
+            assert_int_equal(fused.status, DM_RUN_DIVERGED);
+        else
+            assert_true(fused.crossings.total > 100);
+        dm_run_result_free(&fused);
+        dm_run_result_free(&plain);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -216,6 +287,7 @@ int main(void)
         cmocka_unit_test(crossing_store_stays_within_budget),
         cmocka_unit_test(same_run_twice_is_bit_identical),
         cmocka_unit_test(verlet_conserves_kepler_angular_momentum),
+        cmocka_unit_test(fused_loop_equals_per_step_path_bit_for_bit),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
