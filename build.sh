@@ -7,11 +7,12 @@ set -euo pipefail
 cd "$(dirname "$0")"
 
 # Build tools and libraries the program needs, then what the tests use as outside
-# references (GSL, h5py, mpmath) and the plot script needs (matplotlib).
+# references (GSL, h5py, mpmath) and the plot script needs (matplotlib); OpenMPI for
+# the optional MPI build of `run` (found by CMake when installed).
 packages=(build-essential cmake pkg-config git
           libsundials-dev libhdf5-dev libyaml-dev
           libcmocka-dev libgsl-dev python3 python3-h5py python3-mpmath python3-numpy
-          python3-matplotlib)
+          python3-matplotlib libopenmpi-dev openmpi-bin)
 
 install_missing() {
   local missing=()

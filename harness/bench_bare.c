@@ -148,3 +148,32 @@ void dm_bare_yoshida4_kepler(double mu, const dm_bare_coefficients *c, uint64_t 
     state->p[1] = py;
     state->potential = V;
 }
+
+void dm_bare_through_problem(const dm_instance *inst, const dm_bare_coefficients *c,
+                             uint64_t steps, dm_bare_state *state)
+{
+    double (*const force)(const dm_instance *, const double *, double *) = inst->problem->force;
+    void (*const velocity)(const dm_instance *, const double *, double *) =
+        inst->problem->velocity;
+    const int dof = inst->dof < 2 ? inst->dof : 2, n_drift = c->n_drift;
+    double q[2] = { state->q[0], state->q[1] }, p[2] = { state->p[0], state->p[1] };
+    double grad[2], v[2];
+    double V = force(inst, q, grad);
+    for (uint64_t n = 0; n < steps; n++) {
+        for (int i = 0; i < dof; i++)
+            p[i] = p[i] - c->kick[0] * grad[i];
+        for (int j = 0; j < n_drift; j++) {
+            velocity(inst, p, v);
+            for (int i = 0; i < dof; i++)
+                q[i] = q[i] + c->drift[j] * v[i];
+            V = force(inst, q, grad);
+            for (int i = 0; i < dof; i++)
+                p[i] = p[i] - c->kick[j + 1] * grad[i];
+        }
+    }
+    for (int i = 0; i < dof; i++) {
+        state->q[i] = q[i];
+        state->p[i] = p[i];
+    }
+    state->potential = V;
+}

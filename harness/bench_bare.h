@@ -11,6 +11,8 @@
 
 #include <stdint.h>
 
+#include "problem.h"
+
 /* The end of a bare run: the state and V(q) of its last force evaluation. */
 typedef struct dm_bare_state {
     double q[2], p[2];
@@ -37,5 +39,12 @@ void dm_bare_verlet_kepler(double mu, const dm_bare_coefficients *c, uint64_t st
                            dm_bare_state *state);
 void dm_bare_yoshida4_kepler(double mu, const dm_bare_coefficients *c, uint64_t steps,
                              dm_bare_state *state);
+
+/* Not a bare loop but the floor of the harness: the same kick-drift-kick steps on any
+ * problem, with the state in local arrays and the problem's force() and velocity()
+ * called through its table, as the splitting engine must. Its distance to the
+ * hand-written loop is the price of the problem interface, not of the harness. */
+void dm_bare_through_problem(const dm_instance *inst, const dm_bare_coefficients *c,
+                             uint64_t steps, dm_bare_state *state);
 
 #endif

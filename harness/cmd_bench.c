@@ -4,10 +4,15 @@
  * side by side in this one process, a hand-written loop of the same method and problem
  * (bench_bare.c) and a full harness run (dm_run with every monitor on), alternating
  * them and keeping each one's fastest round; it checks that both end with the same
- * energy error bit for bit (same arithmetic, so the same state). It also times writing
+ * energy error bit for bit (same arithmetic, so the same state). Beside them it times
+ * the same steps calling the problem's force() and velocity() through its table: the
+ * floor of any harness on the problem interface, which tells the interface's price
+ * apart from the harness's own. It also times writing
  * a one-run results file of the harness run against the run's wall time, reads the
  * peak resident memory, and times CVODE called directly against CVODE through our
- * adapter on the same problem and tolerances.
+ * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs
+ * through the pool of `driftmark run` (pool.c) with one job and with every core, and
+ * checks that both give the same results bit for bit.
  */
 #include <getopt.h>
 #include <math.h>
@@ -74,6 +79,7 @@ typedef struct case_result {
     uint64_t steps;
     double bare_seconds;          /* fastest round */
     double bare_sin_only_seconds; /* pendulum: a loop that never evaluates V; else NaN */
+    double through_problem_seconds; /* the loop calling the problem's functions */
     double harness_seconds;       /* fastest round, dm_run as a whole */
     bool energy_agrees;           /* bare and harness end with the same dE, bit for bit */
     double harness_energy_error, bare_energy_error;
@@ -129,6 +135,8 @@ static void bare_coefficients(const dm_run_spec *spec, dm_bare_coefficients *bc)
 }
 
 /* Runs the bare loop of case c for `steps` steps; returns its wall time. */
+/* with_cos: 1 the hand-written loop, 0 the pendulum loop without V, -1 the loop through
+ * the problem's functions. */
 static double run_bare(const bench_case *c, const dm_run_spec *spec,
                        const dm_bare_coefficients *bc, uint64_t steps, int with_cos,
                        dm_bare_state *end)
@@ -141,7 +149,9 @@ static double run_bare(const bench_case *c, const dm_run_spec *spec,
     bool pendulum = strcmp(c->problem, "pendulum") == 0;
     bool verlet = bc->n_drift == 1;
     double t0 = now_seconds();
-    if (pendulum && verlet)
+    if (with_cos < 0)
+        dm_bare_through_problem(inst, bc, steps, &s);
+    else if (pendulum && verlet)
         dm_bare_verlet_pendulum(k, bc, steps, &s, with_cos);
     else if (pendulum)
         dm_bare_yoshida4_pendulum(k, bc, steps, &s, with_cos);
@@ -223,6 +233,7 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
     const int rounds = quick ? 1 : 3;
     out->bare_seconds = out->harness_seconds = INFINITY;
     out->bare_sin_only_seconds = pendulum ? INFINITY : NAN;
+    out->through_problem_seconds = INFINITY;
     dm_run_result result;
     memset(&result, 0, sizeof result);
     for (int r = 0; r < rounds; r++) {
@@ -252,6 +263,8 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
             out->energy_agrees = memcmp(&out->bare_energy_error, &out->harness_energy_error,
                                         sizeof(double)) == 0;
         }
+        out->through_problem_seconds = fmin(out->through_problem_seconds,
+                                            run_bare(c, &spec, &bc, out->steps, -1, NULL));
         if (pendulum)
             out->bare_sin_only_seconds =
                 fmin(out->bare_sin_only_seconds, run_bare(c, &spec, &bc, out->steps, 0, NULL));
@@ -430,6 +443,225 @@ static dm_status bench_cvode(const char *method_id, bool quick, cvode_result *ou
     return DM_OK;
 }
 
+/* ---- 1 vs N jobs: the pool of `driftmark run` on a suite of equal runs ---- */
+
+/* Eight swings of the pendulum under Verlet, the same steps per period and the same
+ * horizon in periods: the same number of steps each, so eight equal runs. */
+static const double jobs_amplitudes[] = { 2.0, 2.1, 2.2, 2.3, 2.4, 2.5, 2.6, 2.7 };
+#define JOBS_RUNS (sizeof jobs_amplitudes / sizeof jobs_amplitudes[0])
+#define JOBS_STEPS_PER_PERIOD 96
+
+typedef struct jobs_result {
+    size_t runs;
+    int jobs;                      /* threads of the second round: every core */
+    double periods;                /* horizon of each run */
+    uint64_t steps_per_run;
+    double one_seconds, all_seconds; /* fastest round of each */
+    bool identical;                /* every run's datasets and metrics, bit for bit */
+    char difference[DM_RUN_ID_MAX + 48]; /* the first difference found, if any */
+} jobs_result;
+
+/* Builds the suite in memory from YAML, its output (never written) in the temporary
+ * directory. */
+static dm_status jobs_suite(dm_suite *suite, double periods, dm_error *err)
+{
+    char text[2048];
+    int w = snprintf(text, sizeof text,
+                     "name: bench-jobs\n"
+                     "horizon: {periods: %.17g}\n"
+                     "samples: %d\n"
+                     "problems:\n",
+                     periods, BENCH_SAMPLES);
+    for (size_t i = 0; i < JOBS_RUNS && w > 0 && (size_t)w < sizeof text; i++)
+        w += snprintf(text + w, sizeof text - (size_t)w,
+                      "  - {problem: pendulum, amplitude: %g}\n", jobs_amplitudes[i]);
+    if (w > 0 && (size_t)w < sizeof text)
+        w += snprintf(text + w, sizeof text - (size_t)w,
+                      "methods:\n  - {method: verlet, steps_per_period: %d}\n",
+                      JOBS_STEPS_PER_PERIOD);
+    if (w < 0 || (size_t)w >= sizeof text)
+        return dm_error_set(err, DM_EINPUT, "bench: the jobs suite does not fit its buffer");
+    const char *dir = getenv("TMPDIR");
+    if (dir == NULL || *dir == '\0')
+        dir = "/tmp";
+    char output[1024];
+    snprintf(output, sizeof output, "%s/driftmark-bench-jobs-%ld.h5", dir, (long)getpid());
+    return dm_suite_parse(suite, text, strlen(text), "(driftmark bench jobs suite)", output,
+                          err);
+}
+
+static bool same_doubles(const double *a, const double *b, size_t n)
+{
+    if ((a == NULL) != (b == NULL))
+        return false;
+    return n == 0 || a == NULL || memcmp(a, b, n * sizeof *a) == 0;
+}
+
+static bool same_double(double a, double b)
+{
+    return memcmp(&a, &b, sizeof a) == 0;
+}
+
+/* Compares two results of the same run: every dataset the results file stores (the
+ * series, the crossings) and every metric but the wall time, bit for bit. Returns the
+ * name of the first thing that differs, or NULL. */
+static const char *first_difference(const dm_run_result *a, const dm_run_result *b)
+{
+    if (a->status != b->status || strcmp(a->reason, b->reason) != 0)
+        return "status";
+    const dm_series *x = &a->series, *y = &b->series;
+    if (x->n != y->n)
+        return "series length";
+    if (!same_doubles(x->time, y->time, x->n))
+        return "time";
+    if (!same_doubles(x->energy_error, y->energy_error, x->n))
+        return "energy_error";
+    if (!same_doubles(x->energy_error_min, y->energy_error_min, x->n))
+        return "energy_error_min";
+    if (!same_doubles(x->energy_error_max, y->energy_error_max, x->n))
+        return "energy_error_max";
+    if (!same_doubles(x->global_error, y->global_error, x->n))
+        return "global_error";
+    if (x->n_invariants != y->n_invariants)
+        return "invariants";
+    for (int i = 0; i < x->n_invariants; i++)
+        if (!same_doubles(x->invariant_error[i], y->invariant_error[i], x->n))
+            return "invariant_error";
+    const dm_crossings *u = &a->crossings, *v = &b->crossings;
+    if (u->n != v->n || u->total != v->total || u->stride != v->stride)
+        return "crossing count";
+    if (!same_doubles(u->number, v->number, u->n))
+        return "crossing_number";
+    if (!same_doubles(u->time, v->time, u->n))
+        return "crossing_time";
+    if (!same_doubles(u->phase_error, v->phase_error, u->n))
+        return "phase_error";
+    const dm_run_metrics *m = &a->metrics, *n = &b->metrics;
+    const double pairs[][2] = {
+        { m->energy_scale, n->energy_scale },
+        { m->max_energy_error, n->max_energy_error },
+        { m->final_energy_error, n->final_energy_error },
+        { m->energy_drift_per_period, n->energy_drift_per_period },
+        { m->drift_exponent, n->drift_exponent },
+        { m->period_measured, n->period_measured },
+        { m->phase_error_per_period, n->phase_error_per_period },
+        { m->phase_error_final, n->phase_error_final },
+        { m->max_global_error, n->max_global_error },
+        { m->t_reached, n->t_reached },
+    };
+    for (size_t i = 0; i < sizeof pairs / sizeof pairs[0]; i++)
+        if (!same_double(pairs[i][0], pairs[i][1]))
+            return "metrics";
+    for (int i = 0; i < DM_MAX_INVARIANTS; i++)
+        if (!same_double(m->max_invariant_error[i], n->max_invariant_error[i]))
+            return "max_invariant_error";
+    if (m->steps != n->steps || memcmp(&m->counts, &n->counts, sizeof m->counts) != 0)
+        return "counts";
+    return NULL;
+}
+
+static void free_results(dm_run_result *results, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        dm_run_result_free(&results[i]);
+    memset(results, 0, n * sizeof *results);
+}
+
+/* One round: the whole suite through the pool with `jobs` threads; its wall time. */
+static dm_status jobs_round(const dm_suite *suite, dm_run_result *results, const size_t *order,
+                            int jobs, double *seconds, dm_error *err)
+{
+    free_results(results, suite->n_runs);
+    double t0 = now_seconds();
+    dm_status st = dm_run_pool(suite, results, order, suite->n_runs, jobs, NULL, NULL, NULL, err);
+    *seconds = now_seconds() - t0;
+    if (st != DM_OK)
+        return st;
+    for (size_t i = 0; i < suite->n_runs; i++)
+        if (results[i].status != DM_RUN_OK)
+            return dm_error_set(err, DM_ENUMERIC, "bench: %s: %s", suite->runs[i].id,
+                                results[i].reason);
+    return DM_OK;
+}
+
+static dm_status bench_jobs(bool quick, jobs_result *out, dm_error *err)
+{
+    memset(out, 0, sizeof *out);
+    long cores = sysconf(_SC_NPROCESSORS_ONLN);
+    out->jobs = cores > 1 ? (cores > DM_POOL_MAX_JOBS ? DM_POOL_MAX_JOBS : (int)cores) : 1;
+    out->runs = JOBS_RUNS;
+    out->identical = true;
+    dm_suite suite;
+    dm_run_result *one = NULL, *all = NULL;
+    size_t *order = NULL;
+
+    /* Calibrate on one run, its horizon growing until it takes 20 ms, then a horizon
+     * for the wanted time a run. */
+    double periods = 100.0, wall = 0.0;
+    dm_status st;
+    for (;;) {
+        if ((st = jobs_suite(&suite, periods, err)) != DM_OK)
+            return st;
+        dm_run_result probe;
+        memset(&probe, 0, sizeof probe);
+        double t0 = now_seconds();
+        st = dm_run(&suite.runs[0], &probe, NULL, err);
+        wall = now_seconds() - t0;
+        dm_run_result_free(&probe);
+        dm_suite_free(&suite);
+        if (st != DM_OK)
+            return st;
+        if (wall >= 0.02 || periods >= 1e7)
+            break;
+        periods *= 4.0;
+    }
+    const double per_run = quick ? 0.03 : 0.25;
+    out->periods = fmax(10.0, ceil(periods * per_run / fmax(wall, 1e-6)));
+    if ((st = jobs_suite(&suite, out->periods, err)) != DM_OK)
+        return st;
+
+    one = calloc(suite.n_runs, sizeof *one);
+    all = calloc(suite.n_runs, sizeof *all);
+    order = malloc(suite.n_runs * sizeof *order);
+    if (one == NULL || all == NULL || order == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "bench: out of memory for %zu runs", suite.n_runs);
+        goto done;
+    }
+    for (size_t i = 0; i < suite.n_runs; i++)
+        order[i] = i;
+    dm_run_order_longest_first(&suite, order, suite.n_runs);
+
+    out->one_seconds = out->all_seconds = INFINITY;
+    for (int r = 0; r < (quick ? 1 : 3); r++) {
+        double seconds;
+        if ((st = jobs_round(&suite, one, order, 1, &seconds, err)) != DM_OK)
+            goto done;
+        out->one_seconds = fmin(out->one_seconds, seconds);
+        if ((st = jobs_round(&suite, all, order, out->jobs, &seconds, err)) != DM_OK)
+            goto done;
+        out->all_seconds = fmin(out->all_seconds, seconds);
+        for (size_t i = 0; i < suite.n_runs && out->identical; i++) {
+            const char *what = first_difference(&one[i], &all[i]);
+            if (what != NULL) {
+                out->identical = false;
+                snprintf(out->difference, sizeof out->difference, "%s differs in %.32s",
+                         suite.runs[i].id, what);
+            }
+        }
+    }
+    out->steps_per_run = one[0].metrics.steps;
+done:
+    if (one != NULL)
+        free_results(one, suite.n_runs);
+    if (all != NULL)
+        free_results(all, suite.n_runs);
+    free(one);
+    free(all);
+    free(order);
+    dm_suite_free(&suite);
+    return st;
+}
+
 /* ---- output ---- */
 
 static void json_number(FILE *f, double v)
@@ -448,7 +680,7 @@ static void json_field(FILE *f, const char *name, double v, bool last)
 }
 
 static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
-                       size_t n_cv, long rss_before, long rss_after)
+                       size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
 {
     fprintf(f, "{\n  \"quick\": %s,\n  \"samples\": %d,\n  \"cases\": [\n", quick ? "true" : "false",
             BENCH_SAMPLES);
@@ -464,6 +696,8 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         json_field(f, "bare_steps_per_second", bare, false);
         json_field(f, "harness_steps_per_second", harness, false);
         json_field(f, "ratio", harness / bare, false);
+        json_field(f, "through_problem_steps_per_second",
+                   (double)r->steps / r->through_problem_seconds, false);
         json_field(f, "bare_without_potential_steps_per_second",
                    (double)r->steps / r->bare_sin_only_seconds, false);
         fprintf(f, "\n     \"final_energy_error_agrees\": %s, ", r->energy_agrees ? "true" : "false");
@@ -496,16 +730,27 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         json_field(f, "adapter_overhead", direct / adapter - 1.0, true);
         fprintf(f, "}%s\n", i + 1 < n_cv ? "," : "");
     }
-    fputs("  ],\n  \"jobs_speedup\": null\n}\n", f);
+    fprintf(f, "  ],\n  \"jobs\": {\"problem\": \"pendulum\", \"method\": \"verlet\", "
+               "\"runs\": %zu, \"jobs\": %d, \"periods\": %g, \"steps_per_run\": %llu,\n   ",
+            jb->runs, jb->jobs, jb->periods, (unsigned long long)jb->steps_per_run);
+    json_field(f, "one_job_seconds", jb->one_seconds, false);
+    json_field(f, "all_jobs_seconds", jb->all_seconds, false);
+    json_field(f, "speedup", jb->one_seconds / jb->all_seconds, false);
+    fprintf(f, "\"results_identical\": %s", jb->identical ? "true" : "false");
+    if (!jb->identical)
+        fprintf(f, ", \"difference\": \"%s\"", jb->difference);
+    fputs("},\n  \"jobs_speedup\": ", f);
+    json_number(f, jb->one_seconds / jb->all_seconds);
+    fputs("\n}\n", f);
 }
 
 static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
-                       size_t n_cv, long rss_before, long rss_after)
+                       size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
 {
     fprintf(f, "harness (every monitor on, %d samples) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
-    fprintf(f, "%-28s %11s %12s %12s %6s %12s %6s %9s\n", "case", "steps", "bare M/s",
-            "harness M/s", "ratio", "bare -V M/s", "same", "hdf5 %");
+    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %5s %7s\n", "case", "steps", "bare M/s",
+            "harn. M/s", "ratio", "table M/s", "-V M/s", "same", "hdf5 %");
     for (size_t i = 0; i < N_CASES; i++) {
         const bench_case *c = &cases[i];
         const case_result *r = &cr[i];
@@ -513,15 +758,19 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
         snprintf(name, sizeof name, "%s %s=%g %s", c->problem, c->key, c->value, c->method);
         double bare = (double)r->steps / r->bare_seconds;
         double harness = (double)r->steps / r->harness_seconds;
-        fprintf(f, "%-28s %11llu %12.2f %12.2f %6.3f %12.2f %6s %9.3f\n", name,
+        fprintf(f, "%-32s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %5s %7.3f\n", name,
                 (unsigned long long)r->steps, bare / 1e6, harness / 1e6, harness / bare,
+                (double)r->steps / r->through_problem_seconds / 1e6,
                 (double)r->steps / r->bare_sin_only_seconds / 1e6, r->energy_agrees ? "yes" : "NO",
                 100.0 * r->hdf5_share);
         if (r->hdf5_note[0])
             fprintf(f, "  %s\n", r->hdf5_note);
     }
-    fprintf(f, "  (bare -V: the pendulum loop evaluating sin only, never V; same: bare and "
-               "harness end with the same dE bit for bit)\n\n");
+    fprintf(f, "  bare: hand-written loop; harn.: dm_run with every monitor; ratio: harn. / bare\n"
+               "  table: the same loop calling the problem's force() and velocity() through its\n"
+               "  table (the floor of any harness on this interface); -V: the pendulum loop\n"
+               "  evaluating sin only, never V; same: bare and harness end with the same dE bit\n"
+               "  for bit; hdf5: writing a one-run results file over the run's wall time\n\n");
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);
     fprintf(f, "CVODE on pendulum amplitude=2.5, rtol %g: called directly vs through the adapter\n",
             CVODE_RTOL);
@@ -534,14 +783,20 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
                 r->method, r->periods, r->direct_steps, r->adapter_steps, direct / 1e6,
                 adapter / 1e6, 100.0 * (direct / adapter - 1.0));
     }
-    fprintf(f, "\n1 vs N jobs speed-up: not measured (TODO: needs `run --jobs`)\n");
+    fprintf(f, "\n1 vs N jobs: %zu equal runs (pendulum amplitude 2.0 to 2.7, verlet, %d steps a "
+               "period, %g periods, %llu steps each) through the pool of `run`\n",
+            jb->runs, JOBS_STEPS_PER_PERIOD, jb->periods, (unsigned long long)jb->steps_per_run);
+    fprintf(f, "  --jobs 1 %.3f s, --jobs %d %.3f s: speed-up %.2f; results %s\n", jb->one_seconds,
+            jb->jobs, jb->all_seconds, jb->one_seconds / jb->all_seconds,
+            jb->identical ? "identical bit for bit" : jb->difference);
 }
 
 static void print_usage(FILE *out)
 {
     fprintf(out, "usage: driftmark bench [--quick] [--json]\n"
                  "  times the harness against hand-written loops, the results file write and\n"
-                 "  the CVODE adapter; --quick runs ~0.2 s per measurement instead of ~1.5 s x 3\n");
+                 "  the CVODE adapter, and 1 against N jobs on a suite of equal runs; --quick\n"
+                 "  runs ~0.2 s per measurement instead of ~1.5 s x 3\n");
 }
 
 int dm_cmd_bench(int argc, char **argv)
@@ -587,9 +842,14 @@ int dm_cmd_bench(int argc, char **argv)
         }
     }
     long rss_after = peak_resident_kib();
+    jobs_result jb;
+    if (bench_jobs(quick, &jb, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
+        return 1;
+    }
     if (json)
-        print_json(stdout, quick, cr, cv, 2, rss_before, rss_after);
+        print_json(stdout, quick, cr, cv, 2, &jb, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, cv, 2, rss_before, rss_after);
+        print_text(stdout, quick, cr, cv, 2, &jb, rss_before, rss_after);
     return 0;
 }

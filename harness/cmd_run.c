@@ -5,10 +5,13 @@
  * Nothing is lost: the file is written beside its name and renamed into place; an
  * existing file is replaced only with --force; SIGINT / SIGTERM end the running runs at
  * their next bucket, mark them interrupted and still write every completed run; and
- * --resume FILE runs only what that file does not hold complete. */
+ * --resume FILE runs only what that file does not hold complete.
+ *
+ * Under mpirun (a build with MPI) the same command spreads the runs over the ranks:
+ * rank 0 does everything this file does alone, with mpi_run.c handing out the runs and
+ * gathering their results instead of the thread pool below; the other ranks only run
+ * what rank 0 hands them. */
 #include <getopt.h>
-#include <pthread.h>
-#include <stdatomic.h>
 #include <math.h>
 #include <signal.h>
 #include <stdio.h>
@@ -19,6 +22,7 @@
 
 #include "cli.h"
 #include "harness.h"
+#include "mpi_run.h"
 
 static volatile sig_atomic_t stop_signal = 0;
 static volatile int stop_flag = 0;
@@ -64,88 +68,10 @@ static void progress(size_t done, size_t total, double work, const char *current
     fflush(stderr);
 }
 
-/* The pool: workers take runs in the order `order` (longest first, so one long run
- * does not finish alone at the end) and store each result at its own index, so the
- * results file is the same whatever the number of jobs. */
-typedef struct pool {
-    dm_suite *suite;
-    dm_run_result *results;
-    const size_t *order;           /* the runs to do, longest first */
-    size_t n_order;
-    atomic_size_t next;
-    atomic_size_t done;
-    atomic_int failed;
-    pthread_mutex_t lock;          /* guards the progress line and the first error */
-    dm_error error;
-    bool tty;
-    double cost_total, cost_done;  /* estimated work, for the time left (under lock) */
-    struct timespec t0;
-    const char *current;
-} pool;
-
-static double estimated_cost(const dm_run_spec *spec);
-
-static void *worker(void *arg)
+/* The progress line of an MPI job: the runs every rank finished. */
+static void progress_of_ranks(size_t done, size_t total, const char *current, double elapsed)
 {
-    pool *p = arg;
-    for (;;) {
-        if (stop_flag || atomic_load(&p->failed))
-            break;
-        size_t slot = atomic_fetch_add(&p->next, 1);
-        if (slot >= p->n_order)
-            break;
-        size_t i = p->order[slot];
-        const dm_run_spec *spec = &p->suite->runs[i];
-        if (p->tty) {
-            pthread_mutex_lock(&p->lock);
-            p->current = spec->id;
-            progress(atomic_load(&p->done), p->n_order, p->cost_done / p->cost_total, spec->id,
-                     seconds_since(&p->t0));
-            pthread_mutex_unlock(&p->lock);
-        }
-        dm_error err = { 0 };
-        if (dm_run(spec, &p->results[i], &stop_flag, &err) != DM_OK) {
-            pthread_mutex_lock(&p->lock);
-            if (!atomic_load(&p->failed)) {
-                p->error = err;
-                dm_error_prefix(&p->error, "%s: ", spec->id);
-            }
-            atomic_store(&p->failed, 1);
-            pthread_mutex_unlock(&p->lock);
-            break;
-        }
-        size_t d = atomic_fetch_add(&p->done, 1) + 1;
-        pthread_mutex_lock(&p->lock);
-        p->cost_done += estimated_cost(spec);
-        if (p->tty)
-            progress(d, p->n_order, p->cost_done / p->cost_total,
-                     p->current ? p->current : "", seconds_since(&p->t0));
-        pthread_mutex_unlock(&p->lock);
-    }
-    return NULL;
-}
-
-/* Work estimate of a run: force evaluations for fixed steps; adaptive methods are
- * guessed from the horizon and the tolerance (their steps grow as rtol shrinks). */
-static double estimated_cost(const dm_run_spec *spec)
-{
-    const dm_method *m = spec->method;
-    if (!m->adaptive) {
-        double per = m->force_evals_per_step > 0 ? m->force_evals_per_step : 4;
-        return per * spec->t_end / fabs(spec->method_config.h);
-    }
-    double digits = -log10(spec->method_config.rtol);
-    return spec->periods * 20.0 * digits * digits;
-}
-
-static const dm_suite *cost_suite;
-static int by_cost_descending(const void *a, const void *b)
-{
-    size_t i = *(const size_t *)a, j = *(const size_t *)b;
-    double ci = estimated_cost(&cost_suite->runs[i]), cj = estimated_cost(&cost_suite->runs[j]);
-    if (ci != cj)
-        return ci > cj ? -1 : 1;
-    return i < j ? -1 : (i > j);
+    progress(done, total, total > 0 ? (double)done / (double)total : 1.0, current, elapsed);
 }
 
 static int default_jobs(void)
@@ -164,6 +90,10 @@ static void print_usage(FILE *out)
                  "  -f, --force         replace an existing results file\n"
                  "  -r, --resume FILE   continue the suite stored in FILE: keep its completed\n"
                  "                      runs, run the rest, and rewrite FILE\n");
+    if (dm_mpi_built())
+        fprintf(out, "  under mpirun -n N (this build has MPI) the runs are spread over N\n"
+                     "  processes of -j JOBS threads each (default: the cores each may use);\n"
+                     "  rank 0 writes the one results file\n");
 }
 
 /* Loads the suite to run: from a file, the built-in default, or the one stored in the
@@ -184,7 +114,80 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
     return st;
 }
 
+/* Rank 0 (or the one process): loads the suite, refuses to replace a file without
+ * --force, and reads back what --resume keeps. Returns 0 with *suite and *results
+ * made, or the exit status after printing the one-line error (nothing left made). */
+static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
+                   const char *output, const char *resume, bool force)
+{
+    dm_error err = { 0 };
+    dm_status st = load_suite(suite, path, output, resume, &err);
+    if (st != DM_OK) {
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        return st == DM_EINPUT ? 2 : 1;
+    }
+    if (resume == NULL && !force && access(suite->output, F_OK) == 0) {
+        fprintf(stderr, "driftmark: run: %s already exists (add --force to replace it, or "
+                        "--resume %s to continue it)\n", suite->output, suite->output);
+        dm_suite_free(suite);
+        return 2;
+    }
+    *results = calloc(suite->n_runs ? suite->n_runs : 1, sizeof **results);
+    if (*results == NULL) {
+        fprintf(stderr, "driftmark: run: out of memory for %zu runs\n", suite->n_runs);
+        dm_suite_free(suite);
+        return 1;
+    }
+    if (resume != NULL) {
+        size_t kept = 0;
+        st = dm_results_read_runs(resume, suite, *results, &kept, &err);
+        if (st != DM_OK) {
+            fprintf(stderr, "driftmark: run: %s\n", err.msg);
+            for (size_t i = 0; i < suite->n_runs; i++)
+                dm_run_result_free(&(*results)[i]);
+            free(*results);
+            *results = NULL;
+            dm_suite_free(suite);
+            return st == DM_EINPUT ? 2 : 1;
+        }
+        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu\n", resume,
+                kept, suite->n_runs - kept);
+    }
+    return 0;
+}
+
+/* Ctrl-C and kill end the runs at their next bucket; the file is still written.
+ * SIGUSR1 does the same: mpirun forwards it to every rank as it is (it turns SIGINT and
+ * SIGTERM into SIGTERM followed by SIGKILL one second later), and batch schedulers can
+ * send it ahead of a time limit. SIGXFSZ is ignored so that a file-size limit shows as
+ * a write error, not a crash. */
+static void catch_signals(void)
+{
+    struct sigaction sa;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigemptyset(&sa.sa_mask);
+    sigaction(SIGINT, &sa, NULL);
+    sigaction(SIGTERM, &sa, NULL);
+    sigaction(SIGUSR1, &sa, NULL);
+    signal(SIGXFSZ, SIG_IGN);
+}
+
+static int run_command(int argc, char **argv, dm_mpi_world *world);
+
 int dm_cmd_run(int argc, char **argv)
+{
+    dm_mpi_world world;
+    dm_error err = { 0 };
+    if (dm_mpi_begin(&world, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        return err.code == DM_EINPUT ? 2 : 1;
+    }
+    int code = run_command(argc, argv, &world);
+    return dm_mpi_end(&world, code);
+}
+
+static int run_command(int argc, char **argv, dm_mpi_world *world)
 {
     static const struct option options[] = {
         { "output", required_argument, NULL, 'o' },
@@ -196,7 +199,7 @@ int dm_cmd_run(int argc, char **argv)
     };
     const char *output = NULL, *resume = NULL;
     bool force = false;
-    int jobs = default_jobs();
+    int jobs = dm_mpi_default_jobs(world, default_jobs());
     int c;
     optind = 1;
     opterr = 0;
@@ -230,51 +233,51 @@ int dm_cmd_run(int argc, char **argv)
                                   "and rewrites FILE: give no suite file and no -o with it");
 
     dm_suite suite;
-    dm_error err = { 0 };
-    dm_status st = load_suite(&suite, optind < argc ? argv[optind] : NULL, output, resume, &err);
-    if (st != DM_OK) {
-        fprintf(stderr, "driftmark: run: %s\n", err.msg);
-        return st == DM_EINPUT ? 2 : 1;
+    memset(&suite, 0, sizeof suite);
+    dm_run_result *results = NULL;
+    int setup = world->rank == 0 ? prepare(&suite, &results, optind < argc ? argv[optind] : NULL,
+                                           output, resume, force)
+                                 : 0;
+    /* every rank learns rank 0's verdict; the others validate the same suite text */
+    setup = dm_mpi_share_suite(world, setup, &suite);
+    if (setup != 0) {
+        if (results != NULL) {
+            for (size_t i = 0; i < suite.n_runs; i++)
+                dm_run_result_free(&results[i]);
+            free(results);
+            dm_suite_free(&suite);
+        }
+        return setup;
     }
-    if (resume == NULL && !force && access(suite.output, F_OK) == 0) {
-        fprintf(stderr, "driftmark: run: %s already exists (add --force to replace it, or "
-                        "--resume %s to continue it)\n", suite.output, suite.output);
+    catch_signals();
+    if (world->rank > 0) {
+        dm_mpi_job job = { .suite = &suite, .jobs = jobs, .stop = &stop_flag,
+                           .stop_signal = &stop_signal };
+        dm_mpi_work(world, &job);
         dm_suite_free(&suite);
-        return 2;
+        /* a stop or a failure is reported by rank 0 (a failure was sent to it), whose
+         * status every rank takes */
+        return job.failed ? 1 : 0;
     }
 
-    dm_run_result *results = calloc(suite.n_runs ? suite.n_runs : 1, sizeof *results);
+    dm_error err = { 0 };
+    dm_status st;
     dm_sweep_fit *fits = calloc(suite.n_sweeps ? suite.n_sweeps : 1, sizeof *fits);
     dm_summary_row *rows = calloc(suite.n_runs ? suite.n_runs : 1, sizeof *rows);
     size_t *order = malloc(sizeof *order * (suite.n_runs ? suite.n_runs : 1));
     int exit_code = 0;
-    if (results == NULL || fits == NULL || rows == NULL || order == NULL) {
+    if (fits == NULL || rows == NULL || order == NULL) {
         fprintf(stderr, "driftmark: run: out of memory for %zu runs\n", suite.n_runs);
         exit_code = 1;
+        if (world->size > 1) {
+            /* the other ranks wait for work: hand out none */
+            dm_mpi_job job = { .suite = &suite, .results = results, .order = order,
+                               .n_order = 0, .jobs = 1, .stop = &stop_flag,
+                               .stop_signal = &stop_signal };
+            dm_mpi_coordinate(world, &job);
+        }
         goto cleanup;
     }
-
-    size_t kept = 0;
-    if (resume != NULL) {
-        st = dm_results_read_runs(resume, &suite, results, &kept, &err);
-        if (st != DM_OK) {
-            fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            exit_code = st == DM_EINPUT ? 2 : 1;
-            goto cleanup;
-        }
-        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu\n", resume,
-                kept, suite.n_runs - kept);
-    }
-
-    /* Ctrl-C and kill end the runs at their next bucket; the file is still written.
-     * SIGXFSZ is ignored so that a file-size limit shows as a write error, not a crash. */
-    struct sigaction sa;
-    memset(&sa, 0, sizeof sa);
-    sa.sa_handler = on_signal;
-    sigemptyset(&sa.sa_mask);
-    sigaction(SIGINT, &sa, NULL);
-    sigaction(SIGTERM, &sa, NULL);
-    signal(SIGXFSZ, SIG_IGN);
 
     char started[32];
     utc_now(started, sizeof started);
@@ -282,40 +285,39 @@ int dm_cmd_run(int argc, char **argv)
     for (size_t i = 0; i < suite.n_runs; i++)
         if (results[i].status == DM_RUN_NOT_RUN)
             order[n_order++] = i;
-    cost_suite = &suite;
-    qsort(order, n_order, sizeof *order, by_cost_descending);
+    dm_run_order_longest_first(&suite, order, n_order);
 
-    pool p = { .suite = &suite, .results = results, .order = order, .n_order = n_order,
-               .tty = isatty(STDERR_FILENO) };
-    p.cost_total = 0.0;
-    for (size_t i = 0; i < n_order; i++)
-        p.cost_total += estimated_cost(&suite.runs[order[i]]);
-    if (!(p.cost_total > 0.0))
-        p.cost_total = 1.0;
-    atomic_init(&p.next, 0);
-    atomic_init(&p.done, 0);
-    atomic_init(&p.failed, 0);
-    pthread_mutex_init(&p.lock, NULL);
-    clock_gettime(CLOCK_MONOTONIC, &p.t0);
-    if ((size_t)jobs > n_order)
-        jobs = n_order > 0 ? (int)n_order : 1;
-    pthread_t threads[1024];
-    int started_threads = 0;
-    for (int j = 1; j < jobs; j++)
-        if (pthread_create(&threads[started_threads], NULL, worker, &p) == 0)
-            started_threads++;
-    worker(&p); /* the main thread is one of the jobs */
-    for (int j = 0; j < started_threads; j++)
-        pthread_join(threads[j], NULL);
-    pthread_mutex_destroy(&p.lock);
-    if (p.tty) {
-        progress(atomic_load(&p.done), n_order, p.cost_done / p.cost_total, "",
-                 seconds_since(&p.t0));
-        fputc('\n', stderr);
-    }
-    if (atomic_load(&p.failed)) {
-        fprintf(stderr, "driftmark: run: %s\n", p.error.msg);
-        exit_code = 1;
+    struct timespec t0;
+    clock_gettime(CLOCK_MONOTONIC, &t0);
+    if (world->size > 1) {
+        /* rank 0 hands the runs out to every rank (its own threads too) in this order */
+        dm_mpi_job job = { .suite = &suite, .results = results, .order = order,
+                           .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
+                           .stop_signal = &stop_signal, .t0 = t0,
+                           .progress = isatty(STDERR_FILENO) ? progress_of_ranks : NULL };
+        dm_mpi_coordinate(world, &job);
+        if (job.progress != NULL) {
+            progress_of_ranks(job.done, n_order, "", seconds_since(&t0));
+            fputc('\n', stderr);
+        }
+        fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
+                        "runs came from the other ranks, %llu bytes\n", world->size, jobs,
+                job.runs_received, (unsigned long long)job.bytes_received);
+        if (job.failed) {
+            fprintf(stderr, "driftmark: run: %s\n", job.error.msg);
+            exit_code = 1;
+        }
+    } else {
+        /* the pool (pool.c): each result at its own index, whatever the jobs */
+        bool tty = isatty(STDERR_FILENO);
+        st = dm_run_pool(&suite, results, order, n_order, jobs, &stop_flag,
+                         tty ? progress : NULL, NULL, &err);
+        if (tty)
+            fputc('\n', stderr);
+        if (st != DM_OK) {
+            fprintf(stderr, "driftmark: run: %s\n", err.msg);
+            exit_code = 1;
+        }
     }
 
     /* Whatever happened above, every run that ran is written. */
@@ -344,7 +346,7 @@ int dm_cmd_run(int argc, char **argv)
     }
     if (written)
         printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite.output, n_rows, suite.n_runs,
-               seconds_since(&p.t0));
+               seconds_since(&t0));
     if (stop_signal) {
         if (written)
             fprintf(stderr, "driftmark: run: stopped by signal %d; completed runs are in %s; "

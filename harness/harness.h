@@ -51,6 +51,7 @@ typedef struct dm_run_spec {
     double periods;                  /* horizon in periods (t_end / period) */
     size_t samples;                  /* buckets in the stored series */
     double energy_limit;             /* |dE| above this: diverged (from the suite) */
+    uint64_t step_budget;            /* adaptive runs taking more steps fail (0: none) */
     int sweep;                       /* index into dm_suite.sweeps, or -1 */
 } dm_run_spec;
 
@@ -160,6 +161,34 @@ typedef struct dm_run_result {
 dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
                  dm_error *err);
 void dm_run_result_free(dm_run_result *result);
+
+/* ---- many runs at once (pool.c): `run --jobs` and `bench` ---- */
+
+#define DM_POOL_MAX_JOBS 1024
+
+/* Work estimate of a run (force evaluations for fixed steps; a guess from the horizon
+ * and rtol for adaptive methods): orders the runs and judges the time left. */
+double dm_run_estimated_cost(const dm_run_spec *spec);
+
+/* Sorts order[0..n) (indices into suite->runs) by estimated cost, longest first, ties
+ * by index, so one long run does not finish alone at the end. */
+void dm_run_order_longest_first(const dm_suite *suite, size_t *order, size_t n);
+
+/* Progress of a pool, called under its lock when a run starts or ends, and once at the
+ * end with current "": runs done of total, the estimated fraction of the work done,
+ * the run just started, seconds since the pool started. */
+typedef void (*dm_pool_progress)(size_t done, size_t total, double work,
+                                 const char *current, double elapsed);
+
+/* Runs suite->runs[order[0..n_order)] on `jobs` threads (the calling thread is one),
+ * each result stored at its own index in results[], so the results are the same
+ * whatever the number of jobs. `stop` (may be NULL) ends the runs at their next
+ * bucket (they end interrupted) and starts no new one. When a run cannot be run
+ * (dm_run fails), no new run starts and its error, prefixed with the run id, is
+ * returned. `progress` may be NULL; *done (may be NULL) gets the runs finished. */
+dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_t *order,
+                      size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
+                      size_t *done, dm_error *err);
 
 /* Slope of log(running max |dE|) against log t over the stored buckets, sampled
  * evenly in log t from t_end / 1000 on: about 0 for a bounded error, 0.5 for a random

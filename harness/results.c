@@ -8,6 +8,7 @@
  * file-size limit never leaves a half-written file under the final name.
  */
 #include <errno.h>
+#include <fcntl.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdbool.h>
@@ -572,39 +573,83 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
     if (w < 0 || (size_t)w >= sizeof tmp)
         return dm_error_set(err, DM_EIO, "cannot write results to '%s': path too long", path);
 
+    /* The file is built in memory (HDF5's core driver, no backing store) and written
+     * out by us: HDF5 never meets a failing disk, whose errors (a full disk, a size
+     * limit) leave HDF5 1.10 with a half-closed file that crashes it at exit. */
     quiet_hdf5 q;
     hdf5_quiet(&q);
-    /* Strong close: closing the file also closes anything a failed write left open. */
     hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
-    if (fapl >= 0)
-        H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG);
-    errno = 0;
-    hid_t file = H5Fcreate(tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl >= 0 ? fapl : H5P_DEFAULT);
-    int create_errno = errno;
-    if (fapl >= 0)
-        H5Pclose(fapl);
+    if (fapl < 0 || H5Pset_fapl_core(fapl, (size_t)1 << 20, 0) < 0 ||
+        H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) < 0) {
+        if (fapl >= 0)
+            H5Pclose(fapl);
+        hdf5_restore(&q);
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused an "
+                            "in-memory file", path);
+    }
+    hid_t file = H5Fcreate(tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl);
+    H5Pclose(fapl);
     if (file < 0) {
         hdf5_restore(&q);
-        unlink(tmp);
-        return dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", tmp,
-                            create_errno ? strerror(create_errno) : "HDF5 refused to create it");
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused to "
+                            "create it", path);
     }
     const char *what = "";
     dm_status st = write_all(file, suite, results, fits, start_time_utc, &what);
-    errno = 0;
-    if (H5Fclose(file) < 0 && st == DM_OK) {
-        st = DM_EIO;
-        what = "closing the file";
+    void *image = NULL;
+    ssize_t size = -1;
+    if (st == DM_OK && H5Fflush(file, H5F_SCOPE_GLOBAL) >= 0)
+        size = H5Fget_file_image(file, NULL, 0);
+    if (st == DM_OK && size > 0 && (image = malloc((size_t)size)) != NULL &&
+        H5Fget_file_image(file, image, (size_t)size) != size) {
+        free(image);
+        image = NULL;
     }
-    int close_errno = errno;
+    if (st == DM_OK && image == NULL) {
+        st = size > 0 ? DM_ENOMEM : DM_EIO;
+        what = "the file image";
+    }
+    H5Fclose(file);
     hdf5_restore(&q);
     if (st != DM_OK) {
-        unlink(tmp);
+        free(image);
         if (st == DM_ENOMEM)
             return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': writing %s failed%s%s",
-                            path, what, close_errno ? ": " : "",
-                            close_errno ? strerror(close_errno) : "");
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': building %s failed",
+                            path, what);
+    }
+
+    /* Beside the target, then renamed over it: a results file is complete or absent. */
+    int fd = open(tmp, O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+    if (fd < 0) {
+        int e = errno;
+        free(image);
+        return dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", tmp,
+                            strerror(e));
+    }
+    const char *bytes = image;
+    size_t left = (size_t)size;
+    int write_errno = 0;
+    while (left > 0) {
+        ssize_t n = write(fd, bytes, left);
+        if (n < 0 && errno == EINTR)
+            continue;
+        if (n <= 0) {
+            write_errno = n < 0 ? errno : EIO;
+            break;
+        }
+        bytes += n;
+        left -= (size_t)n;
+    }
+    free(image);
+    if (write_errno == 0 && fsync(fd) != 0)
+        write_errno = errno;
+    if (close(fd) != 0 && write_errno == 0)
+        write_errno = errno;
+    if (write_errno != 0) {
+        unlink(tmp);
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': %s (%zd bytes)", path,
+                            strerror(write_errno), size);
     }
     if (rename(tmp, path) != 0) {
         int e = errno;

@@ -301,7 +301,10 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
 
     double t_start = now_seconds();
     for (size_t bucket = 0; bucket < samples && status == DM_RUN_OK; bucket++) {
-        uint64_t k_end = fixed ? (uint64_t)(bucket + 1) * n_steps / samples : 0;
+        /* floor((bucket + 1) n_steps / samples) without overflowing 64 bits */
+        uint64_t k_end = fixed ? (n_steps / samples) * (bucket + 1) +
+                                     (n_steps % samples) * (bucket + 1) / samples
+                               : 0;
         double t_bucket_end = (bucket + 1 == samples) ? t_end : t_end * (double)(bucket + 1) / (double)samples;
         if (fixed ? k >= k_end : cur->t >= t_bucket_end)
             continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
@@ -383,6 +386,19 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
                 }
                 if (fixed ? k >= k_end : cur->t >= t_bucket_end)
                     break;
+                /* Adaptive steps can shrink without bound: a stop request and the step
+                 * budget are checked inside the bucket too. */
+                if (!fixed && (k & 4095) == 0) {
+                    if (spec->step_budget > 0 && k >= spec->step_budget) {
+                        status = DM_RUN_FAILED;
+                        snprintf(reason, reason_size,
+                                 "took %llu steps, the step budget, before t = %.17g (of "
+                                 "%.17g)", (unsigned long long)k, cur->t, t_end);
+                        break;
+                    }
+                    if (stop != NULL && *stop)
+                        break;
+                }
             }
         }
         if (bmin > bmax)
@@ -432,7 +448,8 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     m->t_reached = cur->t;
     m->wall_seconds = wall;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;
-    m->max_energy_error = max_abs;
+    /* No bucket recorded (a failure on the first step): nothing was measured. */
+    m->max_energy_error = result->series.n > 0 ? max_abs : NAN;
     m->final_energy_error = result->series.n > 0 ? result->series.energy_error[result->series.n - 1] : NAN;
     m->energy_drift_per_period = line_fit_slope(&drift_fit);
     m->drift_exponent = dm_drift_exponent(&result->series);

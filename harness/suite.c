@@ -59,15 +59,43 @@ static size_t node_column(const yaml_node_t *node)
 static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
 
+/* Messages quote what the user wrote, and a YAML text may hold any character (a quoted
+ * "a\nb", a block scalar): control characters are written as escapes so that the
+ * error stays one line and nothing reaches the terminal raw. */
+static void escape_controls(const char *in, char *out, size_t size)
+{
+    size_t used = 0;
+    for (const unsigned char *s = (const unsigned char *)in; *s && used + 1 < size; s++) {
+        char esc[8];
+        if (*s >= 0x20 && *s != 0x7f) {
+            out[used++] = (char)*s;
+            continue;
+        }
+        switch (*s) {
+        case '\n': snprintf(esc, sizeof esc, "\\n"); break;
+        case '\r': snprintf(esc, sizeof esc, "\\r"); break;
+        case '\t': snprintf(esc, sizeof esc, "\\t"); break;
+        default: snprintf(esc, sizeof esc, "\\x%02x", (unsigned)*s); break;
+        }
+        size_t n = strlen(esc);
+        if (used + n + 1 > size)
+            break;
+        memcpy(out + used, esc, n);
+        used += n;
+    }
+    out[used] = '\0';
+}
+
 static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
 {
-    char what[DM_ERROR_MSG_MAX];
+    char what[DM_ERROR_MSG_MAX], clean[DM_ERROR_MSG_MAX];
     va_list ap;
     va_start(ap, fmt);
     vsnprintf(what, sizeof what, fmt, ap);
     va_end(ap);
+    escape_controls(what, clean, sizeof clean);
     return dm_error_set(c->err, DM_EINPUT, "%s:%zu:%zu: %s", c->source, node_line(node),
-                        node_column(node), what);
+                        node_column(node), clean);
 }
 
 /* Adds the location of `node` in front of an error written elsewhere
@@ -390,6 +418,7 @@ typedef struct suite_build {
     const char *output_override;      /* the command line's -o, or NULL */
     const yaml_node_t *step_budget_node;
     const yaml_node_t **run_nodes;    /* per run: where its knob value was written */
+    uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -402,6 +431,7 @@ static void build_free(suite_build *b)
         free(b->methods[i].values);
     free(b->methods);
     free(b->run_nodes);
+    free(b->run_id_hashes);
 }
 
 static const char *const top_keys[] = { "name", "output", "horizon", "samples",
@@ -814,6 +844,8 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->knob = me->knob;
     spec->knob_value = kv;
     spec->samples = b->samples;
+    spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
+    spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->sweep = -1;
 
     double period = inst->period;
@@ -959,7 +991,9 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
     suite->runs = calloc(nv * per_variant, sizeof *suite->runs);
     suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
     b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
-    if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL) {
+    b->run_id_hashes = calloc(nv * per_variant, sizeof *b->run_id_hashes);
+    if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL ||
+        b->run_id_hashes == NULL) {
         free(v);
         return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
     }
@@ -971,8 +1005,12 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                 dm_run_spec *spec = &suite->runs[suite->n_runs];
                 if ((st = make_run(b, suite, &v[i], me, k, spec)) != DM_OK)
                     goto done;
+                /* Twins are looked for among every earlier run (up to 10^4, so 5e7
+                 * pairs): a 64-bit compare first, the text only when the hashes meet. */
+                uint64_t id_hash = fnv1a64(spec->id);
                 for (size_t r = 0; r < suite->n_runs; r++) {
-                    if (strcmp(suite->runs[r].id, spec->id) != 0)
+                    if (b->run_id_hashes[r] != id_hash ||
+                        strcmp(suite->runs[r].id, spec->id) != 0)
                         continue;
                     if (strcmp(suite->runs[r].config, spec->config) == 0)
                         st = fail_at(c, me->values->node[k], "run %s is given twice (first "
@@ -986,13 +1024,20 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                     goto done;
                 }
                 b->run_nodes[suite->n_runs] = me->values->node[k];
+                b->run_id_hashes[suite->n_runs] = id_hash;
                 suite->n_runs++;
             }
             if (me->values->n >= 2) {
-                /* a prefix of the run ids just made, so it always fits */
+                /* a prefix of the run ids just made, so it always fits; checked all
+                 * the same, so a later change to the ids cannot cut it silently */
                 char base[DM_RUN_ID_MAX];
                 int w = snprintf(base, sizeof base, "%s.%s", v[i].part, me->method->id);
-                (void)w;
+                if (w < 0 || (size_t)w >= sizeof base) {
+                    st = fail_at(c, me->node, "sweep name '%s.%s' is too long (expected at "
+                                 "most %d characters)", v[i].part, me->method->id,
+                                 DM_RUN_ID_MAX - 1);
+                    goto done;
+                }
                 if ((st = add_sweep(suite, base, me->knob, first, me->values->n, c->err)) !=
                     DM_OK)
                     goto done;
@@ -1048,6 +1093,18 @@ static void name_from_source(const char *source, char *name, size_t size)
         snprintf(name, size, "%.*s", (int)len, base);
 }
 
+/* A double-quoted "\0" puts a NUL inside a scalar; every reader here sees C strings,
+ * so "verlet\0x" would silently read as "verlet". Refused wherever it stands. */
+static dm_status check_no_nul(parse_ctx *c)
+{
+    for (yaml_node_t *n = c->doc->nodes.start; n < c->doc->nodes.top; n++)
+        if (n->type == YAML_SCALAR_NODE &&
+            strlen(scalar_text(n)) != n->data.scalar.length)
+            return fail_at(c, n, "text '%s' is cut by a NUL character \\0 (expected no NUL "
+                           "in the suite)", scalar_text(n));
+    return DM_OK;
+}
+
 static dm_status parse_document(suite_build *b, dm_suite *suite)
 {
     parse_ctx *c = &b->ctx;
@@ -1055,6 +1112,9 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     if (root == NULL)
         return dm_error_set(c->err, DM_EINPUT, "%s:1:1: the suite is empty (expected a "
                             "mapping with horizon, problems and methods)", c->source);
+    dm_status st0 = check_no_nul(c);
+    if (st0 != DM_OK)
+        return st0;
     if (root->type != YAML_MAPPING_NODE)
         return fail_at(c, root, "the suite must be a mapping, found %s (expected name: ..., "
                        "horizon: ..., problems: ..., methods: ...)", node_kind(root));
@@ -1093,7 +1153,8 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
             break;
         case TOP_SAMPLES:
             st = get_whole(c, value, "samples", 1, DM_MAX_SAMPLES, &x);
-            b->samples = (size_t)x;
+            if (st == DM_OK) /* converting an out-of-range x would be undefined */
+                b->samples = (size_t)x;
             break;
         case TOP_ENERGY_LIMIT:
             st = get_positive(c, value, "energy_limit", &b->energy_limit);

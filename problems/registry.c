@@ -102,7 +102,38 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
         inst->par[i] = v;
         inst->given |= 1u << i;
     }
-    return problem->setup(inst, err);
+    dm_status st = problem->setup(inst, err);
+    if (st != DM_OK)
+        return st;
+    /* Parameters each in range can still combine into a state beyond double precision
+     * (omega = 1e160 squares to infinity; a huge energy gives a NaN period): a run from
+     * it would report nonsense, so it is refused here, for every problem. */
+    double grad[DM_MAX_DOF];
+    double potential = problem->force(inst, inst->q0, grad);
+    const char *what = NULL;
+    double value = 0.0;
+    for (int i = 0; i < inst->dof && what == NULL; i++) {
+        if (!isfinite(inst->q0[i]))
+            what = "starting position", value = inst->q0[i];
+        else if (!isfinite(inst->p0[i]))
+            what = "starting momentum", value = inst->p0[i];
+        else if (!isfinite(grad[i]))
+            what = "force at the start", value = grad[i];
+    }
+    if (what == NULL && !isfinite(potential))
+        what = "potential at the start", value = potential;
+    if (what == NULL && !isfinite(inst->energy))
+        what = "energy", value = inst->energy;
+    if (what == NULL && !(isfinite(inst->period) && inst->period > 0.0))
+        what = "period", value = inst->period;
+    if (what == NULL && !isfinite(inst->first_crossing))
+        what = "first section crossing time", value = inst->first_crossing;
+    if (what != NULL)
+        return dm_error_set(err, DM_EINPUT,
+                            "%s: the %s is %g, beyond double precision (expected parameters "
+                            "whose starting state, energy and period are finite)",
+                            problem->id, what, value);
+    return DM_OK;
 }
 
 double dm_instance_energy(const dm_instance *inst, const double *q, const double *p)

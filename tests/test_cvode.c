@@ -104,7 +104,7 @@ static void integrate(const dm_method *m, const dm_instance *inst, double rtol, 
     }
     r->t = from->t;
     memcpy(r->x, from->x, (size_t)(2 * dof) * sizeof(double));
-    r->counts = s->counts;
+    r->counts = *dm_stepper_counts(s);
     dm_stepper_destroy(s);
 }
 
@@ -279,7 +279,7 @@ static void cvode_restart_at_the_start_reproduces_a_fresh_run_and_keeps_counting
             to = swap;
             if (!restarted && from->t >= t_mid) {
                 /* back to the starting point: CVODE must forget its history there */
-                before = s->counts;
+                before = *dm_stepper_counts(s);
                 from->t = 0.0;
                 from->x[0] = inst->q0[0];
                 from->x[1] = inst->p0[0];
@@ -291,15 +291,62 @@ static void cvode_restart_at_the_start_reproduces_a_fresh_run_and_keeps_counting
         assert_true(from->x[0] == fresh.x[0] && from->x[1] == fresh.x[1]);
         /* counts carry over the restart (CVodeReInit zeroes CVODE's own counters) */
         assert_true(before.steps > 0);
-        assert_true(s->counts.steps == before.steps + fresh.counts.steps);
-        assert_true(s->counts.rhs_evals == before.rhs_evals + fresh.counts.rhs_evals);
-        assert_true(s->counts.jac_evals == before.jac_evals + fresh.counts.jac_evals);
-        assert_true(s->counts.nonlin_iters ==
-                    before.nonlin_iters + fresh.counts.nonlin_iters);
-        assert_true(s->counts.force_evals == s->counts.rhs_evals);
+        const dm_counts *after = dm_stepper_counts(s);
+        assert_true(after->steps == before.steps + fresh.counts.steps);
+        assert_true(after->rhs_evals == before.rhs_evals + fresh.counts.rhs_evals);
+        assert_true(after->jac_evals == before.jac_evals + fresh.counts.jac_evals);
+        assert_true(after->nonlin_iters == before.nonlin_iters + fresh.counts.nonlin_iters);
+        assert_true(after->force_evals == after->rhs_evals);
         printf("  %-12s restart at t = 0 from t = %g: steps %llu = %llu + %llu\n", ids[i],
-               t_mid, (unsigned long long)s->counts.steps, (unsigned long long)before.steps,
+               t_mid, (unsigned long long)after->steps, (unsigned long long)before.steps,
                (unsigned long long)fresh.counts.steps);
+        dm_stepper_destroy(s);
+    }
+}
+
+static void cvode_counts_asked_for_mid_run_match_the_steps_taken(void **state)
+{
+    /* The adapter reads CVODE's counters only when asked: counts asked for through
+     * dm_stepper_counts in the middle of a run (t_stop far ahead, no failure, no
+     * restart) must still be the work done so far. In CV_ONE_STEP mode every successful
+     * call is exactly one internal step (CVODE's documented one-step mode), so the
+     * steps must equal our own count of calls; the right-hand sides CVODE counts must
+     * equal the force evaluations our right-hand side counted itself. */
+    const dm_instance *inst = pendulum(2.5);
+    const char *ids[] = { "cvode-bdf", "cvode-adams" };
+    for (int i = 0; i < 2; i++) {
+        double x0[2] = { inst->q0[0], inst->p0[0] }, x1[2];
+        dm_point a = { 0.0, x0, NAN }, b = { 0.0, x1, NAN };
+        dm_method_config config = { .rtol = 1e-8, .t_stop = 1e6 };
+        dm_error err;
+        dm_stepper *s = dm_stepper_create(method(ids[i]), inst, &config, &a, &err);
+        assert_non_null(s);
+        dm_point *from = &a, *to = &b;
+        uint64_t taken = 0, previous_rhs = 0;
+        for (int round = 0; round < 3; round++) {
+            for (int k = 0; k < 150; k++) {
+                assert_int_equal(dm_stepper_step(s, from, to), DM_OK);
+                taken++;
+                dm_point *swap = from;
+                from = to;
+                to = swap;
+            }
+            assert_true(from->t < 1e6);
+            const dm_counts *c = dm_stepper_counts(s);
+            assert_true(c->steps == taken);
+            assert_true(c->rhs_evals == c->force_evals);
+            assert_true(c->rhs_evals > previous_rhs);
+            assert_true(c->nonlin_iters > 0);
+            assert_true(c->max_iters_in_step > 0 && c->max_iters_in_step <= c->nonlin_iters);
+            if (i == 0)
+                assert_true(c->jac_evals > 0);
+            previous_rhs = c->rhs_evals;
+        }
+        printf("  %-12s after %llu steps: rhs %llu, nonlinear iters %llu, most in a step %llu\n",
+               ids[i], (unsigned long long)taken,
+               (unsigned long long)dm_stepper_counts(s)->rhs_evals,
+               (unsigned long long)dm_stepper_counts(s)->nonlin_iters,
+               (unsigned long long)dm_stepper_counts(s)->max_iters_in_step);
         dm_stepper_destroy(s);
     }
 }
@@ -419,6 +466,7 @@ int main(void)
         cmocka_unit_test(cvode_refuses_to_step_past_t_stop),
         cmocka_unit_test(cvode_failure_gives_solver_error_with_cvode_flag_name),
         cmocka_unit_test(cvode_restart_at_the_start_reproduces_a_fresh_run_and_keeps_counting),
+        cmocka_unit_test(cvode_counts_asked_for_mid_run_match_the_steps_taken),
         cmocka_unit_test(cvode_jacobian_is_the_derivative_of_the_vector_field_on_kepler),
         cmocka_unit_test(cvode_bdf_uses_the_hessian_jacobian_instead_of_difference_quotients),
         cmocka_unit_test(cvode_bdf_energy_drifts_over_ten_thousand_pendulum_periods),
