@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # build.sh — install what is missing (Debian 12, as root), build, then run or test.
-#   bash build.sh run [SUITE]   install, build, run the main job (default suite)
+#   bash build.sh run [ARGS]    install, build, run the main job (the default suite,
+#                               replacing results/default.h5; or `driftmark run ARGS`)
 #   bash build.sh test          install, build, run every test
 #   bash build.sh build         install and build only
 set -euo pipefail
@@ -37,7 +38,10 @@ what=${1:-run}
 shift || true
 case "$what" in
   build) install_missing; build ;;
-  run)   install_missing; build; ./build/driftmark run "$@" ;;
+  run)   install_missing; build
+         # the default suite's demo file is made anew each time; a suite of your own
+         # is run as given (an existing results file is then kept unless --force)
+         if [ $# -eq 0 ]; then ./build/driftmark run --force; else ./build/driftmark run "$@"; fi ;;
   test)  install_missing; build; ctest --test-dir build --output-on-failure -j"$(nproc)" ;;
   *) echo "usage: bash build.sh run [SUITE] | test | build" >&2; exit 2 ;;
 esac
