@@ -21,8 +21,12 @@
 
 #include "method.h"
 
-static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
-                          dm_split_cache *cache, dm_watch *w, uint64_t k_end)
+/* The loop, for a table shape given as arguments: called below with constants for the
+ * common shapes, so the compiler unrolls the stages as a hand-written loop would. */
+static inline __attribute__((always_inline)) int
+dm_split_block_run(const dm_instance *inst, const dm_split_plan *plan, dm_split_cache *cache,
+                   dm_watch *w, uint64_t k_end, const bool kick_first, const int n_kick,
+                   const int n_drift)
 {
     enum { N = DM_BLOCK_DOF };
     double q[N], p[N], g[N], v[N];
@@ -34,8 +38,6 @@ static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
     }
     double V = cache->potential;
     bool valid = cache->valid;
-    const bool kick_first = plan->kick_first;
-    const int n_kick = plan->n_kick, n_drift = plan->n_drift;
     const double *ck = plan->kick, *cd = plan->drift;
     const double H0 = w->H0, inv_scale = w->inv_scale, limit = w->energy_limit;
     const int coord = w->coord;
@@ -53,18 +55,25 @@ static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
         }
         if (kick_first) {
             /* K D K D ... [K]; the first kick reuses the last step's final force. */
-            for (int j = 0; j < n_kick; j++) {
-                if (j > 0 || !valid) {
+            if (!valid) {
+                V = force(inst, q, g);
+                forces++;
+            }
+            for (int i = 0; i < N; i++)
+                p[i] = p[i] - ck[0] * g[i];
+            /* Unrolled for the constant shapes, so that the potential of every force
+             * but the step's last is seen to be unused (sin instead of sincos). */
+#pragma GCC unroll 16
+            for (int j = 0; j < n_drift; j++) {
+                velocity(inst, p, v);
+                velocities++;
+                for (int i = 0; i < N; i++)
+                    q[i] = q[i] + cd[j] * v[i];
+                if (j + 1 < n_kick) {
                     V = force(inst, q, g);
                     forces++;
-                }
-                for (int i = 0; i < N; i++)
-                    p[i] = p[i] - ck[j] * g[i];
-                if (j < n_drift) {
-                    velocity(inst, p, v);
-                    velocities++;
                     for (int i = 0; i < N; i++)
-                        q[i] = q[i] + cd[j] * v[i];
+                        p[i] = p[i] - ck[j + 1] * g[i];
                 }
             }
             valid = n_kick > n_drift;
@@ -72,6 +81,7 @@ static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
                 V = potential(inst, q);
         } else {
             /* D K D K ... [D] */
+#pragma GCC unroll 16
             for (int j = 0; j < n_drift; j++) {
                 velocity(inst, p, v);
                 velocities++;
@@ -142,4 +152,18 @@ static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
     w->dE = dE;
     w->k = k;
     return event;
+}
+
+static int dm_split_block(const dm_instance *inst, const dm_split_plan *plan,
+                          dm_split_cache *cache, dm_watch *w, uint64_t k_end)
+{
+    const bool kf = plan->kick_first;
+    const int nk = plan->n_kick, nd = plan->n_drift;
+    if (kf && nk == 2 && nd == 1) /* Störmer–Verlet KDK */
+        return dm_split_block_run(inst, plan, cache, w, k_end, true, 2, 1);
+    if (kf && nk == 4 && nd == 3) /* triple jumps of KDK: yoshida4 */
+        return dm_split_block_run(inst, plan, cache, w, k_end, true, 4, 3);
+    if (!kf && nk == 1 && nd == 2) /* Störmer–Verlet DKD */
+        return dm_split_block_run(inst, plan, cache, w, k_end, false, 1, 2);
+    return dm_split_block_run(inst, plan, cache, w, k_end, kf, nk, nd);
 }
