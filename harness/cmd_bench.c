@@ -573,7 +573,8 @@ static dm_status jobs_round(const dm_suite *suite, dm_run_result *results, const
 {
     free_results(results, suite->n_runs);
     double t0 = now_seconds();
-    dm_status st = dm_run_pool(suite, results, order, suite->n_runs, jobs, NULL, NULL, NULL, err);
+    dm_status st = dm_run_pool(suite, results, order, suite->n_runs, jobs, NULL, NULL, NULL,
+                               err);
     *seconds = now_seconds() - t0;
     if (st != DM_OK)
         return st;
@@ -588,7 +589,8 @@ static dm_status bench_jobs(bool quick, jobs_result *out, dm_error *err)
 {
     memset(out, 0, sizeof *out);
     long cores = sysconf(_SC_NPROCESSORS_ONLN);
-    out->jobs = cores > 1 ? (cores > DM_POOL_MAX_JOBS ? DM_POOL_MAX_JOBS : (int)cores) : 1;
+    /* every core, but no more threads than runs (the pool would not start them) */
+    out->jobs = cores > 1 ? (cores > (long)JOBS_RUNS ? (int)JOBS_RUNS : (int)cores) : 1;
     out->runs = JOBS_RUNS;
     out->identical = true;
     dm_suite suite;

@@ -444,7 +444,7 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     /* A divergence or failure inside a bucket still counts the steps seen. */
     result->status = status;
     m->steps = k;
-    m->counts = s->counts;
+    m->counts = *dm_stepper_counts(s);
     m->t_reached = cur->t;
     m->wall_seconds = wall;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;

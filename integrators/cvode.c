@@ -183,10 +183,8 @@ static dm_status cvode_failure(cvode_stepper *c, const char *call, int flag)
 {
     char *name = CVodeGetReturnFlagName(flag); /* malloc'ed by CVODE */
     double t_now = c->t;
-    if (c->mem != NULL) {
+    if (c->mem != NULL)
         CVodeGetCurrentTime(c->mem, &t_now);
-        update_counts(c); /* the steps in the message, and counts current after a failure */
-    }
     dm_status st = dm_error_set(&c->base.error, DM_ESOLVER,
                                 "%s: %s returned %s at t = %.17g after %llu steps%s%s",
                                 c->base.method->id, call, name ? name : "an unknown flag",
@@ -357,8 +355,10 @@ static dm_status cvode_step(dm_stepper *s, const dm_point *from, dm_point *to)
     if (in_step > s->counts.max_iters_in_step)
         s->counts.max_iters_in_step = in_step;
     c->nni_last = nni;
-    if (flag < 0)
+    if (flag < 0) {
+        update_counts(c); /* for the steps in the message, and whole after a failure */
         return cvode_failure(c, "CVode", flag);
+    }
     /* A caller that reads s->counts directly at the end of a run still sees them whole. */
     if (c->has_stop && c->t == s->config.t_stop)
         update_counts(c);
