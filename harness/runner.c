@@ -278,7 +278,13 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     const double energy_limit = spec->energy_limit > 0 ? spec->energy_limit : 1.0;
     /* Fixed steps: the horizon is a whole number of steps; the time of step k is k h
      * (one rounding), never a running sum whose error would grow with the run. */
-    const uint64_t n_steps = fixed ? (uint64_t)ceil(t_end / h - 1e-9) : 0;
+    uint64_t n_steps = 0;
+    if (fixed) {
+        /* A horizon of N periods at n steps per period is N n steps even when t_end / h
+         * rounds to a hair above that whole number; otherwise the first step past it. */
+        double ratio = t_end / fabs(h), nearest = nearbyint(ratio);
+        n_steps = (uint64_t)(fabs(ratio - nearest) <= 1e-12 * ratio ? nearest : ceil(ratio));
+    }
     const size_t samples = spec->samples;
 
     section_watch sec = { 0 };
