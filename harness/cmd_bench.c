@@ -6,8 +6,8 @@
  * them and keeping each one's fastest round; it checks that both end with the same
  * energy error bit for bit (same arithmetic, so the same state). Beside them it times
  * the same steps calling the problem's force() and velocity() through its table: the
- * floor of any harness on the problem interface, which tells the interface's price
- * apart from the harness's own. It also times writing
+ * best the per-step path (dm_stepper_step) can do, which the fused loop
+ * (integrators/splitting_block.h) is there to beat. It also times writing
  * a one-run results file of the harness run against the run's wall time, reads the
  * peak resident memory, and times CVODE called directly against CVODE through our
  * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs
@@ -770,9 +770,10 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
     }
     fprintf(f, "  bare: hand-written loop; harn.: dm_run with every monitor; ratio: harn. / bare\n"
                "  table: the same loop calling the problem's force() and velocity() through its\n"
-               "  table (the floor of any harness on this interface); -V: the pendulum loop\n"
-               "  evaluating sin only, never V; same: bare and harness end with the same dE bit\n"
-               "  for bit; hdf5: writing a one-run results file over the run's wall time\n\n");
+               "  table (the best the per-step path can do; the fused loop avoids it); -V: the\n"
+               "  pendulum loop evaluating sin only, never V; same: bare and harness end with\n"
+               "  the same dE bit for bit; hdf5: writing a one-run results file over the run's\n"
+               "  wall time\n\n");
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);
     fprintf(f, "CVODE on pendulum amplitude=2.5, rtol %g: called directly vs through the adapter\n",
             CVODE_RTOL);
