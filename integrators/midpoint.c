@@ -48,11 +48,6 @@ static dm_stepper *midpoint_create(const dm_method *m, const dm_instance *inst,
                                    const dm_method_config *config, const dm_point *start,
                                    dm_error *err)
 {
-    if (!isfinite(config->h) || config->h == 0.0) {
-        dm_error_set(err, DM_EINPUT, "%s: step size h = %g must be finite and nonzero",
-                     m->id, config->h);
-        return NULL;
-    }
     if (config->max_iterations < 0) {
         dm_error_set(err, DM_EINPUT, "%s: max_iterations = %d must be >= 0 (0: default %d)",
                      m->id, config->max_iterations, MIDPOINT_DEFAULT_MAX_ITERATIONS);
@@ -149,10 +144,6 @@ static dm_status midpoint_step(dm_stepper *base, const dm_point *from, dm_point 
 
 static dm_status midpoint_restart(dm_stepper *base, const dm_point *at)
 {
-    if (!isfinite(base->config.h) || base->config.h == 0.0)
-        return dm_error_set(&base->error, DM_EINPUT,
-                            "%s: step size h = %g must be finite and nonzero",
-                            base->method->id, base->config.h);
     restart_at((midpoint_stepper *)base, at);
     return DM_OK;
 }

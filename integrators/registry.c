@@ -52,10 +52,21 @@ const char *dm_family_name(dm_family family)
     return "unknown";
 }
 
+/* Every fixed-step method needs a finite, nonzero h: checked here, once for all. */
+static dm_status check_step(const dm_method *m, double h, dm_error *err)
+{
+    if (!m->adaptive && (!isfinite(h) || h == 0.0))
+        return dm_error_set(err, DM_EINPUT, "%s: step size h = %g must be finite and nonzero",
+                            m->id, h);
+    return DM_OK;
+}
+
 dm_stepper *dm_stepper_create(const dm_method *m, const dm_instance *inst,
                               const dm_method_config *config, const dm_point *start,
                               dm_error *err)
 {
+    if (check_step(m, config->h, err) != DM_OK)
+        return NULL;
     if (m->splitting != NULL)
         return dm_splitting_create(m, inst, config, start, err);
     return m->create(m, inst, config, start, err);
@@ -80,6 +91,8 @@ dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at)
     if (s->method->adaptive)
         return dm_error_set(&s->error, DM_EINPUT, "%s: adaptive methods choose their own steps",
                             s->method->id);
+    if (check_step(s->method, h, &s->error) != DM_OK)
+        return s->error.code;
     s->config.h = h;
     return dm_stepper_restart(s, at);
 }

@@ -49,11 +49,6 @@ static dm_stepper *rk_create(const rk_tableau *tab, const dm_method *m,
                              const dm_instance *inst, const dm_method_config *config,
                              const dm_point *start, dm_error *err)
 {
-    if (!isfinite(config->h) || config->h == 0.0) {
-        dm_error_set(err, DM_EINPUT, "%s: step size h = %g must be finite and nonzero",
-                     m->id, config->h);
-        return NULL;
-    }
     int n = 2 * inst->dof;
     rk_stepper *s = calloc(1, sizeof *s);
     double *work = calloc((size_t)(tab->stages + 1) * (size_t)n, sizeof *work);
@@ -131,10 +126,6 @@ static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
 
 static dm_status rk_restart(dm_stepper *base, const dm_point *at)
 {
-    if (!isfinite(base->config.h) || base->config.h == 0.0)
-        return dm_error_set(&base->error, DM_EINPUT,
-                            "%s: step size h = %g must be finite and nonzero",
-                            base->method->id, base->config.h);
     restart_at((rk_stepper *)base, at);
     return DM_OK;
 }

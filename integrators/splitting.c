@@ -93,11 +93,6 @@ dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
                      m->id, t->n_kick, t->n_drift, t->kick_first ? "kick" : "drift");
         return NULL;
     }
-    if (!isfinite(config->h) || config->h == 0.0) {
-        dm_error_set(err, DM_EINPUT, "%s: step size h = %g must be finite and nonzero",
-                     m->id, config->h);
-        return NULL;
-    }
     int dof = inst->dof;
     int n_ops = t->n_kick + t->n_drift;
     splitting_stepper *s = calloc(1, sizeof *s);
@@ -133,10 +128,6 @@ dm_stepper *dm_splitting_create(const dm_method *m, const dm_instance *inst,
 dm_status dm_splitting_restart(dm_stepper *base, const dm_point *at)
 {
     splitting_stepper *s = (splitting_stepper *)base;
-    if (!isfinite(base->config.h) || base->config.h == 0.0)
-        return dm_error_set(&base->error, DM_EINPUT,
-                            "%s: step size h = %g must be finite and nonzero",
-                            base->method->id, base->config.h);
     scale_coefficients(s);
     reset_caches(s, at);
     return DM_OK;
