@@ -814,28 +814,27 @@ dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_
 
 /* ---- reading whole runs back (for --resume) ---- */
 
-static int read_double_attr(hid_t loc, const char *name, double *out)
+/* Reads a scalar numeric attribute, converted by HDF5 to the memory type. */
+static int read_number_attr(hid_t loc, const char *name, hid_t mem_type, void *out)
 {
     if (H5Aexists(loc, name) <= 0)
         return -1;
     hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
     if (a < 0)
         return -1;
-    int rc = H5Aread(a, H5T_NATIVE_DOUBLE, out) >= 0 ? 0 : -1;
+    int rc = H5Aread(a, mem_type, out) >= 0 ? 0 : -1;
     H5Aclose(a);
     return rc;
 }
 
+static int read_double_attr(hid_t loc, const char *name, double *out)
+{
+    return read_number_attr(loc, name, H5T_NATIVE_DOUBLE, out);
+}
+
 static int read_u64_attr(hid_t loc, const char *name, uint64_t *out)
 {
-    if (H5Aexists(loc, name) <= 0)
-        return -1;
-    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
-    if (a < 0)
-        return -1;
-    int rc = H5Aread(a, H5T_NATIVE_UINT64, out) >= 0 ? 0 : -1;
-    H5Aclose(a);
-    return rc;
+    return read_number_attr(loc, name, H5T_NATIVE_UINT64, out);
 }
 
 /* Reads a one-dimensional double dataset of exactly `n` elements into a new array, or
