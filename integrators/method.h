@@ -75,6 +75,25 @@ typedef struct dm_point {
     double potential;
 } dm_point;
 
+/* Fixed-step time: origin + n h, one rounding, never a running sum whose error grows
+ * with the run. Every fixed-step method keeps one. */
+typedef struct dm_step_clock {
+    double origin;
+    uint64_t n;
+} dm_step_clock;
+
+static inline void dm_step_clock_start(dm_step_clock *c, double t)
+{
+    c->origin = t;
+    c->n = 0;
+}
+
+static inline double dm_step_clock_next(dm_step_clock *c, double h)
+{
+    c->n++;
+    return c->origin + (double)c->n * h;
+}
+
 typedef struct dm_method dm_method;
 typedef struct dm_stepper dm_stepper;
 

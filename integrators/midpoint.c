@@ -32,16 +32,14 @@ typedef struct midpoint_stepper {
     double *slope;    /* 2 dof: f at the last iterate; also the predictor of the next step */
     const double *state_x;
     bool slope_valid;
-    double t_origin;
-    uint64_t steps_since_origin;
+    dm_step_clock clock;
 } midpoint_stepper;
 
 static void restart_at(midpoint_stepper *s, const dm_point *at)
 {
     s->state_x = at->x;
     s->slope_valid = false;
-    s->t_origin = at->t;
-    s->steps_since_origin = 0;
+    dm_step_clock_start(&s->clock, at->t);
 }
 
 static dm_stepper *midpoint_create(const dm_method *m, const dm_instance *inst,
@@ -135,8 +133,7 @@ static dm_status midpoint_step(dm_stepper *base, const dm_point *from, dm_point 
         to->x[c] = y0[c] + h * f[c];
     s->slope_valid = true;
     base->counts.steps++;
-    s->steps_since_origin++;
-    to->t = s->t_origin + (double)s->steps_since_origin * h;
+    to->t = dm_step_clock_next(&s->clock, h);
     to->potential = NAN; /* the force was taken at the midpoint, not at the end */
     s->state_x = to->x;
     return DM_OK;

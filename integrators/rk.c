@@ -23,8 +23,7 @@ typedef struct rk_stepper {
     double *k;        /* stages x 2 dof slopes */
     double *stage;    /* 2 dof: the state at which a slope is taken */
     const double *state_x;
-    double t_origin;
-    uint64_t steps_since_origin;
+    dm_step_clock clock;
 } rk_stepper;
 
 /* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
@@ -41,8 +40,7 @@ static const rk_tableau rk4_tableau = {
 static void restart_at(rk_stepper *s, const dm_point *at)
 {
     s->state_x = at->x;
-    s->t_origin = at->t;
-    s->steps_since_origin = 0;
+    dm_step_clock_start(&s->clock, at->t);
 }
 
 static dm_stepper *rk_create(const rk_tableau *tab, const dm_method *m,
@@ -117,8 +115,7 @@ static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
     base->counts.force_evals += (uint64_t)tab->stages;
     base->counts.velocity_evals += (uint64_t)tab->stages;
     base->counts.steps++;
-    s->steps_since_origin++;
-    to->t = s->t_origin + (double)s->steps_since_origin * h;
+    to->t = dm_step_clock_next(&s->clock, h);
     to->potential = NAN; /* no slope is taken at the step's end */
     s->state_x = to->x;
     return DM_OK;

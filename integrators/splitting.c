@@ -45,9 +45,7 @@ typedef struct splitting_stepper {
     /* The buffer whose state the caches describe, and whether the force is valid. */
     const double *state_x;
     bool force_valid;
-    /* Time is origin + n h, not a running sum: no round-off grows in t. */
-    double t_origin;
-    uint64_t steps_since_origin;
+    dm_step_clock clock;
 } splitting_stepper;
 
 static void reset_caches(splitting_stepper *s, const dm_point *at)
@@ -56,8 +54,7 @@ static void reset_caches(splitting_stepper *s, const dm_point *at)
     s->force_valid = false;
     s->cached_potential = NAN;
     memset(s->comp, 0, 2 * (size_t)s->base.dof * sizeof *s->comp);
-    s->t_origin = at->t;
-    s->steps_since_origin = 0;
+    dm_step_clock_start(&s->clock, at->t);
     s->cache.valid = false;
     s->cache.potential = NAN;
 }
@@ -199,8 +196,7 @@ dm_status dm_splitting_step(dm_stepper *base, const dm_point *from, dm_point *to
     /* After a final kick grad holds the force at q_end: keep it for the next step. */
     s->force_valid = s->last_is_kick;
     to->potential = s->last_is_kick ? s->cached_potential : NAN;
-    s->steps_since_origin++;
-    to->t = s->t_origin + (double)s->steps_since_origin * base->config.h;
+    to->t = dm_step_clock_next(&s->clock, base->config.h);
     s->state_x = to->x;
     base->counts.steps++;
     return DM_OK;
