@@ -196,6 +196,15 @@ static void crossing_add(crossing_log *log, int k, double level, double t0, cons
     log->last_phase = phase;
 }
 
+/* The reason of a diverged run, the same from the fused and the per-step path. */
+static dm_run_status diverged_at(char *reason, size_t size, double dE, double limit,
+                                 uint64_t step, double t)
+{
+    snprintf(reason, size, "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
+             dE, limit, (unsigned long long)step, t);
+    return DM_RUN_DIVERGED;
+}
+
 /* State of the section monitor between steps. */
 typedef struct section_watch {
     int k;
@@ -325,12 +334,9 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
                                  w.x_prev, (double)w.k * h, w.x);
                     continue;
                 }
-                if (ev == DM_WATCH_DIVERGED) {
-                    status = DM_RUN_DIVERGED;
-                    snprintf(reason, reason_size,
-                             "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
-                             w.dE, energy_limit, (unsigned long long)w.k, (double)w.k * h);
-                }
+                if (ev == DM_WATCH_DIVERGED)
+                    status = diverged_at(reason, reason_size, w.dE, energy_limit, w.k,
+                                         (double)w.k * h);
                 break;
             }
             k = w.k;
@@ -384,10 +390,7 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
                 nxt = tmp;
                 if (diverged) {
                     /* the bucket records the diverged state at its own time */
-                    status = DM_RUN_DIVERGED;
-                    snprintf(reason, reason_size,
-                             "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
-                             dE, energy_limit, (unsigned long long)k, cur->t);
+                    status = diverged_at(reason, reason_size, dE, energy_limit, k, cur->t);
                     break;
                 }
                 if (fixed ? k >= k_end : cur->t >= t_bucket_end)
