@@ -1,25 +1,20 @@
 /* metrics.c — the fits behind the per-run and per-sweep figures. */
 #include <math.h>
 
+#include "dm_line_fit.h"
 #include "harness.h"
 
 double dm_fit_loglog_slope(const double *x, const double *y, size_t n, size_t *used)
 {
-    double cnt = 0.0, mx = 0.0, my = 0.0, sxx = 0.0, sxy = 0.0;
+    dm_line_fit fit = { 0 };
     for (size_t i = 0; i < n; i++) {
         if (!(x[i] > 0.0) || !(y[i] > 0.0) || !isfinite(x[i]) || !isfinite(y[i]))
             continue;
-        double lx = log(x[i]), ly = log(y[i]);
-        cnt += 1.0;
-        double dx = lx - mx;
-        mx += dx / cnt;
-        my += (ly - my) / cnt;
-        sxx += dx * (lx - mx);
-        sxy += dx * (ly - my);
+        dm_line_fit_add(&fit, log(x[i]), log(y[i]));
     }
     if (used != NULL)
-        *used = (size_t)cnt;
-    return (cnt >= 2.0 && sxx > 0.0) ? sxy / sxx : NAN;
+        *used = (size_t)fit.n;
+    return dm_line_fit_slope(&fit);
 }
 
 double dm_drift_exponent(const dm_series *series)

@@ -10,8 +10,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
-
+#include "dm_clock.h"
+#include "dm_line_fit.h"
 #include "harness.h"
 
 const char *dm_run_status_name(dm_run_status status)
@@ -24,33 +24,6 @@ const char *dm_run_status_name(dm_run_status status)
     case DM_RUN_INTERRUPTED: return "interrupted";
     }
     return "unknown";
-}
-
-static double now_seconds(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
-
-/* Online least squares of y against x (Welford-style, so the sums never cancel). */
-typedef struct line_fit {
-    double n, mean_x, mean_y, sxx, sxy;
-} line_fit;
-
-static void line_fit_add(line_fit *f, double x, double y)
-{
-    f->n += 1.0;
-    double dx = x - f->mean_x;
-    f->mean_x += dx / f->n;
-    f->mean_y += (y - f->mean_y) / f->n;
-    f->sxx += dx * (x - f->mean_x);
-    f->sxy += dx * (y - f->mean_y);
-}
-
-static double line_fit_slope(const line_fit *f)
-{
-    return (f->n >= 2.0 && f->sxx > 0.0) ? f->sxy / f->sxx : NAN;
 }
 
 void dm_run_result_free(dm_run_result *result)
@@ -178,7 +151,7 @@ typedef struct crossing_log {
     const dm_instance *inst;
     double period;
     dm_crossings *store;
-    line_fit fit;
+    dm_line_fit fit;
     uint64_t count;
     double last_phase;
 } crossing_log;
@@ -191,7 +164,7 @@ static void crossing_add(crossing_log *log, int k, double level, double t0, cons
     double T = log->period;
     double t_exact = log->inst->first_crossing + (double)(log->count - 1) * T;
     double phase = 2.0 * M_PI * (tc - t_exact) / T;
-    line_fit_add(&log->fit, (double)log->count, phase);
+    dm_line_fit_add(&log->fit, (double)log->count, phase);
     crossings_store(log->store, log->count, tc, phase);
     log->last_phase = phase;
 }
@@ -205,49 +178,36 @@ static dm_run_status diverged_at(char *reason, size_t size, double dE, double li
     return DM_RUN_DIVERGED;
 }
 
-/* State of the section monitor between steps. */
-typedef struct section_watch {
-    int k;
-    double level;      /* wrap == 0: the level; wrap > 0: next level above q[k] */
-    double wrap;
-    bool armed;        /* wrap == 0: the previous q[k] was below the level */
-} section_watch;
 
-static void section_init(section_watch *w, const dm_instance *inst, const double *q)
-{
-    w->k = inst->section.coord;
-    w->wrap = inst->section.wrap;
-    if (w->wrap > 0.0) {
-        double c = inst->section.level;
-        w->level = c + (floor((q[w->k] - c) / w->wrap) + 1.0) * w->wrap;
-    } else {
-        w->level = inst->section.level;
-        w->armed = q[w->k] < w->level;
-    }
-}
-
-dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
-                 dm_error *err)
-{
-    memset(result, 0, sizeof *result);
-    const dm_instance *inst = &spec->inst;
-    const dm_problem *pb = inst->problem;
-    const int n = inst->dof;
-    dm_run_metrics *m = &result->metrics;
-    dm_status rc = allocate(result, spec, err);
-    if (rc != DM_OK) {
-        dm_run_result_free(result);
-        return rc;
-    }
-
+/* Everything one run carries between its parts. */
+typedef struct run_context {
+    const dm_run_spec *spec;
+    const dm_instance *inst;
+    dm_run_result *result;
+    dm_stepper *stepper;
+    const volatile int *stop;
+    bool fixed;                 /* fixed steps of size h ... */
+    bool fused;                 /* ... run by the problem's fused loop */
+    double h;
+    uint64_t n_steps;           /* fixed steps: the whole horizon */
+    double energy_limit;
+    /* The state: cur (the per-step path ping-pongs cur and nxt); the fused path keeps
+     * it in loop.x and copies it to cur at bucket ends. */
     double buf[2][2 * DM_MAX_DOF];
-    memcpy(buf[0], inst->q0, sizeof(double) * (size_t)n);
-    memcpy(buf[0] + n, inst->p0, sizeof(double) * (size_t)n);
-    dm_point a = { .t = 0.0, .x = buf[0], .potential = NAN };
-    dm_point b = { .t = 0.0, .x = buf[1], .potential = NAN };
-    dm_point *cur = &a, *nxt = &b;
+    dm_point a, b, *cur, *nxt;
+    dm_fused_run loop;          /* step count, state and the per-step monitor */
+    crossing_log log;
+    dm_line_fit drift_fit;      /* dE against t / T at bucket ends */
+    double max_abs;             /* largest |dE| over the recorded buckets */
+    int n_invariants;
+    double invariant_start[DM_MAX_INVARIANTS], invariant_scale[DM_MAX_INVARIANTS];
+    dm_run_status status;
+} run_context;
 
-    const double H0 = dm_instance_energy(inst, inst->q0, inst->p0);
+/* dE is (H - H0) / E_scale with E_scale = H0 - V_min where the potential has a finite
+ * minimum below H0, else |H0| (1 when H0 is 0). */
+static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, double H0)
+{
     if (inst->has_v_min && H0 - inst->v_min > 0.0) {
         m->energy_scale = H0 - inst->v_min;
         m->energy_scale_rule = "H0 - V_min";
@@ -255,226 +215,270 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
         m->energy_scale = fabs(H0) > 0.0 ? fabs(H0) : 1.0;
         m->energy_scale_rule = "|H0|";
     }
-    const double inv_scale = 1.0 / m->energy_scale;
-    const double T = inst->period;
+}
 
-    double inv0[DM_MAX_INVARIANTS] = { 0 }, inv_scale_i[DM_MAX_INVARIANTS];
-    double inv_now[DM_MAX_INVARIANTS];
-    int n_inv = result->series.n_invariants;
-    if (n_inv > 0) {
-        pb->invariants(inst, inst->q0, inst->p0, inv0);
+/* Each invariant's error is relative to its starting value, or to the largest
+ * starting value among them when its own is 0. */
+static void invariants_start(run_context *c)
+{
+    const dm_instance *inst = c->inst;
+    dm_run_metrics *m = &c->result->metrics;
+    c->n_invariants = c->result->series.n_invariants;
+    if (c->n_invariants > 0) {
+        inst->problem->invariants(inst, inst->q0, inst->p0, c->invariant_start);
         double largest = 0.0;
-        for (int i = 0; i < n_inv; i++)
-            largest = fmax(largest, fabs(inv0[i]));
-        for (int i = 0; i < n_inv; i++)
-            inv_scale_i[i] = fabs(inv0[i]) > 0.0 ? fabs(inv0[i]) : (largest > 0 ? largest : 1.0);
+        for (int i = 0; i < c->n_invariants; i++)
+            largest = fmax(largest, fabs(c->invariant_start[i]));
+        for (int i = 0; i < c->n_invariants; i++) {
+            double own = fabs(c->invariant_start[i]);
+            c->invariant_scale[i] = own > 0.0 ? own : (largest > 0 ? largest : 1.0);
+        }
     }
     for (int i = 0; i < DM_MAX_INVARIANTS; i++)
-        m->max_invariant_error[i] = n_inv > i ? 0.0 : NAN;
+        m->max_invariant_error[i] = c->n_invariants > i ? 0.0 : NAN;
+}
 
-    dm_stepper *s = dm_stepper_create(spec->method, inst, &spec->method_config, cur, err);
-    if (s == NULL) {
-        result->status = DM_RUN_FAILED;
-        snprintf(result->reason, sizeof result->reason, "%s", err ? err->msg : "create failed");
-        dm_error_clear(err);
-        m->period_exact = T;
-        return DM_OK;
+/* A horizon of N periods at n steps per period is N n steps even when t_end / h rounds
+ * to a hair above that whole number; otherwise the first step past t_end. */
+static uint64_t fixed_step_count(double t_end, double h)
+{
+    double ratio = t_end / fabs(h), nearest = nearbyint(ratio);
+    return (uint64_t)(fabs(ratio - nearest) <= 1e-12 * ratio ? nearest : ceil(ratio));
+}
+
+/* floor((bucket + 1) n_steps / samples) without overflowing 64 bits. */
+static uint64_t bucket_end_step(uint64_t n_steps, size_t samples, size_t bucket)
+{
+    return (n_steps / samples) * (bucket + 1) + (n_steps % samples) * (bucket + 1) / samples;
+}
+
+/* One bucket through the problem's fused loop, stopping at every crossing to log it. */
+static void bucket_fused(run_context *c, uint64_t k_end)
+{
+    dm_fused_run *w = &c->loop;
+    for (;;) {
+        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w, k_end);
+        if (ev == DM_FUSED_CROSSING) {
+            crossing_add(&c->log, w->monitor.coord, w->monitor.crossed_level,
+                         dm_step_time(0.0, w->k - 1, c->h), w->x_prev,
+                         dm_step_time(0.0, w->k, c->h), w->x);
+            continue;
+        }
+        if (ev == DM_FUSED_DIVERGED)
+            c->status = diverged_at(c->result->reason, sizeof c->result->reason,
+                                    w->monitor.energy_error, c->energy_limit, w->k,
+                                    dm_step_time(0.0, w->k, c->h));
+        break;
     }
+    c->cur->t = dm_step_time(0.0, w->k, c->h);
+    memcpy(c->cur->x, w->x, sizeof(double) * 2 * (size_t)c->inst->dof);
+}
 
-    const bool fixed = !spec->method->adaptive;
-    const double h = spec->method_config.h;
-    const double t_end = spec->t_end;
-    const double energy_limit = spec->energy_limit > 0 ? spec->energy_limit : 1.0;
-    /* Fixed steps: the horizon is a whole number of steps; the time of step k is k h
-     * (one rounding), never a running sum whose error would grow with the run. */
-    uint64_t n_steps = 0;
-    if (fixed) {
-        /* A horizon of N periods at n steps per period is N n steps even when t_end / h
-         * rounds to a hair above that whole number; otherwise the first step past it. */
-        double ratio = t_end / fabs(h), nearest = nearbyint(ratio);
-        n_steps = (uint64_t)(fabs(ratio - nearest) <= 1e-12 * ratio ? nearest : ceil(ratio));
-    }
-    const size_t samples = spec->samples;
-
-    section_watch sec = { 0 };
-    section_init(&sec, inst, inst->q0);
-    crossing_log log = { .inst = inst, .period = T, .store = &result->crossings,
-                         .last_phase = NAN };
-    line_fit drift_fit = { 0 };
-    uint64_t k = 0;                 /* steps taken */
-    double max_abs = 0.0, dE = 0.0;
-    dm_run_status status = DM_RUN_OK;
-    char *reason = result->reason;
-    const size_t reason_size = sizeof result->reason;
-
-    /* The fused loop (method.h) when the method and the problem offer it: the same
-     * monitors, bit for bit, with the force inline. Probed with zero steps. */
-    dm_watch w = { .H0 = H0, .inv_scale = inv_scale, .energy_limit = energy_limit,
-                   .coord = sec.k, .wrap = sec.wrap, .level = sec.level, .armed = sec.armed };
-    memcpy(w.x, cur->x, sizeof(double) * 2 * (size_t)n);
-    const bool fused = fixed && dm_stepper_advance(s, &w, 0) != DM_WATCH_UNSUPPORTED;
-
-    double t_start = now_seconds();
-    for (size_t bucket = 0; bucket < samples && status == DM_RUN_OK; bucket++) {
-        /* floor((bucket + 1) n_steps / samples) without overflowing 64 bits */
-        uint64_t k_end = fixed ? (n_steps / samples) * (bucket + 1) +
-                                     (n_steps % samples) * (bucket + 1) / samples
-                               : 0;
-        double t_bucket_end = (bucket + 1 == samples) ? t_end : t_end * (double)(bucket + 1) / (double)samples;
-        if (fixed ? k >= k_end : cur->t >= t_bucket_end)
-            continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
-        double bmin = INFINITY, bmax = -INFINITY;
-        if (fused) {
-            w.bmin = INFINITY;
-            w.bmax = -INFINITY;
-            for (;;) {
-                dm_watch_event ev = dm_stepper_advance(s, &w, k_end);
-                if (ev == DM_WATCH_CROSSING) {
-                    crossing_add(&log, w.coord, w.crossed_level, (double)(w.k - 1) * h,
-                                 w.x_prev, (double)w.k * h, w.x);
-                    continue;
-                }
-                if (ev == DM_WATCH_DIVERGED)
-                    status = diverged_at(reason, reason_size, w.dE, energy_limit, w.k,
-                                         (double)w.k * h);
+/* One bucket a step at a time: the method steps into the other buffer, the monitor
+ * reads the new state (V from the step's last force when it has one). */
+static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
+{
+    const dm_instance *inst = c->inst;
+    const dm_problem *pb = inst->problem;
+    const int n = inst->dof;
+    dm_step_monitor *mon = &c->loop.monitor;
+    char *reason = c->result->reason;
+    const size_t reason_size = sizeof c->result->reason;
+    for (;;) {
+        if (dm_stepper_step(c->stepper, c->cur, c->nxt) != DM_OK) {
+            c->status = DM_RUN_FAILED;
+            snprintf(reason, reason_size, "%s", c->stepper->error.msg);
+            break;
+        }
+        uint64_t k = ++c->loop.k;
+        const double *x = c->nxt->x;
+        double V = c->nxt->potential;
+        if (isnan(V))
+            V = pb->potential(inst, x);
+        dm_step_event ev = dm_monitor_step(mon, pb->kinetic(inst, x + n), V, x[mon->coord]);
+        if (ev == DM_STEP_CROSSED)
+            crossing_add(&c->log, mon->coord, mon->crossed_level, c->cur->t, c->cur->x,
+                         c->nxt->t, x);
+        dm_point *tmp = c->cur;
+        c->cur = c->nxt;
+        c->nxt = tmp;
+        if (ev == DM_STEP_DIVERGED) {
+            /* the bucket records the diverged state at its own time */
+            c->status = diverged_at(reason, reason_size, mon->energy_error, c->energy_limit,
+                                    k, c->cur->t);
+            break;
+        }
+        if (c->fixed ? k >= k_end : c->cur->t >= t_bucket_end)
+            break;
+        /* Adaptive steps can shrink without bound: a stop request and the step budget
+         * are checked inside the bucket too. */
+        if (!c->fixed && (k & 4095) == 0) {
+            if (c->spec->step_budget > 0 && k >= c->spec->step_budget) {
+                c->status = DM_RUN_FAILED;
+                snprintf(reason, reason_size,
+                         "took %llu steps, the step budget, before t = %.17g (of %.17g)",
+                         (unsigned long long)k, c->cur->t, c->spec->t_end);
                 break;
             }
-            k = w.k;
-            cur->t = (double)k * h;
-            memcpy(cur->x, w.x, sizeof(double) * 2 * (size_t)n);
-            bmin = w.bmin;
-            bmax = w.bmax;
-            dE = w.dE;
-        } else {
-            for (;;) {
-                dm_status st = dm_stepper_step(s, cur, nxt);
-                if (st != DM_OK) {
-                    status = DM_RUN_FAILED;
-                    snprintf(reason, reason_size, "%s", s->error.msg);
-                    break;
-                }
-                k++;
-                if (fixed)
-                    nxt->t = (double)k * h;
-                const double *x = nxt->x;
-                double V = nxt->potential;
-                if (V != V)
-                    V = pb->potential(inst, x);
-                dE = (pb->kinetic(inst, x + n) + V - H0) * inv_scale;
-                if (dE < bmin)
-                    bmin = dE;
-                if (dE > bmax)
-                    bmax = dE;
-                bool diverged = !(fabs(dE) <= energy_limit);
-                /* Section: one comparison per step unless a crossing happened. */
-                bool crossed = false;
-                double level = sec.level;
-                if (!diverged) {
-                    double qk = x[sec.k];
-                    if (sec.wrap > 0.0) {
-                        if (qk >= sec.level) {
-                            crossed = true;
-                            sec.level += sec.wrap;
-                        } else if (qk < sec.level - sec.wrap) {
-                            sec.level -= sec.wrap;
-                        }
-                    } else {
-                        crossed = sec.armed && qk >= sec.level;
-                        sec.armed = qk < sec.level;
-                    }
-                }
-                if (crossed)
-                    crossing_add(&log, sec.k, level, cur->t, cur->x, nxt->t, x);
-                dm_point *tmp = cur;
-                cur = nxt;
-                nxt = tmp;
-                if (diverged) {
-                    /* the bucket records the diverged state at its own time */
-                    status = diverged_at(reason, reason_size, dE, energy_limit, k, cur->t);
-                    break;
-                }
-                if (fixed ? k >= k_end : cur->t >= t_bucket_end)
-                    break;
-                /* Adaptive steps can shrink without bound: a stop request and the step
-                 * budget are checked inside the bucket too. */
-                if (!fixed && (k & 4095) == 0) {
-                    if (spec->step_budget > 0 && k >= spec->step_budget) {
-                        status = DM_RUN_FAILED;
-                        snprintf(reason, reason_size,
-                                 "took %llu steps, the step budget, before t = %.17g (of "
-                                 "%.17g)", (unsigned long long)k, cur->t, t_end);
-                        break;
-                    }
-                    if (stop != NULL && *stop)
-                        break;
-                }
-            }
-        }
-        if (bmin > bmax)
-            break; /* failed on the bucket's first step: nothing to record */
-        /* Bucket end: record the series and the once-per-bucket monitors. */
-        dm_series *ser = &result->series;
-        size_t i = ser->n++;
-        double t = cur->t;
-        ser->time[i] = t;
-        ser->energy_error[i] = dE;
-        ser->energy_error_min[i] = bmin;
-        ser->energy_error_max[i] = bmax;
-        double babs = fmax(fabs(bmin), fabs(bmax));
-        if (babs > max_abs)
-            max_abs = babs;
-        line_fit_add(&drift_fit, t / T, dE);
-        if (ser->global_error != NULL) {
-            double qe[DM_MAX_DOF], pe[DM_MAX_DOF], sum = 0.0;
-            pb->exact(inst, t, qe, pe);
-            for (int j = 0; j < n; j++) {
-                double dq = cur->x[j] - qe[j], dp = cur->x[n + j] - pe[j];
-                sum += dq * dq + dp * dp;
-            }
-            ser->global_error[i] = sqrt(sum);
-        }
-        if (n_inv > 0) {
-            pb->invariants(inst, cur->x, cur->x + n, inv_now);
-            for (int j = 0; j < n_inv; j++) {
-                double e = (inv_now[j] - inv0[j]) / inv_scale_i[j];
-                ser->invariant_error[j][i] = e;
-                if (fabs(e) > m->max_invariant_error[j])
-                    m->max_invariant_error[j] = fabs(e);
-            }
-        }
-        if (stop != NULL && *stop && status == DM_RUN_OK && bucket + 1 < samples) {
-            status = DM_RUN_INTERRUPTED;
-            snprintf(reason, reason_size, "interrupted at step %llu, t = %.17g",
-                     (unsigned long long)k, cur->t);
+            if (c->stop != NULL && *c->stop)
+                break;
         }
     }
-    double wall = now_seconds() - t_start;
+}
 
+/* Bucket end: the series and the once-per-bucket monitors (exact solution,
+ * invariants). */
+static void record_bucket(run_context *c)
+{
+    const dm_instance *inst = c->inst;
+    const int n = inst->dof;
+    const dm_step_monitor *mon = &c->loop.monitor;
+    dm_series *ser = &c->result->series;
+    dm_run_metrics *m = &c->result->metrics;
+    size_t i = ser->n++;
+    double t = c->cur->t;
+    ser->time[i] = t;
+    ser->energy_error[i] = mon->energy_error;
+    ser->energy_error_min[i] = mon->bucket_min;
+    ser->energy_error_max[i] = mon->bucket_max;
+    double peak = fmax(fabs(mon->bucket_min), fabs(mon->bucket_max));
+    if (peak > c->max_abs)
+        c->max_abs = peak;
+    dm_line_fit_add(&c->drift_fit, t / inst->period, mon->energy_error);
+    if (ser->global_error != NULL) {
+        double qe[DM_MAX_DOF], pe[DM_MAX_DOF], sum = 0.0;
+        inst->problem->exact(inst, t, qe, pe);
+        for (int j = 0; j < n; j++) {
+            double dq = c->cur->x[j] - qe[j], dp = c->cur->x[n + j] - pe[j];
+            sum += dq * dq + dp * dp;
+        }
+        ser->global_error[i] = sqrt(sum);
+    }
+    if (c->n_invariants > 0) {
+        double now[DM_MAX_INVARIANTS];
+        inst->problem->invariants(inst, c->cur->x, c->cur->x + n, now);
+        for (int j = 0; j < c->n_invariants; j++) {
+            double e = (now[j] - c->invariant_start[j]) / c->invariant_scale[j];
+            ser->invariant_error[j][i] = e;
+            if (fabs(e) > m->max_invariant_error[j])
+                m->max_invariant_error[j] = fabs(e);
+        }
+    }
+}
+
+/* The run's figures from what the buckets and crossings collected. */
+static void finish_metrics(run_context *c, double wall)
+{
+    dm_run_result *result = c->result;
+    dm_run_metrics *m = &result->metrics;
+    const dm_series *ser = &result->series;
+    const double T = c->inst->period;
+    uint64_t k = c->loop.k;
     /* A divergence or failure inside a bucket still counts the steps seen. */
-    result->status = status;
+    result->status = c->status;
     m->steps = k;
-    m->counts = *dm_stepper_counts(s);
-    m->t_reached = cur->t;
+    m->counts = *dm_stepper_counts(c->stepper);
+    m->t_reached = c->cur->t;
     m->wall_seconds = wall;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;
     /* No bucket recorded (a failure on the first step): nothing was measured. */
-    m->max_energy_error = result->series.n > 0 ? max_abs : NAN;
-    m->final_energy_error = result->series.n > 0 ? result->series.energy_error[result->series.n - 1] : NAN;
-    m->energy_drift_per_period = line_fit_slope(&drift_fit);
-    m->drift_exponent = dm_drift_exponent(&result->series);
+    m->max_energy_error = ser->n > 0 ? c->max_abs : NAN;
+    m->final_energy_error = ser->n > 0 ? ser->energy_error[ser->n - 1] : NAN;
+    m->energy_drift_per_period = dm_line_fit_slope(&c->drift_fit);
+    m->drift_exponent = dm_drift_exponent(ser);
     m->period_exact = T;
-    double slope = line_fit_slope(&log.fit);
+    double slope = dm_line_fit_slope(&c->log.fit);
     m->phase_error_per_period = slope;
     m->period_rel_error = slope / (2.0 * M_PI);
     m->period_measured = T * (1.0 + m->period_rel_error);
-    m->phase_error_final = log.last_phase;
+    m->phase_error_final = c->log.last_phase;
     m->max_global_error = NAN;
-    if (result->series.global_error != NULL) {
+    if (ser->global_error != NULL) {
         m->max_global_error = 0.0;
-        for (size_t i = 0; i < result->series.n; i++)
-            m->max_global_error = fmax(m->max_global_error, result->series.global_error[i]);
+        for (size_t i = 0; i < ser->n; i++)
+            m->max_global_error = fmax(m->max_global_error, ser->global_error[i]);
     }
-    result->crossings.total = log.count;
-    dm_stepper_destroy(s);
+    result->crossings.total = c->log.count;
+}
+
+/* One run:
+ *  1. allocate the series; choose the energy scale; note the starting invariants;
+ *  2. create the stepper (a failure here is a failed run, not an error);
+ *  3. set up the monitor and probe for the fused loop;
+ *  4. run the buckets, each through the fused loop or a step at a time, recording
+ *     each bucket's end, until the horizon, a divergence, a failure or a stop;
+ *  5. compute the run's figures. */
+dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
+                 dm_error *err)
+{
+    memset(result, 0, sizeof *result);
+    dm_status rc = allocate(result, spec, err);
+    if (rc != DM_OK) {
+        dm_run_result_free(result);
+        return rc;
+    }
+    run_context *c = &(run_context){ .spec = spec, .inst = &spec->inst, .result = result,
+                                     .stop = stop, .status = DM_RUN_OK };
+    const dm_instance *inst = c->inst;
+    const int n = inst->dof;
+    dm_run_metrics *m = &result->metrics;
+    memcpy(c->buf[0], inst->q0, sizeof(double) * (size_t)n);
+    memcpy(c->buf[0] + n, inst->p0, sizeof(double) * (size_t)n);
+    c->a = (dm_point){ .t = 0.0, .x = c->buf[0], .potential = NAN };
+    c->b = (dm_point){ .t = 0.0, .x = c->buf[1], .potential = NAN };
+    c->cur = &c->a;
+    c->nxt = &c->b;
+    const double H0 = dm_instance_energy(inst, inst->q0, inst->p0);
+    choose_energy_scale(m, inst, H0);
+    invariants_start(c);
+
+    c->stepper = dm_stepper_create(spec->method, inst, &spec->method_config, c->cur, err);
+    if (c->stepper == NULL) {
+        result->status = DM_RUN_FAILED;
+        snprintf(result->reason, sizeof result->reason, "%s", err ? err->msg : "create failed");
+        dm_error_clear(err);
+        m->period_exact = inst->period;
+        return DM_OK;
+    }
+    c->fixed = !spec->method->adaptive;
+    c->h = spec->method_config.h;
+    c->energy_limit = spec->energy_limit > 0 ? spec->energy_limit : 1.0;
+    c->n_steps = c->fixed ? fixed_step_count(spec->t_end, c->h) : 0;
+    c->log = (crossing_log){ .inst = inst, .period = inst->period,
+                             .store = &result->crossings, .last_phase = NAN };
+    dm_monitor_start(&c->loop.monitor, H0, 1.0 / m->energy_scale, c->energy_limit,
+                     inst->section.coord, inst->section.level, inst->section.wrap,
+                     inst->q0[inst->section.coord]);
+    memcpy(c->loop.x, c->cur->x, sizeof(double) * 2 * (size_t)n);
+    /* The fused loop when the method and the problem offer it: probed with zero steps. */
+    c->fused = c->fixed &&
+               dm_stepper_run_fused(c->stepper, &c->loop, 0) != DM_FUSED_UNSUPPORTED;
+
+    const size_t samples = spec->samples;
+    double t_start = dm_clock_seconds();
+    for (size_t bucket = 0; bucket < samples && c->status == DM_RUN_OK; bucket++) {
+        uint64_t k_end = c->fixed ? bucket_end_step(c->n_steps, samples, bucket) : 0;
+        double t_bucket_end = (bucket + 1 == samples)
+                                  ? spec->t_end
+                                  : spec->t_end * (double)(bucket + 1) / (double)samples;
+        if (c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end)
+            continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
+        dm_monitor_open_bucket(&c->loop.monitor);
+        if (c->fused)
+            bucket_fused(c, k_end);
+        else
+            bucket_plain(c, k_end, t_bucket_end);
+        if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
+            break; /* failed on the bucket's first step: nothing to record */
+        record_bucket(c);
+        if (stop != NULL && *stop && c->status == DM_RUN_OK && bucket + 1 < samples) {
+            c->status = DM_RUN_INTERRUPTED;
+            snprintf(result->reason, sizeof result->reason,
+                     "interrupted at step %llu, t = %.17g", (unsigned long long)c->loop.k,
+                     c->cur->t);
+        }
+    }
+    finish_metrics(c, dm_clock_seconds() - t_start);
+    dm_stepper_destroy(c->stepper);
     return DM_OK;
 }

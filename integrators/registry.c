@@ -97,11 +97,11 @@ dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at)
     return dm_stepper_restart(s, at);
 }
 
-dm_watch_event dm_stepper_advance(dm_stepper *s, dm_watch *watch, uint64_t k_end)
+dm_fused_event dm_stepper_run_fused(dm_stepper *s, dm_fused_run *run, uint64_t k_end)
 {
     if (s->method->splitting != NULL)
-        return dm_splitting_advance(s, watch, k_end);
-    return DM_WATCH_UNSUPPORTED;
+        return dm_splitting_run_fused(s, run, k_end);
+    return DM_FUSED_UNSUPPORTED;
 }
 
 const dm_counts *dm_stepper_counts(dm_stepper *s)

@@ -35,7 +35,7 @@ typedef struct splitting_stepper {
 
     /* The same coefficients as kicks and drifts apart, for the fused loop. */
     double *kick_h, *drift_h;
-    dm_split_cache cache;  /* the fused loop's FSAL force and counts */
+    dm_fused_cache cache;  /* the fused loop's FSAL force and counts */
 
     double *grad;         /* grad V at the q of the last kick (the FSAL force) */
     double cached_potential;
@@ -202,27 +202,27 @@ dm_status dm_splitting_step(dm_stepper *base, const dm_point *from, dm_point *to
     return DM_OK;
 }
 
-dm_watch_event dm_splitting_advance(dm_stepper *base, dm_watch *watch, uint64_t k_end)
+dm_fused_event dm_splitting_run_fused(dm_stepper *base, dm_fused_run *run, uint64_t k_end)
 {
     splitting_stepper *s = (splitting_stepper *)base;
     const dm_instance *inst = base->inst;
-    if (inst->problem->split_block == NULL || base->config.compensated ||
+    if (inst->problem->fused_loop == NULL || base->config.compensated ||
         base->config.plain_steps)
-        return DM_WATCH_UNSUPPORTED;
-    const dm_split_plan plan = {
+        return DM_FUSED_UNSUPPORTED;
+    const dm_fused_table table = {
         .kick_first = s->table->kick_first,
         .n_kick = s->table->n_kick,
         .n_drift = s->table->n_drift,
         .kick = s->kick_h,
         .drift = s->drift_h,
     };
-    uint64_t k0 = watch->k;
-    int event = inst->problem->split_block(inst, &plan, &s->cache, watch, k_end);
-    base->counts.steps += watch->k - k0;
+    uint64_t k0 = run->k;
+    int event = inst->problem->fused_loop(inst, &table, &s->cache, run, k_end);
+    base->counts.steps += run->k - k0;
     base->counts.force_evals += s->cache.forces;
     base->counts.velocity_evals += s->cache.velocities;
     s->cache.forces = s->cache.velocities = 0;
-    return (dm_watch_event)event;
+    return (dm_fused_event)event;
 }
 
 void dm_splitting_destroy(dm_stepper *base)

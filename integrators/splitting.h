@@ -12,6 +12,6 @@ dm_status dm_splitting_step(dm_stepper *s, const dm_point *from, dm_point *to);
 dm_status dm_splitting_restart(dm_stepper *s, const dm_point *at);
 void dm_splitting_destroy(dm_stepper *s);
 /* The fused loop, when the problem has one and the run is not compensated. */
-dm_watch_event dm_splitting_advance(dm_stepper *s, dm_watch *watch, uint64_t k_end);
+dm_fused_event dm_splitting_run_fused(dm_stepper *s, dm_fused_run *run, uint64_t k_end);
 
 #endif

@@ -20,6 +20,7 @@
 #include <math.h>
 
 #include "elliptic.h"
+#include "dm_fused_loop.h"
 #include "problem.h"
 
 enum { P_A, P_B, P_AMPLITUDE, P_ENERGY, P_SIDE };
@@ -204,8 +205,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
-#define DM_BLOCK_DOF 1
-#include "splitting_block.h"
+DM_FUSED_LOOP(fused_loop, 1)
 
 const dm_problem dm_problem_double_well = {
     .id = "double_well",
@@ -236,7 +236,7 @@ const dm_problem dm_problem_double_well = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
-    .split_block = dm_split_block,
+    .fused_loop = fused_loop,
     .hessian = hessian,
     .exact = exact,
 };

@@ -2,6 +2,7 @@
  * everything about it, and about the methods run on it, is known exactly. */
 #include <math.h>
 
+#include "dm_fused_loop.h"
 #include "problem.h"
 
 enum { P_OMEGA, P_AMPLITUDE, P_ENERGY };
@@ -65,8 +66,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
-#define DM_BLOCK_DOF 1
-#include "splitting_block.h"
+DM_FUSED_LOOP(fused_loop, 1)
 
 const dm_problem dm_problem_harmonic = {
     .id = "harmonic",
@@ -87,7 +87,7 @@ const dm_problem dm_problem_harmonic = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
-    .split_block = dm_split_block,
+    .fused_loop = fused_loop,
     .hessian = hessian,
     .exact = exact,
 };

@@ -18,6 +18,7 @@
 #include <float.h>
 #include <math.h>
 
+#include "dm_fused_loop.h"
 #include "problem.h"
 
 enum { P_MU, P_SEMI_MAJOR_AXIS, P_ECCENTRICITY };
@@ -235,8 +236,7 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
-#define DM_BLOCK_DOF 2
-#include "splitting_block.h"
+DM_FUSED_LOOP(fused_loop, 2)
 
 const dm_problem dm_problem_kepler = {
     .id = "kepler",
@@ -258,7 +258,7 @@ const dm_problem dm_problem_kepler = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
-    .split_block = dm_split_block,
+    .fused_loop = fused_loop,
     .hessian = hessian,
     .exact = exact,
     .n_invariants = 3,

@@ -18,6 +18,7 @@
  */
 #include <math.h>
 
+#include "dm_fused_loop.h"
 #include "problem.h"
 
 enum { P_DEPTH, P_ALPHA, P_XE, P_MASS, P_AMPLITUDE, P_ENERGY };
@@ -191,8 +192,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
-#define DM_BLOCK_DOF 1
-#include "splitting_block.h"
+DM_FUSED_LOOP(fused_loop, 1)
 
 const dm_problem dm_problem_morse = {
     .id = "morse",
@@ -219,7 +219,7 @@ const dm_problem dm_problem_morse = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
-    .split_block = dm_split_block,
+    .fused_loop = fused_loop,
     .hessian = hessian,
     .exact = exact,
 };

@@ -12,6 +12,7 @@
 #include <math.h>
 
 #include "elliptic.h"
+#include "dm_fused_loop.h"
 #include "problem.h"
 
 enum { P_G_OVER_L, P_AMPLITUDE, P_ENERGY };
@@ -172,8 +173,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
-#define DM_BLOCK_DOF 1
-#include "splitting_block.h"
+DM_FUSED_LOOP(fused_loop, 1)
 
 const dm_problem dm_problem_pendulum = {
     .id = "pendulum",
@@ -202,7 +202,7 @@ const dm_problem dm_problem_pendulum = {
     .force = force,
     .kinetic = kinetic,
     .velocity = velocity,
-    .split_block = dm_split_block,
+    .fused_loop = fused_loop,
     .hessian = hessian,
     .exact = exact,
 };

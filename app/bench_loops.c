@@ -6,7 +6,7 @@
  * as the splitting engine does, and writes each update as the engine does
  * (p - (c h) f, q + (c h) p), so both end in the same state bit for bit.
  */
-#include "bench_bare.h"
+#include "bench_loops.h"
 
 #include <math.h>
 

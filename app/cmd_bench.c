@@ -33,7 +33,7 @@
 #include <sunnonlinsol/sunnonlinsol_fixedpoint.h>
 #include <sunnonlinsol/sunnonlinsol_newton.h>
 
-#include "bench_bare.h"
+#include "bench_loops.h"
 #include "cli.h"
 #include "harness.h"
 

@@ -75,8 +75,15 @@ typedef struct dm_point {
     double potential;
 } dm_point;
 
-/* Fixed-step time: origin + n h, one rounding, never a running sum whose error grows
- * with the run. Every fixed-step method keeps one. */
+/* Fixed-step time: the time of step n from `origin` is origin + n h, one rounding,
+ * never a running sum whose error grows with the run. Every fixed-step method keeps a
+ * dm_step_clock; the runner's fused path (which has no stepper in the loop) uses
+ * dm_step_time with origin 0. */
+static inline double dm_step_time(double origin, uint64_t n, double h)
+{
+    return origin + (double)n * h;
+}
+
 typedef struct dm_step_clock {
     double origin;
     uint64_t n;
@@ -91,7 +98,7 @@ static inline void dm_step_clock_start(dm_step_clock *c, double t)
 static inline double dm_step_clock_next(dm_step_clock *c, double h)
 {
     c->n++;
-    return c->origin + (double)c->n * h;
+    return dm_step_time(c->origin, c->n, h);
 }
 
 typedef struct dm_method dm_method;
@@ -138,53 +145,10 @@ struct dm_method {
 
 /* ---- the fused loop ----
  * For a splitting method (without compensated sums) on a problem that provides
- * split_block, the steps and the harness's per-step monitors run in one loop with the
- * force inline, as fast as a hand-written loop. The results are bit for bit those of
- * the per-step path (dm_stepper_step plus the runner's own monitors). */
-
-/* A splitting table scaled by h: kicks p -= kick[j] grad V, drifts q += drift[j] grad T. */
-typedef struct dm_split_plan {
-    bool kick_first;
-    int n_kick, n_drift;
-    const double *kick;
-    const double *drift;
-} dm_split_plan;
-
-/* What a step leaves for the next one: the force at the current q (FSAL) and the work
- * counted since the stepper last collected it. */
-typedef struct dm_split_cache {
-    double grad[DM_MAX_DOF];
-    double potential;
-    bool valid;
-    uint64_t forces, velocities;
-} dm_split_cache;
-
-/* The per-step monitors, run inside the fused loop exactly as runner.c runs them. */
-typedef struct dm_watch {
-    /* fixed for the run */
-    double H0, inv_scale, energy_limit;
-    int coord;
-    double wrap;
-    /* carried from call to call */
-    uint64_t k;                     /* steps taken */
-    double x[2 * DM_MAX_DOF];       /* the state after step k */
-    double level;                   /* section: see runner.c */
-    bool armed;
-    double bmin, bmax, dE;          /* extremes of dE in the current bucket, last dE */
-    /* set on an event */
-    double x_prev[2 * DM_MAX_DOF];  /* the state before the last step */
-    double crossed_level;
-} dm_watch;
-
-typedef enum dm_watch_event {
-    DM_WATCH_END,         /* k reached k_end */
-    DM_WATCH_CROSSING,    /* the last step crossed the section */
-    DM_WATCH_DIVERGED,    /* the last step's dE is NaN, Inf or beyond energy_limit */
-    DM_WATCH_UNSUPPORTED  /* no fused loop for this method and problem: step one by one */
-} dm_watch_event;
-
-/* Runs steps with the monitors until k_end or an event. */
-dm_watch_event dm_stepper_advance(dm_stepper *s, dm_watch *watch, uint64_t k_end);
+ * fused_loop (problem.h), runs steps with the per-step monitor until k_end or an event,
+ * as fast as a hand-written loop and bit for bit like dm_stepper_step followed by
+ * dm_monitor_step. Returns DM_FUSED_UNSUPPORTED when the method and problem have none. */
+dm_fused_event dm_stepper_run_fused(dm_stepper *s, dm_fused_run *run, uint64_t k_end);
 
 /* ---- registry (registry.c) ---- */
 extern const dm_method *const dm_methods[];

@@ -1,4 +1,4 @@
-/* bench_bare.h — the hand-written loops `driftmark bench` measures the harness against.
+/* bench_loops.h — the hand-written loops `driftmark bench` measures the harness against.
  *
  * Each loop is what one would write by hand for one method on one problem: the force
  * inline, no function pointers, no monitors. Each computes exactly the arithmetic the
@@ -6,8 +6,8 @@
  * number of steps it ends in the same state bit for bit; the bench checks that. The
  * force evaluation is the problem's (grad V and V together, as force() returns both),
  * so the loops differ from the harness only by what the harness adds. */
-#ifndef DM_BENCH_BARE_H
-#define DM_BENCH_BARE_H
+#ifndef DM_BENCH_LOOPS_H
+#define DM_BENCH_LOOPS_H
 
 #include <stdint.h>
 

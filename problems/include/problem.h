@@ -13,6 +13,7 @@
 #include <stdint.h>
 
 #include "dm_error.h"
+#include "dm_monitor.h"
 
 #define DM_MAX_DOF 6      /* degrees of freedom of the largest problem we hold */
 #define DM_MAX_PARAMS 8   /* user-facing parameters of one problem */
@@ -53,11 +54,6 @@ typedef struct dm_section {
 
 typedef struct dm_problem dm_problem;
 
-/* The fused loop (integrators/splitting_block.h) is declared with these. */
-struct dm_split_plan;
-struct dm_split_cache;
-struct dm_watch;
-
 /* One concrete problem: parameters resolved, starting state built, regime and the
  * closed-form period known. Plain data, no allocation; copy it freely. */
 typedef struct dm_instance {
@@ -78,6 +74,48 @@ typedef struct dm_instance {
                                    first_crossing + (n - 1) * period */
     double aux[DM_AUX_MAX];     /* constants derived by setup for the problem's own use */
 } dm_instance;
+
+/* ---- the fused loop's interface (the loop itself: dm_fused_loop.h) ----
+ * For a splitting method on a problem that provides one, the steps and the per-step
+ * monitor (dm_monitor.h) run in one loop with the force inline. Its results are bit for
+ * bit those of the per-step path (tests/test_runner.c checks it). */
+
+/* A splitting table scaled by h: kicks p -= kick[j] grad V, drifts q += drift[j] grad T,
+ * in the order kick[0], drift[0], kick[1], ... (kick_first) or drift[0], kick[0], ... */
+typedef struct dm_fused_table {
+    bool kick_first;
+    int n_kick, n_drift;
+    const double *kick;
+    const double *drift;
+} dm_fused_table;
+
+/* What one call leaves for the next: the force at the current q when the last
+ * operation was a kick (first-same-as-last), and the work done since it was collected. */
+typedef struct dm_fused_cache {
+    double grad[DM_MAX_DOF];
+    double potential;
+    bool valid;
+    uint64_t forces, velocities;
+} dm_fused_cache;
+
+/* The run as the loop carries it between calls. */
+typedef struct dm_fused_run {
+    uint64_t k;                     /* steps taken */
+    double x[2 * DM_MAX_DOF];       /* the state after step k: q then p */
+    double x_prev[2 * DM_MAX_DOF];  /* the state before the last step (set on an event) */
+    dm_step_monitor monitor;
+} dm_fused_run;
+
+typedef enum dm_fused_event {
+    DM_FUSED_END,         /* k reached k_end */
+    DM_FUSED_CROSSING,    /* the last step crossed the section */
+    DM_FUSED_DIVERGED,    /* the last step's dE is NaN, Inf or beyond the limit */
+    DM_FUSED_UNSUPPORTED  /* no fused loop for this method and problem */
+} dm_fused_event;
+
+/* Runs steps from run->k until k_end or an event; returns the dm_fused_event. */
+typedef int (*dm_fused_loop_fn)(const dm_instance *inst, const dm_fused_table *table,
+                                dm_fused_cache *cache, dm_fused_run *run, uint64_t k_end);
 
 struct dm_problem {
     const char *id;             /* registry name: "pendulum" */
@@ -106,12 +144,12 @@ struct dm_problem {
     /* Exact solution at time t from (q0, p0); NULL when none is known. */
     void (*exact)(const dm_instance *inst, double t, double *q, double *p);
 
-    /* Optional: the splitting engine's steps and the run's per-step monitors in one
-     * loop compiled with this problem's force inline — one line in the problem file,
-     * `#include "splitting_block.h"` (see there). NULL: the per-step path is used. */
-    int (*split_block)(const dm_instance *inst, const struct dm_split_plan *plan,
-                       struct dm_split_cache *cache, struct dm_watch *watch,
-                       uint64_t k_end);
+    /* Optional: the fused loop, any splitting table's steps and the per-step monitor
+     * compiled together with this problem's force inline. One line in the problem
+     * file, `DM_FUSED_LOOP(fused_loop, DOF)` from dm_fused_loop.h, and
+     * `.fused_loop = fused_loop` here. NULL: the per-step path runs (slower, same
+     * results). */
+    dm_fused_loop_fn fused_loop;
 
     /* Extra conserved quantities the harness may monitor (angular momentum, ...). */
     int n_invariants;
