@@ -106,8 +106,8 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
              c->method, c->steps_per_period);
     double T = spec->inst.period;
     double h = T / c->steps_per_period;
-    spec->knob = DM_KNOB_STEPS_PER_PERIOD;
-    spec->knob_value = c->steps_per_period;
+    spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
+    spec->step_value = c->steps_per_period;
     spec->method_config.h = h;
     /* The runner takes ceil(t_end / h - 1e-9) steps: aim half a step short of `steps`. */
     spec->t_end = ((double)steps - 0.5) * h;
@@ -145,7 +145,7 @@ static double run_bare(const bench_case *c, const dm_run_spec *spec,
     dm_bare_state s = { .q = { inst->q0[0], inst->dof > 1 ? inst->q0[1] : 0.0 },
                         .p = { inst->p0[0], inst->dof > 1 ? inst->p0[1] : 0.0 } };
     /* The problems' first parameter is their force constant (g_over_l, mu). */
-    double k = inst->par[0];
+    double k = inst->param[0];
     bool pendulum = strcmp(c->problem, "pendulum") == 0;
     bool verlet = bc->n_drift == 1;
     double t0 = now_seconds();
@@ -319,7 +319,7 @@ static long cvode_direct(const dm_instance *inst, bool bdf, int max_order, doubl
     SUNMatrix jac = NULL;
     SUNLinearSolver ls = NULL;
     SUNNonlinearSolver nls = NULL;
-    double g = inst->par[0];
+    double g = inst->param[0];
     long steps = -1;
     if (SUNContext_Create(NULL, &ctx) != 0)
         return -1;

@@ -62,7 +62,7 @@ static void print_text(const dm_instance *inst)
          * none was given is its own business, and q0, p0, energy below show the state. */
         if (start && !given)
             continue;
-        printf("%-16s%s = %.17g%s\n", label, pr->params[i].name, inst->par[i],
+        printf("%-16s%s = %.17g%s\n", label, pr->params[i].name, inst->param[i],
                given ? "" : " (default)");
         label = "";
     }
@@ -87,7 +87,7 @@ static void print_json(const dm_instance *inst)
             continue;
         printf("%s", first ? "" : ", ");
         print_json_string(pr->params[i].name);
-        printf(": %.17g", inst->par[i]);
+        printf(": %.17g", inst->param[i]);
         first = false;
     }
     printf("}, \"regime\": ");

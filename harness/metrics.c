@@ -56,7 +56,7 @@ double dm_drift_exponent(const dm_series *series)
 void dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
                           const dm_run_result *results, dm_sweep_fit *fit)
 {
-    double knob[256], energy[256], phase[256];
+    double setting[256], energy[256], phase[256];
     size_t n = 0;
     for (size_t i = 0; i < sweep->n_runs && n < 256; i++) {
         size_t r = sweep->runs[i];
@@ -64,14 +64,14 @@ void dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
         const dm_run_result *res = &results[r];
         if (res->status != DM_RUN_OK)
             continue;
-        knob[n] = spec->knob == DM_KNOB_RTOL ? spec->method_config.rtol
+        setting[n] = spec->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
                                               : fabs(spec->method_config.h);
         energy[n] = res->metrics.max_energy_error;
         phase[n] = fabs(res->metrics.phase_error_per_period);
         n++;
     }
     size_t used_e = 0, used_p = 0;
-    fit->energy_order = dm_fit_loglog_slope(knob, energy, n, &used_e);
-    fit->phase_order = dm_fit_loglog_slope(knob, phase, n, &used_p);
+    fit->energy_order = dm_fit_loglog_slope(setting, energy, n, &used_e);
+    fit->phase_order = dm_fit_loglog_slope(setting, phase, n, &used_p);
     fit->n_points = used_e < used_p ? used_e : used_p;
 }

@@ -306,12 +306,12 @@ static int write_root(hid_t file, const dm_suite *suite, const char *start_time_
     return rc;
 }
 
-static const char *knob_name(dm_knob knob)
+static const char *step_setting_name(dm_step_setting setting)
 {
-    switch (knob) {
-    case DM_KNOB_H: return "h";
-    case DM_KNOB_STEPS_PER_PERIOD: return "steps_per_period";
-    case DM_KNOB_RTOL: return "rtol";
+    switch (setting) {
+    case DM_SET_BY_H: return "h";
+    case DM_SET_BY_STEPS_PER_PERIOD: return "steps_per_period";
+    case DM_SET_BY_RTOL: return "rtol";
     }
     return "unknown";
 }
@@ -349,7 +349,7 @@ static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
     for (int i = 0; i < pr->n_params; i++) {
         char aname[96];
         snprintf(aname, sizeof aname, "param_%s", pr->params[i].name);
-        rc |= attr_double(g, aname, inst->par[i]);
+        rc |= attr_double(g, aname, inst->param[i]);
         if ((inst->given & (1u << i)) && used < sizeof given) {
             int w = snprintf(given + used, sizeof given - used, "%s%s", used ? "," : "",
                              pr->params[i].name);
@@ -374,8 +374,8 @@ static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
     rc |= attr_double(g, "rtol", adaptive ? spec->method_config.rtol : NAN);
     rc |= attr_double(g, "atol", adaptive ? spec->method_config.atol : NAN);
     rc |= attr_bool(g, "compensated", spec->method_config.compensated);
-    rc |= attr_text(g, "knob", knob_name(spec->knob));
-    rc |= attr_double(g, "knob_value", spec->knob_value);
+    rc |= attr_text(g, "knob", step_setting_name(spec->step_setting));
+    rc |= attr_double(g, "knob_value", spec->step_value);
 
     /* the run */
     rc |= attr_text(g, "run_id", spec->id);
@@ -465,13 +465,13 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         return -1;
     size_t n = sw->n_runs;
     const char **ids = calloc(n ? n : 1, sizeof *ids);
-    double *knob = calloc(n ? n : 1, sizeof *knob);
+    double *setting = calloc(n ? n : 1, sizeof *setting);
     double *h = calloc(n ? n : 1, sizeof *h);
     double *energy = calloc(n ? n : 1, sizeof *energy);
     double *phase = calloc(n ? n : 1, sizeof *phase);
     uint64_t *evals = calloc(n ? n : 1, sizeof *evals);
     int rc = -1;
-    if (ids && knob && h && energy && phase && evals) {
+    if (ids && setting && h && energy && phase && evals) {
         size_t kept = 0;
         for (size_t i = 0; i < sw->n_runs; i++) {
             const dm_run_spec *spec = &suite->runs[sw->runs[i]];
@@ -479,8 +479,8 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
             if (res->status == DM_RUN_NOT_RUN)
                 continue;
             ids[kept] = spec->id;
-            knob[kept] = spec->knob_value;
-            h[kept] = sw->knob == DM_KNOB_RTOL ? spec->method_config.rtol
+            setting[kept] = spec->step_value;
+            h[kept] = sw->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
                                                : spec->method_config.h;
             energy[kept] = res->metrics.max_energy_error;
             phase[kept] = res->metrics.phase_error_per_period;
@@ -489,21 +489,21 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         }
         n = kept;
         rc = 0;
-        rc |= attr_text(g, "knob", knob_name(sw->knob));
+        rc |= attr_text(g, "knob", step_setting_name(sw->step_setting));
         rc |= attr_double(g, "energy_order", fit ? fit->energy_order : NAN);
         rc |= attr_double(g, "phase_order", fit ? fit->phase_order : NAN);
         rc |= attr_u64(g, "n_points", fit ? fit->n_points : 0);
         rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
         rc |= dataset_strings(g, "run_id", ids, n);
-        rc |= dataset_double(g, sw->knob == DM_KNOB_RTOL ? "rtol" : "h", h, n);
-        if (sw->knob == DM_KNOB_STEPS_PER_PERIOD)
-            rc |= dataset_double(g, "steps_per_period", knob, n);
+        rc |= dataset_double(g, sw->step_setting == DM_SET_BY_RTOL ? "rtol" : "h", h, n);
+        if (sw->step_setting == DM_SET_BY_STEPS_PER_PERIOD)
+            rc |= dataset_double(g, "steps_per_period", setting, n);
         rc |= dataset_u64(g, "force_evals", evals, n);
         rc |= dataset_double(g, "max_energy_error", energy, n);
         rc |= dataset_double(g, "phase_error_per_period", phase, n);
     }
     free(ids);
-    free(knob);
+    free(setting);
     free(h);
     free(energy);
     free(phase);

@@ -8,8 +8,8 @@
  * Expansion: every problem entry gives one or more variants (a list of values is a
  * sweep over that parameter; several lists form their product, parameters in the
  * problem table's order, the first one outermost). The runs are
- *   for each problem variant, for each method entry, for each knob value
- * in file order. A (variant, method entry) pair with two or more knob values is a sweep.
+ *   for each problem variant, for each method entry, for each step or tolerance value
+ * in file order. A (variant, method entry) pair with two or more step or tolerance values is a sweep.
  */
 #include <errno.h>
 #include <inttypes.h>
@@ -265,7 +265,7 @@ static dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *w
     return DM_OK;
 }
 
-/* ---- value lists: a scalar, a list, or (for knobs) a geometric range ---- */
+/* ---- value lists: a scalar, a list, or (for the step setting) a geometric range ---- */
 
 typedef struct value_list {
     size_t n;
@@ -386,7 +386,7 @@ typedef struct problem_entry {
 typedef struct method_entry {
     const yaml_node_t *node;
     const dm_method *method;
-    dm_knob knob;
+    dm_step_setting step_setting;
     value_list *values;
     bool atol_given;
     double atol;
@@ -417,7 +417,7 @@ typedef struct suite_build {
     const yaml_node_t *output_node;   /* NULL: output derived from the name */
     const char *output_override;      /* the command line's -o, or NULL */
     const yaml_node_t *step_budget_node;
-    const yaml_node_t **run_nodes;    /* per run: where its knob value was written */
+    const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
 } suite_build;
 
@@ -559,12 +559,12 @@ fail:
     return st;
 }
 
-static const char *knob_key(dm_knob knob)
+static const char *step_setting_key(dm_step_setting setting)
 {
-    switch (knob) {
-    case DM_KNOB_H: return "h";
-    case DM_KNOB_STEPS_PER_PERIOD: return "steps_per_period";
-    case DM_KNOB_RTOL: return "rtol";
+    switch (setting) {
+    case DM_SET_BY_H: return "h";
+    case DM_SET_BY_STEPS_PER_PERIOD: return "steps_per_period";
+    case DM_SET_BY_RTOL: return "rtol";
     }
     return "?";
 }
@@ -613,8 +613,8 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
         return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
 
     const dm_method *m = e->method;
-    const yaml_node_t *knob_key_node = NULL;
-    const yaml_node_t *knob_value = NULL;
+    const yaml_node_t *setting_node = NULL;
+    const yaml_node_t *setting_value = NULL;
     for (const yaml_node_pair_t *p = start; p < top; p++) {
         yaml_node_t *key = node_at(c, p->key);
         const char *name = scalar_text(key);
@@ -639,23 +639,23 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
             e->atol_given = true;
             continue;
         }
-        dm_knob knob = strcmp(name, "h") == 0 ? DM_KNOB_H
-                       : strcmp(name, "steps_per_period") == 0 ? DM_KNOB_STEPS_PER_PERIOD
-                                                               : DM_KNOB_RTOL;
-        if (knob_key_node != NULL)
+        dm_step_setting setting = strcmp(name, "h") == 0 ? DM_SET_BY_H
+                       : strcmp(name, "steps_per_period") == 0 ? DM_SET_BY_STEPS_PER_PERIOD
+                                                               : DM_SET_BY_RTOL;
+        if (setting_node != NULL)
             return fail_at(c, key, "%s given after %s (expected exactly one of h, "
-                           "steps_per_period, rtol)", name, scalar_text(knob_key_node));
-        if (m->adaptive && knob != DM_KNOB_RTOL)
+                           "steps_per_period, rtol)", name, scalar_text(setting_node));
+        if (m->adaptive && setting != DM_SET_BY_RTOL)
             return fail_at(c, key, "%s chooses its own steps: %s does not apply (expected "
                            "rtol)", m->id, name);
-        if (!m->adaptive && knob == DM_KNOB_RTOL)
+        if (!m->adaptive && setting == DM_SET_BY_RTOL)
             return fail_at(c, key, "%s is a fixed-step method: rtol does not apply (expected "
                            "h or steps_per_period)", m->id);
-        knob_key_node = key;
-        knob_value = value;
-        e->knob = knob;
+        setting_node = key;
+        setting_value = value;
+        e->step_setting = setting;
     }
-    if (knob_key_node == NULL)
+    if (setting_node == NULL)
         return fail_at(c, node, m->adaptive
                                     ? "%s needs a tolerance (expected rtol: TOL)"
                                     : "%s needs a step (expected h: STEP or "
@@ -665,24 +665,24 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
     e->values = malloc(sizeof *e->values);
     if (e->values == NULL)
         return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
-    const char *what = knob_key(e->knob);
-    bool whole = e->knob == DM_KNOB_STEPS_PER_PERIOD;
-    if ((st = get_values(c, knob_value, what, true, whole, e->values)) != DM_OK)
+    const char *what = step_setting_key(e->step_setting);
+    bool whole = e->step_setting == DM_SET_BY_STEPS_PER_PERIOD;
+    if ((st = get_values(c, setting_value, what, true, whole, e->values)) != DM_OK)
         return st;
     for (size_t i = 0; i < e->values->n; i++) {
         double v = e->values->v[i];
         const yaml_node_t *at = e->values->node[i];
-        switch (e->knob) {
-        case DM_KNOB_H:
+        switch (e->step_setting) {
+        case DM_SET_BY_H:
             if (!(v > 0.0))
                 return fail_at(c, at, "h = %g must be positive (expected 0 < h < period)", v);
             break;
-        case DM_KNOB_STEPS_PER_PERIOD:
+        case DM_SET_BY_STEPS_PER_PERIOD:
             if (!(v >= 1.0) || v != floor(v) || v > 1e15)
                 return fail_at(c, at, "steps_per_period = %g is not a whole number >= 1 "
                                "(expected 1, 2, 3, ...)", v);
             break;
-        case DM_KNOB_RTOL:
+        case DM_SET_BY_RTOL:
             if (!(v >= DM_RTOL_MIN && v <= DM_RTOL_MAX))
                 return fail_at(c, at, "rtol = %g is outside [%g, %g] (expected a relative "
                                "tolerance in that range)", v, DM_RTOL_MIN, DM_RTOL_MAX);
@@ -826,13 +826,13 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
 }
 
 static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
-                          const method_entry *me, size_t knob_index, dm_run_spec *spec)
+                          const method_entry *me, size_t value_index, dm_run_spec *spec)
 {
     parse_ctx *c = &b->ctx;
     const dm_method *m = me->method;
     const dm_instance *inst = &x->inst;
-    const yaml_node_t *at = me->values->node[knob_index];
-    double kv = me->values->v[knob_index];
+    const yaml_node_t *at = me->values->node[value_index];
+    double kv = me->values->v[value_index];
     memset(spec, 0, sizeof *spec);
     spec->inst = *inst;
     spec->n_given = x->n_given;
@@ -841,8 +841,8 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
         spec->given_values[k] = x->values[k];
     }
     spec->method = m;
-    spec->knob = me->knob;
-    spec->knob_value = kv;
+    spec->step_setting = me->step_setting;
+    spec->step_value = kv;
     spec->samples = b->samples;
     spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
@@ -868,16 +868,16 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     size_t used = 0;
     bool fits = true;
     double steps_needed = NAN;
-    switch (me->knob) {
-    case DM_KNOB_H:
+    switch (me->step_setting) {
+    case DM_SET_BY_H:
         mc->h = kv;
         fits = appendf(method_part, sizeof method_part, &used, "%s-h%g", m->id, kv);
         break;
-    case DM_KNOB_STEPS_PER_PERIOD:
+    case DM_SET_BY_STEPS_PER_PERIOD:
         mc->h = period / kv;
         fits = appendf(method_part, sizeof method_part, &used, "%s-n%g", m->id, kv);
         break;
-    case DM_KNOB_RTOL:
+    case DM_SET_BY_RTOL:
         mc->h = 0.0; /* adaptive: the method chooses */
         mc->rtol = kv;
         mc->atol = me->atol_given ? me->atol : DM_ATOL_PER_RTOL * kv;
@@ -896,7 +896,7 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
 
     if (!m->adaptive) {
         /* h must resolve the orbit; steps_per_period >= 1 already means h <= period. */
-        if (me->knob == DM_KNOB_H && !(mc->h < period))
+        if (me->step_setting == DM_SET_BY_H && !(mc->h < period))
             return fail_at(c, at, "run %s: h = %g is not below the period %.17g (expected "
                            "0 < h < period)", spec->id, mc->h, period);
         steps_needed = ceil(spec->t_end / mc->h);
@@ -914,7 +914,7 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     bool ok = appendf(cfg, DM_CONFIG_MAX, &cu, "problem=%s", pr->id);
     for (int i = 0; i < pr->n_params; i++)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " %s=%.17g", pr->params[i].name,
-                           inst->par[i]);
+                           inst->param[i]);
     ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " given=");
     bool first = true;
     for (int i = 0; i < pr->n_params; i++)
@@ -939,7 +939,7 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     return DM_OK;
 }
 
-static dm_status add_sweep(dm_suite *suite, const char *base, dm_knob knob, size_t first,
+static dm_status add_sweep(dm_suite *suite, const char *base, dm_step_setting setting, size_t first,
                            size_t n, dm_error *err)
 {
     dm_sweep *sw = &suite->sweeps[suite->n_sweeps];
@@ -957,7 +957,7 @@ static dm_status add_sweep(dm_suite *suite, const char *base, dm_knob knob, size
         int keep = (int)(sizeof sw->name - 1 - strlen(suffix));
         snprintf(sw->name, sizeof sw->name, "%.*s%s", keep, base, suffix);
     }
-    sw->knob = knob;
+    sw->step_setting = setting;
     sw->n_runs = n;
     sw->runs = malloc(n * sizeof *sw->runs);
     if (sw->runs == NULL)
@@ -1038,7 +1038,7 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                                  DM_RUN_ID_MAX - 1);
                     goto done;
                 }
-                if ((st = add_sweep(suite, base, me->knob, first, me->values->n, c->err)) !=
+                if ((st = add_sweep(suite, base, me->step_setting, first, me->values->n, c->err)) !=
                     DM_OK)
                     goto done;
             }

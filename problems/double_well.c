@@ -39,7 +39,7 @@ static double b_x2_minus(double b, double x, double c)
 
 static double potential(const dm_instance *inst, const double *q)
 {
-    double a = inst->par[P_A], b = inst->par[P_B], x2 = q[0] * q[0];
+    double a = inst->param[P_A], b = inst->param[P_B], x2 = q[0] * q[0];
     return x2 * (0.25 * b * x2 - 0.5 * a);
 }
 
@@ -50,13 +50,13 @@ static double kinetic(const dm_instance *inst, const double *p)
 
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
-    double a = inst->par[P_A], b = inst->par[P_B];
+    double a = inst->param[P_A], b = inst->param[P_B];
     double v_min = -a * a / (4.0 * b);
     double x0;
     const char *key;
     double value;
     if (inst->given & (1u << P_ENERGY)) {
-        double energy = inst->par[P_ENERGY], side = inst->par[P_SIDE];
+        double energy = inst->param[P_ENERGY], side = inst->param[P_SIDE];
         key = "energy";
         value = energy;
         if (side != 1.0 && side != -1.0)
@@ -86,7 +86,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
             return dm_error_set(err, DM_EINPUT,
                                 "double_well: side applies only with energy (with amplitude "
                                 "its sign picks the well)");
-        x0 = inst->par[P_AMPLITUDE];
+        x0 = inst->param[P_AMPLITUDE];
         key = "amplitude";
         value = x0;
     }
@@ -162,17 +162,17 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     inst->energy = kinetic(inst, inst->p0) + potential(inst, inst->q0);
     inst->has_v_min = true;
     inst->v_min = v_min;
-    inst->aux[A_X0] = x0;
-    inst->aux[A_OMEGA] = omega;
-    inst->aux[A_M] = m;
-    inst->aux[A_M1] = m1;
-    inst->aux[A_INNER] = inner ? 1.0 : 0.0;
+    inst->derived[A_X0] = x0;
+    inst->derived[A_OMEGA] = omega;
+    inst->derived[A_M] = m;
+    inst->derived[A_M1] = m1;
+    inst->derived[A_INNER] = inner ? 1.0 : 0.0;
     return DM_OK;
 }
 
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double a = inst->par[P_A], b = inst->par[P_B], x = q[0], x2 = x * x;
+    double a = inst->param[P_A], b = inst->param[P_B], x = q[0], x2 = x * x;
     grad[0] = x * (b * x2 - a);
     return x2 * (0.25 * b * x2 - 0.5 * a);
 }
@@ -184,18 +184,18 @@ static void velocity(const dm_instance *inst, const double *p, double *v)
 
 static void hessian(const dm_instance *inst, const double *q, double *hess)
 {
-    hess[0] = 3.0 * inst->par[P_B] * q[0] * q[0] - inst->par[P_A];
+    hess[0] = 3.0 * inst->param[P_B] * q[0] * q[0] - inst->param[P_A];
 }
 
 static void exact(const dm_instance *inst, double t, double *q, double *p)
 {
-    double x0 = inst->aux[A_X0], w = inst->aux[A_OMEGA], m = inst->aux[A_M];
+    double x0 = inst->derived[A_X0], w = inst->derived[A_OMEGA], m = inst->derived[A_M];
     double sn, cn, dn;
-    dm_ellipj_m1(w * t, inst->aux[A_M1], &sn, &cn, &dn);
+    dm_ellipj_m1(w * t, inst->derived[A_M1], &sn, &cn, &dn);
     if (inst->regime == R_OVER_BARRIER) {
         q[0] = x0 * cn;
         p[0] = -x0 * w * sn * dn;
-    } else if (inst->aux[A_INNER] == 0.0) {
+    } else if (inst->derived[A_INNER] == 0.0) {
         q[0] = x0 * dn;
         p[0] = -x0 * w * m * sn * cn;
     } else {

@@ -9,10 +9,10 @@ enum { P_OMEGA, P_AMPLITUDE, P_ENERGY };
 
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
-    double w = inst->par[P_OMEGA];
-    double amplitude = inst->par[P_AMPLITUDE];
+    double w = inst->param[P_OMEGA];
+    double amplitude = inst->param[P_AMPLITUDE];
     if (inst->given & (1u << P_ENERGY))
-        amplitude = sqrt(2.0 * inst->par[P_ENERGY]) / w;
+        amplitude = sqrt(2.0 * inst->param[P_ENERGY]) / w;
     if (amplitude == 0.0)
         return dm_error_set(err, DM_EINPUT,
                             "harmonic: zero amplitude is the equilibrium (no oscillation)");
@@ -31,13 +31,13 @@ static dm_status setup(dm_instance *inst, dm_error *err)
 
 static double potential(const dm_instance *inst, const double *q)
 {
-    double w = inst->par[P_OMEGA];
+    double w = inst->param[P_OMEGA];
     return 0.5 * w * w * q[0] * q[0];
 }
 
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double w2 = inst->par[P_OMEGA] * inst->par[P_OMEGA];
+    double w2 = inst->param[P_OMEGA] * inst->param[P_OMEGA];
     grad[0] = w2 * q[0];
     return 0.5 * w2 * q[0] * q[0];
 }
@@ -54,12 +54,12 @@ static void velocity(const dm_instance *inst, const double *p, double *v)
 
 static void hessian(const dm_instance *inst, const double *q, double *hess)
 {
-    hess[0] = inst->par[P_OMEGA] * inst->par[P_OMEGA];
+    hess[0] = inst->param[P_OMEGA] * inst->param[P_OMEGA];
 }
 
 static void exact(const dm_instance *inst, double t, double *q, double *p)
 {
-    double w = inst->par[P_OMEGA];
+    double w = inst->param[P_OMEGA];
     double a = inst->q0[0];
     q[0] = a * cos(w * t);
     p[0] = -a * w * sin(w * t);

@@ -23,7 +23,7 @@
 
 enum { P_MU, P_SEMI_MAJOR_AXIS, P_ECCENTRICITY };
 
-/* aux layout */
+/* derived constants */
 enum {
     A_ONE_MINUS_E, /* 1 - e */
     A_SEMI_MINOR,  /* b = a sqrt(1 - e^2) */
@@ -132,9 +132,9 @@ double dm_kepler_solve(double mean_anomaly, double e, int *iterations)
 
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
-    double mu = inst->par[P_MU];
-    double a = inst->par[P_SEMI_MAJOR_AXIS];
-    double e = inst->par[P_ECCENTRICITY];
+    double mu = inst->param[P_MU];
+    double a = inst->param[P_SEMI_MAJOR_AXIS];
+    double e = inst->param[P_ECCENTRICITY];
     double one_minus_e = 1.0 - e;
     double n = sqrt(mu / a) / a;
     double T = 2.0 * M_PI / n;
@@ -158,20 +158,20 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     /* The start lies on the section (y = 0) moving upward: the first crossing after
      * t = 0 is the next periapsis passage. */
     inst->first_crossing = T;
-    inst->aux[A_ONE_MINUS_E] = one_minus_e;
-    inst->aux[A_SEMI_MINOR] = a * sqrt(one_minus_e * (1.0 + e));
-    inst->aux[A_MEAN_MOTION] = n;
+    inst->derived[A_ONE_MINUS_E] = one_minus_e;
+    inst->derived[A_SEMI_MINOR] = a * sqrt(one_minus_e * (1.0 + e));
+    inst->derived[A_MEAN_MOTION] = n;
     return DM_OK;
 }
 
 static double potential(const dm_instance *inst, const double *q)
 {
-    return -inst->par[P_MU] / sqrt(q[0] * q[0] + q[1] * q[1]);
+    return -inst->param[P_MU] / sqrt(q[0] * q[0] + q[1] * q[1]);
 }
 
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double mu = inst->par[P_MU];
+    double mu = inst->param[P_MU];
     double inv_r = 1.0 / sqrt(q[0] * q[0] + q[1] * q[1]);
     double k = mu * inv_r * inv_r * inv_r;
     grad[0] = k * q[0];
@@ -193,7 +193,7 @@ static void velocity(const dm_instance *inst, const double *p, double *v)
 static void hessian(const dm_instance *inst, const double *q, double *hess)
 {
     /* d2/dqi dqj (-mu / r) = mu (delta_ij / r^3 - 3 qi qj / r^5) */
-    double mu = inst->par[P_MU];
+    double mu = inst->param[P_MU];
     double r2 = q[0] * q[0] + q[1] * q[1];
     double inv_r = 1.0 / sqrt(r2);
     double k3 = mu * inv_r * inv_r * inv_r;
@@ -206,11 +206,11 @@ static void hessian(const dm_instance *inst, const double *q, double *hess)
 
 static void exact(const dm_instance *inst, double t, double *q, double *p)
 {
-    double a = inst->par[P_SEMI_MAJOR_AXIS];
-    double e = inst->par[P_ECCENTRICITY];
-    double one_minus_e = inst->aux[A_ONE_MINUS_E];
-    double b = inst->aux[A_SEMI_MINOR];
-    double n = inst->aux[A_MEAN_MOTION];
+    double a = inst->param[P_SEMI_MAJOR_AXIS];
+    double e = inst->param[P_ECCENTRICITY];
+    double one_minus_e = inst->derived[A_ONE_MINUS_E];
+    double b = inst->derived[A_SEMI_MINOR];
+    double n = inst->derived[A_MEAN_MOTION];
     /* Mean anomaly reduced to [-pi, pi] through t / T, so t = k T is exactly periapsis. */
     double r = t / inst->period;
     r -= nearbyint(r);
@@ -226,7 +226,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 
 static void invariants(const dm_instance *inst, const double *q, const double *p, double *out)
 {
-    double mu = inst->par[P_MU];
+    double mu = inst->param[P_MU];
     double r = sqrt(q[0] * q[0] + q[1] * q[1]);
     double L = q[0] * p[1] - q[1] * p[0];
     out[0] = L;

@@ -23,7 +23,7 @@
 
 enum { P_DEPTH, P_ALPHA, P_XE, P_MASS, P_AMPLITUDE, P_ENERGY };
 
-/* aux layout */
+/* derived constants */
 enum {
     A_C,            /* c = sqrt(E / D) */
     A_ONE_MINUS_C,  /* 1 - c, without cancellation */
@@ -34,14 +34,14 @@ enum {
 
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
-    double D = inst->par[P_DEPTH];
-    double alpha = inst->par[P_ALPHA];
-    double xe = inst->par[P_XE];
-    double m = inst->par[P_MASS];
+    double D = inst->param[P_DEPTH];
+    double alpha = inst->param[P_ALPHA];
+    double xe = inst->param[P_XE];
+    double m = inst->param[P_MASS];
     double c, one_minus_c, side;
 
     if (inst->given & (1u << P_ENERGY)) {
-        double E = inst->par[P_ENERGY];
+        double E = inst->param[P_ENERGY];
         if (!(E < D))
             return dm_error_set(err, DM_EINPUT,
                                 "morse: energy = %.17g is not below the well depth D = %.17g: "
@@ -51,7 +51,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         one_minus_c = ((D - E) / D) / (1.0 + c);
         side = 1.0; /* energy=E starts at the inner turning point, at rest */
     } else {
-        double u0 = inst->par[P_AMPLITUDE];
+        double u0 = inst->param[P_AMPLITUDE];
         if (u0 == 0.0)
             return dm_error_set(err, DM_EINPUT,
                                 "morse: zero amplitude is the equilibrium x = xe "
@@ -76,7 +76,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     }
     double one_minus_c2 = one_minus_c * (1.0 + c);
     /* The energy the user gave, else that of the starting displacement. */
-    double energy = (inst->given & (1u << P_ENERGY)) ? inst->par[P_ENERGY] : D * c * c;
+    double energy = (inst->given & (1u << P_ENERGY)) ? inst->param[P_ENERGY] : D * c * c;
     if (!(energy > 0.0))
         return dm_error_set(err, DM_EINPUT,
                             "morse: the starting state is the equilibrium (energy %.17g "
@@ -95,7 +95,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     /* Turning point: u0 = -ln(1 + side c) / alpha. */
     double u0 = side > 0 ? -log1p(c) / alpha : -log(one_minus_c) / alpha;
     if (inst->given & (1u << P_AMPLITUDE))
-        u0 = inst->par[P_AMPLITUDE]; /* exactly what the user gave */
+        u0 = inst->param[P_AMPLITUDE]; /* exactly what the user gave */
     if (!isfinite(xe + u0))
         return dm_error_set(err, DM_EINPUT,
                             "morse: starting position xe + %.17g is not finite", u0);
@@ -108,11 +108,11 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     inst->has_v_min = true;
     inst->v_min = 0.0;
     inst->section = (dm_section){ .coord = 0, .level = xe, .wrap = 0.0 };
-    inst->aux[A_C] = c;
-    inst->aux[A_ONE_MINUS_C] = one_minus_c;
-    inst->aux[A_ONE_MINUS_C2] = one_minus_c2;
-    inst->aux[A_OMEGA] = w;
-    inst->aux[A_SIDE] = side;
+    inst->derived[A_C] = c;
+    inst->derived[A_ONE_MINUS_C] = one_minus_c;
+    inst->derived[A_ONE_MINUS_C2] = one_minus_c2;
+    inst->derived[A_OMEGA] = w;
+    inst->derived[A_SIDE] = side;
 
     /* x = xe (y = 1) going up (sin theta > 0) is theta = acos(c); from the inner turning
      * point (theta0 = 0) that is t = acos(c) / w, from the outer one (theta0 = pi) one
@@ -124,16 +124,16 @@ static dm_status setup(dm_instance *inst, dm_error *err)
 
 static double potential(const dm_instance *inst, const double *q)
 {
-    double D = inst->par[P_DEPTH];
-    double s = expm1(-inst->par[P_ALPHA] * (q[0] - inst->par[P_XE])); /* y - 1 */
+    double D = inst->param[P_DEPTH];
+    double s = expm1(-inst->param[P_ALPHA] * (q[0] - inst->param[P_XE])); /* y - 1 */
     return D * s * s;
 }
 
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double D = inst->par[P_DEPTH];
-    double alpha = inst->par[P_ALPHA];
-    double s = expm1(-alpha * (q[0] - inst->par[P_XE])); /* y - 1 */
+    double D = inst->param[P_DEPTH];
+    double alpha = inst->param[P_ALPHA];
+    double s = expm1(-alpha * (q[0] - inst->param[P_XE])); /* y - 1 */
     /* dV/dx = 2 D alpha y (1 - y) */
     grad[0] = -2.0 * D * alpha * (1.0 + s) * s;
     return D * s * s;
@@ -141,32 +141,32 @@ static double force(const dm_instance *inst, const double *q, double *grad)
 
 static double kinetic(const dm_instance *inst, const double *p)
 {
-    return 0.5 * p[0] * p[0] / inst->par[P_MASS];
+    return 0.5 * p[0] * p[0] / inst->param[P_MASS];
 }
 
 static void velocity(const dm_instance *inst, const double *p, double *v)
 {
-    v[0] = p[0] / inst->par[P_MASS];
+    v[0] = p[0] / inst->param[P_MASS];
 }
 
 static void hessian(const dm_instance *inst, const double *q, double *hess)
 {
-    double D = inst->par[P_DEPTH];
-    double alpha = inst->par[P_ALPHA];
-    double y = exp(-alpha * (q[0] - inst->par[P_XE]));
+    double D = inst->param[P_DEPTH];
+    double alpha = inst->param[P_ALPHA];
+    double y = exp(-alpha * (q[0] - inst->param[P_XE]));
     /* d2V/dx2 = 2 D alpha^2 y (2 y - 1) */
     hess[0] = 2.0 * D * alpha * alpha * y * (2.0 * y - 1.0);
 }
 
 static void exact(const dm_instance *inst, double t, double *q, double *p)
 {
-    double alpha = inst->par[P_ALPHA];
-    double m = inst->par[P_MASS];
-    double c = inst->aux[A_C];
-    double one_minus_c = inst->aux[A_ONE_MINUS_C];
-    double one_minus_c2 = inst->aux[A_ONE_MINUS_C2];
-    double w = inst->aux[A_OMEGA];
-    double side = inst->aux[A_SIDE];
+    double alpha = inst->param[P_ALPHA];
+    double m = inst->param[P_MASS];
+    double c = inst->derived[A_C];
+    double one_minus_c = inst->derived[A_ONE_MINUS_C];
+    double one_minus_c2 = inst->derived[A_ONE_MINUS_C2];
+    double w = inst->derived[A_OMEGA];
+    double side = inst->derived[A_SIDE];
 
     /* Phase reduced to one period first, so theta keeps full precision at long times
      * and t = k T lands exactly on the starting point. */
@@ -186,7 +186,7 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     } else {
         u = log(den / one_minus_c2) / alpha;
     }
-    q[0] = inst->par[P_XE] + u;
+    q[0] = inst->param[P_XE] + u;
     /* u' = c w sin(theta) / (alpha (1 - c cos theta)), sin(theta) = side sin(w t) */
     p[0] = m * c * w * side * sin_wt / (alpha * den);
 }

@@ -17,14 +17,14 @@
 
 enum { P_G_OVER_L, P_AMPLITUDE, P_ENERGY };
 enum { R_LIBRATION, R_ROTATION };
-/* aux: libration  k = sin(theta0/2) (signed), k' = cos(theta0/2);
+/* derived: libration  k = sin(theta0/2) (signed), k' = cos(theta0/2);
  *      rotation   p0 (the speed at theta = 0);  both: w0, m1. */
 enum { A_W0, A_K, A_KC, A_M1, A_P0 };
 
 static dm_status setup_libration(dm_instance *inst, double theta0, const char *key,
                                  double value, dm_error *err)
 {
-    double g = inst->par[P_G_OVER_L];
+    double g = inst->param[P_G_OVER_L];
     if (theta0 == 0.0)
         return dm_error_set(err, DM_EINPUT,
                             "pendulum: %s = %.17g is the hanging equilibrium (theta = 0, no "
@@ -48,16 +48,16 @@ static dm_status setup_libration(dm_instance *inst, double theta0, const char *k
     /* theta = 2 atan2(k cn(w0 t), k') (see exact()) passes 0 upward where cn changes
      * sign from - to + with k > 0, at w0 t = 3K; with k < 0 at w0 t = K. */
     inst->first_crossing = (k > 0.0 ? 0.75 : 0.25) * inst->period;
-    inst->aux[A_W0] = w0;
-    inst->aux[A_K] = k;
-    inst->aux[A_KC] = kc;
-    inst->aux[A_M1] = m1;
+    inst->derived[A_W0] = w0;
+    inst->derived[A_K] = k;
+    inst->derived[A_KC] = kc;
+    inst->derived[A_M1] = m1;
     return DM_OK;
 }
 
 static dm_status setup_rotation(dm_instance *inst, double energy, dm_error *err)
 {
-    double g = inst->par[P_G_OVER_L];
+    double g = inst->param[P_G_OVER_L];
     double p0 = sqrt(2.0 * (energy + g));
     /* k^2 = 2 w0^2 / (E + w0^2) = 4 w0^2 / p0^2 for the stored p0; 4 g is exact, so the
      * fma leaves one rounding in m1 = (p0^2 - 4 w0^2) / p0^2. */
@@ -77,15 +77,15 @@ static dm_status setup_rotation(dm_instance *inst, double energy, dm_error *err)
     inst->section = (dm_section){ .coord = 0, .level = M_PI, .wrap = 2.0 * M_PI };
     /* theta = 2 am(u) reaches pi at u = K: half a revolution. */
     inst->first_crossing = 0.5 * inst->period;
-    inst->aux[A_W0] = sqrt(g);
-    inst->aux[A_M1] = m1;
-    inst->aux[A_P0] = p0;
+    inst->derived[A_W0] = sqrt(g);
+    inst->derived[A_M1] = m1;
+    inst->derived[A_P0] = p0;
     return DM_OK;
 }
 
 static double potential(const dm_instance *inst, const double *q)
 {
-    return -inst->par[P_G_OVER_L] * cos(q[0]);
+    return -inst->param[P_G_OVER_L] * cos(q[0]);
 }
 
 static double kinetic(const dm_instance *inst, const double *p)
@@ -95,10 +95,10 @@ static double kinetic(const dm_instance *inst, const double *p)
 
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
-    double g = inst->par[P_G_OVER_L];
+    double g = inst->param[P_G_OVER_L];
     dm_status status;
     if (inst->given & (1u << P_ENERGY)) {
-        double energy = inst->par[P_ENERGY];
+        double energy = inst->param[P_ENERGY];
         if (energy < -g)
             return dm_error_set(err, DM_EINPUT,
                                 "pendulum: energy = %.17g is below the minimum -g_over_l = "
@@ -122,8 +122,8 @@ static dm_status setup(dm_instance *inst, dm_error *err)
                                      energy, err);
         }
     } else {
-        status = setup_libration(inst, inst->par[P_AMPLITUDE], "amplitude",
-                                 inst->par[P_AMPLITUDE], err);
+        status = setup_libration(inst, inst->param[P_AMPLITUDE], "amplitude",
+                                 inst->param[P_AMPLITUDE], err);
     }
     if (status != DM_OK)
         return status;
@@ -135,7 +135,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
 
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double g = inst->par[P_G_OVER_L];
+    double g = inst->param[P_G_OVER_L];
     /* sin and cos of the same angle: gcc turns the pair into one sincos call. */
     double s = sin(q[0]), c = cos(q[0]);
     grad[0] = g * s;
@@ -149,23 +149,23 @@ static void velocity(const dm_instance *inst, const double *p, double *v)
 
 static void hessian(const dm_instance *inst, const double *q, double *hess)
 {
-    hess[0] = inst->par[P_G_OVER_L] * cos(q[0]);
+    hess[0] = inst->param[P_G_OVER_L] * cos(q[0]);
 }
 
 static void exact(const dm_instance *inst, double t, double *q, double *p)
 {
-    double m1 = inst->aux[A_M1];
+    double m1 = inst->derived[A_M1];
     double sn, cn, dn;
     if (inst->regime == R_LIBRATION) {
         /* sin(theta/2) = k sn(w0 t + K) = k cd(w0 t) and cos(theta/2) = dn(w0 t + K) =
          * k' nd(w0 t) (DLMF 22.4.iii), so tan(theta/2) = k cn(w0 t) / k': no arcsin next
          * to theta = pi, and no K added to the argument. */
-        double w0 = inst->aux[A_W0], k = inst->aux[A_K], kc = inst->aux[A_KC];
+        double w0 = inst->derived[A_W0], k = inst->derived[A_K], kc = inst->derived[A_KC];
         dm_ellipj_m1(w0 * t, m1, &sn, &cn, &dn);
         q[0] = 2.0 * atan2(k * cn, kc);
         p[0] = -2.0 * k * kc * w0 * sn / dn;
     } else {
-        double p0 = inst->aux[A_P0], am;
+        double p0 = inst->derived[A_P0], am;
         dm_ellipj_am_m1(0.5 * p0 * t, m1, &sn, &cn, &dn, &am);
         q[0] = 2.0 * am;
         p[0] = p0 * dn;

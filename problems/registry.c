@@ -58,7 +58,7 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
     inst->problem = problem;
     inst->dof = problem->dof;
     for (int i = 0; i < problem->n_params; i++)
-        inst->par[i] = problem->params[i].fallback;
+        inst->param[i] = problem->params[i].fallback;
 
     const char *names[DM_MAX_PARAMS];
     for (int i = 0; i < problem->n_params; i++)
@@ -99,7 +99,7 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
                                     problem->params[start_given].name, p->name);
             start_given = i;
         }
-        inst->par[i] = v;
+        inst->param[i] = v;
         inst->given |= 1u << i;
     }
     dm_status st = problem->setup(inst, err);

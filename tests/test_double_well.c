@@ -86,7 +86,7 @@ static double over_barrier_integrand(double x, void *vp)
 static double quadrature_period(const dm_instance *inst)
 {
     gsl_set_error_handler_off();
-    double a = inst->par[P_A], b = inst->par[P_B], x0 = fabs(inst->q0[0]);
+    double a = inst->param[P_A], b = inst->param[P_B], x0 = fabs(inst->q0[0]);
     /* b x0^2 - 2a; the other turning point from Vieta, A^2 + B^2 = 2a/b. */
     double d = fma(b * x0, x0, -2.0 * a);
     quad_par par = { .b = b };
@@ -179,7 +179,7 @@ static void exact_solutions_obey_the_equation_of_motion_and_conserve_energy(void
     for (size_t i = 0; i < N_CASES; i++) {
         dm_instance inst = must_make(&cases[i]);
         const dm_problem *pb = inst.problem;
-        double a = inst.par[P_A], b = inst.par[P_B];
+        double a = inst.param[P_A], b = inst.param[P_B];
         double q, p;
         pb->exact(&inst, 0.0, &q, &p);
         assert_true(q == inst.q0[0] && p == inst.p0[0]);
@@ -216,7 +216,7 @@ static void first_crossing_is_the_first_upward_pass_through_the_section(void **s
 {
     for (size_t i = 0; i < N_CASES; i++) {
         dm_instance inst = must_make(&cases[i]);
-        double a = inst.par[P_A], b = inst.par[P_B];
+        double a = inst.param[P_A], b = inst.param[P_B];
         double t = inst.first_crossing;
         assert_true(t > 0.0 && t <= inst.period);
         /* Sections: the bottom of the start's well in one well, x = 0 over the barrier. */

@@ -64,7 +64,7 @@ static double radial_f(double r, void *params)
 static double period_by_radial_quadrature(const dm_instance *inst, double *abserr)
 {
     const double *q = inst->q0, *p = inst->p0;
-    radial k = { .mu = inst->par[0] };
+    radial k = { .mu = inst->param[0] };
     double r0 = hypot(q[0], q[1]);
     k.E = 0.5 * (p[0] * p[0] + p[1] * p[1]) - k.mu / r0;
     k.L = q[0] * p[1] - q[1] * p[0];

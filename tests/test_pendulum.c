@@ -67,7 +67,7 @@ static double rotation_integrand(double psi, void *vp)
 static double quadrature_period(const dm_instance *inst)
 {
     gsl_set_error_handler_off();
-    double g = inst->par[0];
+    double g = inst->param[0];
     quad_par par = { .g = g, .theta0 = fabs(inst->q0[0]) };
     gsl_integration_workspace *w = gsl_integration_workspace_alloc(2000);
     double result = NAN, abserr = NAN;
@@ -186,7 +186,7 @@ static void exact_solutions_obey_the_equation_of_motion_and_conserve_energy(void
     for (size_t i = 0; i < N_STATES; i++) {
         dm_instance inst = state_instance(i);
         const dm_problem *pb = inst.problem;
-        double g = inst.par[0], w0 = sqrt(g);
+        double g = inst.param[0], w0 = sqrt(g);
         double q, p;
         pb->exact(&inst, 0.0, &q, &p);
         assert_true(fabs(q - inst.q0[0]) <= 2.0 * DBL_EPSILON * fabs(inst.q0[0]));

@@ -29,12 +29,12 @@ static void make_spec(dm_run_spec *spec, const char *problem, const char *key, d
     spec->energy_limit = 1.0;
     spec->sweep = -1;
     if (spec->method->adaptive) {
-        spec->knob = DM_KNOB_RTOL;
+        spec->step_setting = DM_SET_BY_RTOL;
         spec->method_config.rtol = rtol;
         spec->method_config.atol = rtol * 1e-3;
     } else {
-        spec->knob = DM_KNOB_STEPS_PER_PERIOD;
-        spec->knob_value = steps_per_period;
+        spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
+        spec->step_value = steps_per_period;
         spec->method_config.h = T / steps_per_period;
     }
     spec->method_config.t_stop = spec->t_end;

@@ -164,8 +164,8 @@ static void suite_expands_variants_times_method_values_in_file_order(void **stat
     /* h from steps_per_period is period / n; the harmonic period is 2 pi / omega
      * (exact, common practice). */
     const dm_run_spec *r = &s.runs[6 + 1]; /* omega 2, n = 32 */
-    assert_int_equal(r->knob, DM_KNOB_STEPS_PER_PERIOD);
-    assert_close(r->knob_value, 32.0, 0.0);
+    assert_int_equal(r->step_setting, DM_SET_BY_STEPS_PER_PERIOD);
+    assert_close(r->step_value, 32.0, 0.0);
     assert_close(r->inst.period, M_PI, 1e-15);
     assert_close(r->method_config.h, M_PI / 32.0, 1e-15);
     assert_close(r->t_end, 10.0 * M_PI, 1e-15);
@@ -178,24 +178,24 @@ static void suite_expands_variants_times_method_values_in_file_order(void **stat
     assert_close(r->given_values[0], 2.0, 0.0);
 
     const dm_run_spec *a = &s.runs[4];
-    assert_int_equal(a->knob, DM_KNOB_RTOL);
+    assert_int_equal(a->step_setting, DM_SET_BY_RTOL);
     assert_close(a->method_config.rtol, 1e-6, 0.0);
     /* atol not given: the CVODE adapter's rule, a thousandth of rtol, written out. */
     assert_close(a->method_config.atol, 1e-9, 1e-15);
     assert_close(a->t_end, 20.0 * M_PI, 1e-15);
 
-    /* Sweeps: one per (variant, entry) with >= 2 knob values, runs in knob order. */
+    /* Sweeps: one per (variant, entry) with >= 2 step values, runs in step order. */
     assert_int_equal(s.n_sweeps, 4);
     char name[DM_RUN_ID_MAX];
     snprintf(name, sizeof name, "harmonic-omega1.%s", F);
     assert_string_equal(s.sweeps[0].name, name);
-    assert_int_equal(s.sweeps[0].knob, DM_KNOB_STEPS_PER_PERIOD);
+    assert_int_equal(s.sweeps[0].step_setting, DM_SET_BY_STEPS_PER_PERIOD);
     assert_int_equal(s.sweeps[0].n_runs, 3);
     for (size_t k = 0; k < 3; k++)
         assert_int_equal(s.sweeps[0].runs[k], k);
     snprintf(name, sizeof name, "harmonic-omega1.%s", A);
     assert_string_equal(s.sweeps[1].name, name);
-    assert_int_equal(s.sweeps[1].knob, DM_KNOB_RTOL);
+    assert_int_equal(s.sweeps[1].step_setting, DM_SET_BY_RTOL);
     assert_int_equal(s.sweeps[1].runs[0], 4);
     assert_int_equal(s.sweeps[1].runs[1], 5);
     snprintf(name, sizeof name, "harmonic-omega2.%s", F);
@@ -240,14 +240,14 @@ static void geometric_ranges_include_their_end_and_round_steps_to_whole_numbers(
              &s);
     assert_int_equal(s.n_runs, 7 + 4 + 5);
     for (int k = 0; k < 7; k++)
-        assert_close(s.runs[k].knob_value, 16.0 * pow(2.0, k), 0.0);
-    assert_close(s.runs[7].knob_value, 0.1, 0.0);
-    assert_close(s.runs[9].knob_value, 0.025, 1e-15);
-    assert_close(s.runs[10].knob_value, 0.0125, 0.0); /* the end itself, exactly */
+        assert_close(s.runs[k].step_value, 16.0 * pow(2.0, k), 0.0);
+    assert_close(s.runs[7].step_value, 0.1, 0.0);
+    assert_close(s.runs[9].step_value, 0.025, 1e-15);
+    assert_close(s.runs[10].step_value, 0.0125, 0.0); /* the end itself, exactly */
     /* 10 * 1.3^k = 10, 13, 16.9, 21.97, 28.561 rounded to whole steps per period. */
     const double whole[5] = { 10, 13, 17, 22, 29 };
     for (int k = 0; k < 5; k++)
-        assert_close(s.runs[11 + k].knob_value, whole[k], 0.0);
+        assert_close(s.runs[11 + k].step_value, whole[k], 0.0);
     assert_int_equal(s.n_sweeps, 3);
     dm_suite_free(&s);
 }
@@ -558,7 +558,7 @@ static void step_and_tolerance_values_are_checked(void **state)
                  SRC ":6:24: ", "atol = -1 must be positive");
 }
 
-static void a_knob_that_does_not_fit_the_method_is_refused(void **state)
+static void a_step_setting_that_does_not_fit_the_method_is_refused(void **state)
 {
     char msg[200];
     snprintf(msg, sizeof msg, "%s is a fixed-step method: rtol does not apply",
@@ -692,7 +692,7 @@ int main(void)
         cmocka_unit_test(missing_required_keys_are_named),
         cmocka_unit_test(problem_parameter_errors_carry_the_entry_location),
         cmocka_unit_test(step_and_tolerance_values_are_checked),
-        cmocka_unit_test(a_knob_that_does_not_fit_the_method_is_refused),
+        cmocka_unit_test(a_step_setting_that_does_not_fit_the_method_is_refused),
         cmocka_unit_test(bad_ranges_are_refused),
         cmocka_unit_test(horizon_samples_and_budget_limits_are_enforced),
         cmocka_unit_test(duplicate_runs_are_refused),

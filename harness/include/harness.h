@@ -28,11 +28,11 @@
 
 /* ---- what one run is ---- */
 
-typedef enum dm_knob {
-    DM_KNOB_H,                  /* fixed step given as h */
-    DM_KNOB_STEPS_PER_PERIOD,   /* fixed step given as period / n */
-    DM_KNOB_RTOL                /* adaptive tolerance */
-} dm_knob;
+typedef enum dm_step_setting {
+    DM_SET_BY_H,                  /* fixed step given as h */
+    DM_SET_BY_STEPS_PER_PERIOD,   /* fixed step given as period / n */
+    DM_SET_BY_RTOL                /* adaptive tolerance */
+} dm_step_setting;
 
 typedef struct dm_run_spec {
     char id[DM_RUN_ID_MAX];          /* readable, stable: pendulum-amplitude2.5.verlet-n64 */
@@ -45,8 +45,8 @@ typedef struct dm_run_spec {
     double given_values[DM_MAX_PARAMS];
     const dm_method *method;
     dm_method_config method_config;  /* h (resolved), rtol, atol, compensated, t_stop */
-    dm_knob knob;                    /* how the step or tolerance was given */
-    double knob_value;               /* h, steps per period, or rtol as written */
+    dm_step_setting step_setting;                    /* how the step or tolerance was given */
+    double step_value;               /* h, steps per period, or rtol as written */
     double t_end;                    /* horizon in time units */
     double periods;                  /* horizon in periods (t_end / period) */
     size_t samples;                  /* buckets in the stored series */
@@ -55,12 +55,12 @@ typedef struct dm_run_spec {
     int sweep;                       /* index into dm_suite.sweeps, or -1 */
 } dm_run_spec;
 
-/* A sweep: the runs of one problem variant under one method entry whose knob varies. */
+/* A sweep: the runs of one problem variant under one method entry whose step (or tolerance) varies. */
 typedef struct dm_sweep {
     char name[DM_RUN_ID_MAX];        /* pendulum-amplitude2.5.verlet */
-    dm_knob knob;
+    dm_step_setting step_setting;
     size_t n_runs;
-    size_t *runs;                    /* indices into dm_suite.runs, in knob order */
+    size_t *runs;                    /* indices into dm_suite.runs, in step (or tolerance) order */
 } dm_sweep;
 
 typedef struct dm_suite {

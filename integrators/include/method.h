@@ -43,7 +43,7 @@ typedef struct dm_splitting {
     const double *kick;
 } dm_splitting;
 
-/* Per-run knobs. Fixed-step methods read h; adaptive ones rtol/atol and t_stop. */
+/* Per-run settings. Fixed-step methods read h; adaptive ones rtol/atol and t_stop. */
 typedef struct dm_method_config {
     double h;             /* step size (may be negative for backward integration) */
     double rtol, atol;    /* adaptive methods */

@@ -19,7 +19,7 @@
 #define DM_MAX_PARAMS 8   /* user-facing parameters of one problem */
 #define DM_MAX_REGIMES 4
 #define DM_MAX_INVARIANTS 4
-#define DM_AUX_MAX 24     /* problem-private derived constants kept in an instance */
+#define DM_DERIVED_MAX 24     /* problem-private derived constants kept in an instance */
 
 /* Parameter flags. */
 enum {
@@ -58,7 +58,7 @@ typedef struct dm_problem dm_problem;
  * closed-form period known. Plain data, no allocation; copy it freely. */
 typedef struct dm_instance {
     const dm_problem *problem;
-    double par[DM_MAX_PARAMS];  /* every parameter's value, in the table's order */
+    double param[DM_MAX_PARAMS];  /* every parameter's value, in the table's order */
     unsigned given;             /* bit i set when the user gave parameter i */
     int dof;
     double q0[DM_MAX_DOF], p0[DM_MAX_DOF];
@@ -72,7 +72,7 @@ typedef struct dm_instance {
     double first_crossing;      /* time of the exact orbit's first section crossing
                                    in (0, period]; crossing n is at
                                    first_crossing + (n - 1) * period */
-    double aux[DM_AUX_MAX];     /* constants derived by setup for the problem's own use */
+    double derived[DM_DERIVED_MAX];     /* constants derived by setup for the problem's own use */
 } dm_instance;
 
 /* ---- the fused loop's interface (the loop itself: dm_fused_loop.h) ----
@@ -128,7 +128,7 @@ struct dm_problem {
 
     /* Called with inst->par and inst->given filled (defaults where not given, ranges
      * already checked). Builds q0, p0, energy, regime, period, v_min, section,
-     * first_crossing and aux. Refuses, with a clear message, every state that has no
+     * first_crossing and derived. Refuses, with a clear message, every state that has no
      * finite period: on a separatrix, at an equilibrium, unbound. */
     dm_status (*setup)(dm_instance *inst, dm_error *err);
 
