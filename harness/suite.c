@@ -34,9 +34,6 @@
 #define DM_RANGE_MAX 100          /* values one {from, to, factor} range may give */
 #define DM_LIST_MAX 1000          /* values one list may give */
 #define DM_SUITE_MAX_RUNS 10000   /* runs one suite may expand to */
-/* The CVODE adapter's own rule when atol is not given (integrators/cvode.c): a
- * thousandth of rtol. Resolved here so the configuration text and hash record it. */
-#define DM_ATOL_PER_RTOL 1e-3
 
 /* ---- locations and errors ---- */
 
@@ -569,19 +566,14 @@ static const char *step_setting_key(dm_step_setting setting)
     return "?";
 }
 
-static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, method_entry *e)
+static const char *const method_keys[] = { "method", "h", "steps_per_period", "rtol",
+                                           "atol", "compensated" };
+enum { N_METHOD_KEYS = sizeof method_keys / sizeof method_keys[0] };
+
+/* Every key of the entry is known; `method:` names a known method. */
+static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry *e)
 {
-    parse_ctx *c = &b->ctx;
-    static const char *const keys[] = { "method", "h", "steps_per_period", "rtol", "atol",
-                                        "compensated" };
-    memset(e, 0, sizeof *e);
-    e->node = node;
-    if (node->type != YAML_MAPPING_NODE)
-        return fail_at(c, node, "a methods entry must be a mapping, found %s (expected "
-                       "{method: NAME, h: STEP} or {method: NAME, rtol: TOL})", node_kind(node));
-    dm_status st = check_unique_keys(c, node);
-    if (st != DM_OK)
-        return st;
+    dm_status st;
     const yaml_node_pair_t *start = node->data.mapping.pairs.start;
     const yaml_node_pair_t *top = node->data.mapping.pairs.top;
     for (const yaml_node_pair_t *p = start; p < top; p++) {
@@ -590,10 +582,10 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
         if ((st = get_key(c, p, &key, &name)) != DM_OK)
             return st;
         size_t k = 0;
-        while (k < 6 && strcmp(name, keys[k]) != 0)
+        while (k < N_METHOD_KEYS && strcmp(name, method_keys[k]) != 0)
             k++;
-        if (k == 6)
-            return fail_unknown(c, key, "method key", name, keys, 6);
+        if (k == N_METHOD_KEYS)
+            return fail_unknown(c, key, "method key", name, method_keys, N_METHOD_KEYS);
         if (k != 0)
             continue;
         const yaml_node_t *value = node_at(c, p->value);
@@ -611,10 +603,19 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
     }
     if (e->method == NULL)
         return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
+    return DM_OK;
+}
 
+/* The options that fit the method (compensated, atol) and exactly one of h,
+ * steps_per_period (fixed-step) or rtol (adaptive), whose value node is returned. */
+static dm_status parse_method_options(parse_ctx *c, const yaml_node_t *node, method_entry *e,
+                                      const yaml_node_t **setting_value)
+{
     const dm_method *m = e->method;
     const yaml_node_t *setting_node = NULL;
-    const yaml_node_t *setting_value = NULL;
+    dm_status st;
+    const yaml_node_pair_t *start = node->data.mapping.pairs.start;
+    const yaml_node_pair_t *top = node->data.mapping.pairs.top;
     for (const yaml_node_pair_t *p = start; p < top; p++) {
         yaml_node_t *key = node_at(c, p->key);
         const char *name = scalar_text(key);
@@ -652,7 +653,7 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
             return fail_at(c, key, "%s is a fixed-step method: rtol does not apply (expected "
                            "h or steps_per_period)", m->id);
         setting_node = key;
-        setting_value = value;
+        *setting_value = value;
         e->step_setting = setting;
     }
     if (setting_node == NULL)
@@ -661,13 +662,19 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
                                     : "%s needs a step (expected h: STEP or "
                                       "steps_per_period: N)",
                        m->id);
+    return DM_OK;
+}
 
+/* The step (or tolerance) values: one, a list or a range, each in its own range. */
+static dm_status parse_step_values(parse_ctx *c, const yaml_node_t *value, method_entry *e)
+{
+    dm_status st;
     e->values = malloc(sizeof *e->values);
     if (e->values == NULL)
         return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
     const char *what = step_setting_key(e->step_setting);
     bool whole = e->step_setting == DM_SET_BY_STEPS_PER_PERIOD;
-    if ((st = get_values(c, setting_value, what, true, whole, e->values)) != DM_OK)
+    if ((st = get_values(c, value, what, true, whole, e->values)) != DM_OK)
         return st;
     for (size_t i = 0; i < e->values->n; i++) {
         double v = e->values->v[i];
@@ -690,6 +697,27 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
         }
     }
     return DM_OK;
+}
+
+/* One entry of `methods:`: a mapping with known keys, a known method, the options that
+ * fit it and its step (or tolerance) values. */
+static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, method_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    memset(e, 0, sizeof *e);
+    e->node = node;
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a methods entry must be a mapping, found %s (expected "
+                       "{method: NAME, h: STEP} or {method: NAME, rtol: TOL})", node_kind(node));
+    const yaml_node_t *setting_value = NULL;
+    dm_status st = check_unique_keys(c, node);
+    if (st == DM_OK)
+        st = find_method(c, node, e);
+    if (st == DM_OK)
+        st = parse_method_options(c, node, e, &setting_value);
+    if (st == DM_OK)
+        st = parse_step_values(c, setting_value, e);
+    return st;
 }
 
 static dm_status parse_list(suite_build *b, const yaml_node_t *node, bool problems)
@@ -825,30 +853,10 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
     return DM_OK;
 }
 
-static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
-                          const method_entry *me, size_t value_index, dm_run_spec *spec)
+/* The horizon in time and in periods of this variant. */
+static dm_status set_horizon(suite_build *b, const variant *x, dm_run_spec *spec)
 {
-    parse_ctx *c = &b->ctx;
-    const dm_method *m = me->method;
-    const dm_instance *inst = &x->inst;
-    const yaml_node_t *at = me->values->node[value_index];
-    double kv = me->values->v[value_index];
-    memset(spec, 0, sizeof *spec);
-    spec->inst = *inst;
-    spec->n_given = x->n_given;
-    for (size_t k = 0; k < x->n_given; k++) {
-        spec->given_keys[k] = x->keys[k];
-        spec->given_values[k] = x->values[k];
-    }
-    spec->method = m;
-    spec->step_setting = me->step_setting;
-    spec->step_value = kv;
-    spec->samples = b->samples;
-    spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
-    spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
-    spec->sweep = -1;
-
-    double period = inst->period;
+    double period = x->inst.period;
     if (b->horizon_in_periods) {
         spec->periods = b->horizon;
         spec->t_end = b->horizon * period;
@@ -856,11 +864,24 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
         spec->t_end = b->horizon;
         spec->periods = b->horizon / period;
         if (spec->periods > DM_MAX_PERIODS)
-            return fail_at(c, b->horizon_node, "horizon time %g is %g periods of %s (expected "
+            return fail_at(&b->ctx, b->horizon_node, "horizon time %g is %g periods of %s (expected "
                            "at most %g periods)", b->horizon, spec->periods, x->part,
                            DM_MAX_PERIODS);
     }
 
+    return DM_OK;
+}
+
+/* The method's configuration from the step (or tolerance) value, the run's id, and
+ * the step budget check. */
+static dm_status set_step_and_id(suite_build *b, const variant *x, const method_entry *me,
+                                 size_t value_index, dm_run_spec *spec)
+{
+    parse_ctx *c = &b->ctx;
+    const dm_method *m = me->method;
+    const yaml_node_t *at = me->values->node[value_index];
+    double kv = me->values->v[value_index];
+    double period = x->inst.period;
     dm_method_config *mc = &spec->method_config;
     mc->t_stop = spec->t_end;
     mc->compensated = me->compensated;
@@ -880,7 +901,7 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     case DM_SET_BY_RTOL:
         mc->h = 0.0; /* adaptive: the method chooses */
         mc->rtol = kv;
-        mc->atol = me->atol_given ? me->atol : DM_ATOL_PER_RTOL * kv;
+        mc->atol = me->atol_given ? me->atol : dm_default_atol(kv);
         fits = appendf(method_part, sizeof method_part, &used, "%s-rtol%g", m->id, kv);
         if (me->atol_given)
             fits = fits && appendf(method_part, sizeof method_part, &used, "-atol%g", me->atol);
@@ -906,6 +927,16 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
                            spec->id, steps_needed, b->step_budget);
     }
 
+    return DM_OK;
+}
+
+/* The canonical configuration text and its hash. */
+static dm_status write_config(suite_build *b, const dm_suite *suite, const method_entry *me,
+                              size_t value_index, dm_run_spec *spec)
+{
+    const dm_method *m = me->method;
+    const dm_instance *inst = &spec->inst;
+    const dm_method_config *mc = &spec->method_config;
     /* The canonical configuration: everything that changes the numbers, nothing that
      * does not (ids, names, the order of entries). */
     const dm_problem *pr = inst->problem;
@@ -934,9 +965,35 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
                        mc->compensated ? "true" : "false", spec->t_end, spec->samples,
                        suite->energy_limit);
     if (!ok)
-        return fail_at(c, at, "configuration of run %s is too long", spec->id);
+        return fail_at(&b->ctx, me->values->node[value_index], "configuration of run %s is too long", spec->id);
     snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, fnv1a64(spec->config));
     return DM_OK;
+}
+
+/* One run of a variant under a method entry's value_index-th step (or tolerance). */
+static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
+                          const method_entry *me, size_t value_index, dm_run_spec *spec)
+{
+    memset(spec, 0, sizeof *spec);
+    spec->inst = x->inst;
+    spec->n_given = x->n_given;
+    for (size_t k = 0; k < x->n_given; k++) {
+        spec->given_keys[k] = x->keys[k];
+        spec->given_values[k] = x->values[k];
+    }
+    spec->method = me->method;
+    spec->step_setting = me->step_setting;
+    spec->step_value = me->values->v[value_index];
+    spec->samples = b->samples;
+    spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
+    spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
+    spec->sweep = -1;
+    dm_status st = set_horizon(b, x, spec);
+    if (st == DM_OK)
+        st = set_step_and_id(b, x, me, value_index, spec);
+    if (st == DM_OK)
+        st = write_config(b, suite, me, value_index, spec);
+    return st;
 }
 
 static dm_status add_sweep(dm_suite *suite, const char *base, dm_step_setting setting, size_t first,
@@ -1105,6 +1162,82 @@ static dm_status check_no_nul(parse_ctx *c)
     return DM_OK;
 }
 
+/* The value of one top-level key. */
+static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
+                                 const yaml_node_t *value)
+{
+    parse_ctx *c = &b->ctx;
+    dm_status st = DM_OK;
+    double x;
+    switch (k) {
+    case TOP_NAME:
+        st = get_string(c, value, "name", suite->name, sizeof suite->name);
+        if (st == DM_OK && strchr(suite->name, '/') != NULL)
+            st = fail_at(c, value, "name '%s' contains '/' (expected a plain name)",
+                         suite->name);
+        break;
+    case TOP_OUTPUT:
+        st = get_string(c, value, "output", suite->output, sizeof suite->output);
+        b->output_node = value;
+        break;
+    case TOP_HORIZON:
+        st = parse_horizon(b, value);
+        break;
+    case TOP_SAMPLES:
+        st = get_whole(c, value, "samples", 1, DM_MAX_SAMPLES, &x);
+        if (st == DM_OK) /* converting an out-of-range x would be undefined */
+            b->samples = (size_t)x;
+        break;
+    case TOP_ENERGY_LIMIT:
+        st = get_positive(c, value, "energy_limit", &b->energy_limit);
+        break;
+    case TOP_STEP_BUDGET:
+        st = get_number(c, value, "step_budget", &b->step_budget);
+        if (st == DM_OK && !(b->step_budget >= 1.0 && b->step_budget <= 1e18))
+            st = fail_at(c, value, "step_budget = %g is out of range (expected a number "
+                         "in [1, 1e18])", b->step_budget);
+        b->step_budget_node = value;
+        break;
+    case TOP_PROBLEMS:
+        st = parse_list(b, value, true);
+        break;
+    case TOP_METHODS:
+        st = parse_list(b, value, false);
+        break;
+    }
+    return st;
+}
+
+/* The output file: the command line's -o when given (its errors name -o, not a suite
+ * line), else the suite's own. */
+static dm_status resolve_output(suite_build *b, dm_suite *suite, const yaml_node_t *root)
+{
+    parse_ctx *c = &b->ctx;
+    dm_status st;
+    if (b->output_override != NULL) {
+        /* The command line names the file: check that one, and say so if it is bad. */
+        snprintf(suite->output, sizeof suite->output, "%s", b->output_override);
+        dm_error *err = c->err;
+        dm_error saved_err = *err;
+        st = check_output(b, suite->output, root);
+        if (st != DM_OK) {
+            /* drop the suite location: the path came from the command line */
+            const char *msg = strstr(err->msg, ": output");
+            char text[DM_ERROR_MSG_MAX];
+            snprintf(text, sizeof text, "-o %.200s%.300s", suite->output, msg ? msg : err->msg);
+            *err = saved_err;
+            return dm_error_set(err, DM_EINPUT, "%s", text);
+        }
+        return DM_OK;
+    }
+    return check_output(b, suite->output, b->output_node ? b->output_node : root);
+}
+
+/* The whole suite:
+ *  1. a non-empty mapping with unique, known top-level keys, each value parsed;
+ *  2. the required keys present, defaults for name and output;
+ *  3. every run expanded and checked (expand_runs);
+ *  4. the output file checked. */
 static dm_status parse_document(suite_build *b, dm_suite *suite)
 {
     parse_ctx *c = &b->ctx;
@@ -1134,46 +1267,8 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
             k++;
         if (k == TOP_COUNT)
             return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
-        const yaml_node_t *value = node_at(c, p->value);
-        value_of[k] = value;
-        double x;
-        switch (k) {
-        case TOP_NAME:
-            st = get_string(c, value, "name", suite->name, sizeof suite->name);
-            if (st == DM_OK && strchr(suite->name, '/') != NULL)
-                st = fail_at(c, value, "name '%s' contains '/' (expected a plain name)",
-                             suite->name);
-            break;
-        case TOP_OUTPUT:
-            st = get_string(c, value, "output", suite->output, sizeof suite->output);
-            b->output_node = value;
-            break;
-        case TOP_HORIZON:
-            st = parse_horizon(b, value);
-            break;
-        case TOP_SAMPLES:
-            st = get_whole(c, value, "samples", 1, DM_MAX_SAMPLES, &x);
-            if (st == DM_OK) /* converting an out-of-range x would be undefined */
-                b->samples = (size_t)x;
-            break;
-        case TOP_ENERGY_LIMIT:
-            st = get_positive(c, value, "energy_limit", &b->energy_limit);
-            break;
-        case TOP_STEP_BUDGET:
-            st = get_number(c, value, "step_budget", &b->step_budget);
-            if (st == DM_OK && !(b->step_budget >= 1.0 && b->step_budget <= 1e18))
-                st = fail_at(c, value, "step_budget = %g is out of range (expected a number "
-                             "in [1, 1e18])", b->step_budget);
-            b->step_budget_node = value;
-            break;
-        case TOP_PROBLEMS:
-            st = parse_list(b, value, true);
-            break;
-        case TOP_METHODS:
-            st = parse_list(b, value, false);
-            break;
-        }
-        if (st != DM_OK)
+        value_of[k] = node_at(c, p->value);
+        if ((st = parse_top_value(b, suite, k, value_of[k])) != DM_OK)
             return st;
     }
     static const struct { int key; const char *expected; } required[] = {
@@ -1195,23 +1290,7 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
 
     if ((st = expand_runs(b, suite)) != DM_OK)
         return st;
-    if (b->output_override != NULL) {
-        /* The command line names the file: check that one, and say so if it is bad. */
-        snprintf(suite->output, sizeof suite->output, "%s", b->output_override);
-        dm_error *err = c->err;
-        dm_error saved_err = *err;
-        st = check_output(b, suite->output, root);
-        if (st != DM_OK) {
-            /* drop the suite location: the path came from the command line */
-            const char *msg = strstr(err->msg, ": output");
-            char text[DM_ERROR_MSG_MAX];
-            snprintf(text, sizeof text, "-o %.200s%.300s", suite->output, msg ? msg : err->msg);
-            *err = saved_err;
-            return dm_error_set(err, DM_EINPUT, "%s", text);
-        }
-        return DM_OK;
-    }
-    return check_output(b, suite->output, b->output_node ? b->output_node : root);
+    return resolve_output(b, suite, root);
 }
 
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,

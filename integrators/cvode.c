@@ -41,7 +41,10 @@ extern const dm_method dm_cvode_bdf;
  * part of the weight rtol |y_i| governs; the absolute floor only matters while a
  * component passes through zero (p at every turning point), and a floor well below
  * rtol keeps it from loosening the control there (common practice). */
-#define DM_CVODE_ATOL_PER_RTOL 1e-3
+double dm_default_atol(double rtol)
+{
+    return 1e-3 * rtol;
+}
 
 typedef struct cvode_stepper {
     dm_stepper base; /* must stay first: the harness holds a dm_stepper * */
@@ -222,24 +225,63 @@ static void cvode_destroy(dm_stepper *s)
     free(c);
 }
 
-static dm_stepper *cvode_create(const dm_method *m, const dm_instance *inst,
-                                const dm_method_config *config, const dm_point *start,
-                                dm_error *err)
+/* The configuration an adaptive run needs: a positive rtol, a finite atol, a stop time
+ * that gives the direction. */
+static dm_status check_config(const dm_method *m, const dm_point *start,
+                              const dm_method_config *config, dm_error *err)
 {
     if (!(config->rtol > 0.0) || !isfinite(config->rtol))
         return dm_error_set(err, DM_EINPUT, "%s: rtol = %g must be a positive number",
-                            m->id, config->rtol),
-               NULL;
+                            m->id, config->rtol);
     if (!isfinite(config->atol))
         return dm_error_set(err, DM_EINPUT, "%s: atol = %g must be finite", m->id,
-                            config->atol),
-               NULL;
+                            config->atol);
     if (isnan(config->t_stop) || config->t_stop == start->t)
         return dm_error_set(err, DM_EINPUT,
                             "%s: t_stop = %g must differ from the start time %g (it also "
                             "sets the direction of integration)",
-                            m->id, config->t_stop, start->t),
-               NULL;
+                            m->id, config->t_stop, start->t);
+    return DM_OK;
+}
+
+enum { NO_MEMORY = -1000 }; /* not a CVODE flag: an allocation failed */
+
+/* BDF: Newton iterations with a dense linear solver and our Jacobian when the problem
+ * has a Hessian; Adams: fixed-point iterations. Returns a CVODE flag (naming the call)
+ * or NO_MEMORY. */
+static int attach_solver(cvode_stepper *c, sunindextype n, const char **call)
+{
+    int flag = CV_SUCCESS;
+    if (c->newton) {
+        c->nls = SUNNonlinSol_Newton(c->y, c->ctx);
+        c->jac = SUNDenseMatrix(n, n, c->ctx);
+        if (c->nls == NULL || c->jac == NULL)
+            return NO_MEMORY;
+        c->ls = SUNLinSol_Dense(c->y, c->jac, c->ctx);
+        if (c->ls == NULL)
+            return NO_MEMORY;
+        *call = "CVodeSetLinearSolver";
+        if ((flag = CVodeSetLinearSolver(c->mem, c->ls, c->jac)) != CV_SUCCESS)
+            return flag;
+        if (c->base.inst->problem->hessian != NULL) {
+            *call = "CVodeSetJacFn";
+            if ((flag = CVodeSetJacFn(c->mem, jacobian)) != CV_SUCCESS)
+                return flag;
+        } /* else CVODE's difference-quotient Jacobian */
+    } else {
+        c->nls = SUNNonlinSol_FixedPoint(c->y, 0, c->ctx); /* no Anderson acceleration */
+        if (c->nls == NULL)
+            return NO_MEMORY;
+    }
+    return CV_SUCCESS;
+}
+
+static dm_stepper *cvode_create(const dm_method *m, const dm_instance *inst,
+                                const dm_method_config *config, const dm_point *start,
+                                dm_error *err)
+{
+    if (check_config(m, start, config, err) != DM_OK)
+        return NULL;
 
     cvode_stepper *c = calloc(1, sizeof *c);
     if (c == NULL)
@@ -249,7 +291,7 @@ static dm_stepper *cvode_create(const dm_method *m, const dm_instance *inst,
     c->base.dof = inst->dof;
     c->base.config = *config;
     if (!(c->base.config.atol > 0.0))
-        c->base.config.atol = DM_CVODE_ATOL_PER_RTOL * config->rtol;
+        c->base.config.atol = dm_default_atol(config->rtol);
     c->newton = (m == &dm_cvode_bdf);
     c->velocity = inst->problem->velocity;
     c->force = inst->problem->force;
@@ -292,27 +334,10 @@ static dm_stepper *cvode_create(const dm_method *m, const dm_instance *inst,
             goto fail;
     }
 
-    if (c->newton) {
-        c->nls = SUNNonlinSol_Newton(c->y, c->ctx);
-        c->jac = SUNDenseMatrix(n, n, c->ctx);
-        if (c->nls == NULL || c->jac == NULL)
-            goto nomem;
-        c->ls = SUNLinSol_Dense(c->y, c->jac, c->ctx);
-        if (c->ls == NULL)
-            goto nomem;
-        call = "CVodeSetLinearSolver";
-        if ((flag = CVodeSetLinearSolver(c->mem, c->ls, c->jac)) != CV_SUCCESS)
-            goto fail;
-        if (inst->problem->hessian != NULL) {
-            call = "CVodeSetJacFn";
-            if ((flag = CVodeSetJacFn(c->mem, jacobian)) != CV_SUCCESS)
-                goto fail;
-        } /* else CVODE's difference-quotient Jacobian */
-    } else {
-        c->nls = SUNNonlinSol_FixedPoint(c->y, 0, c->ctx); /* no Anderson acceleration */
-        if (c->nls == NULL)
-            goto nomem;
-    }
+    if ((flag = attach_solver(c, n, &call)) == NO_MEMORY)
+        goto nomem;
+    if (flag != CV_SUCCESS)
+        goto fail;
     call = "CVodeSetNonlinearSolver";
     if ((flag = CVodeSetNonlinearSolver(c->mem, c->nls)) != CV_SUCCESS)
         goto fail;

@@ -48,13 +48,14 @@ static double kinetic(const dm_instance *inst, const double *p)
     return 0.5 * p[0] * p[0];
 }
 
-static dm_status setup(dm_instance *inst, dm_error *err)
+/* The starting position x0 (at rest) from the energy and side, or the amplitude; `key`
+ * and `value` name what the user gave, for the messages. */
+static dm_status start_position(dm_instance *inst, double v_min, double *x0_out,
+                                const char **key_out, double *value_out, dm_error *err)
 {
     double a = inst->param[P_A], b = inst->param[P_B];
-    double v_min = -a * a / (4.0 * b);
-    double x0;
+    double x0, value;
     const char *key;
-    double value;
     if (inst->given & (1u << P_ENERGY)) {
         double energy = inst->param[P_ENERGY], side = inst->param[P_SIDE];
         key = "energy";
@@ -90,13 +91,94 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         key = "amplitude";
         value = x0;
     }
+    *x0_out = x0;
+    *key_out = key;
+    *value_out = value;
+    return DM_OK;
+}
+
+/* Over the barrier: x = x0 cn(w t | m). */
+static void set_over_barrier(dm_instance *inst, double x0, double d, double d_min,
+                             double *omega_out, double *m_out, double *m1_out)
+{
+    double bx2 = inst->param[P_B] * x0 * x0;
+    double omega, m1, m, K;
+    inst->regime = R_OVER_BARRIER;
+    omega = sqrt(d_min);
+    m1 = d / (2.0 * d_min);
+    m = bx2 / (2.0 * d_min);
+    K = dm_ellipk_m1(m1);
+    inst->period = 4.0 * K / omega;
+    inst->section = (dm_section){ .coord = 0, .level = 0.0, .wrap = 0.0 };
+    /* x0 cn(w t) passes 0 upward at w t = 3K for x0 > 0, at K for x0 < 0. */
+    inst->first_crossing = (x0 > 0.0 ? 0.75 : 0.25) * inst->period;
+    *omega_out = omega;
+    *m_out = m;
+    *m1_out = m1;
+}
+
+/* In one well: x = A dn(w t | m), started at the outer (or inner) turning point. */
+static bool set_one_well(dm_instance *inst, double x0, double d, double d_min,
+                         double *omega_out, double *m_out, double *m1_out)
+{
+    double a = inst->param[P_A], b = inst->param[P_B];
+    double bx2 = b * x0 * x0;
+    double omega, m1, m, K;
+    bool inner = false;
+    inst->regime = R_ONE_WELL;
+    inner = d_min < 0.0;
+    if (inner) {
+        /* x0 = B; A^2 = 2a/b - x0^2; m1 = B^2 / A^2 (b x0^2 itself, not d + 2a: the
+         * start next to the saddle has b x0^2 << 2a). */
+        omega = sqrt(-0.5 * d);
+        m1 = bx2 / -d;
+        m = 2.0 * d_min / d;
+    } else {
+        omega = sqrt(0.5 * bx2);
+        m1 = -d / bx2;
+        m = 2.0 * d_min / bx2;
+    }
+    K = dm_ellipk_m1(m1);
+    inst->period = 2.0 * K / omega;
+    double bottom = sqrt(a / b);
+    inst->section = (dm_section){ .coord = 0, .level = x0 > 0 ? bottom : -bottom,
+                                  .wrap = 0.0 };
+    /* From x = A dn(u): x^2 = a/b where dn^2 = a / (b A^2), i.e. where sn^2 =
+     * (1 - dn^2) / m = 1/2 whatever the energy: am(u_c) = pi/4, u_c = F(pi/4 | m) =
+     * R_F(1/2, 1 - m/2, 1) / sqrt(2) (DLMF 19.25.5). From the outer turning point of the
+     * right well (x0 > 0) the upward pass through the bottom is on the way back, at
+     * u = 2K - u_c; of the left well on the way in, at u = u_c; from an inner turning
+     * point (u shifted by K) at K - u_c (right) or K + u_c (left). */
+    double uc = M_SQRT1_2 * dm_carlson_rf(0.5, 0.5 * (1.0 + m1), 1.0);
+    double u;
+    if (!inner)
+        u = x0 > 0.0 ? 2.0 * K - uc : uc;
+    else
+        u = x0 > 0.0 ? K - uc : K + uc;
+    inst->first_crossing = u / omega;
+    *omega_out = omega;
+    *m_out = m;
+    *m1_out = m1;
+    return inner;
+}
+
+/* The start from the energy or amplitude; refused on the saddle, the separatrix and
+ * the bottom of a well (no finite period); then the regime's closed form. */
+static dm_status setup(dm_instance *inst, dm_error *err)
+{
+    double a = inst->param[P_A], b = inst->param[P_B];
+    double v_min = -a * a / (4.0 * b);
+    double x0 = 0.0, value = 0.0;
+    const char *key = "";
+    dm_status st = start_position(inst, v_min, &x0, &key, &value, err);
+    if (st != DM_OK)
+        return st;
     if (x0 == 0.0)
         return dm_error_set(err, DM_EINPUT,
                             "double_well: %s = %.17g starts at rest on the saddle x = 0 (an "
                             "equilibrium: no oscillation)",
                             key, value);
 
-    double bx2 = b * x0 * x0;
     double d = b_x2_minus(b, x0, 2.0 * a);     /* b x0^2 - 2a: > 0 over the barrier */
     double d_min = b_x2_minus(b, x0, a);       /* b x0^2 - a: > 0 outside the bottom */
     /* Within a few roundings of the separatrix or of the bottom the state cannot be told
@@ -112,51 +194,12 @@ static dm_status setup(dm_instance *inst, dm_error *err)
                             "(x0^2 = a/b, an equilibrium: no oscillation)",
                             key, value);
 
-    double omega, m1, m, K;
+    double omega, m1, m;
     bool inner = false;
-    if (d > 0.0) {
-        inst->regime = R_OVER_BARRIER;
-        omega = sqrt(d_min);
-        m1 = d / (2.0 * d_min);
-        m = bx2 / (2.0 * d_min);
-        K = dm_ellipk_m1(m1);
-        inst->period = 4.0 * K / omega;
-        inst->section = (dm_section){ .coord = 0, .level = 0.0, .wrap = 0.0 };
-        /* x0 cn(w t) passes 0 upward at w t = 3K for x0 > 0, at K for x0 < 0. */
-        inst->first_crossing = (x0 > 0.0 ? 0.75 : 0.25) * inst->period;
-    } else {
-        inst->regime = R_ONE_WELL;
-        inner = d_min < 0.0;
-        if (inner) {
-            /* x0 = B; A^2 = 2a/b - x0^2; m1 = B^2 / A^2 (b x0^2 itself, not d + 2a: the
-             * start next to the saddle has b x0^2 << 2a). */
-            omega = sqrt(-0.5 * d);
-            m1 = bx2 / -d;
-            m = 2.0 * d_min / d;
-        } else {
-            omega = sqrt(0.5 * bx2);
-            m1 = -d / bx2;
-            m = 2.0 * d_min / bx2;
-        }
-        K = dm_ellipk_m1(m1);
-        inst->period = 2.0 * K / omega;
-        double bottom = sqrt(a / b);
-        inst->section = (dm_section){ .coord = 0, .level = x0 > 0 ? bottom : -bottom,
-                                      .wrap = 0.0 };
-        /* From x = A dn(u): x^2 = a/b where dn^2 = a / (b A^2), i.e. where sn^2 =
-         * (1 - dn^2) / m = 1/2 whatever the energy: am(u_c) = pi/4, u_c = F(pi/4 | m) =
-         * R_F(1/2, 1 - m/2, 1) / sqrt(2) (DLMF 19.25.5). From the outer turning point of the
-         * right well (x0 > 0) the upward pass through the bottom is on the way back, at
-         * u = 2K - u_c; of the left well on the way in, at u = u_c; from an inner turning
-         * point (u shifted by K) at K - u_c (right) or K + u_c (left). */
-        double uc = M_SQRT1_2 * dm_carlson_rf(0.5, 0.5 * (1.0 + m1), 1.0);
-        double u;
-        if (!inner)
-            u = x0 > 0.0 ? 2.0 * K - uc : uc;
-        else
-            u = x0 > 0.0 ? K - uc : K + uc;
-        inst->first_crossing = u / omega;
-    }
+    if (d > 0.0)
+        set_over_barrier(inst, x0, d, d_min, &omega, &m, &m1);
+    else
+        inner = set_one_well(inst, x0, d, d_min, &omega, &m, &m1);
     inst->q0[0] = x0;
     inst->p0[0] = 0.0;
     inst->energy = kinetic(inst, inst->p0) + potential(inst, inst->q0);

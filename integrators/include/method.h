@@ -53,6 +53,10 @@ typedef struct dm_method_config {
     bool plain_steps;     /* never use a problem's fused loop (tests compare the paths) */
 } dm_method_config;
 
+/* The absolute tolerance of an adaptive method whose configuration gives atol <= 0
+ * (the suite resolves it with this, so the configuration text records it). */
+double dm_default_atol(double rtol);
+
 /* Work really done, counted by the method itself. */
 typedef struct dm_counts {
     uint64_t steps;
