@@ -141,9 +141,10 @@ double dm_instance_energy(const dm_instance *inst, const double *q, const double
     return inst->problem->kinetic(inst, p) + inst->problem->potential(inst, q);
 }
 
-/* Section value: how far q[coord] is past the nearest level below it, so that an upward
- * crossing shows as a step from a value near `wrap` (or negative) to a small positive one. */
-static double unwrapped_offset(const dm_section *s, const double *q)
+/* How far q[coord] lies above the section's level (negative below it). The exact
+ * solution's angle is not reduced modulo `wrap`, so with wrap > 0 the number of the
+ * level below is floor(offset / wrap) and a crossing shows as that number going up. */
+static double offset_from_level(const dm_section *s, const double *q)
 {
     return q[s->coord] - s->level;
 }
@@ -156,12 +157,12 @@ double dm_first_crossing_from_exact(const dm_instance *inst)
     double q[DM_MAX_DOF], p[DM_MAX_DOF];
     double tprev = 0.0;
     inst->problem->exact(inst, 0.0, q, p);
-    double fprev = unwrapped_offset(s, q);
+    double fprev = offset_from_level(s, q);
     double kprev = s->wrap > 0 ? floor(fprev / s->wrap) : (fprev >= 0 ? 0.0 : -1.0);
     for (int i = 1; i <= grid; i++) {
         double t = T * i / grid;
         inst->problem->exact(inst, t, q, p);
-        double f = unwrapped_offset(s, q);
+        double f = offset_from_level(s, q);
         double k = s->wrap > 0 ? floor(f / s->wrap) : (f >= 0 ? 0.0 : -1.0);
         if (k > kprev) {
             /* Upward crossing of level + k * wrap inside (tprev, t]: bisect. */
@@ -172,7 +173,7 @@ double dm_first_crossing_from_exact(const dm_instance *inst)
                 if (mid <= a || mid >= b)
                     break;
                 inst->problem->exact(inst, mid, q, p);
-                if (unwrapped_offset(s, q) >= target)
+                if (offset_from_level(s, q) >= target)
                     b = mid;
                 else
                     a = mid;

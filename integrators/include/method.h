@@ -120,26 +120,33 @@ struct dm_stepper {
      * is the first member. */
 };
 
+/* A method. Every field is REQUIRED unless marked optional. Exactly one of two kinds:
+ * a splitting method sets `splitting` and leaves create/step/restart/destroy NULL (the
+ * engine in splitting.c runs it); any other method sets all four and no `splitting`.
+ * tests/test_registry.c checks every table of the registry against these rules. */
 struct dm_method {
-    const char *id;            /* CLI identifier: "verlet" */
+    const char *id;            /* CLI identifier: "verlet" (a plain word, unique) */
     const char *name;          /* published name */
     const char *reference;     /* where the method or its coefficients are published */
     dm_family family;
-    int order;
+    int order;                 /* >= 1: the classical order */
     bool symplectic;
     bool symmetric;            /* time-reversible */
     bool adaptive;             /* steps chosen by the method: reads rtol/atol */
-    int force_evals_per_step;  /* grad V per step in a long run (FSAL merged);
-                                  0 for adaptive methods */
-    const dm_splitting *splitting;  /* non-NULL: run by the splitting engine */
+    int force_evals_per_step;  /* grad V per step in a long run (FSAL merged); 0 when
+                                  it depends on the run (adaptive and implicit
+                                  methods: their dm_counts say what was done) */
+    const dm_splitting *splitting;  /* splitting methods only: the coefficient table */
 
-    /* Non-splitting methods. create allocates everything the steps will need. */
+    /* Non-splitting methods. create allocates everything the steps will need; the
+     * stepper keeps pointers to `inst` (which must outlive it) but not to `start`. */
     dm_stepper *(*create)(const dm_method *m, const dm_instance *inst,
                           const dm_method_config *config, const dm_point *start,
                           dm_error *err);
     /* Returns DM_OK, or an error code with s->error filled (solver flag name). */
     dm_status (*step)(dm_stepper *s, const dm_point *from, dm_point *to);
     dm_status (*restart)(dm_stepper *s, const dm_point *at);
+    /* Frees everything create allocated, the stepper included. */
     void (*destroy)(dm_stepper *s);
     /* Optional (NULL: s->counts is always current). Brings s->counts up to date for a
      * method that reads its counters lazily instead of after every step (the CVODE
@@ -159,7 +166,12 @@ extern const dm_method *const dm_methods[];
 extern const size_t dm_method_count;
 const dm_method *dm_method_find(const char *id);
 
-/* ---- the stepper API the harness uses ---- */
+/* ---- the stepper API the harness uses ----
+ * Lifetimes: a stepper is made by dm_stepper_create and freed by dm_stepper_destroy,
+ * once; it points to its method table (static) and to the instance it was created for,
+ * which the caller keeps alive until the stepper is destroyed. The dm_point buffers are
+ * the caller's; a stepper may remember which buffer it wrote last (first-same-as-last
+ * caches) but never frees or keeps one past the next call. */
 dm_stepper *dm_stepper_create(const dm_method *m, const dm_instance *inst,
                               const dm_method_config *config, const dm_point *start,
                               dm_error *err);

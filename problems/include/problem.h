@@ -55,7 +55,9 @@ typedef struct dm_section {
 typedef struct dm_problem dm_problem;
 
 /* One concrete problem: parameters resolved, starting state built, regime and the
- * closed-form period known. Plain data, no allocation; copy it freely. */
+ * closed-form period known. Plain data, no allocation; copy it freely. A stepper or a
+ * run keeps a pointer to the instance it was made from: the instance must outlive
+ * them (dm_stepper_destroy first). */
 typedef struct dm_instance {
     const dm_problem *problem;
     double param[DM_MAX_PARAMS];  /* every parameter's value, in the table's order */
@@ -117,16 +119,20 @@ typedef enum dm_fused_event {
 typedef int (*dm_fused_loop_fn)(const dm_instance *inst, const dm_fused_table *table,
                                 dm_fused_cache *cache, dm_fused_run *run, uint64_t k_end);
 
+/* A problem. Every field is REQUIRED unless marked optional; an optional function may
+ * be NULL, with the default its comment states. tests/test_registry.c checks every
+ * table of the registry against these rules. Tables are const and static: they outlive
+ * everything built from them. */
 struct dm_problem {
-    const char *id;             /* registry name: "pendulum" */
+    const char *id;             /* registry name: "pendulum" (a plain word, unique) */
     const char *name;           /* one-line human description */
-    int dof;
-    int n_params;
+    int dof;                    /* 1 .. DM_MAX_DOF */
+    int n_params;               /* 0 .. DM_MAX_PARAMS */
     dm_param params[DM_MAX_PARAMS];
-    int n_regimes;
+    int n_regimes;              /* 1 .. DM_MAX_REGIMES */
     dm_regime regimes[DM_MAX_REGIMES];
 
-    /* Called with inst->par and inst->given filled (defaults where not given, ranges
+    /* Called with inst->param and inst->given filled (defaults where not given, ranges
      * already checked). Builds q0, p0, energy, regime, period, v_min, section,
      * first_crossing and derived. Refuses, with a clear message, every state that has no
      * finite period: on a separatrix, at an equilibrium, unbound. */
@@ -139,9 +145,11 @@ struct dm_problem {
     double (*kinetic)(const dm_instance *inst, const double *p);
     /* Writes grad T(p) (the velocity dq/dt) into v. */
     void (*velocity)(const dm_instance *inst, const double *p, double *v);
-    /* Hessian of V, dof x dof row-major; NULL when not provided. */
+    /* Optional: the Hessian of V, dof x dof row-major. NULL: CVODE BDF uses its own
+     * difference-quotient Jacobian. */
     void (*hessian)(const dm_instance *inst, const double *q, double *hess);
-    /* Exact solution at time t from (q0, p0); NULL when none is known. */
+    /* Optional: the exact solution at time t from (q0, p0). NULL: no global error is
+     * measured (the series and max_global_error are absent / NaN). */
     void (*exact)(const dm_instance *inst, double t, double *q, double *p);
 
     /* Optional: the fused loop, any splitting table's steps and the per-step monitor
@@ -151,7 +159,9 @@ struct dm_problem {
      * results). */
     dm_fused_loop_fn fused_loop;
 
-    /* Extra conserved quantities the harness may monitor (angular momentum, ...). */
+    /* Optional: extra conserved quantities the harness monitors (angular momentum, ...).
+     * n_invariants = 0 and invariants = NULL: none. Otherwise n_invariants names and a
+     * function writing that many values. */
     int n_invariants;
     const char *invariant_names[DM_MAX_INVARIANTS];
     void (*invariants)(const dm_instance *inst, const double *q, const double *p,

@@ -1,0 +1,150 @@
+/* test_registry.c — every table in the problem and method registries keeps the rules its
+ * interface states (problems/include/problem.h, integrators/include/method.h): required
+ * fields set, optional ones consistent, one kind of method each, defaults that set up. A
+ * new problem or method is checked here without a line of test written for it. */
+#include <math.h>
+#include <string.h>
+
+#include "dm_test_util.h"
+#include "method.h"
+#include "problem.h"
+
+static bool in_range(const dm_param *p, double v)
+{
+    bool below = (p->flags & DM_PARAM_MIN_OPEN) ? !(v > p->min) : !(v >= p->min);
+    bool above = (p->flags & DM_PARAM_MAX_OPEN) ? !(v < p->max) : !(v <= p->max);
+    return !below && !above;
+}
+
+static void every_problem_table_sets_its_required_fields(void **state)
+{
+    (void)state;
+    assert_true(dm_problem_count >= 1);
+    for (size_t i = 0; i < dm_problem_count; i++) {
+        const dm_problem *pb = dm_problems[i];
+        print_message("problem %s\n", pb->id ? pb->id : "(null)");
+        assert_non_null(pb->id);
+        assert_true(strlen(pb->id) > 0);
+        assert_non_null(pb->name);
+        assert_true(pb->dof >= 1 && pb->dof <= DM_MAX_DOF);
+        assert_true(pb->n_params >= 0 && pb->n_params <= DM_MAX_PARAMS);
+        assert_true(pb->n_regimes >= 1 && pb->n_regimes <= DM_MAX_REGIMES);
+        assert_non_null(pb->setup);
+        assert_non_null(pb->potential);
+        assert_non_null(pb->force);
+        assert_non_null(pb->kinetic);
+        assert_non_null(pb->velocity);
+        /* optional, but all or nothing */
+        assert_true(pb->n_invariants >= 0 && pb->n_invariants <= DM_MAX_INVARIANTS);
+        assert_true((pb->n_invariants > 0) == (pb->invariants != NULL));
+        for (int k = 0; k < pb->n_invariants; k++)
+            assert_non_null(pb->invariant_names[k]);
+        for (int k = 0; k < pb->n_regimes; k++) {
+            assert_non_null(pb->regimes[k].id);
+            assert_non_null(pb->regimes[k].meaning);
+        }
+        for (int k = 0; k < pb->n_params; k++) {
+            const dm_param *p = &pb->params[k];
+            assert_non_null(p->name);
+            assert_non_null(p->meaning);
+            assert_true(p->min <= p->max);
+            /* every default is a value the user could have given */
+            if (!in_range(p, p->fallback))
+                fail_msg("%s: default %s = %g lies outside its range", pb->id, p->name,
+                         p->fallback);
+            for (int j = 0; j < k; j++)
+                assert_string_not_equal(p->name, pb->params[j].name);
+        }
+        for (size_t j = 0; j < i; j++)
+            assert_string_not_equal(pb->id, dm_problems[j]->id);
+        assert_ptr_equal(dm_problem_find(pb->id), pb);
+    }
+    assert_null(dm_problem_find("no-such-problem"));
+}
+
+/* With no parameter given, every problem sets up a state with a finite period whose
+ * recorded energy is H(q0, p0), and its force returns the same V as its potential. */
+static void every_problem_sets_up_with_its_defaults(void **state)
+{
+    (void)state;
+    for (size_t i = 0; i < dm_problem_count; i++) {
+        const dm_problem *pb = dm_problems[i];
+        dm_instance inst;
+        dm_error err = { 0 };
+        dm_status st = dm_instance_init(&inst, pb, 0, NULL, NULL, &err);
+        if (st != DM_OK)
+            fail_msg("%s with its defaults: %s", pb->id, err.msg);
+        assert_true(isfinite(inst.period) && inst.period > 0.0);
+        assert_true(inst.regime >= 0 && inst.regime < pb->n_regimes);
+        assert_true(inst.first_crossing > 0.0 && inst.first_crossing <= inst.period);
+        assert_true(inst.section.coord >= 0 && inst.section.coord < pb->dof);
+        assert_true(inst.section.wrap >= 0.0);
+        assert_close(inst.energy, dm_instance_energy(&inst, inst.q0, inst.p0), 1e-15);
+        double grad[DM_MAX_DOF];
+        double V = pb->force(&inst, inst.q0, grad);
+        assert_true(V == pb->potential(&inst, inst.q0));
+        for (int k = 0; k < pb->dof; k++)
+            assert_true(isfinite(grad[k]));
+    }
+}
+
+static void every_method_table_is_one_kind_and_sets_its_required_fields(void **state)
+{
+    (void)state;
+    assert_true(dm_method_count >= 1);
+    for (size_t i = 0; i < dm_method_count; i++) {
+        const dm_method *m = dm_methods[i];
+        print_message("method %s\n", m->id ? m->id : "(null)");
+        assert_non_null(m->id);
+        assert_true(strlen(m->id) > 0);
+        assert_non_null(m->name);
+        assert_non_null(m->reference);
+        assert_true(m->order >= 1);
+        assert_true(m->adaptive == (m->family == DM_FAMILY_ADAPTIVE));
+        if (m->adaptive)
+            assert_int_equal(m->force_evals_per_step, 0);
+        else if (m->family != DM_FAMILY_IMPLICIT) /* implicit: iterations decide */
+            assert_true(m->force_evals_per_step >= 1);
+        if (m->splitting != NULL) {
+            assert_int_equal(m->family, DM_FAMILY_SPLITTING);
+            assert_null(m->create);
+            assert_null(m->step);
+            assert_null(m->restart);
+            assert_null(m->destroy);
+            const dm_splitting *t = m->splitting;
+            /* kick_first: K D K ... so n_kick = n_drift or n_drift + 1; else the mirror */
+            if (t->kick_first)
+                assert_true(t->n_kick == t->n_drift || t->n_kick == t->n_drift + 1);
+            else
+                assert_true(t->n_drift == t->n_kick || t->n_drift == t->n_kick + 1);
+            double sk = 0.0, sd = 0.0;
+            for (int k = 0; k < t->n_kick; k++)
+                sk += t->kick[k];
+            for (int k = 0; k < t->n_drift; k++)
+                sd += t->drift[k];
+            /* consistency (order >= 1): each family of coefficients sums to 1 */
+            assert_close(sk, 1.0, 1e-14);
+            assert_close(sd, 1.0, 1e-14);
+        } else {
+            assert_int_not_equal(m->family, DM_FAMILY_SPLITTING);
+            assert_non_null(m->create);
+            assert_non_null(m->step);
+            assert_non_null(m->restart);
+            assert_non_null(m->destroy);
+        }
+        for (size_t j = 0; j < i; j++)
+            assert_string_not_equal(m->id, dm_methods[j]->id);
+        assert_ptr_equal(dm_method_find(m->id), m);
+    }
+    assert_null(dm_method_find("no-such-method"));
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(every_problem_table_sets_its_required_fields),
+        cmocka_unit_test(every_problem_sets_up_with_its_defaults),
+        cmocka_unit_test(every_method_table_is_one_kind_and_sets_its_required_fields),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
