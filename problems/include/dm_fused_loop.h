@@ -28,6 +28,17 @@ typedef double (*dm_fused_potential)(const dm_instance *inst, const double *q);
 typedef double (*dm_fused_kinetic)(const dm_instance *inst, const double *p);
 typedef void (*dm_fused_velocity)(const dm_instance *inst, const double *p, double *v);
 
+/* q[coord] without indexing the array by a run-time number, so that q can stay in
+ * registers: for N = 1 it is q[0]; above, a chain of selects the compiler unrolls. */
+static inline __attribute__((always_inline)) double
+dm_fused_component(const double *q, const int N, int coord)
+{
+    double v = q[0];
+    for (int i = 1; i < N; i++)
+        v = (i == coord) ? q[i] : v;
+    return v;
+}
+
 /* The loop, for a table shape and a dof given as constants by the call sites below, so
  * the compiler unrolls the stages and the components as a hand-written loop would and
  * inlines the problem's functions passed in as constants. */
@@ -104,9 +115,10 @@ dm_fused_steps(const dm_instance *inst, const dm_fused_table *table, dm_fused_ca
         }
         k++;
 
-        dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, p), V, q[mon.coord]);
+        dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, p), V,
+                                             dm_fused_component(q, N, mon.coord));
         if (ev != DM_STEP_QUIET) {
-            event = ev == DM_STEP_CROSSED ? DM_FUSED_CROSSING : DM_FUSED_DIVERGED;
+            event = (int)ev; /* the same numbers as dm_fused_event's (problem.h) */
             break;
         }
     }

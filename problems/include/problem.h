@@ -109,10 +109,11 @@ typedef struct dm_fused_run {
 } dm_fused_run;
 
 typedef enum dm_fused_event {
-    DM_FUSED_END,         /* k reached k_end */
-    DM_FUSED_CROSSING,    /* the last step crossed the section */
-    DM_FUSED_DIVERGED,    /* the last step's dE is NaN, Inf or beyond the limit */
-    DM_FUSED_UNSUPPORTED  /* no fused loop for this method and problem */
+    DM_FUSED_END = DM_STEP_QUIET,            /* k reached k_end */
+    DM_FUSED_CROSSING = DM_STEP_CROSSED,     /* the last step crossed the section */
+    DM_FUSED_DIVERGED = DM_STEP_DIVERGED,    /* the last step's dE is NaN, Inf or beyond
+                                                the limit */
+    DM_FUSED_UNSUPPORTED                     /* no fused loop for this method and problem */
 } dm_fused_event;
 
 /* Runs steps from run->k until k_end or an event; returns the dm_fused_event. */
