@@ -217,22 +217,23 @@ static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, doub
     }
 }
 
-/* Each invariant's error is relative to its starting value, or to the largest
- * starting value among them when its own is 0. */
+/* Each invariant's error as its problem says: relative to its starting value (NaN when
+ * that is 0), or the plain difference of a quantity the problem made dimensionless.
+ * Either way the error does not depend on the units. */
 static void invariants_start(run_context *c)
 {
     const dm_instance *inst = c->inst;
+    const dm_problem *pb = inst->problem;
     dm_run_metrics *m = &c->result->metrics;
     c->n_invariants = c->result->series.n_invariants;
-    if (c->n_invariants > 0) {
-        inst->problem->invariants(inst, inst->q0, inst->p0, c->invariant_start);
-        double largest = 0.0;
-        for (int i = 0; i < c->n_invariants; i++)
-            largest = fmax(largest, fabs(c->invariant_start[i]));
-        for (int i = 0; i < c->n_invariants; i++) {
-            double own = fabs(c->invariant_start[i]);
-            c->invariant_scale[i] = own > 0.0 ? own : (largest > 0 ? largest : 1.0);
-        }
+    if (c->n_invariants > 0)
+        pb->invariants(inst, inst->q0, inst->p0, c->invariant_start);
+    for (int i = 0; i < c->n_invariants; i++) {
+        double own = fabs(c->invariant_start[i]);
+        if (pb->invariant_errors[i] == DM_INVARIANT_DIFFERENCE)
+            c->invariant_scale[i] = 1.0;
+        else
+            c->invariant_scale[i] = own > 0.0 ? own : NAN;
     }
     for (int i = 0; i < DM_MAX_INVARIANTS; i++)
         m->max_invariant_error[i] = c->n_invariants > i ? 0.0 : NAN;
@@ -360,7 +361,7 @@ static void record_bucket(run_context *c)
         for (int j = 0; j < c->n_invariants; j++) {
             double e = (now[j] - c->invariant_start[j]) / c->invariant_scale[j];
             ser->invariant_error[j][i] = e;
-            if (fabs(e) > m->max_invariant_error[j])
+            if (!(fabs(e) <= m->max_invariant_error[j])) /* NaN stays NaN */
                 m->max_invariant_error[j] = fabs(e);
         }
     }

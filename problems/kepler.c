@@ -230,9 +230,10 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
     double r = sqrt(q[0] * q[0] + q[1] * q[1]);
     double L = q[0] * p[1] - q[1] * p[0];
     out[0] = L;
-    /* p x (L z) = (p_y L, -p_x L) */
-    out[1] = p[1] * L - mu * q[0] / r;
-    out[2] = -p[0] * L - mu * q[1] / r;
+    /* The eccentricity vector e = A / mu, with the Runge-Lenz vector
+     * A = p x (L z) - mu q / r = (p_y L, -p_x L) - mu q / r: dimensionless, |e| = e. */
+    out[1] = (p[1] * L - mu * q[0] / r) / mu;
+    out[2] = (-p[0] * L - mu * q[1] / r) / mu;
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
@@ -262,6 +263,8 @@ const dm_problem dm_problem_kepler = {
     .hessian = hessian,
     .exact = exact,
     .n_invariants = 3,
-    .invariant_names = { "angular_momentum", "runge_lenz_x", "runge_lenz_y" },
+    .invariant_names = { "angular_momentum", "eccentricity_x", "eccentricity_y" },
+    .invariant_errors = { DM_INVARIANT_RELATIVE, DM_INVARIANT_DIFFERENCE,
+                          DM_INVARIANT_DIFFERENCE },
     .invariants = invariants,
 };

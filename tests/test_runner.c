@@ -206,6 +206,64 @@ static void verlet_conserves_kepler_angular_momentum(void **state)
     dm_run_result_free(&r);
 }
 
+/* Every stored error is unit-free: the same orbit (same eccentricity, same steps per
+ * period) in other units of length and time - here unit values, a bound orbit in
+ * kilometres and seconds around the Earth (mu = 398600.4418 km^3/s^2, a fact of the
+ * trade from memory; any value serves) and one in metres around the Sun - gives the
+ * same energy and invariant errors to 1e-12 and phase errors to 1e-11. (The global error is a
+ * phase-space distance, so it carries units: it is not compared.) */
+static void kepler_errors_do_not_depend_on_the_units(void **state)
+{
+    static const double units[][2] = { { 1.0, 1.0 }, { 398600.4418, 7000.0 },
+                                       { 1.32712440018e20, 1.496e11 }, { 0.8, 3.0 } };
+    const double e = 0.6;
+    dm_run_result first;
+    for (size_t u = 0; u < sizeof units / sizeof units[0]; u++) {
+        dm_run_spec spec;
+        make_spec(&spec, "kepler", "eccentricity", e, "yoshida4", 64, 0, 50, 32);
+        const char *keys[3] = { "mu", "semi_major_axis", "eccentricity" };
+        double values[3] = { units[u][0], units[u][1], e };
+        dm_error err = { 0 };
+        assert_int_equal(dm_instance_init(&spec.inst, spec.inst.problem, 3, keys, values, &err),
+                         DM_OK);
+        spec.t_end = 50 * spec.inst.period;
+        spec.method_config.h = spec.inst.period / 64;
+        spec.method_config.t_stop = spec.t_end;
+        dm_run_result r;
+        run_ok(&spec, &r);
+        assert_int_equal(r.series.n_invariants, 3);
+        print_message("mu %g a %g: max errors L %.3e e_x %.3e e_y %.3e, energy %.3e\n",
+                      units[u][0], units[u][1], r.metrics.max_invariant_error[0],
+                      r.metrics.max_invariant_error[1], r.metrics.max_invariant_error[2],
+                      r.metrics.max_energy_error);
+        if (u == 0) {
+            first = r;
+            /* the comparison means something only if there is an error to compare */
+            assert_true(r.metrics.max_invariant_error[1] > 1e-8);
+            assert_true(r.metrics.max_invariant_error[2] > 1e-8);
+            continue;
+        }
+        assert_int_equal(r.series.n, first.series.n);
+        for (size_t i = 0; i < r.series.n; i++) {
+            assert_true(fabs(r.series.energy_error[i] - first.series.energy_error[i]) <= 1e-12);
+            for (int k = 0; k < 3; k++)
+                assert_true(fabs(r.series.invariant_error[k][i] -
+                                 first.series.invariant_error[k][i]) <= 1e-12);
+        }
+        assert_int_equal(r.crossings.n, first.crossings.n);
+        double worst = 0.0;
+        for (size_t i = 0; i < r.crossings.n; i++)
+            worst = fmax(worst, fabs(r.crossings.phase_error[i] - first.crossings.phase_error[i]));
+        print_message("  phase errors differ by at most %.3e (last %.3e)\n", worst,
+                      first.crossings.phase_error[first.crossings.n - 1]);
+        /* the phase sums the located crossing times over 50 periods: a few 1e-12 of
+         * rounding (not of units) separate the runs */
+        assert_true(worst <= 1e-11);
+        dm_run_result_free(&r);
+    }
+    dm_run_result_free(&first);
+}
+
 /* The fused loop (integrators/splitting_block.h) and the per-step path compute the same
  * operations in the same order: every stored number, count and metric agrees bit for
  * bit, for kick-first and drift-first tables, with and without FSAL, in one and two
@@ -287,6 +345,7 @@ int main(void)
         cmocka_unit_test(crossing_store_stays_within_budget),
         cmocka_unit_test(same_run_twice_is_bit_identical),
         cmocka_unit_test(verlet_conserves_kepler_angular_momentum),
+        cmocka_unit_test(kepler_errors_do_not_depend_on_the_units),
         cmocka_unit_test(fused_loop_equals_per_step_path_bit_for_bit),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -54,6 +54,12 @@ typedef struct dm_section {
 
 typedef struct dm_problem dm_problem;
 
+/* How an invariant's error is measured (one per invariant of a problem). */
+typedef enum dm_invariant_error {
+    DM_INVARIANT_RELATIVE = 0,   /* (I - I0) / |I0|; NaN when I0 = 0 */
+    DM_INVARIANT_DIFFERENCE      /* I - I0, for an I the problem makes dimensionless */
+} dm_invariant_error;
+
 /* One concrete problem: parameters resolved, starting state built, regime and the
  * closed-form period known. Plain data, no allocation; copy it freely. A stepper or a
  * run keeps a pointer to the instance it was made from: the instance must outlive
@@ -161,10 +167,14 @@ struct dm_problem {
     dm_fused_loop_fn fused_loop;
 
     /* Optional: extra conserved quantities the harness monitors (angular momentum, ...).
-     * n_invariants = 0 and invariants = NULL: none. Otherwise n_invariants names and a
-     * function writing that many values. */
+     * n_invariants = 0 and invariants = NULL: none. Otherwise n_invariants names, how
+     * each one's error is measured, and a function writing that many values. Errors must
+     * not depend on the units: a quantity that is never zero on a valid orbit is
+     * measured relative to its starting value; one that can be zero (a vector's
+     * component) is returned already dimensionless and measured as a difference. */
     int n_invariants;
     const char *invariant_names[DM_MAX_INVARIANTS];
+    dm_invariant_error invariant_errors[DM_MAX_INVARIANTS];
     void (*invariants)(const dm_instance *inst, const double *q, const double *p,
                        double *out);
 };
