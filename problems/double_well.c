@@ -202,7 +202,9 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         inner = set_one_well(inst, x0, d, d_min, &omega, &m, &m1);
     inst->q0[0] = x0;
     inst->p0[0] = 0.0;
-    inst->energy = kinetic(inst, inst->p0) + potential(inst, inst->q0);
+    /* The energy of the state started, V(x0) = x0^2 (b x0^2 - 2a) / 4 = x0^2 d / 4, from d
+     * without the cancellation of -a x0^2/2 + b x0^4/4 next to the separatrix E = 0. */
+    inst->energy = 0.25 * (x0 * x0) * d;
     inst->has_v_min = true;
     inst->v_min = v_min;
     inst->derived[A_X0] = x0;

@@ -20,6 +20,7 @@
 
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_DEPTH, P_ALPHA, P_XE, P_MASS, P_AMPLITUDE, P_ENERGY };
 
@@ -32,14 +33,11 @@ enum {
     A_SIDE          /* +1: starts at the inner turning point; -1: at the outer one */
 };
 
-static dm_status setup(dm_instance *inst, dm_error *err)
+/* The starting displacement u0 = x0 - xe at rest: from the energy, the inner turning
+ * point u0 = -ln(1 + sqrt(E/D)) / alpha; else the amplitude as given. */
+static dm_status start_displacement(const dm_instance *inst, double *u0, dm_error *err)
 {
-    double D = inst->param[P_DEPTH];
-    double alpha = inst->param[P_ALPHA];
-    double xe = inst->param[P_XE];
-    double m = inst->param[P_MASS];
-    double c, one_minus_c, side;
-
+    double D = inst->param[P_DEPTH], alpha = inst->param[P_ALPHA];
     if (inst->given & (1u << P_ENERGY)) {
         double E = inst->param[P_ENERGY];
         if (!(E < D))
@@ -47,36 +45,49 @@ static dm_status setup(dm_instance *inst, dm_error *err)
                                 "morse: energy = %.17g is not below the well depth D = %.17g: "
                                 "the motion is unbound and has no period",
                                 E, D);
-        c = sqrt(E / D);
-        one_minus_c = ((D - E) / D) / (1.0 + c);
-        side = 1.0; /* energy=E starts at the inner turning point, at rest */
-    } else {
-        double u0 = inst->param[P_AMPLITUDE];
-        if (u0 == 0.0)
-            return dm_error_set(err, DM_EINPUT,
-                                "morse: zero amplitude is the equilibrium x = xe "
-                                "(no oscillation)");
-        /* 1 - y0 = -expm1(-alpha u0): c = |1 - y0|, exact to rounding for small u0. */
-        double one_minus_y0 = -expm1(-alpha * u0);
-        c = fabs(one_minus_y0);
-        if (u0 < 0.0) {
-            /* y0 = 1 + c: inner turning point; 1 - c = 2 - y0 = 1 + one_minus_y0. */
-            one_minus_c = 1.0 + one_minus_y0;
-            side = 1.0;
-        } else {
-            /* y0 = 1 - c: outer turning point; 1 - c = y0. */
-            one_minus_c = exp(-alpha * u0);
-            side = -1.0;
-        }
-        if (!(one_minus_c > 0.0))
-            return dm_error_set(err, DM_EINPUT,
-                                "morse: amplitude = %.17g gives energy E = %.17g >= D = %.17g: "
-                                "the motion is unbound and has no period",
-                                u0, D * c * c, D);
+        *u0 = -log1p(sqrt(E / D)) / alpha;
+        return DM_OK;
     }
-    double one_minus_c2 = one_minus_c * (1.0 + c);
-    /* The energy the user gave, else that of the starting displacement. */
-    double energy = (inst->given & (1u << P_ENERGY)) ? inst->param[P_ENERGY] : D * c * c;
+    *u0 = inst->param[P_AMPLITUDE];
+    if (*u0 == 0.0)
+        return dm_error_set(err, DM_EINPUT,
+                            "morse: zero amplitude is the equilibrium x = xe "
+                            "(no oscillation)");
+    return DM_OK;
+}
+
+/* Everything exact belongs to the state actually started: x0 = xe + u0 as a double, at
+ * rest. Its energy D (1 - y0)^2, y0 = exp(-alpha (x0 - xe)), and D - E, which sets the
+ * period, are evaluated in quad precision (quad.h): in double, next to the dissociation
+ * energy D, the rounding of alpha (x0 - xe) and of the exponential would swamp D - E. */
+static dm_status setup(dm_instance *inst, dm_error *err)
+{
+    double D = inst->param[P_DEPTH];
+    double alpha = inst->param[P_ALPHA];
+    double xe = inst->param[P_XE];
+    double m = inst->param[P_MASS];
+    double u0 = 0.0;
+    dm_status st = start_displacement(inst, &u0, err);
+    if (st != DM_OK)
+        return st;
+    double x0 = xe + u0;
+    if (!isfinite(x0))
+        return dm_error_set(err, DM_EINPUT,
+                            "morse: starting position xe + %.17g is not finite", u0);
+
+    dm_quad y0 = expq(-(dm_quad)alpha * ((dm_quad)x0 - (dm_quad)xe));
+    dm_quad s = 1 - y0;                 /* 1 - y0: c = |s| = sqrt(E / D) */
+    dm_quad cq = s < 0 ? -s : s;
+    double c = (double)cq;
+    double one_minus_c = (double)(1 - cq);
+    double one_minus_c2 = (double)((1 - cq) * (1 + cq));
+    double energy = (double)((dm_quad)D * s * s);
+    double side = y0 > 1 ? 1.0 : -1.0;  /* +1: the inner turning point; -1: the outer */
+    if (!(one_minus_c > 0.0))
+        return dm_error_set(err, DM_EINPUT,
+                            "morse: the start x0 = %.17g has energy E = %.17g >= D = %.17g: "
+                            "the motion is unbound and has no period",
+                            x0, energy, D);
     if (!(energy > 0.0))
         return dm_error_set(err, DM_EINPUT,
                             "morse: the starting state is the equilibrium (energy %.17g "
@@ -92,15 +103,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
                             "a period that is not a finite positive number",
                             D, alpha, m, energy);
 
-    /* Turning point: u0 = -ln(1 + side c) / alpha. */
-    double u0 = side > 0 ? -log1p(c) / alpha : -log(one_minus_c) / alpha;
-    if (inst->given & (1u << P_AMPLITUDE))
-        u0 = inst->param[P_AMPLITUDE]; /* exactly what the user gave */
-    if (!isfinite(xe + u0))
-        return dm_error_set(err, DM_EINPUT,
-                            "morse: starting position xe + %.17g is not finite", u0);
-
-    inst->q0[0] = xe + u0;
+    inst->q0[0] = x0;
     inst->p0[0] = 0.0;
     inst->energy = energy;
     inst->regime = 0;

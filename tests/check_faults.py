@@ -265,10 +265,12 @@ methods:
 
 
 def check_cvode_failure_names_its_flag(tmp):
-    # A Morse bond at 99.9 % of its depth under BDF with rtol = 0.1: the loose steps push
-    # it over the edge of the well, where the Newton corrector stops converging and
-    # CVODE gives up. energy_limit is raised so that CVODE, not our divergence test,
-    # ends the run.
+    # Morse bonds next to dissociation under BDF with loose tolerances: the loose steps
+    # push some of them over the edge of the well, where the Newton corrector stops
+    # converging and CVODE gives up. Which of them fails is a detail of the arithmetic
+    # (a change in the last digit of a period moves it), so several are run: at least
+    # one must fail, and every failure must be recorded with CVODE's flag. energy_limit
+    # is raised so that CVODE, not our divergence test, ends the runs.
     suite = os.path.join(tmp, "cvode.yaml")
     out = os.path.join(tmp, "cvode.h5")
     write(suite, """\
@@ -277,10 +279,10 @@ horizon: {periods: 2}
 samples: 8
 energy_limit: 1.0e300
 problems:
-  - {problem: morse, energy: 0.999}
+  - {problem: morse, energy: [0.99, 0.999, 0.9999, 0.99999]}
   - {problem: harmonic}
 methods:
-  - {method: cvode-bdf, rtol: 0.1}
+  - {method: cvode-bdf, rtol: [0.1, 0.08]}
   - {method: cvode-adams, rtol: 1.0e-8}
 """)
     p = run(["run", suite, "-o", out, "-j", "1"], tmp)
@@ -288,14 +290,15 @@ methods:
     if not check(os.path.exists(out), "suite with a CVODE failure: file written"):
         return
     runs, written, planned = runs_of(out)
-    bad = runs.get("morse-energy0.999.cvode-bdf-rtol0.1")
-    if check(bad is not None, "morse cvode-bdf run present"):
-        check(bad["status"] == "failed", f"CVODE failure: failed, got {bad}")
+    failed = {k: r for k, r in runs.items() if r["status"] == "failed"}
+    check(len(failed) >= 1, f"at least one CVODE failure among {sorted(runs)}")
+    for k, bad in failed.items():
+        check(k.startswith("morse-") and ".cvode-bdf-" in k, f"only BDF on Morse fails: {k}")
         check(re.search(r"cvode-bdf: CVode returned CV_[A-Z_]+ at t = ", bad["reason"]) is not None,
               f"CVODE failure reason names CVODE's flag: {bad['reason']!r}")
     good = runs.get("harmonic.cvode-adams-rtol1e-08")
     check(good is not None and good["status"] == "ok", f"the next run is ok: {good}")
-    check(written == planned == 4, f"all 4 runs written ({written} of {planned})")
+    check(written == planned == 15, f"all 15 runs written ({written} of {planned})")
     passed.append("cvode_failure_is_recorded_as_failed_with_cvodes_flag_name")
 
 

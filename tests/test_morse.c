@@ -64,13 +64,19 @@ static double morse_quad_f(double u, void *params)
     return sqrt(q->m / (2.0 * q->D)) * sqrt(inner * outer);
 }
 
-static double morse_period_by_quadrature(double D, double alpha, double m, double E,
-                                         double *abserr)
+/* The period of the orbit through the turning point x0 (at rest), by quadrature. Its
+ * c = |1 - y0| = sqrt(E / D), y0 = exp(-alpha (x0 - xe)), is taken in long double (64-bit
+ * significand) from the double x0: the period belongs to the state started, and next to
+ * dissociation 1 - c needs more digits than a double evaluation of y0 keeps. */
+static double morse_period_by_quadrature(double D, double alpha, double m, double x0,
+                                         double xe, double *abserr)
 {
-    double c = sqrt(E / D);
+    long double y0 = expl(-(long double)alpha * ((long double)x0 - (long double)xe));
+    long double cl = fabsl(1.0L - y0);
+    double c = (double)cl;
     morse_quad q = { .D = D, .alpha = alpha, .m = m };
     q.y1 = 1.0 + c;
-    q.y2 = ((D - E) / D) / (1.0 + c); /* 1 - c without cancellation near E = D */
+    q.y2 = (double)(1.0L - cl); /* 1 - c without cancellation near E = D */
     q.u1 = -log1p(c) / alpha;
     q.u2 = -log(q.y2) / alpha;
     gsl_integration_workspace *w = gsl_integration_workspace_alloc(2000);
@@ -105,7 +111,8 @@ static void morse_period_matches_gsl_quadrature_of_the_orbit_integral(void **sta
         const double values[] = { D, alpha, m, E, 0.75 };
         dm_instance inst = make(5, keys, values);
         double abserr;
-        double T_quad = morse_period_by_quadrature(D, alpha, m, E, &abserr); /* GSL qaws */
+        double T_quad = morse_period_by_quadrature(D, alpha, m, inst.q0[0], 0.75,
+                                                   &abserr); /* GSL qaws */
         double rel = dm_rel_diff(inst.period, T_quad);
         if (rel > worst)
             worst = rel;
