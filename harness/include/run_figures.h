@@ -51,7 +51,7 @@
     X(status, STATUS, result, SA, 16, "status", "",                                        \
       "ok, diverged, failed or interrupted")                                               \
     X(reason, TEXT, result, SA, 256, "", "",                                               \
-      "why not ok, empty when ok (/summary keeps the first 255 bytes, /runs/<id> all)")    \
+      "why not ok; empty when ok (/summary keeps its first 255 bytes, /runs/<id> all)")    \
     X(energy_scale, REAL, metrics, A, 0, "", "", "E_scale of dE")                          \
     X(energy_scale_rule, RULE, metrics, A, 0, "", "",                                      \
       "how E_scale was chosen: H0 - V_min or |H0|")                                        \
