@@ -305,8 +305,8 @@ static void runs_that_never_started_are_left_out_of_the_file(void **state)
 }
 
 static const char h5py_check[] =
-    "import sys, h5py, numpy as np\n"
-    "path, suite_text_path, inv = sys.argv[1], sys.argv[2], sys.argv[3]\n"
+    "import re, sys, h5py, numpy as np\n"
+    "path, suite_text_path, inv, readme, inv_problem = sys.argv[1:6]\n"
     "f = h5py.File(path, 'r')\n"
     "a = f.attrs\n"
     "assert a['format'] == 'driftmark-results', a['format']\n"
@@ -322,12 +322,27 @@ static const char h5py_check[] =
     "assert a['suite_text'] == open(suite_text_path).read()\n"
     "assert a['hdf5_version'] == '%d.%d.%d' % h5py.version.hdf5_version_tuple[:3]\n"
     "s = f['summary']\n"
-    "names = ['run_id', 'hash', 'problem', 'regime', 'method', 'order', 'h', 'rtol', 'steps',\n"
-    "         'force_evals', 'max_energy_error', 'final_energy_error',\n"
-    "         'energy_drift_per_period', 'drift_exponent', 'period_exact', 'period_measured',\n"
-    "         'period_rel_error', 'phase_error_per_period', 'phase_error_final',\n"
-    "         'wall_seconds', 'ns_per_step', 'status', 'reason']\n"
-    "assert list(s.dtype.names) == names, s.dtype.names\n"
+    "def doc_table(marker):\n"
+    "    # the rows (name, type) of the README's first table after a line starting marker\n"
+    "    lines = open(readme).read().split('\\n')\n"
+    "    i = next(k for k, l in enumerate(lines) if l.startswith(marker))\n"
+    "    while not lines[i].startswith('|'):\n"
+    "        i += 1\n"
+    "    rows, i = [], i + 2\n"
+    "    while i < len(lines) and lines[i].startswith('|'):\n"
+    "        cells = re.split(r'(?<!\\\\)\\|', lines[i])[1:-1]\n"
+    "        rows.append((cells[0].strip().strip('`'), cells[1].strip()))\n"
+    "        i += 1\n"
+    "    return rows\n"
+    "sizes = {'double': ('f', 8), 'uint64': ('u', 8), 'int32': ('i', 4)}\n"
+    "doc = doc_table('## `/summary`')\n"
+    "assert list(s.dtype.names) == [n for n, t in doc], (s.dtype.names, doc)\n"
+    "for n, t in doc:\n"
+    "    dt = s.dtype.fields[n][0]\n"
+    "    want = ('S', int(t[6:-1])) if t.startswith('text (') else sizes[t]\n"
+    "    assert (dt.kind, dt.itemsize) == want, (n, t, dt)\n"
+    "measured = doc_table('Attributes of what the run measured')\n"
+    "assert ('max_energy_error', 'double') in measured and ('status', 'text') in measured\n"
     "for k in ['run_id', 'hash', 'problem', 'regime', 'method', 'status', 'reason']:\n"
     "    info = h5py.check_string_dtype(s.dtype.fields[k][0])\n"
     "    assert info is not None and info.encoding == 'utf-8', (k, info)\n"
@@ -348,6 +363,14 @@ static const char h5py_check[] =
     "        assert g[d].shape == (2 + i,), (rid, d)\n"
     "    assert g.attrs['run_id'] == rid and g.attrs['hash'] == rows['hash'][i].decode()\n"
     "    assert g.attrs['steps'] == 1000 + i and g.attrs['force_evals'] == 2000 + i\n"
+    "    for name, kind in measured:\n"
+    "        per_inv = '<invariant>' in name\n"
+    "        if per_inv and g.attrs['problem'] != inv_problem:\n"
+    "            continue\n"
+    "        for a in [name.replace('<invariant>', x) for x in inv.split(',')] if per_inv else [name]:\n"
+    "            v = g.attrs[a]\n"
+    "            ok = isinstance(v, str) if kind == 'text' else (v.dtype.kind, v.dtype.itemsize) == sizes[kind]\n"
+    "            assert ok, (rid, a, kind, type(v))\n"
     "    for k in ['velocity_evals', 'rhs_evals', 'jac_evals', 'error_test_fails',\n"
     "              'conv_fails', 'nonlin_iters', 'max_iters_in_step', 'method_name',\n"
     "              'method_family', 'method_order', 'method_symplectic', 'method_symmetric',\n"
@@ -395,7 +418,8 @@ static void h5py_reads_root_attributes_summary_text_and_dataset_lengths(void **s
         strcat(inv, invariant_problem->invariant_names[k]);
     }
     char cmd[1024], out[4096], err[8192];
-    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s' '%s'", script, path, text_path, inv);
+    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s' '%s' '%s' '%s'", script, path, text_path,
+             inv, DM_SOURCE_DIR "/results/README.md", invariant_problem->id);
     int rc = dm_run_capture(cmd, out, sizeof out, err, sizeof err);
     if (rc != 0 || strstr(out, "h5py-ok") == NULL) {
         print_error("h5py check failed (%d):\n%s\n%s\n", rc, out, err);
