@@ -78,6 +78,8 @@
     X(wall_seconds, REAL, metrics, SA, 0, "", "", "wall-clock time of the run")            \
     X(ns_per_step, REAL, metrics, SA, 0, "ns/step", "%.1f",                                \
       "wall-clock nanoseconds per step")                                                   \
+    X(force_evals_per_period, REAL, metrics, SA, 0, "", "",                                \
+      "grad V evaluations per period T: force_evals / (t_reached / T); NaN when no step ran") \
     X(crossings_total, COUNT, crossings, A, 0, "", "", "section crossings seen")           \
     X(crossings_stride, COUNT, crossings, A, 0, "", "",                                    \
       "the kept crossings are those whose number is a multiple of this")                   \
