@@ -753,6 +753,20 @@ static int read_int_attr(hid_t loc, const char *name, long long *out)
     return rc;
 }
 
+/* A real figure that a file from before it existed lacks reads as not measured (NaN):
+ * HDF5 leaves the fields the file does not have as they were. */
+static void mark_unmeasured(hid_t file_type, dm_summary_row *rows, size_t n)
+{
+    const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+    const size_t n_cols = dm_summary_columns(cols);
+    for (size_t j = 0; j < n_cols; j++) {
+        if (cols[j]->kind != DM_FIGURE_REAL || H5Tget_member_index(file_type, cols[j]->name) >= 0)
+            continue;
+        for (size_t i = 0; i < n; i++)
+            *(double *)(void *)((char *)&rows[i] + cols[j]->row_at) = NAN;
+    }
+}
+
 static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
                                    size_t *n, dm_error *err)
 {
@@ -784,6 +798,8 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
         st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is not a table of runs", path);
     } else {
         dm_summary_row *buf = calloc(count > 0 ? (size_t)count : 1, sizeof *buf);
+        if (buf != NULL)
+            mark_unmeasured(ft, buf, (size_t)count);
         if (buf == NULL) {
             st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
         } else if (count > 0 && H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) < 0) {
@@ -928,7 +944,12 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
         }
         char text[DM_ERROR_MSG_MAX] = "";
         switch (f->kind) {
-        case DM_FIGURE_REAL: rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double)); break;
+        case DM_FIGURE_REAL:
+            /* one a file from before it existed lacks was not measured */
+            FIGURE_AT(f, r, double) = NAN;
+            if (H5Aexists(g, f->name) != 0)
+                rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double));
+            break;
         case DM_FIGURE_COUNT: rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t)); break;
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
