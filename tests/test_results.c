@@ -636,6 +636,81 @@ static void show_prints_table_csv_and_json_of_a_results_file(void **state)
     free_fixture(&fx);
 }
 
+/* A file written before a real figure existed: h5py takes the figure out of /summary
+ * and out of every run's group. */
+static const char drop_figure[] =
+    "import sys, h5py, numpy as np\n"
+    "path, name = sys.argv[1], sys.argv[2]\n"
+    "with h5py.File(path, 'r+') as f:\n"
+    "    rows = f['summary'][()]\n"
+    "    keep = [n for n in rows.dtype.names if n != name]\n"
+    "    assert len(keep) == len(rows.dtype.names) - 1\n"
+    "    old = np.empty(len(rows), dtype=[(n, rows.dtype.fields[n][0]) for n in keep])\n"
+    "    for n in keep:\n"
+    "        old[n] = rows[n]\n"
+    "    del f['summary']\n"
+    "    f['summary'] = old\n"
+    "    for g in f['runs'].values():\n"
+    "        del g.attrs[name]\n"
+    "print('dropped')\n";
+
+static void a_real_figure_an_older_file_lacks_reads_as_nan(void **state)
+{
+    const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+    size_t n_cols = dm_summary_columns(cols);
+    const dm_figure *added = NULL; /* the last real figure in /summary and the groups */
+    for (size_t j = 0; j < n_cols; j++)
+        if (cols[j]->kind == DM_FIGURE_REAL && cols[j]->at != DM_FIGURE_NOWHERE &&
+            (cols[j]->in & DM_FIGURE_IN_RUN))
+            added = cols[j];
+    assert_non_null(added);
+    char path[128], script[128], cmd[1024], out[256], err[4096];
+    snprintf(path, sizeof path, "%s/older.h5", workdir);
+    snprintf(script, sizeof script, "%s/drop.py", workdir);
+    fixture fx = { 0 };
+    write_fixture(path, &fx);
+    for (size_t i = 0; i < fx.suite.n_runs; i++) {
+        *(double *)(void *)((char *)&fx.results[i] + added->at) = 1.5; /* not NaN */
+        dm_series *sr = &fx.results[i].series; /* no more buckets than a run can have */
+        if (sr->n > fx.suite.runs[i].samples)
+            sr->n = fx.suite.runs[i].samples;
+    }
+    dm_error e;
+    assert_int_equal(dm_results_write(path, &fx.suite, fx.results, fx.fits, START_TIME, &e),
+                     DM_OK);
+    write_text_file(script, drop_figure);
+    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s'", script, path, added->name);
+    if (dm_run_capture(cmd, out, sizeof out, err, sizeof err) != 0 || !strstr(out, "dropped")) {
+        print_error("%s\n%s\n", out, err);
+        fail();
+    }
+
+    dm_summary_row *rows = NULL;
+    size_t n = 0;
+    assert_int_equal(dm_results_read_summary(path, &rows, &n, &e), DM_OK);
+    assert_int_equal(n, fx.suite.n_runs);
+    for (size_t i = 0; i < n; i++) {
+        assert_true(isnan(*(const double *)(const void *)((const char *)&rows[i] + added->row_at)));
+        assert_int_equal(rows[i].force_evals, 2000 + i); /* the rest as written */
+        assert_string_equal(rows[i].run_id, fx.suite.runs[i].id);
+    }
+    free(rows);
+
+    dm_run_result *back = calloc(fx.suite.n_runs, sizeof *back);
+    assert_non_null(back);
+    size_t kept = 0;
+    if (dm_results_read_runs(path, &fx.suite, back, &kept, &e) != DM_OK)
+        fail_msg("%s", e.msg);
+    assert_int_equal(kept, fx.suite.n_runs);
+    for (size_t i = 0; i < fx.suite.n_runs; i++) {
+        assert_true(isnan(*(const double *)(const void *)((const char *)&back[i] + added->at)));
+        assert_true(back[i].metrics.max_energy_error == fx.results[i].metrics.max_energy_error);
+        dm_run_result_free(&back[i]);
+    }
+    free(back);
+    free_fixture(&fx);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -648,6 +723,7 @@ int main(void)
         cmocka_unit_test(show_refuses_non_hdf5_foreign_newer_and_truncated_files_in_one_line),
         cmocka_unit_test(show_rejects_bad_options_in_one_line),
         cmocka_unit_test(show_prints_table_csv_and_json_of_a_results_file),
+        cmocka_unit_test(a_real_figure_an_older_file_lacks_reads_as_nan),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
 }
