@@ -2,10 +2,12 @@
  *
  * Layout, every field in the host's byte order, no padding:
  *   header   "DMRP", u32 version, u32 byte-order marker, u64 run index, 17-byte hash
- *   outcome  i32 status, u32 reason length, reason bytes (no NUL)
- *   metrics  u8 energy-scale rule, every double and counter of dm_run_metrics
+ *   figures  every row of DM_RUN_FIGURES (run_figures.h) in list order, by kind:
+ *            REAL and COUNT 8 bytes, STATUS i32, TEXT u32 length + bytes (no NUL),
+ *            RULE u8 (0: none, k: dm_energy_scale_rules[k - 1]),
+ *            PER_INVARIANT DM_MAX_INVARIANTS doubles
  *   series   u64 n, i32 n_invariants, then per array u8 present + n doubles
- *   crossings u64 n, stride, total, then number, time, phase_error (n doubles each)
+ *   crossings u64 n, then number, time, phase_error (n doubles each)
  * The same walk over the fields writes, measures and reads the buffer, so the three
  * cannot drift apart.
  */
@@ -17,48 +19,20 @@
 #include <string.h>
 
 #define PACK_MAGIC "DMRP"
-#define PACK_VERSION 1u
+#define PACK_VERSION 2u
 #define PACK_BYTE_ORDER 0x01020304u
 
-/* A new field in dm_run_metrics must be packed here too, or results computed on
- * another rank would lose it without a sound: this stops the build instead. */
-_Static_assert(sizeof(dm_counts) == 9 * sizeof(uint64_t),
-               "dm_counts changed: pack the new field in harness/result_pack.c");
-_Static_assert(sizeof(dm_run_metrics) == 14 * sizeof(double) + sizeof(const char *) +
-                                             DM_MAX_INVARIANTS * sizeof(double) +
-                                             sizeof(uint64_t) + sizeof(dm_counts),
-               "dm_run_metrics changed: pack the new field in harness/result_pack.c");
-
-/* The rule is one of the runner's fixed strings; it travels as a small number. */
-static const char *const energy_scale_rules[] = { "H0 - V_min", "|H0|" };
-#define N_RULES (sizeof energy_scale_rules / sizeof energy_scale_rules[0])
-
-static const size_t metric_doubles[] = {
-    offsetof(dm_run_metrics, energy_scale),
-    offsetof(dm_run_metrics, max_energy_error),
-    offsetof(dm_run_metrics, final_energy_error),
-    offsetof(dm_run_metrics, energy_drift_per_period),
-    offsetof(dm_run_metrics, drift_exponent),
-    offsetof(dm_run_metrics, period_exact),
-    offsetof(dm_run_metrics, period_measured),
-    offsetof(dm_run_metrics, period_rel_error),
-    offsetof(dm_run_metrics, phase_error_per_period),
-    offsetof(dm_run_metrics, phase_error_final),
-    offsetof(dm_run_metrics, max_global_error),
-    offsetof(dm_run_metrics, t_reached),
-    offsetof(dm_run_metrics, wall_seconds),
-    offsetof(dm_run_metrics, ns_per_step),
-};
-_Static_assert(sizeof metric_doubles / sizeof metric_doubles[0] == 14,
-               "every double of dm_run_metrics is listed once");
-
-static const size_t count_fields[] = {
-    offsetof(dm_counts, steps),            offsetof(dm_counts, force_evals),
-    offsetof(dm_counts, velocity_evals),   offsetof(dm_counts, rhs_evals),
-    offsetof(dm_counts, jac_evals),        offsetof(dm_counts, error_test_fails),
-    offsetof(dm_counts, conv_fails),       offsetof(dm_counts, nonlin_iters),
-    offsetof(dm_counts, max_iters_in_step),
-};
+/* Every field of dm_run_metrics is a figure of the list or one of dm_counts (each of
+ * which has its row, figures.c checks), so a new field cannot be left behind here. */
+#define FIGURE_BYTES_metrics(size) +(size)
+#define FIGURE_BYTES_counts(size)
+#define FIGURE_BYTES_result(size)
+#define FIGURE_BYTES_crossings(size)
+#define PLUS_METRICS_BYTES(name, kind, home, in, width, column, format, meaning)           \
+    FIGURE_BYTES_##home(sizeof(((dm_run_result *)0)->DM_FIGURE_PATH_##home(name)))
+_Static_assert(sizeof(dm_run_metrics) ==
+                   0 DM_RUN_FIGURES(PLUS_METRICS_BYTES) + sizeof(dm_counts),
+               "dm_run_metrics has a field outside DM_RUN_FIGURES: pack it here");
 
 /* ---- the cursor: writes (buf != NULL), measures (buf == NULL) or reads ---- */
 
@@ -99,6 +73,42 @@ static void put_array(cursor *c, const double *a, size_t n)
         put(c, a, n * sizeof(double));
 }
 
+/* The rule's number: 0 for none, k for dm_energy_scale_rules[k - 1]. */
+static uint8_t rule_number(const char *rule)
+{
+    for (size_t k = 0; rule != NULL && dm_energy_scale_rules[k] != NULL; k++)
+        if (strcmp(rule, dm_energy_scale_rules[k]) == 0)
+            return (uint8_t)(k + 1);
+    return 0;
+}
+
+static void put_figures(cursor *c, const dm_run_result *r)
+{
+    for (size_t i = 0; i < dm_n_run_figures; i++) {
+        const dm_figure *f = &dm_run_figures[i];
+        const char *at = (const char *)r + f->at;
+        switch (f->kind) {
+        case DM_FIGURE_STATUS: {
+            int32_t status = (int32_t)*(const dm_run_status *)(const void *)at;
+            put(c, &status, sizeof status);
+            break;
+        }
+        case DM_FIGURE_TEXT: {
+            size_t len = strnlen(at, f->size - 1);
+            put_u32(c, (uint32_t)len);
+            put(c, at, len);
+            break;
+        }
+        case DM_FIGURE_RULE: {
+            uint8_t rule = rule_number(*(const char *const *)(const void *)at);
+            put(c, &rule, 1);
+            break;
+        }
+        default: put(c, at, f->size); break; /* REAL, COUNT, PER_INVARIANT: as in memory */
+        }
+    }
+}
+
 static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_run_result *r)
 {
     put(c, PACK_MAGIC, 4);
@@ -107,24 +117,7 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
     put_u64(c, (uint64_t)index);
     put(c, suite->runs[index].hash, DM_HASH_HEX);
 
-    int32_t status = (int32_t)r->status;
-    put(c, &status, sizeof status);
-    size_t reason_len = strnlen(r->reason, sizeof r->reason - 1);
-    put_u32(c, (uint32_t)reason_len);
-    put(c, r->reason, reason_len);
-
-    const dm_run_metrics *m = &r->metrics;
-    uint8_t rule = 0; /* 0: none, k: energy_scale_rules[k - 1] */
-    for (size_t k = 0; k < N_RULES; k++)
-        if (m->energy_scale_rule != NULL && strcmp(m->energy_scale_rule, energy_scale_rules[k]) == 0)
-            rule = (uint8_t)(k + 1);
-    put(c, &rule, 1);
-    for (size_t k = 0; k < sizeof metric_doubles / sizeof metric_doubles[0]; k++)
-        put(c, (const char *)m + metric_doubles[k], sizeof(double));
-    put(c, m->max_invariant_error, sizeof m->max_invariant_error);
-    put_u64(c, m->steps);
-    for (size_t k = 0; k < sizeof count_fields / sizeof count_fields[0]; k++)
-        put(c, (const char *)&m->counts + count_fields[k], sizeof(uint64_t));
+    put_figures(c, r);
 
     const dm_series *s = &r->series;
     put_u64(c, (uint64_t)s->n);
@@ -140,8 +133,6 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
 
     const dm_crossings *x = &r->crossings;
     put_u64(c, (uint64_t)x->n);
-    put_u64(c, x->stride);
-    put_u64(c, x->total);
     put_array(c, x->number, x->n);
     put_array(c, x->time, x->n);
     put_array(c, x->phase_error, x->n);
@@ -196,19 +187,19 @@ static bool get_array(cursor *c, size_t n, size_t capacity, double **out, bool *
     return get(c, a, n * sizeof(double));
 }
 
-dm_status dm_result_unpack(const dm_suite *suite, const unsigned char *buf, size_t size,
-                           size_t *index, dm_run_result *r, dm_error *err)
+/* The header: ours, this byte order and layout, a run of `suite` under the same
+ * configuration. Sets *spec. */
+static dm_status get_header(cursor *c, const dm_suite *suite, const dm_run_spec **spec,
+                            dm_error *err)
 {
-    memset(r, 0, sizeof *r);
-    cursor c = { .in = buf, .size = size };
     char magic[4];
     uint32_t version = 0, order = 0;
     uint64_t idx = 0;
     char hash[DM_HASH_HEX];
-    if (!get(&c, magic, 4) || memcmp(magic, PACK_MAGIC, 4) != 0 || !get(&c, &version, 4) ||
-        !get(&c, &order, 4))
+    if (!get(c, magic, 4) || memcmp(magic, PACK_MAGIC, 4) != 0 || !get(c, &version, 4) ||
+        !get(c, &order, 4))
         return dm_error_set(err, DM_EIO, "a packed result of %zu bytes is not one (no header)",
-                            size);
+                            c->size);
     if (order != PACK_BYTE_ORDER)
         return dm_error_set(err, DM_EIO, "a packed result comes from a machine of another "
                             "byte order (ranks must run on one kind of machine)");
@@ -216,95 +207,140 @@ dm_status dm_result_unpack(const dm_suite *suite, const unsigned char *buf, size
         return dm_error_set(err, DM_EIO, "a packed result has layout version %u, this "
                             "driftmark reads %u (ranks must run one driftmark)",
                             (unsigned)version, PACK_VERSION);
-    if (!get(&c, &idx, sizeof idx) || !get(&c, hash, sizeof hash))
+    if (!get(c, &idx, sizeof idx) || !get(c, hash, sizeof hash))
         return dm_error_set(err, DM_EIO, "a packed result is truncated in its header");
     if (idx >= suite->n_runs)
         return dm_error_set(err, DM_EIO, "a packed result names run %llu of a suite of %zu",
                             (unsigned long long)idx, suite->n_runs);
-    const dm_run_spec *spec = &suite->runs[idx];
-    if (hash[DM_HASH_HEX - 1] != '\0' || strcmp(hash, spec->hash) != 0)
+    *spec = &suite->runs[idx];
+    if (hash[DM_HASH_HEX - 1] != '\0' || strcmp(hash, (*spec)->hash) != 0)
         return dm_error_set(err, DM_EIO, "a packed result of run %s has another configuration "
-                            "hash than this suite's (ranks must run one suite)", spec->id);
+                            "hash than this suite's (ranks must run one suite)", (*spec)->id);
+    return DM_OK;
+}
 
-    dm_status st = DM_EIO;
-    const char *what = "its outcome";
-    bool nomem = false;
-    int32_t status;
-    uint32_t reason_len;
-    if (!get(&c, &status, sizeof status) || !get(&c, &reason_len, sizeof reason_len))
-        goto bad;
-    if (status < DM_RUN_NOT_RUN || status > DM_RUN_INTERRUPTED ||
-        reason_len >= sizeof r->reason) {
-        c.short_read = false;
-        goto bad;
+/* The figures, each checked where it can be wrong; returns false at the first one that
+ * is short or out of range, named in *what. */
+static bool get_figures(cursor *c, dm_run_result *r, const char **what)
+{
+    for (size_t i = 0; i < dm_n_run_figures; i++) {
+        const dm_figure *f = &dm_run_figures[i];
+        char *at = (char *)r + f->at;
+        *what = f->name;
+        switch (f->kind) {
+        case DM_FIGURE_STATUS: {
+            int32_t status;
+            if (!get(c, &status, sizeof status))
+                return false;
+            if (status < DM_RUN_NOT_RUN || status > DM_RUN_INTERRUPTED)
+                return false;
+            *(dm_run_status *)(void *)at = (dm_run_status)status;
+            break;
+        }
+        case DM_FIGURE_TEXT: {
+            uint32_t len;
+            if (!get(c, &len, sizeof len))
+                return false;
+            if (len >= f->size || !get(c, at, len))
+                return false;
+            at[len] = '\0';
+            break;
+        }
+        case DM_FIGURE_RULE: {
+            uint8_t rule;
+            if (!get(c, &rule, 1))
+                return false;
+            size_t n_rules = 0;
+            while (dm_energy_scale_rules[n_rules] != NULL)
+                n_rules++;
+            if (rule > n_rules)
+                return false;
+            *(const char **)(void *)at = rule == 0 ? NULL : dm_energy_scale_rules[rule - 1];
+            break;
+        }
+        default:
+            if (!get(c, at, f->size))
+                return false;
+            break;
+        }
     }
-    r->status = (dm_run_status)status;
-    if (!get(&c, r->reason, reason_len))
-        goto bad;
-    r->reason[reason_len] = '\0';
+    return true;
+}
 
-    what = "its metrics";
-    dm_run_metrics *m = &r->metrics;
-    uint8_t rule;
-    if (!get(&c, &rule, 1) || rule > N_RULES)
-        goto bad;
-    m->energy_scale_rule = rule == 0 ? NULL : energy_scale_rules[rule - 1];
-    for (size_t k = 0; k < sizeof metric_doubles / sizeof metric_doubles[0]; k++)
-        get(&c, (char *)m + metric_doubles[k], sizeof(double));
-    get(&c, m->max_invariant_error, sizeof m->max_invariant_error);
-    get(&c, &m->steps, sizeof m->steps);
-    for (size_t k = 0; k < sizeof count_fields / sizeof count_fields[0]; k++)
-        get(&c, (char *)&m->counts + count_fields[k], sizeof(uint64_t));
-    if (c.short_read)
-        goto bad;
-
-    /* capacities as the runner allocates them, so the result is indistinguishable */
-    what = "its series";
-    dm_series *s = &r->series;
+/* The series, in blocks of the capacity the runner allocates, so the result is
+ * indistinguishable from one computed here. */
+static bool get_series(cursor *c, const dm_run_spec *spec, dm_series *s, bool *nomem)
+{
     uint64_t n;
     int32_t n_inv;
-    if (!get(&c, &n, sizeof n) || !get(&c, &n_inv, sizeof n_inv))
-        goto bad;
+    if (!get(c, &n, sizeof n) || !get(c, &n_inv, sizeof n_inv))
+        return false;
     if (n > spec->samples || n_inv < 0 || n_inv > DM_MAX_INVARIANTS)
-        goto bad;
+        return false;
     s->n = (size_t)n;
     s->capacity = spec->samples;
     s->n_invariants = n_inv;
-    if (!get_array(&c, s->n, s->capacity, &s->time, &nomem) ||
-        !get_array(&c, s->n, s->capacity, &s->energy_error, &nomem) ||
-        !get_array(&c, s->n, s->capacity, &s->energy_error_min, &nomem) ||
-        !get_array(&c, s->n, s->capacity, &s->energy_error_max, &nomem) ||
-        !get_array(&c, s->n, s->capacity, &s->global_error, &nomem))
-        goto bad;
+    if (!get_array(c, s->n, s->capacity, &s->time, nomem) ||
+        !get_array(c, s->n, s->capacity, &s->energy_error, nomem) ||
+        !get_array(c, s->n, s->capacity, &s->energy_error_min, nomem) ||
+        !get_array(c, s->n, s->capacity, &s->energy_error_max, nomem) ||
+        !get_array(c, s->n, s->capacity, &s->global_error, nomem))
+        return false;
     for (int i = 0; i < n_inv; i++)
-        if (!get_array(&c, s->n, s->capacity, &s->invariant_error[i], &nomem))
-            goto bad;
+        if (!get_array(c, s->n, s->capacity, &s->invariant_error[i], nomem))
+            return false;
+    return true;
+}
 
-    what = "its crossings";
-    dm_crossings *x = &r->crossings;
+static bool get_crossings(cursor *c, const dm_run_spec *spec, dm_crossings *x, bool *nomem)
+{
+    uint64_t n;
     x->capacity = spec->samples < 64 ? 64 : spec->samples;
-    if (!get(&c, &n, sizeof n) || !get(&c, &x->stride, sizeof x->stride) ||
-        !get(&c, &x->total, sizeof x->total))
-        goto bad;
-    if (n > x->capacity)
-        goto bad;
+    if (!get(c, &n, sizeof n) || n > x->capacity)
+        return false;
     x->n = (size_t)n;
-    if (!get_array(&c, x->n, x->capacity, &x->number, &nomem) ||
-        !get_array(&c, x->n, x->capacity, &x->time, &nomem) ||
-        !get_array(&c, x->n, x->capacity, &x->phase_error, &nomem))
-        goto bad;
-    if (c.at != size) {
-        what = "its end (bytes left over)";
-        goto bad;
-    }
-    *index = (size_t)idx;
-    return DM_OK;
+    return get_array(c, x->n, x->capacity, &x->number, nomem) &&
+           get_array(c, x->n, x->capacity, &x->time, nomem) &&
+           get_array(c, x->n, x->capacity, &x->phase_error, nomem);
+}
 
-bad:
+dm_status dm_result_unpack(const dm_suite *suite, const unsigned char *buf, size_t size,
+                           size_t *index, dm_run_result *r, dm_error *err)
+{
+    memset(r, 0, sizeof *r);
+    cursor c = { .in = buf, .size = size };
+    const dm_run_spec *spec = NULL;
+    dm_status st = get_header(&c, suite, &spec, err);
+    if (st != DM_OK)
+        return st;
+    const char *what = "";
+    char figure[DM_NAME_MAX];
+    bool nomem = false;
+    bool ok = get_figures(&c, r, &what);
+    if (!ok) {
+        snprintf(figure, sizeof figure, "its figure %s", what);
+        what = figure;
+    }
+    if (ok) {
+        what = "its series";
+        ok = get_series(&c, spec, &r->series, &nomem);
+    }
+    if (ok) {
+        what = "its crossings";
+        ok = get_crossings(&c, spec, &r->crossings, &nomem);
+    }
+    if (ok && c.at != size) {
+        what = "its end (bytes left over)";
+        ok = false;
+    }
+    if (ok) {
+        *index = (size_t)(spec - suite->runs);
+        return DM_OK;
+    }
     dm_run_result_free(r);
     if (nomem)
         return dm_error_set(err, DM_ENOMEM, "out of memory unpacking the result of run %s",
                             spec->id);
-    return dm_error_set(err, st, "the packed result of run %s is damaged in %s%s", spec->id,
+    return dm_error_set(err, DM_EIO, "the packed result of run %s is damaged in %s%s", spec->id,
                         what, c.short_read ? " (truncated)" : "");
 }

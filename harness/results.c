@@ -198,59 +198,51 @@ static int dataset_strings(hid_t loc, const char *name, const char *const *items
 
 /* ---- /summary ---- */
 
-typedef struct summary_field {
-    const char *name;
-    size_t offset;
-    int kind;          /* 's' string (size bytes), 'i' int, 'u' uint64, 'd' double */
-    size_t size;
-} summary_field;
+/* Bytes of a /summary field in the file: texts as wide as the list says, int32, and
+ * 8-byte counts and reals. */
+static size_t summary_bytes(const dm_figure *f)
+{
+    switch (f->kind) {
+    case DM_FIGURE_STATUS:
+    case DM_FIGURE_TEXT: return f->width;
+    case DM_FIGURE_INT: return 4;
+    default: return 8;
+    }
+}
 
-#define S_FIELD(f) { #f, offsetof(dm_summary_row, f), 's', sizeof(((dm_summary_row *)0)->f) }
-#define N_FIELD(f, k) { #f, offsetof(dm_summary_row, f), k, sizeof(((dm_summary_row *)0)->f) }
-
-static const summary_field summary_fields[] = {
-    S_FIELD(run_id), S_FIELD(hash), S_FIELD(problem), S_FIELD(regime), S_FIELD(method),
-    N_FIELD(order, 'i'), N_FIELD(h, 'd'), N_FIELD(rtol, 'd'), N_FIELD(steps, 'u'),
-    N_FIELD(force_evals, 'u'), N_FIELD(max_energy_error, 'd'),
-    N_FIELD(final_energy_error, 'd'), N_FIELD(energy_drift_per_period, 'd'),
-    N_FIELD(drift_exponent, 'd'), N_FIELD(period_exact, 'd'), N_FIELD(period_measured, 'd'),
-    N_FIELD(period_rel_error, 'd'), N_FIELD(phase_error_per_period, 'd'),
-    N_FIELD(phase_error_final, 'd'), N_FIELD(wall_seconds, 'd'), N_FIELD(ns_per_step, 'd'),
-    S_FIELD(status), S_FIELD(reason),
-};
-static const size_t n_summary_fields = sizeof summary_fields / sizeof summary_fields[0];
-
-/* The compound type of one summary row: in memory (the C struct's layout, native
- * numbers) or in the file (packed, little-endian). */
+/* The compound type of one summary row, its columns those of dm_summary_columns: in
+ * memory (the C struct's layout, native numbers) or in the file (packed, little-endian). */
 static hid_t summary_type(bool in_file)
 {
+    const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+    const size_t n_cols = dm_summary_columns(cols);
     size_t total = 0;
-    for (size_t i = 0; i < n_summary_fields; i++)
-        total += summary_fields[i].kind == 's' ? summary_fields[i].size
-                 : summary_fields[i].kind == 'i' ? 4 : 8;
+    for (size_t i = 0; i < n_cols; i++)
+        total += summary_bytes(cols[i]);
     hid_t t = H5Tcreate(H5T_COMPOUND, in_file ? total : sizeof(dm_summary_row));
     if (t < 0)
         return -1;
     size_t offset = 0;
-    for (size_t i = 0; i < n_summary_fields; i++) {
-        const summary_field *f = &summary_fields[i];
+    for (size_t i = 0; i < n_cols; i++) {
+        const dm_figure *f = cols[i];
         hid_t member;
         bool owned = false;
         switch (f->kind) {
-        case 's': member = fixed_string_type(f->size); owned = true; break;
-        case 'i': member = in_file ? H5T_STD_I32LE : H5T_NATIVE_INT; break;
-        case 'u': member = in_file ? H5T_STD_U64LE : H5T_NATIVE_UINT64; break;
+        case DM_FIGURE_STATUS:
+        case DM_FIGURE_TEXT: member = fixed_string_type(f->width); owned = true; break;
+        case DM_FIGURE_INT: member = in_file ? H5T_STD_I32LE : H5T_NATIVE_INT; break;
+        case DM_FIGURE_COUNT: member = in_file ? H5T_STD_U64LE : H5T_NATIVE_UINT64; break;
         default: member = in_file ? H5T_IEEE_F64LE : H5T_NATIVE_DOUBLE; break;
         }
         herr_t rc = member < 0 ? -1
-                               : H5Tinsert(t, f->name, in_file ? offset : f->offset, member);
+                               : H5Tinsert(t, f->name, in_file ? offset : f->row_at, member);
         if (owned && member >= 0)
             H5Tclose(member);
         if (rc < 0) {
             H5Tclose(t);
             return -1;
         }
-        offset += f->kind == 's' ? f->size : f->kind == 'i' ? 4 : 8;
+        offset += summary_bytes(f);
     }
     return t;
 }
@@ -327,18 +319,19 @@ static void safe_name(const char *in, char *out, size_t size)
         snprintf(out, size, "_");
 }
 
-static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
-                     const dm_run_result *res)
+/* The extra invariants' names, as the datasets and attributes are named. */
+static const char *invariant_name(const dm_problem *pr, int i)
 {
-    char gname[DM_RUN_ID_MAX];
-    safe_name(spec->id, gname, sizeof gname);
-    hid_t g = H5Gcreate2(runs, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
-    if (g < 0)
-        return -1;
+    return i < pr->n_invariants && pr->invariant_names[i] ? pr->invariant_names[i]
+                                                          : "invariant";
+}
+
+/* What the run was: its problem, its method, its horizon. */
+static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_spec *spec)
+{
     const dm_instance *inst = &spec->inst;
     const dm_problem *pr = inst->problem;
     const dm_method *m = spec->method;
-    const dm_run_metrics *mt = &res->metrics;
     bool adaptive = m->adaptive;
     int rc = 0;
 
@@ -387,43 +380,51 @@ static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
     rc |= attr_text(g, "sweep", spec->sweep >= 0 && (size_t)spec->sweep < suite->n_sweeps
                                     ? suite->sweeps[spec->sweep].name
                                     : "");
-    dm_summary_row row;
-    dm_summary_row_fill(&row, spec, res);
-    rc |= attr_text(g, "status", row.status);
-    rc |= attr_text(g, "reason", res->reason);
+    return rc;
+}
 
-    /* metrics */
-    rc |= attr_double(g, "energy_scale", mt->energy_scale);
-    rc |= attr_text(g, "energy_scale_rule", mt->energy_scale_rule ? mt->energy_scale_rule : "");
-    rc |= attr_double(g, "max_energy_error", mt->max_energy_error);
-    rc |= attr_double(g, "final_energy_error", mt->final_energy_error);
-    rc |= attr_double(g, "energy_drift_per_period", mt->energy_drift_per_period);
-    rc |= attr_double(g, "drift_exponent", mt->drift_exponent);
-    rc |= attr_double(g, "period_exact", mt->period_exact);
-    rc |= attr_double(g, "period_measured", mt->period_measured);
-    rc |= attr_double(g, "period_rel_error", mt->period_rel_error);
-    rc |= attr_double(g, "phase_error_per_period", mt->phase_error_per_period);
-    rc |= attr_double(g, "phase_error_final", mt->phase_error_final);
-    rc |= attr_double(g, "max_global_error", mt->max_global_error);
-    rc |= attr_double(g, "t_reached", mt->t_reached);
-    rc |= attr_double(g, "wall_seconds", mt->wall_seconds);
-    rc |= attr_double(g, "ns_per_step", mt->ns_per_step);
-    rc |= attr_u64(g, "crossings_total", res->crossings.total);
-    rc |= attr_u64(g, "crossings_stride", res->crossings.stride);
+/* The figure f of result r as type T. */
+#define FIGURE_OF(f, r, T) (*(const T *)(const void *)((const char *)(r) + (f)->at))
+#define FIGURE_AT(f, r, T) (*(T *)(void *)((char *)(r) + (f)->at))
 
-    /* work counted by the method: every dm_counts field */
-    const dm_counts *k = &mt->counts;
-    rc |= attr_u64(g, "steps", k->steps);
-    rc |= attr_u64(g, "force_evals", k->force_evals);
-    rc |= attr_u64(g, "velocity_evals", k->velocity_evals);
-    rc |= attr_u64(g, "rhs_evals", k->rhs_evals);
-    rc |= attr_u64(g, "jac_evals", k->jac_evals);
-    rc |= attr_u64(g, "error_test_fails", k->error_test_fails);
-    rc |= attr_u64(g, "conv_fails", k->conv_fails);
-    rc |= attr_u64(g, "nonlin_iters", k->nonlin_iters);
-    rc |= attr_u64(g, "max_iters_in_step", k->max_iters_in_step);
+/* What the run measured: an attribute for every figure of DM_RUN_FIGURES kept in
+ * /runs/<id>, in list order. */
+static int write_run_figures(hid_t g, const dm_run_spec *spec, const dm_run_result *res)
+{
+    const dm_problem *pr = spec->inst.problem;
+    int rc = 0;
+    for (size_t i = 0; i < dm_n_run_figures; i++) {
+        const dm_figure *f = &dm_run_figures[i];
+        if (!(f->in & DM_FIGURE_IN_RUN))
+            continue;
+        switch (f->kind) {
+        case DM_FIGURE_REAL: rc |= attr_double(g, f->name, FIGURE_OF(f, res, double)); break;
+        case DM_FIGURE_COUNT: rc |= attr_u64(g, f->name, FIGURE_OF(f, res, uint64_t)); break;
+        case DM_FIGURE_STATUS:
+            rc |= attr_text(g, f->name, dm_run_status_name(FIGURE_OF(f, res, dm_run_status)));
+            break;
+        case DM_FIGURE_TEXT: rc |= attr_text(g, f->name, (const char *)res + f->at); break;
+        case DM_FIGURE_RULE: rc |= attr_text(g, f->name, FIGURE_OF(f, res, const char *)); break;
+        case DM_FIGURE_PER_INVARIANT:
+            for (int k = 0; k < res->series.n_invariants && k < DM_MAX_INVARIANTS; k++) {
+                if (res->series.invariant_error[k] == NULL)
+                    continue;
+                char raw[96], aname[96];
+                dm_figure_invariant_name(raw, sizeof raw, invariant_name(pr, k));
+                safe_name(raw, aname, sizeof aname);
+                rc |= attr_double(g, aname, (&FIGURE_OF(f, res, double))[k]);
+            }
+            break;
+        case DM_FIGURE_INT: rc = -1; break; /* only in DM_SUMMARY_RUN_FIELDS */
+        }
+    }
+    return rc;
+}
 
-    /* series and crossings */
+/* The stored series and the kept crossings. */
+static int write_run_series(hid_t g, const dm_problem *pr, const dm_run_result *res)
+{
+    int rc = 0;
     const dm_series *s = &res->series;
     rc |= dataset_double(g, "time", s->time, s->n);
     rc |= dataset_double(g, "energy_error", s->energy_error, s->n);
@@ -434,22 +435,29 @@ static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
     for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++) {
         if (s->invariant_error[i] == NULL)
             continue;
-        const char *inv = i < pr->n_invariants && pr->invariant_names[i]
-                              ? pr->invariant_names[i]
-                              : "invariant";
         char raw[96], dname[96];
-        snprintf(raw, sizeof raw, "%s_error", inv);
+        snprintf(raw, sizeof raw, "%s_error", invariant_name(pr, i));
         safe_name(raw, dname, sizeof dname);
         rc |= dataset_double(g, dname, s->invariant_error[i], s->n);
-        snprintf(raw, sizeof raw, "max_%s_error", inv);
-        safe_name(raw, dname, sizeof dname);
-        rc |= attr_double(g, dname, mt->max_invariant_error[i]);
     }
     const dm_crossings *c = &res->crossings;
     rc |= dataset_double(g, "crossing_number", c->number, c->n);
     rc |= dataset_double(g, "crossing_time", c->time, c->n);
     rc |= dataset_double(g, "phase_error", c->phase_error, c->n);
+    return rc;
+}
 
+static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
+                     const dm_run_result *res)
+{
+    char gname[DM_RUN_ID_MAX];
+    safe_name(spec->id, gname, sizeof gname);
+    hid_t g = H5Gcreate2(runs, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0)
+        return -1;
+    int rc = write_run_description(g, suite, spec);
+    rc |= write_run_figures(g, spec, res);
+    rc |= write_run_series(g, spec->inst.problem, res);
     if (H5Gclose(g) < 0)
         rc = -1;
     return rc;
@@ -557,25 +565,14 @@ static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_resul
     return DM_OK;
 }
 
-dm_status dm_results_write(const char *path, const dm_suite *suite,
-                           const dm_run_result *results, const dm_sweep_fit *fits,
-                           const char *start_time_utc, dm_error *err)
+/* The file built in memory (HDF5's core driver, no backing store) and handed back as
+ * one malloc'd image: HDF5 never meets a failing disk, whose errors (a full disk, a
+ * size limit) leave HDF5 1.10 with a half-closed file that crashes it at exit. */
+static dm_status build_image(const char *path, const char *tmp, const dm_suite *suite,
+                             const dm_run_result *results, const dm_sweep_fit *fits,
+                             const char *start_time_utc, void **image, size_t *image_size,
+                             dm_error *err)
 {
-    /* ".NAME.tmp-PID" in the target's directory: rename() is atomic only within one
-     * file system, and the dot keeps it out of plain listings. */
-    char tmp[1200];
-    const char *slash = strrchr(path, '/');
-    const char *base = slash ? slash + 1 : path;
-    int dir_len = slash ? (int)(slash - path + 1) : 0;
-    if (*base == '\0')
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name", path);
-    int w = snprintf(tmp, sizeof tmp, "%.*s.%s.tmp-%ld", dir_len, path, base, (long)getpid());
-    if (w < 0 || (size_t)w >= sizeof tmp)
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': path too long", path);
-
-    /* The file is built in memory (HDF5's core driver, no backing store) and written
-     * out by us: HDF5 never meets a failing disk, whose errors (a full disk, a size
-     * limit) leave HDF5 1.10 with a half-closed file that crashes it at exit. */
     quiet_hdf5 q;
     hdf5_quiet(&q);
     hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
@@ -596,39 +593,44 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
     }
     const char *what = "";
     dm_status st = write_all(file, suite, results, fits, start_time_utc, &what);
-    void *image = NULL;
+    void *bytes = NULL;
     ssize_t size = -1;
     if (st == DM_OK && H5Fflush(file, H5F_SCOPE_GLOBAL) >= 0)
         size = H5Fget_file_image(file, NULL, 0);
-    if (st == DM_OK && size > 0 && (image = malloc((size_t)size)) != NULL &&
-        H5Fget_file_image(file, image, (size_t)size) != size) {
-        free(image);
-        image = NULL;
+    if (st == DM_OK && size > 0 && (bytes = malloc((size_t)size)) != NULL &&
+        H5Fget_file_image(file, bytes, (size_t)size) != size) {
+        free(bytes);
+        bytes = NULL;
     }
-    if (st == DM_OK && image == NULL) {
+    if (st == DM_OK && bytes == NULL) {
         st = size > 0 ? DM_ENOMEM : DM_EIO;
         what = "the file image";
     }
     H5Fclose(file);
     hdf5_restore(&q);
-    if (st != DM_OK) {
-        free(image);
-        if (st == DM_ENOMEM)
-            return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+    if (st == DM_ENOMEM)
+        return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+    if (st != DM_OK)
         return dm_error_set(err, DM_EIO, "cannot write results to '%s': building %s failed",
                             path, what);
-    }
+    *image = bytes;
+    *image_size = (size_t)size;
+    return DM_OK;
+}
 
-    /* Beside the target, then renamed over it: a results file is complete or absent. */
+/* The image written to `tmp`, synced, and renamed over `path`: a results file is
+ * complete or absent. */
+static dm_status write_image(const char *path, const char *tmp, const void *image,
+                             size_t size, dm_error *err)
+{
     int fd = open(tmp, O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
     if (fd < 0) {
         int e = errno;
-        free(image);
         return dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", tmp,
                             strerror(e));
     }
     const char *bytes = image;
-    size_t left = (size_t)size;
+    size_t left = size;
     int write_errno = 0;
     while (left > 0) {
         ssize_t n = write(fd, bytes, left);
@@ -641,14 +643,13 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
         bytes += n;
         left -= (size_t)n;
     }
-    free(image);
     if (write_errno == 0 && fsync(fd) != 0)
         write_errno = errno;
     if (close(fd) != 0 && write_errno == 0)
         write_errno = errno;
     if (write_errno != 0) {
         unlink(tmp);
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': %s (%zd bytes)", path,
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': %s (%zu bytes)", path,
                             strerror(write_errno), size);
     }
     if (rename(tmp, path) != 0) {
@@ -658,6 +659,31 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
                             "failed: %s", path, tmp, strerror(e));
     }
     return DM_OK;
+}
+
+dm_status dm_results_write(const char *path, const dm_suite *suite,
+                           const dm_run_result *results, const dm_sweep_fit *fits,
+                           const char *start_time_utc, dm_error *err)
+{
+    /* ".NAME.tmp-PID" in the target's directory: rename() is atomic only within one
+     * file system, and the dot keeps it out of plain listings. */
+    char tmp[1200];
+    const char *slash = strrchr(path, '/');
+    const char *base = slash ? slash + 1 : path;
+    int dir_len = slash ? (int)(slash - path + 1) : 0;
+    if (*base == '\0')
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name", path);
+    int w = snprintf(tmp, sizeof tmp, "%.*s.%s.tmp-%ld", dir_len, path, base, (long)getpid());
+    if (w < 0 || (size_t)w >= sizeof tmp)
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': path too long", path);
+    void *image = NULL;
+    size_t size = 0;
+    dm_status st = build_image(path, tmp, suite, results, fits, start_time_utc, &image, &size,
+                               err);
+    if (st == DM_OK)
+        st = write_image(path, tmp, image, size, err);
+    free(image);
+    return st;
 }
 
 /* ---- reading /summary back ---- */
@@ -727,6 +753,20 @@ static int read_int_attr(hid_t loc, const char *name, long long *out)
     return rc;
 }
 
+/* A real figure that a file from before it existed lacks reads as not measured (NaN):
+ * HDF5 leaves the fields the file does not have as they were. */
+static void mark_unmeasured(hid_t file_type, dm_summary_row *rows, size_t n)
+{
+    const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+    const size_t n_cols = dm_summary_columns(cols);
+    for (size_t j = 0; j < n_cols; j++) {
+        if (cols[j]->kind != DM_FIGURE_REAL || H5Tget_member_index(file_type, cols[j]->name) >= 0)
+            continue;
+        for (size_t i = 0; i < n; i++)
+            *(double *)(void *)((char *)&rows[i] + cols[j]->row_at) = NAN;
+    }
+}
+
 static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
                                    size_t *n, dm_error *err)
 {
@@ -758,6 +798,8 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
         st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is not a table of runs", path);
     } else {
         dm_summary_row *buf = calloc(count > 0 ? (size_t)count : 1, sizeof *buf);
+        if (buf != NULL)
+            mark_unmeasured(ft, buf, (size_t)count);
         if (buf == NULL) {
             st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
         } else if (count > 0 && H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) < 0) {
@@ -765,16 +807,13 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
             st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is damaged or truncated",
                               path);
         } else {
-            for (hssize_t i = 0; i < count; i++) {
-                /* Never trust a file's strings to be terminated. */
-                buf[i].run_id[sizeof buf[i].run_id - 1] = '\0';
-                buf[i].hash[sizeof buf[i].hash - 1] = '\0';
-                buf[i].problem[sizeof buf[i].problem - 1] = '\0';
-                buf[i].regime[sizeof buf[i].regime - 1] = '\0';
-                buf[i].method[sizeof buf[i].method - 1] = '\0';
-                buf[i].status[sizeof buf[i].status - 1] = '\0';
-                buf[i].reason[sizeof buf[i].reason - 1] = '\0';
-            }
+            /* Never trust a file's strings to be terminated. */
+            const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+            const size_t n_cols = dm_summary_columns(cols);
+            for (hssize_t i = 0; i < count; i++)
+                for (size_t j = 0; j < n_cols; j++)
+                    if (cols[j]->kind == DM_FIGURE_TEXT || cols[j]->kind == DM_FIGURE_STATUS)
+                        ((char *)&buf[i] + cols[j]->row_at)[cols[j]->width - 1] = '\0';
             *rows = buf;
             *n = (size_t)count;
         }
@@ -877,55 +916,77 @@ static dm_run_status status_from_name(const char *name)
     return DM_RUN_NOT_RUN;
 }
 
+/* A figure kept only in /summary back from the run's row. */
+static int figure_from_row(const dm_figure *f, const dm_summary_row *row, dm_run_result *r)
+{
+    const char *at = (const char *)row + f->row_at;
+    switch (f->kind) {
+    case DM_FIGURE_REAL:
+    case DM_FIGURE_COUNT: memcpy((char *)r + f->at, at, f->size); return 0;
+    case DM_FIGURE_STATUS: FIGURE_AT(f, r, dm_run_status) = status_from_name(at); return 0;
+    case DM_FIGURE_TEXT: snprintf((char *)r + f->at, f->size, "%s", at); return 0;
+    default: return -1; /* never in /summary */
+    }
+}
+
+/* The figures of one run's group back into a result: those kept in the group from its
+ * attributes, those kept only in /summary (the harness's step count) from its row. */
+static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
+                            dm_run_result *r)
+{
+    const dm_problem *pr = spec->inst.problem;
+    int rc = 0;
+    for (size_t i = 0; i < dm_n_run_figures; i++) {
+        const dm_figure *f = &dm_run_figures[i];
+        if (!(f->in & DM_FIGURE_IN_RUN)) {
+            rc |= figure_from_row(f, row, r);
+            continue;
+        }
+        char text[DM_ERROR_MSG_MAX] = "";
+        switch (f->kind) {
+        case DM_FIGURE_REAL:
+            /* one a file from before it existed lacks was not measured */
+            FIGURE_AT(f, r, double) = NAN;
+            if (H5Aexists(g, f->name) != 0)
+                rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double));
+            break;
+        case DM_FIGURE_COUNT: rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t)); break;
+        case DM_FIGURE_STATUS:
+            rc |= read_text_attr(g, f->name, text, sizeof text);
+            FIGURE_AT(f, r, dm_run_status) = status_from_name(text);
+            break;
+        case DM_FIGURE_TEXT: rc |= read_text_attr(g, f->name, (char *)r + f->at, f->size); break;
+        case DM_FIGURE_RULE:
+            /* the rule is one of the runner's fixed strings (none when empty) */
+            rc |= read_text_attr(g, f->name, text, sizeof text);
+            FIGURE_AT(f, r, const char *) = dm_energy_scale_rule_named(text);
+            break;
+        case DM_FIGURE_PER_INVARIANT: {
+            double *v = &FIGURE_AT(f, r, double);
+            for (int k = 0; k < DM_MAX_INVARIANTS; k++)
+                v[k] = NAN;
+            for (int k = 0; pr->invariants != NULL && k < pr->n_invariants; k++) {
+                char raw[96], aname[96];
+                dm_figure_invariant_name(raw, sizeof raw, invariant_name(pr, k));
+                safe_name(raw, aname, sizeof aname);
+                rc |= read_double_attr(g, aname, &v[k]);
+            }
+            break;
+        }
+        case DM_FIGURE_INT: rc = -1; break; /* only in DM_SUMMARY_RUN_FIELDS */
+        }
+    }
+    return rc;
+}
+
 /* One run's group back into a result, exactly as it was written: every double is
  * stored in full, so rewriting it reproduces the datasets bit for bit. */
-static int read_run(hid_t g, const dm_run_spec *spec, dm_run_result *r)
+static int read_run(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
+                    dm_run_result *r)
 {
     memset(r, 0, sizeof *r);
     const dm_problem *pr = spec->inst.problem;
-    dm_run_metrics *mt = &r->metrics;
-    char text[DM_ERROR_MSG_MAX];
-    int rc = 0;
-    rc |= read_text_attr(g, "status", text, sizeof text);
-    r->status = rc == 0 ? status_from_name(text) : DM_RUN_NOT_RUN;
-    rc |= read_text_attr(g, "reason", r->reason, sizeof r->reason);
-    rc |= read_double_attr(g, "energy_scale", &mt->energy_scale);
-    rc |= read_text_attr(g, "energy_scale_rule", text, sizeof text);
-    /* the rule is one of the runner's two static strings */
-    mt->energy_scale_rule = strcmp(text, "H0 - V_min") == 0 ? "H0 - V_min" : "|H0|";
-    static const struct { const char *name; size_t offset; } doubles[] = {
-        { "max_energy_error", offsetof(dm_run_metrics, max_energy_error) },
-        { "final_energy_error", offsetof(dm_run_metrics, final_energy_error) },
-        { "energy_drift_per_period", offsetof(dm_run_metrics, energy_drift_per_period) },
-        { "drift_exponent", offsetof(dm_run_metrics, drift_exponent) },
-        { "period_exact", offsetof(dm_run_metrics, period_exact) },
-        { "period_measured", offsetof(dm_run_metrics, period_measured) },
-        { "period_rel_error", offsetof(dm_run_metrics, period_rel_error) },
-        { "phase_error_per_period", offsetof(dm_run_metrics, phase_error_per_period) },
-        { "phase_error_final", offsetof(dm_run_metrics, phase_error_final) },
-        { "max_global_error", offsetof(dm_run_metrics, max_global_error) },
-        { "t_reached", offsetof(dm_run_metrics, t_reached) },
-        { "wall_seconds", offsetof(dm_run_metrics, wall_seconds) },
-        { "ns_per_step", offsetof(dm_run_metrics, ns_per_step) },
-    };
-    for (size_t i = 0; i < sizeof doubles / sizeof doubles[0]; i++)
-        rc |= read_double_attr(g, doubles[i].name, (double *)((char *)mt + doubles[i].offset));
-    static const struct { const char *name; size_t offset; } counts[] = {
-        { "steps", offsetof(dm_counts, steps) },
-        { "force_evals", offsetof(dm_counts, force_evals) },
-        { "velocity_evals", offsetof(dm_counts, velocity_evals) },
-        { "rhs_evals", offsetof(dm_counts, rhs_evals) },
-        { "jac_evals", offsetof(dm_counts, jac_evals) },
-        { "error_test_fails", offsetof(dm_counts, error_test_fails) },
-        { "conv_fails", offsetof(dm_counts, conv_fails) },
-        { "nonlin_iters", offsetof(dm_counts, nonlin_iters) },
-        { "max_iters_in_step", offsetof(dm_counts, max_iters_in_step) },
-    };
-    for (size_t i = 0; i < sizeof counts / sizeof counts[0]; i++)
-        rc |= read_u64_attr(g, counts[i].name, (uint64_t *)((char *)&mt->counts + counts[i].offset));
-    mt->steps = mt->counts.steps;
-    rc |= read_u64_attr(g, "crossings_total", &r->crossings.total);
-    rc |= read_u64_attr(g, "crossings_stride", &r->crossings.stride);
+    int rc = read_run_figures(g, spec, row, r);
 
     dm_series *s = &r->series;
     size_t cap = spec->samples, n = (size_t)-1;
@@ -938,16 +999,11 @@ static int read_run(hid_t g, const dm_run_spec *spec, dm_run_result *r)
     if (pr->exact != NULL)
         rc |= read_doubles(g, "global_error", &n, cap, &s->global_error);
     s->n_invariants = pr->invariants != NULL ? pr->n_invariants : 0;
-    for (int i = 0; i < DM_MAX_INVARIANTS; i++)
-        mt->max_invariant_error[i] = NAN;
     for (int i = 0; i < s->n_invariants; i++) {
         char raw[96], name[96];
-        snprintf(raw, sizeof raw, "%s_error", pr->invariant_names[i]);
+        snprintf(raw, sizeof raw, "%s_error", invariant_name(pr, i));
         safe_name(raw, name, sizeof name);
         rc |= read_doubles(g, name, &n, cap, &s->invariant_error[i]);
-        snprintf(raw, sizeof raw, "max_%s_error", pr->invariant_names[i]);
-        safe_name(raw, name, sizeof name);
-        rc |= read_double_attr(g, name, &mt->max_invariant_error[i]);
     }
     dm_crossings *c = &r->crossings;
     size_t cc = (size_t)-1, ccap = cap < 64 ? 64 : cap;
@@ -995,7 +1051,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             char gname[DM_RUN_ID_MAX];
             safe_name(spec->id, gname, sizeof gname);
             hid_t g = H5Gopen2(runs, gname, H5P_DEFAULT);
-            if (g < 0 || read_run(g, spec, &results[i]) != 0) {
+            if (g < 0 || read_run(g, spec, &rows[k], &results[i]) != 0) {
                 if (g >= 0)
                     H5Gclose(g);
                 st = dm_error_set(err, DM_EIO, "cannot read %s: run %s is damaged", path,

@@ -382,6 +382,9 @@ static void finish_metrics(run_context *c, double wall)
     m->t_reached = c->cur->t;
     m->wall_seconds = wall;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;
+    m->force_evals_per_period = k > 0 && m->t_reached > 0.0
+                                    ? (double)m->counts.force_evals / (m->t_reached / T)
+                                    : NAN;
     /* No bucket recorded (a failure on the first step): nothing was measured. */
     m->max_energy_error = ser->n > 0 ? c->max_abs : NAN;
     m->final_energy_error = ser->n > 0 ? ser->energy_error[ser->n - 1] : NAN;

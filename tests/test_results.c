@@ -305,8 +305,8 @@ static void runs_that_never_started_are_left_out_of_the_file(void **state)
 }
 
 static const char h5py_check[] =
-    "import sys, h5py, numpy as np\n"
-    "path, suite_text_path, inv = sys.argv[1], sys.argv[2], sys.argv[3]\n"
+    "import re, sys, h5py, numpy as np\n"
+    "path, suite_text_path, inv, readme, inv_problem = sys.argv[1:6]\n"
     "f = h5py.File(path, 'r')\n"
     "a = f.attrs\n"
     "assert a['format'] == 'driftmark-results', a['format']\n"
@@ -322,12 +322,27 @@ static const char h5py_check[] =
     "assert a['suite_text'] == open(suite_text_path).read()\n"
     "assert a['hdf5_version'] == '%d.%d.%d' % h5py.version.hdf5_version_tuple[:3]\n"
     "s = f['summary']\n"
-    "names = ['run_id', 'hash', 'problem', 'regime', 'method', 'order', 'h', 'rtol', 'steps',\n"
-    "         'force_evals', 'max_energy_error', 'final_energy_error',\n"
-    "         'energy_drift_per_period', 'drift_exponent', 'period_exact', 'period_measured',\n"
-    "         'period_rel_error', 'phase_error_per_period', 'phase_error_final',\n"
-    "         'wall_seconds', 'ns_per_step', 'status', 'reason']\n"
-    "assert list(s.dtype.names) == names, s.dtype.names\n"
+    "def doc_table(marker):\n"
+    "    # the rows (name, type) of the README's first table after a line starting marker\n"
+    "    lines = open(readme).read().split('\\n')\n"
+    "    i = next(k for k, l in enumerate(lines) if l.startswith(marker))\n"
+    "    while not lines[i].startswith('|'):\n"
+    "        i += 1\n"
+    "    rows, i = [], i + 2\n"
+    "    while i < len(lines) and lines[i].startswith('|'):\n"
+    "        cells = re.split(r'(?<!\\\\)\\|', lines[i])[1:-1]\n"
+    "        rows.append((cells[0].strip().strip('`'), cells[1].strip()))\n"
+    "        i += 1\n"
+    "    return rows\n"
+    "sizes = {'double': ('f', 8), 'uint64': ('u', 8), 'int32': ('i', 4)}\n"
+    "doc = doc_table('## `/summary`')\n"
+    "assert list(s.dtype.names) == [n for n, t in doc], (s.dtype.names, doc)\n"
+    "for n, t in doc:\n"
+    "    dt = s.dtype.fields[n][0]\n"
+    "    want = ('S', int(t[6:-1])) if t.startswith('text (') else sizes[t]\n"
+    "    assert (dt.kind, dt.itemsize) == want, (n, t, dt)\n"
+    "measured = doc_table('Attributes of what the run measured')\n"
+    "assert ('max_energy_error', 'double') in measured and ('status', 'text') in measured\n"
     "for k in ['run_id', 'hash', 'problem', 'regime', 'method', 'status', 'reason']:\n"
     "    info = h5py.check_string_dtype(s.dtype.fields[k][0])\n"
     "    assert info is not None and info.encoding == 'utf-8', (k, info)\n"
@@ -348,6 +363,16 @@ static const char h5py_check[] =
     "        assert g[d].shape == (2 + i,), (rid, d)\n"
     "    assert g.attrs['run_id'] == rid and g.attrs['hash'] == rows['hash'][i].decode()\n"
     "    assert g.attrs['steps'] == 1000 + i and g.attrs['force_evals'] == 2000 + i\n"
+    "    for name, kind in measured:\n"
+    "        per_inv = '<invariant>' in name\n"
+    "        if per_inv and g.attrs['problem'] != inv_problem:\n"
+    "            continue\n"
+    "        each = [name.replace('<invariant>', x) for x in inv.split(',')]\n"
+    "        for a in each if per_inv else [name]:\n"
+    "            v = g.attrs[a]\n"
+    "            ok = isinstance(v, str) if kind == 'text' else \\\n"
+    "                (v.dtype.kind, v.dtype.itemsize) == sizes[kind]\n"
+    "            assert ok, (rid, a, kind, type(v))\n"
     "    for k in ['velocity_evals', 'rhs_evals', 'jac_evals', 'error_test_fails',\n"
     "              'conv_fails', 'nonlin_iters', 'max_iters_in_step', 'method_name',\n"
     "              'method_family', 'method_order', 'method_symplectic', 'method_symmetric',\n"
@@ -395,7 +420,8 @@ static void h5py_reads_root_attributes_summary_text_and_dataset_lengths(void **s
         strcat(inv, invariant_problem->invariant_names[k]);
     }
     char cmd[1024], out[4096], err[8192];
-    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s' '%s'", script, path, text_path, inv);
+    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s' '%s' '%s' '%s'", script, path, text_path,
+             inv, DM_SOURCE_DIR "/results/README.md", invariant_problem->id);
     int rc = dm_run_capture(cmd, out, sizeof out, err, sizeof err);
     if (rc != 0 || strstr(out, "h5py-ok") == NULL) {
         print_error("h5py check failed (%d):\n%s\n%s\n", rc, out, err);
@@ -612,6 +638,81 @@ static void show_prints_table_csv_and_json_of_a_results_file(void **state)
     free_fixture(&fx);
 }
 
+/* A file written before a real figure existed: h5py takes the figure out of /summary
+ * and out of every run's group. */
+static const char drop_figure[] =
+    "import sys, h5py, numpy as np\n"
+    "path, name = sys.argv[1], sys.argv[2]\n"
+    "with h5py.File(path, 'r+') as f:\n"
+    "    rows = f['summary'][()]\n"
+    "    keep = [n for n in rows.dtype.names if n != name]\n"
+    "    assert len(keep) == len(rows.dtype.names) - 1\n"
+    "    old = np.empty(len(rows), dtype=[(n, rows.dtype.fields[n][0]) for n in keep])\n"
+    "    for n in keep:\n"
+    "        old[n] = rows[n]\n"
+    "    del f['summary']\n"
+    "    f['summary'] = old\n"
+    "    for g in f['runs'].values():\n"
+    "        del g.attrs[name]\n"
+    "print('dropped')\n";
+
+static void a_real_figure_an_older_file_lacks_reads_as_nan(void **state)
+{
+    const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
+    size_t n_cols = dm_summary_columns(cols);
+    const dm_figure *added = NULL; /* the last real figure in /summary and the groups */
+    for (size_t j = 0; j < n_cols; j++)
+        if (cols[j]->kind == DM_FIGURE_REAL && cols[j]->at != DM_FIGURE_NOWHERE &&
+            (cols[j]->in & DM_FIGURE_IN_RUN))
+            added = cols[j];
+    assert_non_null(added);
+    char path[128], script[128], cmd[1024], out[256], err[4096];
+    snprintf(path, sizeof path, "%s/older.h5", workdir);
+    snprintf(script, sizeof script, "%s/drop.py", workdir);
+    fixture fx = { 0 };
+    write_fixture(path, &fx);
+    for (size_t i = 0; i < fx.suite.n_runs; i++) {
+        *(double *)(void *)((char *)&fx.results[i] + added->at) = 1.5; /* not NaN */
+        dm_series *sr = &fx.results[i].series; /* no more buckets than a run can have */
+        if (sr->n > fx.suite.runs[i].samples)
+            sr->n = fx.suite.runs[i].samples;
+    }
+    dm_error e;
+    assert_int_equal(dm_results_write(path, &fx.suite, fx.results, fx.fits, START_TIME, &e),
+                     DM_OK);
+    write_text_file(script, drop_figure);
+    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s'", script, path, added->name);
+    if (dm_run_capture(cmd, out, sizeof out, err, sizeof err) != 0 || !strstr(out, "dropped")) {
+        print_error("%s\n%s\n", out, err);
+        fail();
+    }
+
+    dm_summary_row *rows = NULL;
+    size_t n = 0;
+    assert_int_equal(dm_results_read_summary(path, &rows, &n, &e), DM_OK);
+    assert_int_equal(n, fx.suite.n_runs);
+    for (size_t i = 0; i < n; i++) {
+        assert_true(isnan(*(const double *)(const void *)((const char *)&rows[i] + added->row_at)));
+        assert_int_equal(rows[i].force_evals, 2000 + i); /* the rest as written */
+        assert_string_equal(rows[i].run_id, fx.suite.runs[i].id);
+    }
+    free(rows);
+
+    dm_run_result *back = calloc(fx.suite.n_runs, sizeof *back);
+    assert_non_null(back);
+    size_t kept = 0;
+    if (dm_results_read_runs(path, &fx.suite, back, &kept, &e) != DM_OK)
+        fail_msg("%s", e.msg);
+    assert_int_equal(kept, fx.suite.n_runs);
+    for (size_t i = 0; i < fx.suite.n_runs; i++) {
+        assert_true(isnan(*(const double *)(const void *)((const char *)&back[i] + added->at)));
+        assert_true(back[i].metrics.max_energy_error == fx.results[i].metrics.max_energy_error);
+        dm_run_result_free(&back[i]);
+    }
+    free(back);
+    free_fixture(&fx);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -624,6 +725,7 @@ int main(void)
         cmocka_unit_test(show_refuses_non_hdf5_foreign_newer_and_truncated_files_in_one_line),
         cmocka_unit_test(show_rejects_bad_options_in_one_line),
         cmocka_unit_test(show_prints_table_csv_and_json_of_a_results_file),
+        cmocka_unit_test(a_real_figure_an_older_file_lacks_reads_as_nan),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
 }

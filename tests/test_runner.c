@@ -335,6 +335,33 @@ static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
     }
 }
 
+/* Cost per period. Velocity Verlet needs one new force per step once the first is
+ * known (Swope, Andersen, Berens & Wilson, J. Chem. Phys. 76, 637 (1982)), classical
+ * RK4 four per step (Kutta, Z. Math. Phys. 46, 435 (1901)): at n steps per period over
+ * P periods that is (n P + 1) / P and 4 n per period. A run that took no step has none. */
+static void force_evals_per_period_is_the_methods_cost(void **state)
+{
+    const double n = 48.0, P = 25.0;
+    dm_run_spec spec;
+    dm_run_result r;
+    make_spec(&spec, "pendulum", "amplitude", 2.0, "verlet", n, 0, P, 64);
+    run_ok(&spec, &r);
+    assert_close(r.metrics.force_evals_per_period, (n * P + 1.0) / P, 1e-12);
+    dm_run_result_free(&r);
+
+    make_spec(&spec, "pendulum", "amplitude", 2.0, "rk4", n, 0, P, 64);
+    run_ok(&spec, &r);
+    assert_close(r.metrics.force_evals_per_period, 4.0 * n, 1e-12);
+    dm_run_result_free(&r);
+
+    make_spec(&spec, "harmonic", NULL, 0, "verlet", n, 0, P, 64);
+    spec.t_end = 0.0;
+    run_ok(&spec, &r);
+    assert_true(r.metrics.steps == 0);
+    assert_true(isnan(r.metrics.force_evals_per_period));
+    dm_run_result_free(&r);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -347,6 +374,7 @@ int main(void)
         cmocka_unit_test(verlet_conserves_kepler_angular_momentum),
         cmocka_unit_test(kepler_errors_do_not_depend_on_the_units),
         cmocka_unit_test(fused_loop_equals_per_step_path_bit_for_bit),
+        cmocka_unit_test(force_evals_per_period_is_the_methods_cost),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -6,6 +6,10 @@
  *   results.c   dm_suite + results -> the HDF5 results file (contract: results/README.md)
  *   table.c     summary rows     -> the aligned table / csv / json printed at the end and by `show`
  *
+ * What a run measured is one list, DM_RUN_FIGURES in run_figures.h (figures.c makes it a
+ * table): the metrics struct, the summary row, the file, the packing and the tables
+ * all follow it.
+ *
  * The harness never knows which method or problem it runs: it sees dm_instance and
  * dm_method tables only.
  */
@@ -20,6 +24,7 @@
 #include "dm_error.h"
 #include "method.h"
 #include "problem.h"
+#include "run_figures.h"
 
 #define DM_RUN_ID_MAX 160
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
@@ -125,25 +130,11 @@ typedef struct dm_crossings {
     double *phase_error;             /* 2 pi (t_n - t_n,exact) / T_exact */
 } dm_crossings;
 
+/* What a run measured: a field for every figure of DM_RUN_FIGURES (run_figures.h) whose
+ * home is metrics, and the work the method counted. */
 typedef struct dm_run_metrics {
-    double energy_scale;             /* E_scale of dE = (H - H0) / E_scale */
-    const char *energy_scale_rule;   /* "H0 - V_min" or "|H0|" */
-    double max_energy_error;         /* max over every step of |dE| */
-    double final_energy_error;
-    double energy_drift_per_period;  /* least-squares slope of dE against t / T */
-    double drift_exponent;           /* slope of log running max |dE| against log t */
-    double period_exact;
-    double period_measured;
-    double period_rel_error;
-    double phase_error_per_period;   /* slope of phase error against crossing number */
-    double phase_error_final;
-    double max_global_error;         /* NaN when no exact solution */
-    double max_invariant_error[DM_MAX_INVARIANTS];
-    uint64_t steps;
+    DM_RUN_FIGURES(DM_FIGURE_METRICS_FIELD)
     dm_counts counts;
-    double t_reached;                /* time of the last step taken */
-    double wall_seconds;
-    double ns_per_step;
 } dm_run_metrics;
 
 typedef struct dm_run_result {
@@ -231,31 +222,12 @@ dm_status dm_results_read_suite_text(const char *path, char **text, char *source
 
 /* ---- the summary table (table.c) ---- */
 
-/* One summary row: the fields of /summary in the results file. */
+/* One summary row: the fields of /summary in the results file, those describing the
+ * run (DM_SUMMARY_RUN_FIELDS) and the figures kept in /summary (DM_RUN_FIGURES). The
+ * order of the fields here is not the file's: see dm_summary_columns. */
 typedef struct dm_summary_row {
-    char run_id[DM_RUN_ID_MAX];
-    char hash[DM_HASH_HEX];
-    char problem[32];
-    char regime[32];
-    char method[32];
-    int order;
-    double h;                        /* NaN for adaptive */
-    double rtol;                     /* NaN for fixed step */
-    uint64_t steps;
-    uint64_t force_evals;
-    double max_energy_error;
-    double final_energy_error;
-    double energy_drift_per_period;
-    double drift_exponent;
-    double period_exact;
-    double period_measured;
-    double period_rel_error;
-    double phase_error_per_period;
-    double phase_error_final;
-    double wall_seconds;
-    double ns_per_step;
-    char status[16];
-    char reason[256];
+    DM_SUMMARY_RUN_FIELDS(DM_SUMMARY_RUN_FIELD)
+    DM_RUN_FIGURES(DM_FIGURE_SUMMARY_FIELD)
 } dm_summary_row;
 
 void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
