@@ -322,7 +322,10 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
 
     /* Whatever happened above, every run that ran is written. */
     for (size_t w = 0; w < suite.n_sweeps; w++)
-        dm_sweep_fit_compute(&suite, &suite.sweeps[w], results, &fits[w]);
+        if (dm_sweep_fit_compute(&suite, &suite.sweeps[w], results, &fits[w], &err) != DM_OK) {
+            fprintf(stderr, "driftmark: run: %s\n", err.msg);
+            exit_code = 1;
+        }
     size_t n_rows = 0;
     for (size_t i = 0; i < suite.n_runs; i++)
         if (results[i].status != DM_RUN_NOT_RUN)
@@ -339,10 +342,24 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
     }
     dm_table_print(stdout, rows, n_rows, DM_TABLE_TEXT);
     if (suite.n_sweeps > 0) {
-        printf("\n%-56s %12s %12s %6s\n", "sweep", "energy order", "phase order", "points");
-        for (size_t w = 0; w < suite.n_sweeps; w++)
-            printf("%-56s %12.3f %12.3f %6zu\n", suite.sweeps[w].name, fits[w].energy_order,
-                   fits[w].phase_order, fits[w].n_points);
+        printf("\n%-56s %12s %6s %12s %6s\n", "sweep", "energy order", "points",
+               "phase order", "points");
+        for (size_t w = 0; w < suite.n_sweeps; w++) {
+            const dm_sweep_fit *f = &fits[w];
+            printf("%-56s %12.3f %6zu %12.3f %6zu\n", suite.sweeps[w].name, f->energy_order,
+                   f->n_energy_points, f->phase_order, f->n_phase_points);
+            /* the runs a fit left out, and why */
+            for (size_t i = 0; i < f->n_runs && f->energy_use != NULL; i++) {
+                if (f->energy_use[i] == DM_FIT_USED && f->phase_use[i] == DM_FIT_USED)
+                    continue;
+                if (f->energy_use[i] == DM_FIT_NOT_RUN)
+                    continue;
+                printf("  left out: %s: energy %s, phase %s\n",
+                       suite.runs[suite.sweeps[w].runs[i]].id,
+                       dm_fit_use_name((dm_fit_use)f->energy_use[i]),
+                       dm_fit_use_name((dm_fit_use)f->phase_use[i]));
+            }
+        }
     }
     if (written)
         printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite.output, n_rows, suite.n_runs,
@@ -363,6 +380,9 @@ cleanup:
         for (size_t i = 0; i < suite.n_runs; i++)
             dm_run_result_free(&results[i]);
     free(results);
+    if (fits != NULL)
+        for (size_t w = 0; w < suite.n_sweeps; w++)
+            dm_sweep_fit_free(&fits[w]);
     free(fits);
     free(rows);
     free(order);

@@ -1,5 +1,8 @@
 /* metrics.c — the fits behind the per-run and per-sweep figures. */
+#include <float.h>
 #include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
 
 #include "dm_line_fit.h"
 #include "harness.h"
@@ -17,61 +20,365 @@ double dm_fit_loglog_slope(const double *x, const double *y, size_t n, size_t *u
     return dm_line_fit_slope(&fit);
 }
 
-double dm_drift_exponent(const dm_series *series)
+/* ---- the drift exponent (the definition is in DRIFT_NOTES.md) ---- */
+
+enum {
+    DRIFT_POINTS = 32        /* fit targets, evenly spaced in log(t - t0) */
+};
+#define DRIFT_FLOOR (64.0 * DBL_EPSILON)  /* max |dE| at or below: round-off only */
+#define DRIFT_GATE 0.25                   /* centre moved < GATE * half-width: bounded */
+#define DRIFT_DECADES 3.0                 /* the fit covers at most the last 3 decades */
+#define DRIFT_RATIO_SLACK (1.0 - 1e-9)    /* "a factor 10" to within rounding */
+
+static const char *note(const char **why, const char *text)
 {
-    size_t n = series->n;
-    if (n < 4)
-        return NAN;
-    double t_end = series->time[n - 1];
-    double t_min = fmax(t_end / 1000.0, series->time[0]);
-    if (!(t_min > 0.0) || !(t_end > t_min))
-        return NAN;
-    /* At most 64 points, evenly spaced in log t, so early and late times weigh alike. */
-    enum { POINTS = 64 };
-    double xs[POINTS + 1], ys[POINTS + 1];
-    size_t m = 0;
-    double step = log(t_end / t_min) / POINTS;
-    double next = log(t_min);
-    double running = 0.0;
-    for (size_t i = 0; i < n; i++) {
-        double peak = fmax(fabs(series->energy_error_min[i]), fabs(series->energy_error_max[i]));
-        if (peak > running)
-            running = peak;
-        double t = series->time[i];
-        if (t < t_min || log(t) < next)
-            continue;
-        if (m < POINTS + 1) {
-            xs[m] = t;
-            ys[m] = running;
-            m++;
-        }
-        while (next <= log(t))
-            next += step;
-    }
-    size_t used = 0;
-    double slope = dm_fit_loglog_slope(xs, ys, m, &used);
-    return used >= 4 ? slope : NAN;
+    if (why != NULL)
+        *why = text;
+    return text;
 }
 
-void dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
-                          const dm_run_result *results, dm_sweep_fit *fit)
+/* Index of the bucket whose time is nearest to `target`, among [lo, n). */
+static size_t nearest_bucket(const double *time, size_t lo, size_t n, double target)
 {
-    double setting[256], energy[256], phase[256];
-    size_t n = 0;
-    for (size_t i = 0; i < sweep->n_runs && n < 256; i++) {
-        size_t r = sweep->runs[i];
-        const dm_run_spec *spec = &suite->runs[r];
-        const dm_run_result *res = &results[r];
-        if (res->status != DM_RUN_OK)
-            continue;
-        setting[n] = spec->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
-                                              : fabs(spec->method_config.h);
-        energy[n] = res->metrics.max_energy_error;
-        phase[n] = fabs(res->metrics.phase_error_per_period);
-        n++;
+    size_t a = lo, b = n; /* first index with time >= target, by bisection */
+    while (a < b) {
+        size_t mid = a + (b - a) / 2;
+        if (time[mid] < target)
+            a = mid + 1;
+        else
+            b = mid;
     }
-    size_t used_e = 0, used_p = 0;
-    fit->energy_order = dm_fit_loglog_slope(setting, energy, n, &used_e);
-    fit->phase_order = dm_fit_loglog_slope(setting, phase, n, &used_p);
-    fit->n_points = used_e < used_p ? used_e : used_p;
+    if (a == n)
+        return n - 1;
+    if (a > lo && target - time[a - 1] <= time[a] - target)
+        return a - 1;
+    return a;
+}
+
+double dm_drift_exponent(const dm_series *series, double period, const char **why)
+{
+    note(why, "");
+    const size_t n = series->n;
+    const double T = period;
+    if (!(T > 0.0) || !isfinite(T)) {
+        note(why, "no finite period");
+        return NAN;
+    }
+    if (n == 0) {
+        note(why, "no buckets");
+        return NAN;
+    }
+    const double *t = series->time, *lo = series->energy_error_min,
+                 *hi = series->energy_error_max;
+    double peak = 0.0;
+    for (size_t i = 0; i < n; i++) {
+        if (!isfinite(lo[i]) || !isfinite(hi[i]) || !isfinite(t[i])) {
+            note(why, "energy error not finite");
+            return NAN;
+        }
+        peak = fmax(peak, fmax(fabs(lo[i]), fabs(hi[i])));
+    }
+    if (peak <= DRIFT_FLOOR) {
+        note(why, "energy error at the round-off floor (max |dE| <= 64 eps)");
+        return NAN;
+    }
+    /* t0: the first bucket end with a whole period behind it. */
+    size_t i0 = 0;
+    while (i0 < n && t[i0] < T)
+        i0++;
+    if (i0 == n) {
+        note(why, "horizon shorter than one period");
+        return NAN;
+    }
+    const double t0 = t[i0];
+    const double tau_hi = t[n - 1] - t0;
+    const double tau_lo = fmax(T, tau_hi * pow(10.0, -DRIFT_DECADES));
+    if (!(tau_hi >= 10.0 * tau_lo * DRIFT_RATIO_SLACK)) {
+        note(why, "horizon too short (needs 10 periods after the first)");
+        return NAN;
+    }
+
+    /* Band centre c_i over the shortest run of buckets ending at i that spans one
+     * period (sliding max and min by monotone queues), and D_i, the running max of
+     * |c - c(t0)| from t0 on. */
+    size_t *qmax = malloc(n * sizeof *qmax), *qmin = malloc(n * sizeof *qmin);
+    double *dmax = malloc(n * sizeof *dmax);
+    if (qmax == NULL || qmin == NULL || dmax == NULL) {
+        free(qmax);
+        free(qmin);
+        free(dmax);
+        note(why, "out of memory");
+        return NAN;
+    }
+    size_t hmax = 0, tmax = 0, hmin = 0, tmin = 0, j = 0;
+    double c0 = 0.0, r0 = 0.0, d = 0.0;
+    for (size_t i = 0; i < n; i++) {
+        while (tmax > hmax && hi[qmax[tmax - 1]] <= hi[i])
+            tmax--;
+        qmax[tmax++] = i;
+        while (tmin > hmin && lo[qmin[tmin - 1]] >= lo[i])
+            tmin--;
+        qmin[tmin++] = i;
+        if (i < i0) {
+            dmax[i] = 0.0;
+            continue;
+        }
+        /* the window [j, i] starts where bucket j starts: at t[j - 1] (0 for j = 0) */
+        while (j < i && t[i] - t[j] >= T)
+            j++;
+        while (qmax[hmax] < j)
+            hmax++;
+        while (qmin[hmin] < j)
+            hmin++;
+        double wmax = hi[qmax[hmax]], wmin = lo[qmin[hmin]];
+        double c = 0.5 * (wmax + wmin);
+        if (i == i0) {
+            c0 = c;
+            r0 = 0.5 * (wmax - wmin);
+        }
+        d = fmax(d, fabs(c - c0));
+        dmax[i] = d;
+    }
+    free(qmax);
+    free(qmin);
+
+    /* The fit points: targets evenly spaced in log tau, rounded to whole periods
+     * (energy leaves some methods once per period, in a step), each taken at the
+     * nearest bucket end; repeats dropped. */
+    double xs[DRIFT_POINTS], ds[DRIFT_POINTS], ms[DRIFT_POINTS], ts[DRIFT_POINTS];
+    size_t m = 0, last = i0;
+    double running = 0.0;
+    size_t scanned = 0;
+    for (int k = 0; k < DRIFT_POINTS; k++) {
+        double x = tau_lo * pow(tau_hi / tau_lo, (double)k / (DRIFT_POINTS - 1));
+        double whole = fmax(1.0, floor(x / T + 0.5)) * T;
+        size_t b = nearest_bucket(t, i0 + 1, n, t0 + whole);
+        if (b <= last)
+            continue;
+        for (; scanned <= b; scanned++)
+            running = fmax(running, fmax(fabs(lo[scanned]), fabs(hi[scanned])));
+        xs[m] = t[b] - t0;
+        ts[m] = t[b];
+        ds[m] = dmax[b];
+        ms[m] = running;
+        m++;
+        last = b;
+    }
+    double d_end = dmax[n - 1];
+    free(dmax);
+    if (m < 4) {
+        note(why, "too few buckets in the fit window");
+        return NAN;
+    }
+    if (d_end <= DRIFT_GATE * r0) {
+        /* No secular part to speak of: the growth of the envelope itself. */
+        note(why, "bounded: the band's centre moved less than 1/4 of its half-width");
+        return dm_fit_loglog_slope(ts, ms, m, NULL);
+    }
+    size_t first = 0;
+    while (first < m && !(ds[first] > 0.0))
+        first++;
+    if (m - first < 4 || !(xs[m - 1] >= 10.0 * xs[first] * DRIFT_RATIO_SLACK)) {
+        note(why, "the band's centre moved only within the last decade");
+        return NAN;
+    }
+    note(why, "");
+    return dm_fit_loglog_slope(xs + first, ds + first, m - first, NULL);
+}
+
+dm_drift_class dm_drift_classify(double exponent)
+{
+    if (!isfinite(exponent))
+        return DM_DRIFT_UNMEASURED;
+    if (exponent < 0.25)
+        return DM_DRIFT_BOUNDED;
+    if (exponent < 0.75)
+        return DM_DRIFT_RANDOM_WALK;
+    if (exponent < 1.5)
+        return DM_DRIFT_LINEAR;
+    return DM_DRIFT_FASTER;
+}
+
+const char *dm_drift_class_name(dm_drift_class c)
+{
+    switch (c) {
+    case DM_DRIFT_UNMEASURED: return "unmeasured";
+    case DM_DRIFT_BOUNDED: return "bounded";
+    case DM_DRIFT_RANDOM_WALK: return "random_walk";
+    case DM_DRIFT_LINEAR: return "linear";
+    case DM_DRIFT_FASTER: return "faster";
+    }
+    return "unknown";
+}
+
+/* ---- across a sweep ---- */
+
+const char *dm_fit_use_name(dm_fit_use use)
+{
+    switch (use) {
+    case DM_FIT_USED: return "used";
+    case DM_FIT_NOT_RUN: return "not_run";
+    case DM_FIT_DIVERGED: return "diverged";
+    case DM_FIT_FAILED: return "failed";
+    case DM_FIT_INTERRUPTED: return "interrupted";
+    case DM_FIT_SWAMPED: return "swamped";
+    case DM_FIT_NO_VALUE: return "no_value";
+    case DM_FIT_LARGE: return "large";
+    case DM_FIT_ROUND_OFF: return "round_off";
+    case DM_FIT_SIGN_CHANGE: return "sign_change";
+    }
+    return "unknown";
+}
+
+void dm_sweep_fit_free(dm_sweep_fit *fit)
+{
+    if (fit == NULL)
+        return;
+    free(fit->energy_use);
+    free(fit->phase_use);
+    fit->energy_use = fit->phase_use = NULL;
+    fit->n_runs = 0;
+}
+
+static dm_fit_use status_use(dm_run_status status)
+{
+    switch (status) {
+    case DM_RUN_OK: return DM_FIT_USED;
+    case DM_RUN_NOT_RUN: return DM_FIT_NOT_RUN;
+    case DM_RUN_DIVERGED: return DM_FIT_DIVERGED;
+    case DM_RUN_FAILED: return DM_FIT_FAILED;
+    case DM_RUN_INTERRUPTED: return DM_FIT_INTERRUPTED;
+    case DM_RUN_SWAMPED: return DM_FIT_SWAMPED;
+    }
+    return DM_FIT_NO_VALUE;
+}
+
+/* Round-off floors of a sweep point (our own choices, measured: DRIFT_NOTES.md). */
+#define FIT_ENERGY_FLOOR 4.0   /* max |dE| <= 4 eps sqrt(steps) */
+#define FIT_PHASE_FLOOR 0.25   /* |phase per period| <= 0.25 eps sqrt(steps) */
+#define FIT_LARGE_ENERGY 0.5   /* max |dE| >= 1/2: the error is the size of the energy */
+
+typedef struct fit_point {
+    size_t slot;   /* position in the sweep */
+    double x;      /* |h| or rtol */
+} fit_point;
+
+static int by_x(const void *a, const void *b)
+{
+    const fit_point *p = a, *q = b;
+    if (p->x < q->x)
+        return -1;
+    if (p->x > q->x)
+        return 1;
+    return (p->slot > q->slot) - (p->slot < q->slot);
+}
+
+dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
+                               const dm_run_result *results, dm_sweep_fit *fit,
+                               dm_error *err)
+{
+    size_t n = sweep->n_runs;
+    fit->energy_order = fit->phase_order = NAN;
+    fit->n_energy_points = fit->n_phase_points = 0;
+    fit->n_runs = n;
+    fit->energy_use = calloc(n ? n : 1, sizeof *fit->energy_use);
+    fit->phase_use = calloc(n ? n : 1, sizeof *fit->phase_use);
+    fit_point *pts = calloc(n ? n : 1, sizeof *pts);
+    double *xe = calloc(n ? n : 1, sizeof *xe), *ye = calloc(n ? n : 1, sizeof *ye);
+    double *xp = calloc(n ? n : 1, sizeof *xp), *yp = calloc(n ? n : 1, sizeof *yp);
+    if (fit->energy_use == NULL || fit->phase_use == NULL || pts == NULL || xe == NULL ||
+        ye == NULL || xp == NULL || yp == NULL) {
+        free(pts), free(xe), free(ye), free(xp), free(yp);
+        dm_sweep_fit_free(fit);
+        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for the fit of %zu runs",
+                            sweep->name, n);
+    }
+    for (size_t i = 0; i < n; i++) {
+        const dm_run_spec *spec = &suite->runs[sweep->runs[i]];
+        const dm_run_result *res = &results[sweep->runs[i]];
+        const dm_run_metrics *mt = &res->metrics;
+        double x = spec->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
+                                              : fabs(spec->method_config.h);
+        pts[i] = (fit_point){ .slot = i, .x = x };
+        double root_steps = sqrt((double)(mt->steps > 0 ? mt->steps : 1));
+        dm_fit_use e = status_use(res->status), p = e;
+        if (e == DM_FIT_USED) {
+            double de = mt->max_energy_error, ph = fabs(mt->phase_error_per_period);
+            bool large = !(de < FIT_LARGE_ENERGY);
+            if (!(x > 0.0) || !isfinite(x) || !(de > 0.0) || !isfinite(de))
+                e = DM_FIT_NO_VALUE;
+            else if (large)
+                e = DM_FIT_LARGE;
+            else if (de <= FIT_ENERGY_FLOOR * DBL_EPSILON * root_steps)
+                e = DM_FIT_ROUND_OFF;
+            if (!(x > 0.0) || !isfinite(x) || !(ph > 0.0) || !isfinite(ph))
+                p = DM_FIT_NO_VALUE;
+            else if (large)
+                p = DM_FIT_LARGE;
+            else if (ph <= FIT_PHASE_FLOOR * DBL_EPSILON * root_steps)
+                p = DM_FIT_ROUND_OFF;
+        }
+        fit->energy_use[i] = (unsigned char)e;
+        fit->phase_use[i] = (unsigned char)p;
+    }
+    /* The phase fit keeps the points of one sign, from the finest step (or tolerance)
+     * up to the first that has the other sign. */
+    qsort(pts, n, sizeof *pts, by_x);
+    double sign = 0.0;
+    for (size_t k = 0; k < n; k++) {
+        size_t i = pts[k].slot;
+        if (fit->phase_use[i] != DM_FIT_USED)
+            continue;
+        const dm_run_result *res = &results[sweep->runs[i]];
+        double s = res->metrics.phase_error_per_period > 0.0 ? 1.0 : -1.0;
+        if (sign == 0.0)
+            sign = s;
+        else if (s != sign)
+            sign = NAN; /* from here on, every point is past the change */
+        if (isnan(sign))
+            fit->phase_use[i] = DM_FIT_SIGN_CHANGE;
+    }
+    size_t ne = 0, np = 0;
+    for (size_t k = 0; k < n; k++) {
+        size_t i = pts[k].slot;
+        const dm_run_metrics *mt = &results[sweep->runs[i]].metrics;
+        if (fit->energy_use[i] == DM_FIT_USED) {
+            xe[ne] = pts[k].x;
+            ye[ne] = mt->max_energy_error;
+            ne++;
+        }
+        if (fit->phase_use[i] == DM_FIT_USED) {
+            xp[np] = pts[k].x;
+            yp[np] = fabs(mt->phase_error_per_period);
+            np++;
+        }
+    }
+    fit->energy_order = dm_fit_loglog_slope(xe, ye, ne, &fit->n_energy_points);
+    fit->phase_order = dm_fit_loglog_slope(xp, yp, np, &fit->n_phase_points);
+    free(pts), free(xe), free(ye), free(xp), free(yp);
+    return DM_OK;
+}
+
+void dm_run_derive_from_series(dm_run_result *r, double period)
+{
+    const dm_series *ser = &r->series;
+    const char *why = "";
+    r->metrics.drift_exponent = dm_drift_exponent(ser, period, &why);
+    snprintf(r->drift_class, sizeof r->drift_class, "%s",
+             dm_drift_class_name(dm_drift_classify(r->metrics.drift_exponent)));
+    snprintf(r->drift_note, sizeof r->drift_note, "%s", why ? why : "");
+    if (r->status != DM_RUN_OK || ser->n == 0)
+        return;
+    /* |dE| >= 1/2 over the whole last bucket: energy of the size of the energy itself
+     * lost (or gained); its numbers are not an error of a method any more. */
+    size_t last = ser->n - 1;
+    double lo = ser->energy_error_min[last], hi = ser->energy_error_max[last];
+    double from = last > 0 ? ser->time[last - 1] : 0.0;
+    if (hi <= -0.5 || lo >= 0.5) {
+        r->status = DM_RUN_SWAMPED;
+        snprintf(r->reason, sizeof r->reason,
+                 "energy %s: dE stayed in [%.3g, %.3g] over the last bucket (t = %.17g to "
+                 "%.17g), at least half the energy scale", hi <= -0.5 ? "lost" : "gained", lo,
+                 hi, from, ser->time[last]);
+    }
 }

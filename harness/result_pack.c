@@ -232,7 +232,7 @@ static bool get_figures(cursor *c, dm_run_result *r, const char **what)
             int32_t status;
             if (!get(c, &status, sizeof status))
                 return false;
-            if (status < DM_RUN_NOT_RUN || status > DM_RUN_INTERRUPTED)
+            if (status < DM_RUN_NOT_RUN || status > DM_RUN_SWAMPED)
                 return false;
             *(dm_run_status *)(void *)at = (dm_run_status)status;
             break;

@@ -26,7 +26,7 @@
 #include "harness.h"
 
 #define DM_FORMAT_NAME "driftmark-results"
-#define DM_SCHEMA_VERSION 1
+#define DM_SCHEMA_VERSION 2
 #define DM_CHUNK_MAX 4096
 #define DM_DEFLATE_LEVEL 4
 
@@ -478,8 +478,10 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     double *energy = calloc(n ? n : 1, sizeof *energy);
     double *phase = calloc(n ? n : 1, sizeof *phase);
     uint64_t *evals = calloc(n ? n : 1, sizeof *evals);
+    const char **energy_use = calloc(n ? n : 1, sizeof *energy_use);
+    const char **phase_use = calloc(n ? n : 1, sizeof *phase_use);
     int rc = -1;
-    if (ids && setting && h && energy && phase && evals) {
+    if (ids && setting && h && energy && phase && evals && energy_use && phase_use) {
         size_t kept = 0;
         for (size_t i = 0; i < sw->n_runs; i++) {
             const dm_run_spec *spec = &suite->runs[sw->runs[i]];
@@ -493,6 +495,9 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
             energy[kept] = res->metrics.max_energy_error;
             phase[kept] = res->metrics.phase_error_per_period;
             evals[kept] = res->metrics.counts.force_evals;
+            bool coded = fit != NULL && fit->energy_use != NULL && i < fit->n_runs;
+            energy_use[kept] = coded ? dm_fit_use_name((dm_fit_use)fit->energy_use[i]) : "";
+            phase_use[kept] = coded ? dm_fit_use_name((dm_fit_use)fit->phase_use[i]) : "";
             kept++;
         }
         n = kept;
@@ -500,7 +505,8 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         rc |= attr_text(g, "knob", step_setting_name(sw->step_setting));
         rc |= attr_double(g, "energy_order", fit ? fit->energy_order : NAN);
         rc |= attr_double(g, "phase_order", fit ? fit->phase_order : NAN);
-        rc |= attr_u64(g, "n_points", fit ? fit->n_points : 0);
+        rc |= attr_u64(g, "n_points_energy", fit ? fit->n_energy_points : 0);
+        rc |= attr_u64(g, "n_points_phase", fit ? fit->n_phase_points : 0);
         rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
         rc |= dataset_strings(g, "run_id", ids, n);
         rc |= dataset_double(g, sw->step_setting == DM_SET_BY_RTOL ? "rtol" : "h", h, n);
@@ -509,6 +515,8 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         rc |= dataset_u64(g, "force_evals", evals, n);
         rc |= dataset_double(g, "max_energy_error", energy, n);
         rc |= dataset_double(g, "phase_error_per_period", phase, n);
+        rc |= dataset_strings(g, "energy_fit", energy_use, n);
+        rc |= dataset_strings(g, "phase_fit", phase_use, n);
     }
     free(ids);
     free(setting);
@@ -516,6 +524,8 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     free(energy);
     free(phase);
     free(evals);
+    free(energy_use);
+    free(phase_use);
     if (H5Gclose(g) < 0)
         rc = -1;
     return rc;
@@ -913,6 +923,8 @@ static dm_run_status status_from_name(const char *name)
         return DM_RUN_FAILED;
     if (strcmp(name, "interrupted") == 0)
         return DM_RUN_INTERRUPTED;
+    if (strcmp(name, "swamped") == 0)
+        return DM_RUN_SWAMPED;
     return DM_RUN_NOT_RUN;
 }
 
@@ -955,7 +967,12 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
             rc |= read_text_attr(g, f->name, text, sizeof text);
             FIGURE_AT(f, r, dm_run_status) = status_from_name(text);
             break;
-        case DM_FIGURE_TEXT: rc |= read_text_attr(g, f->name, (char *)r + f->at, f->size); break;
+        case DM_FIGURE_TEXT:
+            /* one a file from before it existed lacks reads as empty */
+            *((char *)r + f->at) = '\0';
+            if (H5Aexists(g, f->name) != 0)
+                rc |= read_text_attr(g, f->name, (char *)r + f->at, f->size);
+            break;
         case DM_FIGURE_RULE:
             /* the rule is one of the runner's fixed strings (none when empty) */
             rc |= read_text_attr(g, f->name, text, sizeof text);
@@ -1016,6 +1033,8 @@ static int read_run(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
         dm_run_result_free(r);
         return -1;
     }
+    /* the figures derived from the series, by this version's definitions */
+    dm_run_derive_from_series(r, spec->inst.period);
     return 0;
 }
 
@@ -1031,7 +1050,20 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     quiet_hdf5 q;
     hdf5_quiet(&q);
     hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
-    hid_t runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
+    hid_t runs = -1;
+    long long schema = 0;
+    if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 &&
+        schema < DM_SCHEMA_VERSION) {
+        /* Its runs were measured by other definitions (results/README.md, Changes): a
+         * file that mixed them would mislead. */
+        st = dm_error_set(err, DM_EINPUT,
+                          "%s was written with schema %lld of the results file and this "
+                          "driftmark writes schema %d, whose figures are defined otherwise: "
+                          "run its suite again instead of resuming it", path, schema,
+                          DM_SCHEMA_VERSION);
+        goto done;
+    }
+    runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
     if (runs < 0) {
         st = dm_error_set(err, DM_EIO, "cannot read %s: it has no /runs group", path);
         goto done;
@@ -1051,14 +1083,14 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             char gname[DM_RUN_ID_MAX];
             safe_name(spec->id, gname, sizeof gname);
             hid_t g = H5Gopen2(runs, gname, H5P_DEFAULT);
-            if (g < 0 || read_run(g, spec, &rows[k], &results[i]) != 0) {
-                if (g >= 0)
-                    H5Gclose(g);
+            int got = g >= 0 ? read_run(g, spec, &rows[k], &results[i]) : -1;
+            if (g >= 0)
+                H5Gclose(g);
+            if (got != 0) {
                 st = dm_error_set(err, DM_EIO, "cannot read %s: run %s is damaged", path,
                                   spec->id);
                 goto done;
             }
-            H5Gclose(g);
             (*kept)++;
             break;
         }

@@ -22,6 +22,7 @@ const char *dm_run_status_name(dm_run_status status)
     case DM_RUN_DIVERGED: return "diverged";
     case DM_RUN_FAILED: return "failed";
     case DM_RUN_INTERRUPTED: return "interrupted";
+    case DM_RUN_SWAMPED: return "swamped";
     }
     return "unknown";
 }
@@ -389,7 +390,7 @@ static void finish_metrics(run_context *c, double wall)
     m->max_energy_error = ser->n > 0 ? c->max_abs : NAN;
     m->final_energy_error = ser->n > 0 ? ser->energy_error[ser->n - 1] : NAN;
     m->energy_drift_per_period = dm_line_fit_slope(&c->drift_fit);
-    m->drift_exponent = dm_drift_exponent(ser);
+    dm_run_derive_from_series(result, T);
     m->period_exact = T;
     double slope = dm_line_fit_slope(&c->log.fit);
     m->phase_error_per_period = slope;

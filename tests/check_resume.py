@@ -7,6 +7,8 @@ datasets then equal those of an uninterrupted run bit for bit.
 usage: check_resume.py PATH/TO/driftmark
 """
 import os
+import numpy as np
+import shutil
 import signal
 import subprocess
 import sys
@@ -118,6 +120,18 @@ def main():
             f.write("not hdf5\n")
         p = run(["--resume", junk])
         check(p.returncode == 2 and p.stderr.count("\n") == 1, f"--resume of a non-HDF5 file: {p.stderr!r}")
+
+        # a file of an older schema measured with other definitions: refused, in one
+        # line, exit 2, nothing written
+        old = os.path.join(tmp, "older.h5")
+        shutil.copyfile(full, old)
+        with h5py.File(old, "r+") as f:
+            f.attrs.modify("schema_version", np.int32(int(f.attrs["schema_version"]) - 1))
+        before = open(old, "rb").read()
+        p = run(["--resume", old])
+        check(p.returncode == 2 and p.stderr.count("\n") == 1 and "schema" in p.stderr,
+              f"--resume of an older schema: {p.returncode} {p.stderr!r}")
+        check(open(old, "rb").read() == before, "--resume of an older schema leaves it as it was")
 
         # real signals: stop mid-suite, a valid file, exit 128 + signal, then resume
         for sig, code in ((signal.SIGINT, 130), (signal.SIGTERM, 143)):

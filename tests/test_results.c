@@ -160,7 +160,8 @@ static void build_results(fixture *fx, size_t big_n)
     for (size_t k = 0; k < fx->suite.n_sweeps; k++) {
         fx->fits[k].energy_order = 2.0 + 0.01 * (double)k;
         fx->fits[k].phase_order = 2.0;
-        fx->fits[k].n_points = 2;
+        fx->fits[k].n_energy_points = 2;
+        fx->fits[k].n_phase_points = 2;
     }
 }
 
@@ -311,7 +312,7 @@ static const char h5py_check[] =
     "a = f.attrs\n"
     "assert a['format'] == 'driftmark-results', a['format']\n"
     "assert isinstance(a['format'], str)\n"
-    "assert int(a['schema_version']) == 1\n"
+    "assert int(a['schema_version']) == 2\n"
     "for k in ['driftmark_version', 'git_commit', 'compiler', 'c_flags', 'sundials_version',\n"
     "          'hdf5_version', 'host', 'start_time_utc', 'suite_name', 'suite_source',\n"
     "          'suite_text']:\n"
@@ -397,7 +398,7 @@ static const char h5py_check[] =
     "sw = f['sweeps']\n"
     "assert len(sw) == 2, list(sw)\n"
     "first = sw[sorted(sw)[0]]\n"
-    "assert first.attrs['knob'] == 'h' and first.attrs['n_points'] == 2\n"
+    "assert first.attrs['knob'] == 'h' and first.attrs['n_points_energy'] == 2 and first.attrs['n_points_phase'] == 2\n"
     "for d in ['run_id', 'h', 'force_evals', 'max_energy_error', 'phase_error_per_period']:\n"
     "    assert first[d].shape == (2,), d\n"
     "assert [x.decode() for x in first['run_id'][()]] == ids[0:2]\n"
@@ -556,7 +557,7 @@ static void show_refuses_non_hdf5_foreign_newer_and_truncated_files_in_one_line(
     hid_t a = H5Acreate2(f, "format", st, scalar, H5P_DEFAULT, H5P_DEFAULT);
     H5Awrite(a, st, "driftmark-results");
     H5Aclose(a);
-    int version = 2;
+    int version = 3;
     a = H5Acreate2(f, "schema_version", H5T_STD_I32LE, scalar, H5P_DEFAULT, H5P_DEFAULT);
     H5Awrite(a, H5T_NATIVE_INT, &version);
     H5Aclose(a);
@@ -565,7 +566,7 @@ static void show_refuses_non_hdf5_foreign_newer_and_truncated_files_in_one_line(
     H5Fclose(f);
     snprintf(args, sizeof args, "'%s'", path);
     assert_int_equal(show(args, out, sizeof out, err, sizeof err), 2);
-    assert_one_line(err, "written by a newer driftmark (schema 2");
+    assert_one_line(err, "written by a newer driftmark (schema 3");
 
     /* one of ours, cut in half */
     snprintf(path, sizeof path, "%s/cut.h5", workdir);

@@ -99,7 +99,8 @@ typedef enum dm_run_status {
     DM_RUN_OK,
     DM_RUN_DIVERGED,        /* NaN, Inf or |dE| above the limit */
     DM_RUN_FAILED,          /* the solver gave up (CVODE flag, no convergence) */
-    DM_RUN_INTERRUPTED
+    DM_RUN_INTERRUPTED,
+    DM_RUN_SWAMPED          /* ran to the end, but |dE| >= 1/2 over the whole last bucket */
 } dm_run_status;
 
 const char *dm_run_status_name(dm_run_status status);
@@ -137,9 +138,14 @@ typedef struct dm_run_metrics {
     dm_counts counts;
 } dm_run_metrics;
 
+#define DM_DRIFT_CLASS_MAX 16
+#define DM_DRIFT_NOTE_MAX 128
+
 typedef struct dm_run_result {
     dm_run_status status;
     char reason[DM_ERROR_MSG_MAX];   /* why not ok; empty when ok */
+    char drift_class[DM_DRIFT_CLASS_MAX]; /* dm_drift_class_name of drift_exponent */
+    char drift_note[DM_DRIFT_NOTE_MAX];   /* why drift_exponent is NaN, or a note */
     dm_run_metrics metrics;
     dm_series series;
     dm_crossings crossings;
@@ -181,25 +187,73 @@ dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_
                       size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
                       size_t *done, dm_error *err);
 
-/* Slope of log(running max |dE|) against log t over the stored buckets, sampled
- * evenly in log t from t_end / 1000 on: about 0 for a bounded error, 0.5 for a random
- * walk, 1 for a linear drift. NaN when the error is exactly zero or too few buckets. */
-double dm_drift_exponent(const dm_series *series);
+/* How fast the energy error grows, as an exponent p of t (DRIFT_NOTES.md has the
+ * exact definition): the growth of the centre of the dE band (its min and max over a
+ * trailing period) away from where it was after the first period, fitted in log-log
+ * over the last decades (at most 3, at least 1) of the run. About 0 bounded, 0.5
+ * random walk, 1 linear. When the centre moved less than a quarter of the band's
+ * half-width, the run is bounded and p is the slope of the running max of |dE|
+ * instead. NaN when it cannot mean anything; *why (may be NULL) gets a static text:
+ * the reason for a NaN, a note for a bounded run, empty otherwise. */
+double dm_drift_exponent(const dm_series *series, double period, const char **why);
+
+typedef enum dm_drift_class {
+    DM_DRIFT_UNMEASURED,     /* NaN */
+    DM_DRIFT_BOUNDED,        /* p < 0.25 */
+    DM_DRIFT_RANDOM_WALK,    /* 0.25 <= p < 0.75 */
+    DM_DRIFT_LINEAR,         /* 0.75 <= p < 1.5 */
+    DM_DRIFT_FASTER          /* p >= 1.5 */
+} dm_drift_class;
+
+dm_drift_class dm_drift_classify(double exponent);
+const char *dm_drift_class_name(dm_drift_class c);
+
+/* The figures derived from a run's stored series alone, set in *r from r->series: the
+ * drift exponent, its class and note, and the status swamped for an ok run whose
+ * energy error stayed beyond 1/2 (one sign) over its last bucket. The runner calls it
+ * at the end of a run and the reader of a results file again (for --resume), so a file
+ * never mixes definitions from two versions. */
+void dm_run_derive_from_series(dm_run_result *r, double period);
 
 /* ---- across a sweep ---- */
+
+/* Why each run of a sweep is or is not in a fit. */
+typedef enum dm_fit_use {
+    DM_FIT_USED = 0,
+    DM_FIT_NOT_RUN,          /* the run never started */
+    DM_FIT_DIVERGED,         /* status diverged */
+    DM_FIT_FAILED,           /* status failed */
+    DM_FIT_INTERRUPTED,      /* status interrupted */
+    DM_FIT_SWAMPED,          /* status swamped: the energy is gone (or doubled) */
+    DM_FIT_NO_VALUE,         /* the value or the step (tolerance) is NaN, inf or zero */
+    DM_FIT_LARGE,            /* max |dE| >= 1/2: the error is the size of the energy */
+    DM_FIT_ROUND_OFF,        /* at the round-off floor (DRIFT_NOTES.md) */
+    DM_FIT_SIGN_CHANGE       /* phase only: past a sign change, seen from the finest step */
+} dm_fit_use;
+
+const char *dm_fit_use_name(dm_fit_use use);
 
 typedef struct dm_sweep_fit {
     double energy_order;             /* slope of log max |dE| against log h */
     double phase_order;              /* slope of log |phase error per period| against log h */
-    size_t n_points;                 /* runs that entered the fit (ok, finite, > 0) */
+    size_t n_energy_points;          /* runs in the energy fit */
+    size_t n_phase_points;           /* runs in the phase fit */
+    size_t n_runs;                   /* the sweep's runs; the arrays below have this length */
+    unsigned char *energy_use;       /* dm_fit_use of each run, in sweep order (owned) */
+    unsigned char *phase_use;
 } dm_sweep_fit;
 
 /* Least-squares slope of log(y) against log(x) over the points with x, y > 0 and
  * finite; returns NaN with fewer than 2 points. */
 double dm_fit_loglog_slope(const double *x, const double *y, size_t n, size_t *used);
 
-void dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
-                          const dm_run_result *results, dm_sweep_fit *fit);
+/* Fits a sweep from its results only (so it is the same whatever --jobs was), using
+ * only the runs a fit can use; records per run why it is in or out. Allocates the
+ * arrays of *fit: free with dm_sweep_fit_free. Fails only when out of memory. */
+dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
+                               const dm_run_result *results, dm_sweep_fit *fit,
+                               dm_error *err);
+void dm_sweep_fit_free(dm_sweep_fit *fit);
 
 /* ---- the results file (results.c) ---- */
 

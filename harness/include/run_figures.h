@@ -49,7 +49,7 @@
  */
 #define DM_RUN_FIGURES(X)                                                                  \
     X(status, STATUS, result, SA, 16, "status", "",                                        \
-      "ok, diverged, failed or interrupted")                                               \
+      "ok, diverged, failed, interrupted or swamped")                                               \
     X(reason, TEXT, result, SA, 256, "", "",                                               \
       "why not ok; empty when ok (/summary keeps its first 255 bytes, /runs/<id> all)")    \
     X(energy_scale, REAL, metrics, A, 0, "", "", "E_scale of dE")                          \
@@ -61,7 +61,11 @@
     X(energy_drift_per_period, REAL, metrics, SA, 0, "drift/period", "%.3e",               \
       "least-squares slope of dE against t / T")                                           \
     X(drift_exponent, REAL, metrics, SA, 0, "drift exp", "%.2f",                           \
-      "slope of log(running max |dE|) against log t")                                      \
+      "exponent p of the growth of the energy error, t^p (see \"The drift exponent\")")     \
+    X(drift_class, TEXT, result, SA, DM_DRIFT_CLASS_MAX, "drift", "",                      \
+      "bounded, random_walk, linear, faster (from drift_exponent), or unmeasured")         \
+    X(drift_note, TEXT, result, A, 0, "", "",                                              \
+      "why drift_exponent is NaN, or a note on a bounded run; empty otherwise")            \
     X(period_exact, REAL, metrics, SA, 0, "", "",                                          \
       "closed-form period T of the starting state")                                        \
     X(period_measured, REAL, metrics, SA, 0, "", "",                                       \
