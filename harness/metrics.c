@@ -359,6 +359,8 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
     return DM_OK;
 }
 
+static void mark_swamped(dm_run_result *r);
+
 void dm_run_derive_from_series(dm_run_result *r, double period)
 {
     const dm_series *ser = &r->series;
@@ -367,8 +369,22 @@ void dm_run_derive_from_series(dm_run_result *r, double period)
     snprintf(r->drift_class, sizeof r->drift_class, "%s",
              dm_drift_class_name(dm_drift_classify(r->metrics.drift_exponent)));
     snprintf(r->drift_note, sizeof r->drift_note, "%s", why ? why : "");
-    if (r->status != DM_RUN_OK || ser->n == 0)
-        return;
+    if (r->status == DM_RUN_OK && ser->n > 0)
+        mark_swamped(r);
+    if (r->status != DM_RUN_OK) {
+        /* A growth law of a run that did not end well would read as a property of the
+         * method: its exponent is not given. */
+        r->metrics.drift_exponent = NAN;
+        snprintf(r->drift_class, sizeof r->drift_class, "%s",
+                 dm_drift_class_name(DM_DRIFT_UNMEASURED));
+        snprintf(r->drift_note, sizeof r->drift_note, "the run is %s, not ok",
+                 dm_run_status_name(r->status));
+    }
+}
+
+static void mark_swamped(dm_run_result *r)
+{
+    const dm_series *ser = &r->series;
     /* |dE| >= 1/2 over the whole last bucket: energy of the size of the energy itself
      * lost (or gained); its numbers are not an error of a method any more. */
     size_t last = ser->n - 1;

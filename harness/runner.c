@@ -328,8 +328,9 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
     }
 }
 
-/* Bucket end: the series and the once-per-bucket monitors (exact solution,
- * invariants). */
+/* Bucket end: the series and the once-per-bucket monitors (exact solution, the
+ * regime of the numerical orbit, invariants). A change of regime is seen at bucket
+ * ends only: one that comes back within a bucket is not reported. */
 static void record_bucket(run_context *c)
 {
     const dm_instance *inst = c->inst;
@@ -355,6 +356,13 @@ static void record_bucket(run_context *c)
             sum += dq * dq + dp * dp;
         }
         ser->global_error[i] = sqrt(sum);
+    }
+    if (inst->problem->regime_of != NULL && c->result->regime_change[0] == '\0') {
+        int now = inst->problem->regime_of(inst, c->cur->x, c->cur->x + n);
+        if (now != inst->regime)
+            snprintf(c->result->regime_change, sizeof c->result->regime_change,
+                     "%s -> %s at t = %.6g", inst->problem->regimes[inst->regime].id,
+                     now >= 0 ? inst->problem->regimes[now].id : "unbound", t);
     }
     if (c->n_invariants > 0) {
         double now[DM_MAX_INVARIANTS];

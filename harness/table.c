@@ -121,9 +121,13 @@ static void print_text(FILE *out, const dm_summary_row *rows, size_t n)
         }
     }
     /* Why a run did not finish belongs beside the numbers, not in a column. */
-    for (size_t i = 0; i < n; i++)
+    for (size_t i = 0; i < n; i++) {
         if (rows[i].reason[0] != '\0')
             fprintf(out, "  %s: %s: %s\n", rows[i].run_id, rows[i].status, rows[i].reason);
+        if (rows[i].regime_change[0] != '\0')
+            fprintf(out, "  %s: its energy crossed a separatrix the exact orbit never "
+                    "reaches: %s\n", rows[i].run_id, rows[i].regime_change);
+    }
 }
 
 /* ---- CSV (RFC 4180 quoting) and JSON ---- */

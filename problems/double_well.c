@@ -249,6 +249,12 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     }
 }
 
+/* In one well below the saddle's energy 0, over the barrier above. */
+static int regime_of(const dm_instance *inst, const double *q, const double *p)
+{
+    return kinetic(inst, p) + potential(inst, q) < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
+}
+
 /* The splitting engine's fused loop with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 
@@ -282,6 +288,7 @@ const dm_problem dm_problem_double_well = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .regime_of = regime_of,
     .hessian = hessian,
     .exact = exact,
 };

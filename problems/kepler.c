@@ -236,6 +236,12 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
     out[2] = (-p[0] * L - mu * q[1] / r) / mu;
 }
 
+/* Bound (an ellipse) below energy 0, unbound above. */
+static int regime_of(const dm_instance *inst, const double *q, const double *p)
+{
+    return kinetic(inst, p) + potential(inst, q) < 0.0 ? 0 : -1;
+}
+
 /* The splitting engine's fused loop with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 2)
 
@@ -260,6 +266,7 @@ const dm_problem dm_problem_kepler = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .regime_of = regime_of,
     .hessian = hessian,
     .exact = exact,
     .n_invariants = 3,

@@ -194,6 +194,12 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = m * c * w * side * sin_wt / (alpha * den);
 }
 
+/* Bound below the well depth D, unbound (no regime) above. */
+static int regime_of(const dm_instance *inst, const double *q, const double *p)
+{
+    return kinetic(inst, p) + potential(inst, q) < inst->param[P_DEPTH] ? 0 : -1;
+}
+
 /* The splitting engine's fused loop with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 
@@ -223,6 +229,7 @@ const dm_problem dm_problem_morse = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .regime_of = regime_of,
     .hessian = hessian,
     .exact = exact,
 };

@@ -265,6 +265,26 @@ static void kepler_errors_do_not_depend_on_the_units(void **state)
     dm_run_result_free(&first);
 }
 
+/* A pendulum just over the top (E = 1.01 g) under RK4 at 24 steps per period loses
+ * energy (common practice: RK4 is dissipative on oscillators) until it swings back
+ * instead of going over: the exact orbit rotates forever, so the run must say its
+ * numerical orbit crossed the separatrix. Verlet's bounded error at this step stays
+ * below the 1 % gap and keeps rotating. */
+static void a_numerical_orbit_that_crosses_a_separatrix_is_reported(void **state)
+{
+    dm_run_spec spec;
+    dm_run_result r;
+    make_spec(&spec, "pendulum", "energy", 1.01, "rk4", 24, 0, 300, 64);
+    run_ok(&spec, &r);
+    print_message("rk4: '%s'\n", r.regime_change);
+    assert_true(strncmp(r.regime_change, "rotation -> libration at t = ", 29) == 0);
+    dm_run_result_free(&r);
+    make_spec(&spec, "pendulum", "energy", 1.01, "verlet", 24, 0, 300, 64);
+    run_ok(&spec, &r);
+    assert_string_equal(r.regime_change, "");
+    dm_run_result_free(&r);
+}
+
 /* The fused loop (integrators/splitting_block.h) and the per-step path compute the same
  * operations in the same order: every stored number, count and metric agrees bit for
  * bit, for kick-first and drift-first tables, with and without FSAL, in one and two
@@ -374,6 +394,7 @@ int main(void)
         cmocka_unit_test(same_run_twice_is_bit_identical),
         cmocka_unit_test(verlet_conserves_kepler_angular_momentum),
         cmocka_unit_test(kepler_errors_do_not_depend_on_the_units),
+        cmocka_unit_test(a_numerical_orbit_that_crosses_a_separatrix_is_reported),
         cmocka_unit_test(fused_loop_equals_per_step_path_bit_for_bit),
         cmocka_unit_test(force_evals_per_period_is_the_methods_cost),
     };

@@ -140,12 +140,15 @@ typedef struct dm_run_metrics {
 
 #define DM_DRIFT_CLASS_MAX 16
 #define DM_DRIFT_NOTE_MAX 128
+#define DM_REGIME_CHANGE_MAX 96
 
 typedef struct dm_run_result {
     dm_run_status status;
     char reason[DM_ERROR_MSG_MAX];   /* why not ok; empty when ok */
     char drift_class[DM_DRIFT_CLASS_MAX]; /* dm_drift_class_name of drift_exponent */
     char drift_note[DM_DRIFT_NOTE_MAX];   /* why drift_exponent is NaN, or a note */
+    char regime_change[DM_REGIME_CHANGE_MAX]; /* the numerical orbit left the starting
+                                                 regime: "from -> to at t = ..." */
     dm_run_metrics metrics;
     dm_series series;
     dm_crossings crossings;

@@ -159,6 +159,12 @@ struct dm_problem {
      * measured (the series and max_global_error are absent / NaN). */
     void (*exact)(const dm_instance *inst, double t, double *q, double *p);
 
+    /* Optional: the regime (an index into regimes) of any state, from its energy, or -1
+     * for a state that has none (unbound). NULL: the problem has one regime for every
+     * state. The runner asks it at bucket ends, to tell when the numerical orbit has
+     * crossed a separatrix the exact orbit never reaches. */
+    int (*regime_of)(const dm_instance *inst, const double *q, const double *p);
+
     /* Optional: the fused loop, any splitting table's steps and the per-step monitor
      * compiled together with this problem's force inline. One line in the problem
      * file, `DM_FUSED_LOOP(fused_loop, DOF)` from dm_fused_loop.h, and
