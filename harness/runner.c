@@ -329,8 +329,8 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
 }
 
 /* Bucket end: the series and the once-per-bucket monitors (exact solution, the
- * regime of the numerical orbit, invariants). A change of regime is seen at bucket
- * ends only: one that comes back within a bucket is not reported. */
+ * regime of the numerical orbit, invariants). The regime changes when a whole bucket's
+ * energies lie in another regime; a bucket that straddles a separatrix says nothing. */
 static void record_bucket(run_context *c)
 {
     const dm_instance *inst = c->inst;
@@ -357,12 +357,15 @@ static void record_bucket(run_context *c)
         }
         ser->global_error[i] = sqrt(sum);
     }
-    if (inst->problem->regime_of != NULL && c->result->regime_change[0] == '\0') {
-        int now = inst->problem->regime_of(inst, c->cur->x, c->cur->x + n);
-        if (now != inst->regime)
+    if (inst->problem->regime_of_energy != NULL && c->result->regime_change[0] == '\0') {
+        /* the bucket's lowest and highest energy, back from dE */
+        double scale = c->result->metrics.energy_scale, H0 = mon->H0;
+        int lo = inst->problem->regime_of_energy(inst, H0 + scale * mon->bucket_min);
+        int hi = inst->problem->regime_of_energy(inst, H0 + scale * mon->bucket_max);
+        if (lo == hi && lo != inst->regime)
             snprintf(c->result->regime_change, sizeof c->result->regime_change,
                      "%s -> %s at t = %.6g", inst->problem->regimes[inst->regime].id,
-                     now >= 0 ? inst->problem->regimes[now].id : "unbound", t);
+                     lo >= 0 ? inst->problem->regimes[lo].id : "unbound", t);
     }
     if (c->n_invariants > 0) {
         double now[DM_MAX_INVARIANTS];

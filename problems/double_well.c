@@ -250,9 +250,9 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* In one well below the saddle's energy 0, over the barrier above. */
-static int regime_of(const dm_instance *inst, const double *q, const double *p)
+static int regime_of_energy(const dm_instance *inst, double energy)
 {
-    return kinetic(inst, p) + potential(inst, q) < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
+    return energy < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
@@ -288,7 +288,7 @@ const dm_problem dm_problem_double_well = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
-    .regime_of = regime_of,
+    .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
 };

@@ -237,9 +237,9 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
 }
 
 /* Bound (an ellipse) below energy 0, unbound above. */
-static int regime_of(const dm_instance *inst, const double *q, const double *p)
+static int regime_of_energy(const dm_instance *inst, double energy)
 {
-    return kinetic(inst, p) + potential(inst, q) < 0.0 ? 0 : -1;
+    return energy < 0.0 ? 0 : -1;
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
@@ -266,7 +266,7 @@ const dm_problem dm_problem_kepler = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
-    .regime_of = regime_of,
+    .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
     .n_invariants = 3,

@@ -195,9 +195,9 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* Bound below the well depth D, unbound (no regime) above. */
-static int regime_of(const dm_instance *inst, const double *q, const double *p)
+static int regime_of_energy(const dm_instance *inst, double energy)
 {
-    return kinetic(inst, p) + potential(inst, q) < inst->param[P_DEPTH] ? 0 : -1;
+    return energy < inst->param[P_DEPTH] ? 0 : -1;
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
@@ -229,7 +229,7 @@ const dm_problem dm_problem_morse = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
-    .regime_of = regime_of,
+    .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
 };

@@ -173,10 +173,9 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
 }
 
 /* Libration below the separatrix energy w0^2, rotation above. */
-static int regime_of(const dm_instance *inst, const double *q, const double *p)
+static int regime_of_energy(const dm_instance *inst, double energy)
 {
-    double E = kinetic(inst, p) + potential(inst, q);
-    return E < inst->param[P_G_OVER_L] ? R_LIBRATION : R_ROTATION;
+    return energy < inst->param[P_G_OVER_L] ? R_LIBRATION : R_ROTATION;
 }
 
 /* The splitting engine's fused loop with this problem's functions inline. */
@@ -210,7 +209,7 @@ const dm_problem dm_problem_pendulum = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
-    .regime_of = regime_of,
+    .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
 };

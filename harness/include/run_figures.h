@@ -53,7 +53,7 @@
     X(reason, TEXT, result, SA, 256, "", "",                                               \
       "why not ok; empty when ok (/summary keeps its first 255 bytes, /runs/<id> all)")    \
     X(regime_change, TEXT, result, SA, DM_REGIME_CHANGE_MAX, "", "",                      \
-      "empty, or the first bucket end where the numerical energy lay in another regime: from -> to at t")       \
+      "empty, or the end of the first bucket whose every energy lay in another regime: from -> to at t")       \
     X(energy_scale, REAL, metrics, A, 0, "", "", "E_scale of dE")                          \
     X(energy_scale_rule, RULE, metrics, A, 0, "", "",                                      \
       "how E_scale was chosen: H0 - V_min or |H0|")                                        \

@@ -159,11 +159,14 @@ struct dm_problem {
      * measured (the series and max_global_error are absent / NaN). */
     void (*exact)(const dm_instance *inst, double t, double *q, double *p);
 
-    /* Optional: the regime (an index into regimes) of any state, from its energy, or -1
-     * for a state that has none (unbound). NULL: the problem has one regime for every
-     * state. The runner asks it at bucket ends, to tell when the numerical orbit has
-     * crossed a separatrix the exact orbit never reaches. */
-    int (*regime_of)(const dm_instance *inst, const double *q, const double *p);
+    /* Optional: the regime (an index into regimes) of the orbits of energy E, or -1
+     * where they have none (unbound). NULL: one regime for every energy. The runner
+     * asks it for the lowest and the highest energy of each bucket: when both lie in
+     * another regime than the start's, the numerical orbit has crossed a separatrix the
+     * exact orbit never reaches (for one degree of freedom an energy kept above a
+     * saddle's at every step cannot turn back below it, and one kept below cannot
+     * pass it). */
+    int (*regime_of_energy)(const dm_instance *inst, double energy);
 
     /* Optional: the fused loop, any splitting table's steps and the per-step monitor
      * compiled together with this problem's force inline. One line in the problem
