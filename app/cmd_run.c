@@ -68,12 +68,6 @@ static void progress(size_t done, size_t total, double work, const char *current
     fflush(stderr);
 }
 
-/* The progress line of an MPI job: the runs every rank finished. */
-static void progress_of_ranks(size_t done, size_t total, const char *current, double elapsed)
-{
-    progress(done, total, total > 0 ? (double)done / (double)total : 1.0, current, elapsed);
-}
-
 static int default_jobs(void)
 {
     long n = sysconf(_SC_NPROCESSORS_ONLN);
@@ -293,13 +287,11 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         /* rank 0 hands the runs out to every rank (its own threads too) in this order */
         dm_mpi_job job = { .suite = &suite, .results = results, .order = order,
                            .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
-                           .stop_signal = &stop_signal, .t0 = t0,
-                           .progress = isatty(STDERR_FILENO) ? progress_of_ranks : NULL };
+                           .stop_signal = &stop_signal,
+                           .progress = isatty(STDERR_FILENO) ? progress : NULL };
         dm_mpi_coordinate(world, &job);
-        if (job.progress != NULL) {
-            progress_of_ranks(job.done, n_order, "", seconds_since(&t0));
-            fputc('\n', stderr);
-        }
+        if (job.progress != NULL)
+            fputc('\n', stderr); /* after the queue's last redraw of the line */
         fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
                         "runs came from the other ranks, %llu bytes\n", world->size, jobs,
                 job.runs_received, (unsigned long long)job.bytes_received);
