@@ -4,6 +4,7 @@
 #ifndef DM_CLI_H
 #define DM_CLI_H
 
+#include <stdbool.h>
 #include <stdio.h>
 
 #include "harness.h"
@@ -20,6 +21,13 @@ int dm_cmd_bench(int argc, char **argv);
  * double. Writes a one-line message to stderr and returns 2 on bad input. */
 int dm_cli_parse_pair(const char *command, const char *arg, char *key, size_t size,
                       double *value);
+
+/* Reads the options of a command whose only options are --json and --help (GNU
+ * getopt_long permutes: they may come anywhere among its other arguments, which are
+ * argv[optind..] after it). Returns -1 to go on, with *json set; 0 after printing
+ * `usage` for --help; 2 after a one-line message for an unknown option. */
+int dm_cli_json_option(const char *command_name, int argc, char **argv, const char *usage,
+                       bool *json);
 
 /* Prints "driftmark: <command>: <message>" to stderr and returns 2. */
 int dm_cli_usage_error(const char *command, const char *fmt, ...)

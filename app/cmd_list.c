@@ -142,31 +142,13 @@ static void print_json(void)
 
 int dm_cmd_list(int argc, char **argv)
 {
-    static const struct option options[] = {
-        { "json", no_argument, NULL, 'j' },
-        { "help", no_argument, NULL, 'h' },
-        { NULL, 0, NULL, 0 },
-    };
-    bool json = false;
-    opterr = 0;
-    optind = 1;
-    int c;
-    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-        switch (c) {
-        case 'j':
-            json = true;
-            break;
-        case 'h':
-            printf("usage: driftmark list [--json]\n"
-                   "  every problem with its parameters and regimes, and every method\n");
-            return 0;
-        default:
-            if (optopt != 0 && optopt != '?')
-                return dm_cli_usage_error(CMD, "unknown option '-%c' (try --help)", optopt);
-            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
-                                      argv[optind - 1]);
-        }
-    }
+    bool json;
+    int code = dm_cli_json_option(CMD, argc, argv,
+                                  "usage: driftmark list [--json]\n"
+                                  "  every problem with its parameters and regimes, and every "
+                                  "method\n", &json);
+    if (code >= 0)
+        return code;
     if (optind < argc)
         return dm_cli_usage_error(CMD, "unexpected argument '%s' (list takes only --json)",
                                   argv[optind]);

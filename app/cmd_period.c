@@ -12,12 +12,10 @@
 
 #define CMD "period"
 
-static void print_usage(FILE *out)
-{
-    fprintf(out, "usage: driftmark period PROBLEM [key=value ...] [--json]\n"
-                 "  prints the regime, energy, closed-form period, starting state and first\n"
-                 "  section crossing time of PROBLEM (see `driftmark list` for the keys)\n");
-}
+static const char usage[] =
+    "usage: driftmark period PROBLEM [key=value ...] [--json]\n"
+    "  prints the regime, energy, closed-form period, starting state and first\n"
+    "  section crossing time of PROBLEM (see `driftmark list` for the keys)\n";
 
 static void print_vector_text(const char *label, const double *v, int n)
 {
@@ -104,31 +102,10 @@ static void print_json(const dm_instance *inst)
 
 int dm_cmd_period(int argc, char **argv)
 {
-    static const struct option options[] = {
-        { "json", no_argument, NULL, 'j' },
-        { "help", no_argument, NULL, 'h' },
-        { NULL, 0, NULL, 0 },
-    };
-    bool json = false;
-    opterr = 0; /* our own one-line messages */
-    optind = 1;
-    int c;
-    /* GNU getopt_long permutes: --json may come anywhere among the key=value pairs. */
-    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-        switch (c) {
-        case 'j':
-            json = true;
-            break;
-        case 'h':
-            print_usage(stdout);
-            return 0;
-        default:
-            if (optopt != 0 && optopt != '?')
-                return dm_cli_usage_error(CMD, "unknown option '-%c' (try --help)", optopt);
-            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
-                                      argv[optind - 1]);
-        }
-    }
+    bool json;
+    int code = dm_cli_json_option(CMD, argc, argv, usage, &json);
+    if (code >= 0)
+        return code;
     if (optind >= argc)
         return dm_cli_usage_error(CMD, "missing PROBLEM (see `driftmark list`)");
 
