@@ -1,6 +1,6 @@
-/* bench_bare.c — hand-written loops of Störmer–Verlet (kick-drift-kick) and Yoshida's
+/* bench_loops.c — hand-written loops of Störmer–Verlet (kick-drift-kick) and Yoshida's
  * triple jump on the pendulum and on Kepler, for `driftmark bench` to time the harness
- * against. See bench_bare.h.
+ * against, and CVODE called directly to time our adapter against. See bench_loops.h.
  *
  * Every loop keeps the force of its last kick for the next step's first kick (FSAL),
  * as the splitting engine does, and writes each update as the engine does
@@ -9,6 +9,17 @@
 #include "bench_loops.h"
 
 #include <math.h>
+
+#include <cvode/cvode.h>
+#include <cvode/cvode_ls.h>
+#include <nvector/nvector_serial.h>
+#include <sundials/sundials_context.h>
+#include <sunlinsol/sunlinsol_dense.h>
+#include <sunmatrix/sunmatrix_dense.h>
+#include <sunnonlinsol/sunnonlinsol_fixedpoint.h>
+#include <sunnonlinsol/sunnonlinsol_newton.h>
+
+#include "dm_clock.h"
 
 /* The pendulum force of problems/pendulum.c written inline: g sin q and, when asked,
  * V = -g cos q from the same angle (gcc merges the pair into one sincos call). */
@@ -62,21 +73,27 @@ static inline void yoshida4_pendulum(double g, const dm_bare_coefficients *c, ui
 }
 
 void dm_bare_verlet_pendulum(double g, const dm_bare_coefficients *c, uint64_t steps,
-                             dm_bare_state *state, int with_cos)
+                             dm_bare_state *state)
 {
-    if (with_cos)
-        verlet_pendulum(g, c, steps, state, 1);
-    else
-        verlet_pendulum(g, c, steps, state, 0);
+    verlet_pendulum(g, c, steps, state, 1);
+}
+
+void dm_bare_verlet_pendulum_sin_only(double g, const dm_bare_coefficients *c, uint64_t steps,
+                                      dm_bare_state *state)
+{
+    verlet_pendulum(g, c, steps, state, 0);
 }
 
 void dm_bare_yoshida4_pendulum(double g, const dm_bare_coefficients *c, uint64_t steps,
-                               dm_bare_state *state, int with_cos)
+                               dm_bare_state *state)
 {
-    if (with_cos)
-        yoshida4_pendulum(g, c, steps, state, 1);
-    else
-        yoshida4_pendulum(g, c, steps, state, 0);
+    yoshida4_pendulum(g, c, steps, state, 1);
+}
+
+void dm_bare_yoshida4_pendulum_sin_only(double g, const dm_bare_coefficients *c,
+                                        uint64_t steps, dm_bare_state *state)
+{
+    yoshida4_pendulum(g, c, steps, state, 0);
 }
 
 /* The Kepler force of problems/kepler.c written inline: grad V = mu q / r^3 and
@@ -176,4 +193,95 @@ void dm_bare_through_problem(const dm_instance *inst, const dm_bare_coefficients
         state->p[i] = p[i];
     }
     state->potential = V;
+}
+
+/* ---- CVODE called directly ---- */
+
+/* The pendulum as a first-order system written by hand: y = (q, p), y' = (p, -g sin q). */
+static int direct_rhs(sunrealtype t, N_Vector y, N_Vector ydot, void *user_data)
+{
+    const double g = *(const double *)user_data;
+    const double *x = N_VGetArrayPointer(y);
+    double *dx = N_VGetArrayPointer(ydot);
+    dx[0] = x[1];
+    dx[1] = -(g * sin(x[0]));
+    return 0;
+}
+
+/* J = [[0, 1], [-g cos q, 0]], column-major. */
+static int direct_jacobian(sunrealtype t, N_Vector y, N_Vector fy, SUNMatrix J,
+                           void *user_data, N_Vector tmp1, N_Vector tmp2, N_Vector tmp3)
+{
+    const double g = *(const double *)user_data;
+    const double *x = N_VGetArrayPointer(y);
+    double *j = SM_DATA_D(J);
+    j[0] = 0.0;
+    j[1] = -g * cos(x[0]);
+    j[2] = 1.0;
+    j[3] = 0.0;
+    return 0;
+}
+
+long dm_bare_cvode_pendulum(double g, double q0, double p0, bool bdf, int max_order,
+                            double rtol, double t_end, double *seconds)
+{
+    SUNContext ctx = NULL;
+    void *mem = NULL;
+    N_Vector y = NULL;
+    SUNMatrix jac = NULL;
+    SUNLinearSolver ls = NULL;
+    SUNNonlinearSolver nls = NULL;
+    long steps = -1;
+    if (SUNContext_Create(NULL, &ctx) != 0)
+        return -1;
+    y = N_VNew_Serial(2, ctx);
+    mem = CVodeCreate(bdf ? CV_BDF : CV_ADAMS, ctx);
+    if (y == NULL || mem == NULL)
+        goto done;
+    N_VGetArrayPointer(y)[0] = q0;
+    N_VGetArrayPointer(y)[1] = p0;
+    int flag = CVodeInit(mem, direct_rhs, 0.0, y);
+    flag |= CVodeSetUserData(mem, &g);
+    flag |= CVodeSStolerances(mem, rtol, 1e-3 * rtol);
+    flag |= CVodeSetMaxOrd(mem, max_order);
+    flag |= CVodeSetStopTime(mem, t_end);
+    if (bdf) {
+        nls = SUNNonlinSol_Newton(y, ctx);
+        jac = SUNDenseMatrix(2, 2, ctx);
+        ls = jac ? SUNLinSol_Dense(y, jac, ctx) : NULL;
+        if (nls == NULL || ls == NULL)
+            goto done;
+        flag |= CVodeSetLinearSolver(mem, ls, jac);
+        flag |= CVodeSetJacFn(mem, direct_jacobian);
+    } else {
+        nls = SUNNonlinSol_FixedPoint(y, 0, ctx);
+        if (nls == NULL)
+            goto done;
+    }
+    flag |= CVodeSetNonlinearSolver(mem, nls);
+    if (flag != CV_SUCCESS)
+        goto done;
+    double t = 0.0;
+    long n = 0;
+    double t0 = dm_clock_seconds();
+    while (t < t_end) {
+        if (CVode(mem, t_end, y, &t, CV_ONE_STEP) < 0)
+            goto done;
+        n++;
+    }
+    *seconds = dm_clock_seconds() - t0;
+    steps = n;
+done:
+    if (mem)
+        CVodeFree(&mem);
+    if (nls)
+        SUNNonlinSolFree(nls);
+    if (ls)
+        SUNLinSolFree(ls);
+    if (jac)
+        SUNMatDestroy(jac);
+    if (y)
+        N_VDestroy(y);
+    SUNContext_Free(&ctx);
+    return steps;
 }

@@ -1,4 +1,5 @@
-/* bench_loops.h — the hand-written loops `driftmark bench` measures the harness against.
+/* bench_loops.h — the hand-written loops `driftmark bench` measures the harness against,
+ * and CVODE called directly, which it measures our CVODE adapter against.
  *
  * Each loop is what one would write by hand for one method on one problem: the force
  * inline, no function pointers, no monitors. Each computes exactly the arithmetic the
@@ -9,6 +10,7 @@
 #ifndef DM_BENCH_LOOPS_H
 #define DM_BENCH_LOOPS_H
 
+#include <stdbool.h>
 #include <stdint.h>
 
 #include "problem.h"
@@ -27,18 +29,18 @@ typedef struct dm_bare_coefficients {
     double drift[3];
 } dm_bare_coefficients;
 
-/* Pendulum H = p^2/2 - g cos q. When `with_cos` is false the loop evaluates sin only
- * (what a loop that never looks at the energy needs); state->potential is then NaN. */
-void dm_bare_verlet_pendulum(double g, const dm_bare_coefficients *c, uint64_t steps,
-                             dm_bare_state *state, int with_cos);
-void dm_bare_yoshida4_pendulum(double g, const dm_bare_coefficients *c, uint64_t steps,
-                               dm_bare_state *state, int with_cos);
+/* One hand-written loop of one method on one problem, `k` the problem's force constant
+ * (the pendulum's g_over_l, Kepler's mu), from state for `steps` steps. */
+typedef void dm_bare_loop(double k, const dm_bare_coefficients *c, uint64_t steps,
+                          dm_bare_state *state);
+
+/* Pendulum H = p^2/2 - g cos q. The _sin_only loops evaluate sin only, never V (what a
+ * loop that never looks at the energy needs); state->potential is then NaN. */
+dm_bare_loop dm_bare_verlet_pendulum, dm_bare_verlet_pendulum_sin_only;
+dm_bare_loop dm_bare_yoshida4_pendulum, dm_bare_yoshida4_pendulum_sin_only;
 
 /* Kepler H = |p|^2/2 - mu / |q|. */
-void dm_bare_verlet_kepler(double mu, const dm_bare_coefficients *c, uint64_t steps,
-                           dm_bare_state *state);
-void dm_bare_yoshida4_kepler(double mu, const dm_bare_coefficients *c, uint64_t steps,
-                             dm_bare_state *state);
+dm_bare_loop dm_bare_verlet_kepler, dm_bare_yoshida4_kepler;
 
 /* Not a bare loop but the floor of the harness: the same kick-drift-kick steps on any
  * problem, with the state in local arrays and the problem's force() and velocity()
@@ -46,5 +48,14 @@ void dm_bare_yoshida4_kepler(double mu, const dm_bare_coefficients *c, uint64_t 
  * hand-written loop is the price of the problem interface, not of the harness. */
 void dm_bare_through_problem(const dm_instance *inst, const dm_bare_coefficients *c,
                              uint64_t steps, dm_bare_state *state);
+
+/* CVODE called directly, without our adapter, on the pendulum as a first-order system
+ * written by hand, y = (q, p), y' = (p, -g sin q), with its Jacobian for BDF; set up as
+ * the adapter (integrators/cvode.c) sets it up: rtol, atol = rtol / 1000, the method's
+ * highest order, a stop time at t_end, BDF with Newton and a dense linear solver or
+ * Adams with fixed-point iteration. Takes CV_ONE_STEP steps from (q0, p0) to t_end.
+ * Returns the steps, or -1 when CVODE failed; *seconds: the wall time of the steps. */
+long dm_bare_cvode_pendulum(double g, double q0, double p0, bool bdf, int max_order,
+                            double rtol, double t_end, double *seconds);
 
 #endif

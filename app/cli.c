@@ -1,9 +1,12 @@
 /* cli.c — dispatch of driftmark's commands, --help and --version. */
 #include "cli.h"
 
+#include <getopt.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "dm_build_info.h"
 #include "dm_error.h"
@@ -69,6 +72,61 @@ int dm_cli_parse_pair(const char *command_name, const char *arg, char *key, size
         return dm_cli_usage_error(command_name,
                                   "value of '%s' is not a finite number: '%s'", key, eq + 1);
     return 0;
+}
+
+int dm_cli_json_option(const char *command_name, int argc, char **argv, const char *usage,
+                       bool *json)
+{
+    static const struct option options[] = {
+        { "json", no_argument, NULL, 'j' },
+        { "help", no_argument, NULL, 'h' },
+        { NULL, 0, NULL, 0 },
+    };
+    *json = false;
+    opterr = 0; /* our own one-line messages */
+    optind = 1;
+    int c;
+    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
+        switch (c) {
+        case 'j':
+            *json = true;
+            break;
+        case 'h':
+            fputs(usage, stdout);
+            return 0;
+        default:
+            if (optopt != 0 && optopt != '?')
+                return dm_cli_usage_error(command_name, "unknown option '-%c' (try --help)", optopt);
+            return dm_cli_usage_error(command_name, "unknown option '%s' (try --help)",
+                                      argv[optind - 1]);
+        }
+    }
+    return -1;
+}
+
+void dm_cli_utc_now(char *buf, size_t size)
+{
+    time_t now = time(NULL);
+    struct tm tm;
+    gmtime_r(&now, &tm);
+    strftime(buf, size, "%Y-%m-%dT%H:%M:%SZ", &tm);
+}
+
+void dm_cli_temp_path(char *buf, size_t size, const char *name)
+{
+    const char *dir = getenv("TMPDIR");
+    if (dir == NULL || *dir == '\0')
+        dir = "/tmp";
+    snprintf(buf, size, "%s/%s", dir, name);
+}
+
+void dm_cli_free_results(dm_run_result *results, size_t n)
+{
+    if (results == NULL)
+        return;
+    for (size_t i = 0; i < n; i++)
+        dm_run_result_free(&results[i]);
+    free(results);
 }
 
 int dm_cli_main(int argc, char **argv)

@@ -2,14 +2,14 @@
  *
  * For Störmer–Verlet and Yoshida's triple jump on the pendulum and on Kepler it times,
  * side by side in this one process, a hand-written loop of the same method and problem
- * (bench_bare.c) and a full harness run (dm_run with every monitor on), alternating
+ * (bench_loops.c) and a full harness run (dm_run with every monitor on), alternating
  * them and keeping each one's fastest round; it checks that both end with the same
  * energy error bit for bit (same arithmetic, so the same state). Beside them it times
  * the same steps calling the problem's force() and velocity() through its table: the
  * best the per-step path (dm_stepper_step) can do, which the fused loop
- * (integrators/splitting_block.h) is there to beat. It also times writing
- * a one-run results file of the harness run against the run's wall time, reads the
- * peak resident memory, and times CVODE called directly against CVODE through our
+ * (integrators/splitting_block.h) is there to beat. It also times writing a one-run
+ * results file of the harness run against the run's wall time, reads the peak resident
+ * memory, and times CVODE called directly (bench_loops.c) against CVODE through our
  * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs
  * through the pool of `driftmark run` (pool.c) with one job and with every core, and
  * checks that both give the same results bit for bit.
@@ -21,32 +21,17 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/resource.h>
-#include <time.h>
 #include <unistd.h>
-
-#include <cvode/cvode.h>
-#include <cvode/cvode_ls.h>
-#include <nvector/nvector_serial.h>
-#include <sundials/sundials_context.h>
-#include <sunlinsol/sunlinsol_dense.h>
-#include <sunmatrix/sunmatrix_dense.h>
-#include <sunnonlinsol/sunnonlinsol_fixedpoint.h>
-#include <sunnonlinsol/sunnonlinsol_newton.h>
 
 #include "bench_loops.h"
 #include "cli.h"
+#include "dm_clock.h"
+#include "dm_json.h"
 #include "harness.h"
 
 #define CMD "bench"
 #define BENCH_SAMPLES 4096 /* the suite's default sample budget */
 #define CVODE_RTOL 1e-8
-
-static double now_seconds(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_MONOTONIC, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
 
 /* Peak resident set of this process so far, in KiB (Linux reports ru_maxrss in KiB). */
 static long peak_resident_kib(void)
@@ -65,20 +50,25 @@ typedef struct bench_case {
     double steps_per_period;   /* pendulum: the default suite's 96 force evaluations a
                                   period; Kepler at e = 0.6 needs more for Yoshida's
                                   triple jump to stay stable over 10^5 periods */
+    const char *force_param;   /* the problem's force constant, the loops' k */
+    dm_bare_loop *bare;        /* the hand-written loop of this method and problem */
+    dm_bare_loop *bare_without_potential; /* the same never evaluating V; NULL: none */
 } bench_case;
 
 static const bench_case cases[] = {
-    { "pendulum", "amplitude", 2.5, "verlet", 96 },
-    { "pendulum", "amplitude", 2.5, "yoshida4", 32 },
-    { "kepler", "eccentricity", 0.6, "verlet", 256 },
-    { "kepler", "eccentricity", 0.6, "yoshida4", 256 },
+    { "pendulum", "amplitude", 2.5, "verlet", 96, "g_over_l", dm_bare_verlet_pendulum,
+      dm_bare_verlet_pendulum_sin_only },
+    { "pendulum", "amplitude", 2.5, "yoshida4", 32, "g_over_l", dm_bare_yoshida4_pendulum,
+      dm_bare_yoshida4_pendulum_sin_only },
+    { "kepler", "eccentricity", 0.6, "verlet", 256, "mu", dm_bare_verlet_kepler, NULL },
+    { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL },
 };
 #define N_CASES (sizeof cases / sizeof cases[0])
 
 typedef struct case_result {
     uint64_t steps;
     double bare_seconds;          /* fastest round */
-    double bare_sin_only_seconds; /* pendulum: a loop that never evaluates V; else NaN */
+    double bare_without_potential_seconds; /* a loop that never evaluates V; NaN: none */
     double through_problem_seconds; /* the loop calling the problem's functions */
     double harness_seconds;       /* fastest round, dm_run as a whole */
     bool energy_agrees;           /* bare and harness end with the same dE, bit for bit */
@@ -121,57 +111,68 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
     return DM_OK;
 }
 
-/* The method's kick and drift coefficients times h, as the splitting engine scales them. */
-static void bare_coefficients(const dm_run_spec *spec, dm_bare_coefficients *bc)
+/* What the hand-written loops of one case start from: the case, the instance, the
+ * method's kick and drift coefficients times h (as the splitting engine scales them)
+ * and the problem's force constant, looked up by name. */
+typedef struct bare_setup {
+    const bench_case *c;
+    const dm_instance *inst;
+    dm_bare_coefficients bc;
+    double k;
+} bare_setup;
+
+static dm_status bare_setup_init(bare_setup *b, const bench_case *c, const dm_run_spec *spec,
+                                 dm_error *err)
 {
+    memset(b, 0, sizeof *b);
+    b->c = c;
+    b->inst = &spec->inst;
+    int i = dm_problem_param_index(spec->inst.problem, c->force_param);
+    if (i < 0)
+        return dm_error_set(err, DM_EINPUT, "bench: %s has no parameter %s", c->problem,
+                            c->force_param);
+    b->k = spec->inst.param[i];
     const dm_splitting *t = spec->method->splitting;
     double h = spec->method_config.h;
-    memset(bc, 0, sizeof *bc);
-    bc->n_drift = t->n_drift;
-    for (int i = 0; i < t->n_kick && i < 4; i++)
-        bc->kick[i] = t->kick[i] * h;
-    for (int i = 0; i < t->n_drift && i < 3; i++)
-        bc->drift[i] = t->drift[i] * h;
+    b->bc.n_drift = t->n_drift;
+    for (int j = 0; j < t->n_kick && j < 4; j++)
+        b->bc.kick[j] = t->kick[j] * h;
+    for (int j = 0; j < t->n_drift && j < 3; j++)
+        b->bc.drift[j] = t->drift[j] * h;
+    return DM_OK;
 }
 
-/* Runs the bare loop of case c for `steps` steps; returns its wall time. */
-/* with_cos: 1 the hand-written loop, 0 the pendulum loop without V, -1 the loop through
- * the problem's functions. */
-static double run_bare(const bench_case *c, const dm_run_spec *spec,
-                       const dm_bare_coefficients *bc, uint64_t steps, int with_cos,
-                       dm_bare_state *end)
+typedef enum bare_kind {
+    BARE,                     /* the hand-written loop */
+    BARE_WITHOUT_POTENTIAL,   /* the same never evaluating V (when the case has one) */
+    THROUGH_PROBLEM           /* the same steps calling the problem's functions */
+} bare_kind;
+
+/* Runs one of the loops of a case for `steps` steps; returns its wall time. */
+static double run_bare(const bare_setup *b, bare_kind kind, uint64_t steps, dm_bare_state *end)
 {
-    const dm_instance *inst = &spec->inst;
+    const dm_instance *inst = b->inst;
     dm_bare_state s = { .q = { inst->q0[0], inst->dof > 1 ? inst->q0[1] : 0.0 },
                         .p = { inst->p0[0], inst->dof > 1 ? inst->p0[1] : 0.0 } };
-    /* The problems' first parameter is their force constant (g_over_l, mu). */
-    double k = inst->param[0];
-    bool pendulum = strcmp(c->problem, "pendulum") == 0;
-    bool verlet = bc->n_drift == 1;
-    double t0 = now_seconds();
-    if (with_cos < 0)
-        dm_bare_through_problem(inst, bc, steps, &s);
-    else if (pendulum && verlet)
-        dm_bare_verlet_pendulum(k, bc, steps, &s, with_cos);
-    else if (pendulum)
-        dm_bare_yoshida4_pendulum(k, bc, steps, &s, with_cos);
-    else if (verlet)
-        dm_bare_verlet_kepler(k, bc, steps, &s);
+    double t0 = dm_clock_seconds();
+    if (kind == THROUGH_PROBLEM)
+        dm_bare_through_problem(inst, &b->bc, steps, &s);
+    else if (kind == BARE_WITHOUT_POTENTIAL)
+        b->c->bare_without_potential(b->k, &b->bc, steps, &s);
     else
-        dm_bare_yoshida4_kepler(k, bc, steps, &s);
-    double wall = now_seconds() - t0;
+        b->c->bare(b->k, &b->bc, steps, &s);
+    double wall = dm_clock_seconds() - t0;
     if (end != NULL)
         *end = s;
     return wall;
 }
 
 /* Steps the bare loop makes in about `seconds`. */
-static uint64_t calibrate(const bench_case *c, const dm_run_spec *spec,
-                          const dm_bare_coefficients *bc, double seconds)
+static uint64_t calibrate(const bare_setup *b, double seconds)
 {
     uint64_t n = 1u << 14;
     for (;;) {
-        double wall = run_bare(c, spec, bc, n, 1, NULL);
+        double wall = run_bare(b, BARE, n, NULL);
         if (wall >= 0.02 || n >= (1ull << 40)) {
             double rate = (double)n / fmax(wall, 1e-9);
             double want = rate * seconds;
@@ -186,11 +187,9 @@ static uint64_t calibrate(const bench_case *c, const dm_run_spec *spec,
 static double time_results_write(const dm_run_spec *spec, const dm_run_result *result,
                                  char *note, size_t note_size)
 {
-    const char *dir = getenv("TMPDIR");
-    if (dir == NULL || *dir == '\0')
-        dir = "/tmp";
-    char path[1024];
-    snprintf(path, sizeof path, "%s/driftmark-bench-%ld.h5", dir, (long)getpid());
+    char name[64], path[1024];
+    snprintf(name, sizeof name, "driftmark-bench-%ld.h5", (long)getpid());
+    dm_cli_temp_path(path, sizeof path, name);
     dm_suite suite;
     memset(&suite, 0, sizeof suite);
     snprintf(suite.name, sizeof suite.name, "bench");
@@ -201,13 +200,10 @@ static double time_results_write(const dm_run_spec *spec, const dm_run_result *r
     suite.runs = (dm_run_spec *)spec;
     dm_error err = { 0 };
     char started[32];
-    time_t t = time(NULL);
-    struct tm tm;
-    gmtime_r(&t, &tm);
-    strftime(started, sizeof started, "%Y-%m-%dT%H:%M:%SZ", &tm);
-    double t0 = now_seconds();
+    dm_cli_utc_now(started, sizeof started);
+    double t0 = dm_clock_seconds();
     dm_status st = dm_results_write(path, &suite, result, NULL, started, &err);
-    double wall = now_seconds() - t0;
+    double wall = dm_clock_seconds() - t0;
     unlink(path);
     if (st != DM_OK) {
         snprintf(note, note_size, "results file not written: %s", err.msg);
@@ -216,31 +212,41 @@ static double time_results_write(const dm_run_spec *spec, const dm_run_result *r
     return wall;
 }
 
+/* dE as the runner forms it, from the bare loop's end state and the V of its last force
+ * evaluation, scaled by the run's energy scale. */
+static double bare_energy_error(const dm_instance *inst, const dm_bare_state *end,
+                                double energy_scale)
+{
+    double H0 = dm_instance_energy(inst, inst->q0, inst->p0);
+    double T = inst->problem->kinetic(inst, end->p);
+    return (T + end->potential - H0) * (1.0 / energy_scale);
+}
+
 static dm_status bench_case_run(const bench_case *c, bool quick, case_result *out,
                                 dm_error *err)
 {
+    /* 1. the steps the bare loop makes in the wanted time, and the run of that many */
     memset(out, 0, sizeof *out);
     dm_run_spec spec;
+    bare_setup b;
     dm_status st = make_spec(&spec, c, 1000, err);
-    if (st != DM_OK)
+    if (st != DM_OK || (st = bare_setup_init(&b, c, &spec, err)) != DM_OK)
         return st;
-    dm_bare_coefficients bc;
-    bare_coefficients(&spec, &bc);
-    uint64_t steps = calibrate(c, &spec, &bc, quick ? 0.2 : 1.5);
-    if ((st = make_spec(&spec, c, steps, err)) != DM_OK)
+    uint64_t steps = calibrate(&b, quick ? 0.2 : 1.5);
+    if ((st = make_spec(&spec, c, steps, err)) != DM_OK ||
+        (st = bare_setup_init(&b, c, &spec, err)) != DM_OK)
         return st;
-    bool pendulum = strcmp(c->problem, "pendulum") == 0;
-    const int rounds = quick ? 1 : 3;
+    /* 2. rounds of the harness and each loop, keeping each one's fastest */
     out->bare_seconds = out->harness_seconds = INFINITY;
-    out->bare_sin_only_seconds = pendulum ? INFINITY : NAN;
+    out->bare_without_potential_seconds = c->bare_without_potential ? INFINITY : NAN;
     out->through_problem_seconds = INFINITY;
     dm_run_result result;
     memset(&result, 0, sizeof result);
-    for (int r = 0; r < rounds; r++) {
+    for (int r = 0; r < (quick ? 1 : 3); r++) {
         dm_run_result_free(&result);
-        double t0 = now_seconds();
+        double t0 = dm_clock_seconds();
         st = dm_run(&spec, &result, NULL, err);
-        double wall = now_seconds() - t0;
+        double wall = dm_clock_seconds() - t0;
         if (st != DM_OK)
             return st;
         if (result.status != DM_RUN_OK) {
@@ -251,24 +257,23 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
         out->harness_seconds = fmin(out->harness_seconds, wall);
         out->steps = result.metrics.steps;
         dm_bare_state end;
-        out->bare_seconds = fmin(out->bare_seconds, run_bare(c, &spec, &bc, out->steps, 1, &end));
+        out->bare_seconds = fmin(out->bare_seconds, run_bare(&b, BARE, out->steps, &end));
         if (r == 0) {
-            /* dE as the runner forms it, from the bare loop's end state and the V of its
-             * last force evaluation. */
-            const dm_instance *inst = &spec.inst;
-            double H0 = dm_instance_energy(inst, inst->q0, inst->p0);
-            double T = inst->problem->kinetic(inst, end.p);
-            out->bare_energy_error = (T + end.potential - H0) * (1.0 / result.metrics.energy_scale);
+            /* 3. the same energy error at the end, bit for bit */
+            out->bare_energy_error =
+                bare_energy_error(&spec.inst, &end, result.metrics.energy_scale);
             out->harness_energy_error = result.metrics.final_energy_error;
             out->energy_agrees = memcmp(&out->bare_energy_error, &out->harness_energy_error,
                                         sizeof(double)) == 0;
         }
         out->through_problem_seconds = fmin(out->through_problem_seconds,
-                                            run_bare(c, &spec, &bc, out->steps, -1, NULL));
-        if (pendulum)
-            out->bare_sin_only_seconds =
-                fmin(out->bare_sin_only_seconds, run_bare(c, &spec, &bc, out->steps, 0, NULL));
+                                            run_bare(&b, THROUGH_PROBLEM, out->steps, NULL));
+        if (c->bare_without_potential != NULL)
+            out->bare_without_potential_seconds =
+                fmin(out->bare_without_potential_seconds,
+                     run_bare(&b, BARE_WITHOUT_POTENTIAL, out->steps, NULL));
     }
+    /* 4. writing the run's results file */
     out->hdf5_seconds = time_results_write(&spec, &result, out->hdf5_note, sizeof out->hdf5_note);
     out->hdf5_share = out->hdf5_seconds / out->harness_seconds;
     dm_run_result_free(&result);
@@ -277,103 +282,26 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
 
 /* ---- CVODE: direct calls against the adapter ---- */
 
+/* CVODE on one starting state, called directly (bench_loops.c) and through the
+ * adapter, with each of its methods. */
+static const struct cvode_bench {
+    const char *problem;
+    const char *key;
+    double value;
+    const char *force_param;       /* the constant the direct call takes */
+    long (*direct)(double k, double q0, double p0, bool bdf, int max_order, double rtol,
+                   double t_end, double *seconds);
+    struct { const char *method; bool bdf; } methods[2];
+} cvode_bench = { "pendulum", "amplitude", 2.5, "g_over_l", dm_bare_cvode_pendulum,
+                  { { "cvode-adams", false }, { "cvode-bdf", true } } };
+#define N_CVODE (sizeof cvode_bench.methods / sizeof cvode_bench.methods[0])
+
 typedef struct cvode_result {
     const char *method;
     double periods;
     long direct_steps, adapter_steps;
     double direct_seconds, adapter_seconds;  /* fastest round */
 } cvode_result;
-
-/* The pendulum as a first-order system written by hand: y = (q, p), y' = (p, -g sin q). */
-static int direct_rhs(sunrealtype t, N_Vector y, N_Vector ydot, void *user_data)
-{
-    const double g = *(const double *)user_data;
-    const double *x = N_VGetArrayPointer(y);
-    double *dx = N_VGetArrayPointer(ydot);
-    dx[0] = x[1];
-    dx[1] = -(g * sin(x[0]));
-    return 0;
-}
-
-/* J = [[0, 1], [-g cos q, 0]], column-major. */
-static int direct_jacobian(sunrealtype t, N_Vector y, N_Vector fy, SUNMatrix J,
-                           void *user_data, N_Vector tmp1, N_Vector tmp2, N_Vector tmp3)
-{
-    const double g = *(const double *)user_data;
-    const double *x = N_VGetArrayPointer(y);
-    double *j = SM_DATA_D(J);
-    j[0] = 0.0;
-    j[1] = -g * cos(x[0]);
-    j[2] = 1.0;
-    j[3] = 0.0;
-    return 0;
-}
-
-/* CVODE on its own, set up as the adapter sets it up; returns the steps to t_end or -1. */
-static long cvode_direct(const dm_instance *inst, bool bdf, int max_order, double t_end,
-                         double *seconds)
-{
-    SUNContext ctx = NULL;
-    void *mem = NULL;
-    N_Vector y = NULL;
-    SUNMatrix jac = NULL;
-    SUNLinearSolver ls = NULL;
-    SUNNonlinearSolver nls = NULL;
-    double g = inst->param[0];
-    long steps = -1;
-    if (SUNContext_Create(NULL, &ctx) != 0)
-        return -1;
-    y = N_VNew_Serial(2, ctx);
-    mem = CVodeCreate(bdf ? CV_BDF : CV_ADAMS, ctx);
-    if (y == NULL || mem == NULL)
-        goto done;
-    N_VGetArrayPointer(y)[0] = inst->q0[0];
-    N_VGetArrayPointer(y)[1] = inst->p0[0];
-    int flag = CVodeInit(mem, direct_rhs, 0.0, y);
-    flag |= CVodeSetUserData(mem, &g);
-    flag |= CVodeSStolerances(mem, CVODE_RTOL, 1e-3 * CVODE_RTOL);
-    flag |= CVodeSetMaxOrd(mem, max_order);
-    flag |= CVodeSetStopTime(mem, t_end);
-    if (bdf) {
-        nls = SUNNonlinSol_Newton(y, ctx);
-        jac = SUNDenseMatrix(2, 2, ctx);
-        ls = jac ? SUNLinSol_Dense(y, jac, ctx) : NULL;
-        if (nls == NULL || ls == NULL)
-            goto done;
-        flag |= CVodeSetLinearSolver(mem, ls, jac);
-        flag |= CVodeSetJacFn(mem, direct_jacobian);
-    } else {
-        nls = SUNNonlinSol_FixedPoint(y, 0, ctx);
-        if (nls == NULL)
-            goto done;
-    }
-    flag |= CVodeSetNonlinearSolver(mem, nls);
-    if (flag != CV_SUCCESS)
-        goto done;
-    double t = 0.0;
-    long n = 0;
-    double t0 = now_seconds();
-    while (t < t_end) {
-        if (CVode(mem, t_end, y, &t, CV_ONE_STEP) < 0)
-            goto done;
-        n++;
-    }
-    *seconds = now_seconds() - t0;
-    steps = n;
-done:
-    if (mem)
-        CVodeFree(&mem);
-    if (nls)
-        SUNNonlinSolFree(nls);
-    if (ls)
-        SUNLinSolFree(ls);
-    if (jac)
-        SUNMatDestroy(jac);
-    if (y)
-        N_VDestroy(y);
-    SUNContext_Free(&ctx);
-    return steps;
-}
 
 /* The same through the adapter: a plain loop over dm_stepper_step, no monitors. */
 static long cvode_adapter(const dm_instance *inst, const dm_method *m, double t_end,
@@ -388,7 +316,7 @@ static long cvode_adapter(const dm_instance *inst, const dm_method *m, double t_
     if (s == NULL)
         return -1;
     long n = 0;
-    double t0 = now_seconds();
+    double t0 = dm_clock_seconds();
     while (cur->t < t_end) {
         if (dm_stepper_step(s, cur, nxt) != DM_OK) {
             *err = s->error;
@@ -400,26 +328,34 @@ static long cvode_adapter(const dm_instance *inst, const dm_method *m, double t_
         cur = nxt;
         nxt = tmp;
     }
-    *seconds = now_seconds() - t0;
+    *seconds = dm_clock_seconds() - t0;
     dm_stepper_destroy(s);
     return n;
 }
 
-static dm_status bench_cvode(const char *method_id, bool quick, cvode_result *out, dm_error *err)
+static dm_status bench_cvode(size_t which, bool quick, cvode_result *out, dm_error *err)
 {
+    /* 1. the starting state, and the direct call's force constant by name */
+    const struct cvode_bench *cb = &cvode_bench;
+    const char *method_id = cb->methods[which].method;
     memset(out, 0, sizeof *out);
     out->method = method_id;
     const dm_method *m = dm_method_find(method_id);
-    if (m == NULL)
-        return dm_error_set(err, DM_EINPUT, "bench: method %s is not available", method_id);
+    const dm_problem *pb = dm_problem_find(cb->problem);
+    if (m == NULL || pb == NULL)
+        return dm_error_set(err, DM_EINPUT, "bench: %s on %s is not available", method_id,
+                            cb->problem);
+    int k = dm_problem_param_index(pb, cb->force_param);
+    if (k < 0)
+        return dm_error_set(err, DM_EINPUT, "bench: %s has no parameter %s", cb->problem,
+                            cb->force_param);
     dm_instance inst;
-    const char *keys[1] = { "amplitude" };
-    double values[1] = { 2.5 };
-    dm_status st = dm_instance_init(&inst, dm_problem_find("pendulum"), 1, keys, values, err);
+    const char *keys[1] = { cb->key };
+    double values[1] = { cb->value };
+    dm_status st = dm_instance_init(&inst, pb, 1, keys, values, err);
     if (st != DM_OK)
         return st;
-    bool bdf = strcmp(method_id, "cvode-bdf") == 0;
-    /* Calibrate on 20 periods through the adapter, then aim for the wanted time. */
+    /* 2. calibrate on 20 periods through the adapter, then aim for the wanted time */
     double probe = 0.0;
     double periods = 20.0;
     if (cvode_adapter(&inst, m, periods * inst.period, &probe, err) < 0)
@@ -427,10 +363,13 @@ static dm_status bench_cvode(const char *method_id, bool quick, cvode_result *ou
     periods = fmax(1.0, ceil(periods * (quick ? 0.2 : 1.5) / fmax(probe, 1e-9)));
     out->periods = periods;
     double t_end = periods * inst.period;
+    /* 3. rounds of each, keeping each one's fastest */
     out->direct_seconds = out->adapter_seconds = INFINITY;
     for (int r = 0; r < (quick ? 1 : 3); r++) {
         double wall = 0.0;
-        out->direct_steps = cvode_direct(&inst, bdf, m->order, t_end, &wall);
+        out->direct_steps = cb->direct(inst.param[k], inst.q0[0], inst.p0[0],
+                                       cb->methods[which].bdf, m->order, CVODE_RTOL, t_end,
+                                       &wall);
         if (out->direct_steps < 0)
             return dm_error_set(err, DM_ESOLVER, "bench: CVODE called directly failed (%s)",
                                 method_id);
@@ -447,9 +386,15 @@ static dm_status bench_cvode(const char *method_id, bool quick, cvode_result *ou
 
 /* Eight swings of the pendulum under Verlet, the same steps per period and the same
  * horizon in periods: the same number of steps each, so eight equal runs. */
-static const double jobs_amplitudes[] = { 2.0, 2.1, 2.2, 2.3, 2.4, 2.5, 2.6, 2.7 };
-#define JOBS_RUNS (sizeof jobs_amplitudes / sizeof jobs_amplitudes[0])
-#define JOBS_STEPS_PER_PERIOD 96
+static const struct jobs_bench {
+    const char *problem;
+    const char *key;
+    double values[8];              /* one run each */
+    const char *method;
+    int steps_per_period;
+} jobs_bench = { "pendulum", "amplitude", { 2.0, 2.1, 2.2, 2.3, 2.4, 2.5, 2.6, 2.7 },
+                 "verlet", 96 };
+#define JOBS_RUNS (sizeof jobs_bench.values / sizeof jobs_bench.values[0])
 
 typedef struct jobs_result {
     size_t runs;
@@ -474,18 +419,17 @@ static dm_status jobs_suite(dm_suite *suite, double periods, dm_error *err)
                      periods, BENCH_SAMPLES);
     for (size_t i = 0; i < JOBS_RUNS && w > 0 && (size_t)w < sizeof text; i++)
         w += snprintf(text + w, sizeof text - (size_t)w,
-                      "  - {problem: pendulum, amplitude: %g}\n", jobs_amplitudes[i]);
+                      "  - {problem: %s, %s: %g}\n", jobs_bench.problem, jobs_bench.key,
+                      jobs_bench.values[i]);
     if (w > 0 && (size_t)w < sizeof text)
         w += snprintf(text + w, sizeof text - (size_t)w,
-                      "methods:\n  - {method: verlet, steps_per_period: %d}\n",
-                      JOBS_STEPS_PER_PERIOD);
+                      "methods:\n  - {method: %s, steps_per_period: %d}\n",
+                      jobs_bench.method, jobs_bench.steps_per_period);
     if (w < 0 || (size_t)w >= sizeof text)
         return dm_error_set(err, DM_EINPUT, "bench: the jobs suite does not fit its buffer");
-    const char *dir = getenv("TMPDIR");
-    if (dir == NULL || *dir == '\0')
-        dir = "/tmp";
-    char output[1024];
-    snprintf(output, sizeof output, "%s/driftmark-bench-jobs-%ld.h5", dir, (long)getpid());
+    char name[64], output[1024];
+    snprintf(name, sizeof name, "driftmark-bench-jobs-%ld.h5", (long)getpid());
+    dm_cli_temp_path(output, sizeof output, name);
     return dm_suite_parse(suite, text, strlen(text), "(driftmark bench jobs suite)", output,
                           err);
 }
@@ -572,10 +516,10 @@ static dm_status jobs_round(const dm_suite *suite, dm_run_result *results, const
                             int jobs, double *seconds, dm_error *err)
 {
     free_results(results, suite->n_runs);
-    double t0 = now_seconds();
+    double t0 = dm_clock_seconds();
     dm_status st = dm_run_pool(suite, results, order, suite->n_runs, jobs, NULL, NULL, NULL,
                                err);
-    *seconds = now_seconds() - t0;
+    *seconds = dm_clock_seconds() - t0;
     if (st != DM_OK)
         return st;
     for (size_t i = 0; i < suite->n_runs; i++)
@@ -606,9 +550,9 @@ static dm_status bench_jobs(bool quick, jobs_result *out, dm_error *err)
             return st;
         dm_run_result probe;
         memset(&probe, 0, sizeof probe);
-        double t0 = now_seconds();
+        double t0 = dm_clock_seconds();
         st = dm_run(&suite.runs[0], &probe, NULL, err);
-        wall = now_seconds() - t0;
+        wall = dm_clock_seconds() - t0;
         dm_run_result_free(&probe);
         dm_suite_free(&suite);
         if (st != DM_OK)
@@ -666,19 +610,34 @@ done:
 
 /* ---- output ---- */
 
-static void json_number(FILE *f, double v)
-{
-    if (isfinite(v))
-        fprintf(f, "%.6g", v);
-    else
-        fputs("null", f);
-}
-
+/* "name": number (%.6g, null when not finite), then ", " unless last. */
 static void json_field(FILE *f, const char *name, double v, bool last)
 {
-    fprintf(f, "\"%s\": ", name);
-    json_number(f, v);
+    dm_json_string(f, name);
+    fputs(": ", f);
+    dm_json_number(f, v, "%.6g");
     fputs(last ? "" : ", ", f);
+}
+
+/* "name": "text", then ", " unless last. */
+static void json_text(FILE *f, const char *name, const char *text, bool last)
+{
+    dm_json_string(f, name);
+    fputs(": ", f);
+    dm_json_string(f, text);
+    fputs(last ? "" : ", ", f);
+}
+
+/* "problem": ..., "KEY": VALUE, "method": ..., the start of every case's object. */
+static void json_case(FILE *f, const char *problem, const char *key, double value,
+                      const char *method)
+{
+    json_text(f, "problem", problem, false);
+    dm_json_string(f, key);
+    fputs(": ", f);
+    dm_json_number(f, value, "%g");
+    fputs(", ", f);
+    json_text(f, "method", method, false);
 }
 
 static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
@@ -691,9 +650,9 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         const case_result *r = &cr[i];
         double bare = (double)r->steps / r->bare_seconds;
         double harness = (double)r->steps / r->harness_seconds;
-        fprintf(f, "    {\"problem\": \"%s\", \"%s\": %g, \"method\": \"%s\", "
-                   "\"steps_per_period\": %g, \"steps\": %llu,\n     ",
-                c->problem, c->key, c->value, c->method, c->steps_per_period,
+        fputs("    {", f);
+        json_case(f, c->problem, c->key, c->value, c->method);
+        fprintf(f, "\"steps_per_period\": %g, \"steps\": %llu,\n     ", c->steps_per_period,
                 (unsigned long long)r->steps);
         json_field(f, "bare_steps_per_second", bare, false);
         json_field(f, "harness_steps_per_second", harness, false);
@@ -701,17 +660,14 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         json_field(f, "through_problem_steps_per_second",
                    (double)r->steps / r->through_problem_seconds, false);
         json_field(f, "bare_without_potential_steps_per_second",
-                   (double)r->steps / r->bare_sin_only_seconds, false);
+                   (double)r->steps / r->bare_without_potential_seconds, false);
         fprintf(f, "\n     \"final_energy_error_agrees\": %s, ", r->energy_agrees ? "true" : "false");
         json_field(f, "final_energy_error", r->harness_energy_error, false);
         json_field(f, "hdf5_write_seconds", r->hdf5_seconds, false);
         json_field(f, "hdf5_share", r->hdf5_share, true);
         if (r->hdf5_note[0]) {
-            fputs(", \"hdf5_note\": \"", f);
-            for (const char *s = r->hdf5_note; *s; s++)
-                if (*s != '"' && *s != '\\' && (unsigned char)*s >= 0x20)
-                    fputc(*s, f);
-            fputc('"', f);
+            fputs(", ", f);
+            json_text(f, "hdf5_note", r->hdf5_note, true);
         }
         fprintf(f, "}%s\n", i + 1 < N_CASES ? "," : "");
     }
@@ -722,27 +678,32 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         const cvode_result *r = &cv[i];
         double direct = (double)r->direct_steps / r->direct_seconds;
         double adapter = (double)r->adapter_steps / r->adapter_seconds;
-        fprintf(f, "    {\"problem\": \"pendulum\", \"amplitude\": 2.5, \"method\": \"%s\", "
-                   "\"rtol\": %g, \"periods\": %g, \"direct_steps\": %ld, "
+        fputs("    {", f);
+        json_case(f, cvode_bench.problem, cvode_bench.key, cvode_bench.value, r->method);
+        fprintf(f, "\"rtol\": %g, \"periods\": %g, \"direct_steps\": %ld, "
                    "\"adapter_steps\": %ld,\n     ",
-                r->method, CVODE_RTOL, r->periods, r->direct_steps, r->adapter_steps);
+                CVODE_RTOL, r->periods, r->direct_steps, r->adapter_steps);
         json_field(f, "direct_steps_per_second", direct, false);
         json_field(f, "adapter_steps_per_second", adapter, false);
         /* time per step through the adapter over time per step called directly, - 1 */
         json_field(f, "adapter_overhead", direct / adapter - 1.0, true);
         fprintf(f, "}%s\n", i + 1 < n_cv ? "," : "");
     }
-    fprintf(f, "  ],\n  \"jobs\": {\"problem\": \"pendulum\", \"method\": \"verlet\", "
-               "\"runs\": %zu, \"jobs\": %d, \"periods\": %g, \"steps_per_run\": %llu,\n   ",
+    fputs("  ],\n  \"jobs\": {", f);
+    json_text(f, "problem", jobs_bench.problem, false);
+    json_text(f, "method", jobs_bench.method, false);
+    fprintf(f, "\"runs\": %zu, \"jobs\": %d, \"periods\": %g, \"steps_per_run\": %llu,\n   ",
             jb->runs, jb->jobs, jb->periods, (unsigned long long)jb->steps_per_run);
     json_field(f, "one_job_seconds", jb->one_seconds, false);
     json_field(f, "all_jobs_seconds", jb->all_seconds, false);
     json_field(f, "speedup", jb->one_seconds / jb->all_seconds, false);
     fprintf(f, "\"results_identical\": %s", jb->identical ? "true" : "false");
-    if (!jb->identical)
-        fprintf(f, ", \"difference\": \"%s\"", jb->difference);
+    if (!jb->identical) {
+        fputs(", ", f);
+        json_text(f, "difference", jb->difference, true);
+    }
     fputs("},\n  \"jobs_speedup\": ", f);
-    json_number(f, jb->one_seconds / jb->all_seconds);
+    dm_json_number(f, jb->one_seconds / jb->all_seconds, "%.6g");
     fputs("\n}\n", f);
 }
 
@@ -763,7 +724,7 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
         fprintf(f, "%-32s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %5s %7.3f\n", name,
                 (unsigned long long)r->steps, bare / 1e6, harness / 1e6, harness / bare,
                 (double)r->steps / r->through_problem_seconds / 1e6,
-                (double)r->steps / r->bare_sin_only_seconds / 1e6, r->energy_agrees ? "yes" : "NO",
+                (double)r->steps / r->bare_without_potential_seconds / 1e6, r->energy_agrees ? "yes" : "NO",
                 100.0 * r->hdf5_share);
         if (r->hdf5_note[0])
             fprintf(f, "  %s\n", r->hdf5_note);
@@ -775,8 +736,8 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
                "  the same dE bit for bit; hdf5: writing a one-run results file over the run's\n"
                "  wall time\n\n");
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);
-    fprintf(f, "CVODE on pendulum amplitude=2.5, rtol %g: called directly vs through the adapter\n",
-            CVODE_RTOL);
+    fprintf(f, "CVODE on %s %s=%g, rtol %g: called directly vs through the adapter\n",
+            cvode_bench.problem, cvode_bench.key, cvode_bench.value, CVODE_RTOL);
     for (size_t i = 0; i < n_cv; i++) {
         const cvode_result *r = &cv[i];
         double direct = (double)r->direct_steps / r->direct_seconds;
@@ -786,9 +747,11 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
                 r->method, r->periods, r->direct_steps, r->adapter_steps, direct / 1e6,
                 adapter / 1e6, 100.0 * (direct / adapter - 1.0));
     }
-    fprintf(f, "\n1 vs N jobs: %zu equal runs (pendulum amplitude 2.0 to 2.7, verlet, %d steps a "
-               "period, %g periods, %llu steps each) through the pool of `run`\n",
-            jb->runs, JOBS_STEPS_PER_PERIOD, jb->periods, (unsigned long long)jb->steps_per_run);
+    fprintf(f, "\n1 vs N jobs: %zu equal runs (%s %s %.1f to %.1f, %s, %d steps a period, %g "
+               "periods, %llu steps each) through the pool of `run`\n",
+            jb->runs, jobs_bench.problem, jobs_bench.key, jobs_bench.values[0],
+            jobs_bench.values[JOBS_RUNS - 1], jobs_bench.method, jobs_bench.steps_per_period,
+            jb->periods, (unsigned long long)jb->steps_per_run);
     fprintf(f, "  --jobs 1 %.3f s, --jobs %d %.3f s: speed-up %.2f; results %s\n", jb->one_seconds,
             jb->jobs, jb->all_seconds, jb->one_seconds / jb->all_seconds,
             jb->identical ? "identical bit for bit" : jb->difference);
@@ -829,8 +792,7 @@ int dm_cmd_bench(int argc, char **argv)
 
     long rss_before = peak_resident_kib();
     case_result cr[N_CASES];
-    cvode_result cv[2];
-    static const char *const cvode_methods[] = { "cvode-adams", "cvode-bdf" };
+    cvode_result cv[N_CVODE];
     dm_error err = { 0 };
     for (size_t i = 0; i < N_CASES; i++) {
         if (bench_case_run(&cases[i], quick, &cr[i], &err) != DM_OK) {
@@ -838,8 +800,8 @@ int dm_cmd_bench(int argc, char **argv)
             return 1;
         }
     }
-    for (size_t i = 0; i < 2; i++) {
-        if (bench_cvode(cvode_methods[i], quick, &cv[i], &err) != DM_OK) {
+    for (size_t i = 0; i < N_CVODE; i++) {
+        if (bench_cvode(i, quick, &cv[i], &err) != DM_OK) {
             fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
             return 1;
         }
@@ -851,8 +813,8 @@ int dm_cmd_bench(int argc, char **argv)
         return 1;
     }
     if (json)
-        print_json(stdout, quick, cr, cv, 2, &jb, rss_before, rss_after);
+        print_json(stdout, quick, cr, cv, N_CVODE, &jb, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, cv, 2, &jb, rss_before, rss_after);
+        print_text(stdout, quick, cr, cv, N_CVODE, &jb, rss_before, rss_after);
     return 0;
 }

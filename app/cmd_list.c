@@ -1,74 +1,18 @@
 /* cmd_list.c — `driftmark list [--json]`: every problem with its parameters and regimes,
  * and every method of the integrators' registry. */
 #include <getopt.h>
-#include <math.h>
 #include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "cli.h"
+#include "dm_json.h"
+#include "dm_number_text.h"
 #include "method.h"
 #include "problem.h"
 
 #define CMD "list"
-
-/* Shortest %g form that reads back as the same double (0.1 prints as 0.1, not
- * 0.10000000000000001). */
-static void format_number(double v, char *buf, size_t size)
-{
-    if (isinf(v)) {
-        snprintf(buf, size, "%sinf", v < 0 ? "-" : "");
-        return;
-    }
-    for (int digits = 6; digits <= 17; digits++) {
-        snprintf(buf, size, "%.*g", digits, v);
-        if (strtod(buf, NULL) == v)
-            return;
-    }
-}
-
-static void format_range(const dm_param *p, char *buf, size_t size)
-{
-    char lo[40], hi[40];
-    format_number(p->min, lo, sizeof lo);
-    format_number(p->max, hi, sizeof hi);
-    bool lo_open = isinf(p->min) || (p->flags & DM_PARAM_MIN_OPEN);
-    bool hi_open = isinf(p->max) || (p->flags & DM_PARAM_MAX_OPEN);
-    snprintf(buf, size, "%s%s, %s%s", lo_open ? "(" : "[", lo, hi, hi_open ? ")" : "]");
-}
-
-static void json_string(const char *s)
-{
-    putchar('"');
-    for (const unsigned char *c = (const unsigned char *)(s ? s : ""); *c; c++) {
-        switch (*c) {
-        case '"': fputs("\\\"", stdout); break;
-        case '\\': fputs("\\\\", stdout); break;
-        case '\n': fputs("\\n", stdout); break;
-        case '\t': fputs("\\t", stdout); break;
-        case '\r': fputs("\\r", stdout); break;
-        default:
-            if (*c < 0x20)
-                printf("\\u%04x", *c);
-            else
-                putchar(*c);
-        }
-    }
-    putchar('"');
-}
-
-/* JSON has no infinity: an open-ended range bound is null. */
-static void json_number(double v)
-{
-    if (!isfinite(v)) {
-        fputs("null", stdout);
-        return;
-    }
-    char buf[40];
-    format_number(v, buf, sizeof buf);
-    fputs(buf, stdout);
-}
 
 static const char *yes_no(bool b)
 {
@@ -93,8 +37,8 @@ static void print_text(void)
         for (int k = 0; k < pr->n_params; k++) {
             const dm_param *p = &pr->params[k];
             char def[40], range[96];
-            format_number(p->fallback, def, sizeof def);
-            format_range(p, range, sizeof range);
+            dm_number_text(p->fallback, def, sizeof def);
+            dm_param_range_text(p, range, sizeof range);
             printf("    %-*s  %-10s  %-24s  %s%s\n", wname, p->name, def, range, p->meaning,
                    (p->flags & DM_PARAM_START) ? " [starting state: give at most one]" : "");
         }
@@ -141,39 +85,39 @@ static void print_json(void)
     for (size_t i = 0; i < dm_problem_count; i++) {
         const dm_problem *pr = dm_problems[i];
         printf("%s{\"id\": ", i ? ", " : "");
-        json_string(pr->id);
+        dm_json_string(stdout, pr->id);
         printf(", \"name\": ");
-        json_string(pr->name);
+        dm_json_string(stdout, pr->name);
         printf(", \"dof\": %d, \"parameters\": [", pr->dof);
         for (int k = 0; k < pr->n_params; k++) {
             const dm_param *p = &pr->params[k];
             printf("%s{\"name\": ", k ? ", " : "");
-            json_string(p->name);
+            dm_json_string(stdout, p->name);
             printf(", \"default\": ");
-            json_number(p->fallback);
+            dm_json_number(stdout, p->fallback, NULL);
             printf(", \"min\": ");
-            json_number(p->min);
+            dm_json_number(stdout, p->min, NULL);
             printf(", \"min_open\": %s, \"max\": ",
-                   (isinf(p->min) || (p->flags & DM_PARAM_MIN_OPEN)) ? "true" : "false");
-            json_number(p->max);
+                   dm_param_min_open(p) ? "true" : "false");
+            dm_json_number(stdout, p->max, NULL);
             printf(", \"max_open\": %s, \"start\": %s, \"meaning\": ",
-                   (isinf(p->max) || (p->flags & DM_PARAM_MAX_OPEN)) ? "true" : "false",
+                   dm_param_max_open(p) ? "true" : "false",
                    (p->flags & DM_PARAM_START) ? "true" : "false");
-            json_string(p->meaning);
+            dm_json_string(stdout, p->meaning);
             printf("}");
         }
         printf("], \"regimes\": [");
         for (int k = 0; k < pr->n_regimes; k++) {
             printf("%s{\"id\": ", k ? ", " : "");
-            json_string(pr->regimes[k].id);
+            dm_json_string(stdout, pr->regimes[k].id);
             printf(", \"meaning\": ");
-            json_string(pr->regimes[k].meaning);
+            dm_json_string(stdout, pr->regimes[k].meaning);
             printf("}");
         }
         printf("], \"invariants\": [");
         for (int k = 0; k < pr->n_invariants; k++) {
             printf("%s", k ? ", " : "");
-            json_string(pr->invariant_names[k]);
+            dm_json_string(stdout, pr->invariant_names[k]);
         }
         printf("]}");
     }
@@ -181,16 +125,16 @@ static void print_json(void)
     for (size_t i = 0; i < dm_method_count; i++) {
         const dm_method *m = dm_methods[i];
         printf("%s{\"id\": ", i ? ", " : "");
-        json_string(m->id);
+        dm_json_string(stdout, m->id);
         printf(", \"name\": ");
-        json_string(m->name);
+        dm_json_string(stdout, m->name);
         printf(", \"family\": ");
-        json_string(dm_family_name(m->family));
+        dm_json_string(stdout, dm_family_name(m->family));
         printf(", \"order\": %d, \"symplectic\": %s, \"symmetric\": %s, \"adaptive\": %s, "
                "\"force_evals_per_step\": %d, \"reference\": ",
                m->order, m->symplectic ? "true" : "false", m->symmetric ? "true" : "false",
                m->adaptive ? "true" : "false", m->force_evals_per_step);
-        json_string(m->reference);
+        dm_json_string(stdout, m->reference);
         printf("}");
     }
     printf("]}\n");
@@ -198,31 +142,13 @@ static void print_json(void)
 
 int dm_cmd_list(int argc, char **argv)
 {
-    static const struct option options[] = {
-        { "json", no_argument, NULL, 'j' },
-        { "help", no_argument, NULL, 'h' },
-        { NULL, 0, NULL, 0 },
-    };
-    bool json = false;
-    opterr = 0;
-    optind = 1;
-    int c;
-    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-        switch (c) {
-        case 'j':
-            json = true;
-            break;
-        case 'h':
-            printf("usage: driftmark list [--json]\n"
-                   "  every problem with its parameters and regimes, and every method\n");
-            return 0;
-        default:
-            if (optopt != 0 && optopt != '?')
-                return dm_cli_usage_error(CMD, "unknown option '-%c' (try --help)", optopt);
-            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
-                                      argv[optind - 1]);
-        }
-    }
+    bool json;
+    int code = dm_cli_json_option(CMD, argc, argv,
+                                  "usage: driftmark list [--json]\n"
+                                  "  every problem with its parameters and regimes, and every "
+                                  "method\n", &json);
+    if (code >= 0)
+        return code;
     if (optind < argc)
         return dm_cli_usage_error(CMD, "unexpected argument '%s' (list takes only --json)",
                                   argv[optind]);

@@ -7,16 +7,15 @@
 #include <string.h>
 
 #include "cli.h"
+#include "dm_json.h"
 #include "problem.h"
 
 #define CMD "period"
 
-static void print_usage(FILE *out)
-{
-    fprintf(out, "usage: driftmark period PROBLEM [key=value ...] [--json]\n"
-                 "  prints the regime, energy, closed-form period, starting state and first\n"
-                 "  section crossing time of PROBLEM (see `driftmark list` for the keys)\n");
-}
+static const char usage[] =
+    "usage: driftmark period PROBLEM [key=value ...] [--json]\n"
+    "  prints the regime, energy, closed-form period, starting state and first\n"
+    "  section crossing time of PROBLEM (see `driftmark list` for the keys)\n";
 
 static void print_vector_text(const char *label, const double *v, int n)
 {
@@ -29,25 +28,11 @@ static void print_vector_text(const char *label, const double *v, int n)
 static void print_vector_json(const double *v, int n)
 {
     printf("[");
-    for (int i = 0; i < n; i++)
-        printf("%s%.17g", i ? ", " : "", v[i]);
-    printf("]");
-}
-
-/* Problem and parameter names are C identifiers of our own, but keep the JSON valid
- * for any text. */
-static void print_json_string(const char *s)
-{
-    putchar('"');
-    for (const unsigned char *c = (const unsigned char *)s; *c; c++) {
-        if (*c == '"' || *c == '\\')
-            printf("\\%c", *c);
-        else if (*c < 0x20)
-            printf("\\u%04x", *c);
-        else
-            putchar(*c);
+    for (int i = 0; i < n; i++) {
+        printf("%s", i ? ", " : "");
+        dm_json_number(stdout, v[i], "%.17g");
     }
-    putchar('"');
+    printf("]");
 }
 
 static void print_text(const dm_instance *inst)
@@ -75,59 +60,52 @@ static void print_text(const dm_instance *inst)
     printf("%-16s%.17g\n", "first_crossing", inst->first_crossing);
 }
 
+/* One "key": number pair, after a ", " unless it is the first. */
+static void print_json_number(const char *key, double v)
+{
+    printf(", ");
+    dm_json_string(stdout, key);
+    printf(": ");
+    dm_json_number(stdout, v, "%.17g");
+}
+
 static void print_json(const dm_instance *inst)
 {
     const dm_problem *pr = inst->problem;
     printf("{\"problem\": ");
-    print_json_string(pr->id);
+    dm_json_string(stdout, pr->id);
     printf(", \"parameters\": {");
     bool first = true;
     for (int i = 0; i < pr->n_params; i++) {
         if ((pr->params[i].flags & DM_PARAM_START) && !(inst->given & (1u << i)))
             continue;
         printf("%s", first ? "" : ", ");
-        print_json_string(pr->params[i].name);
-        printf(": %.17g", inst->param[i]);
+        dm_json_string(stdout, pr->params[i].name);
+        printf(": ");
+        dm_json_number(stdout, inst->param[i], "%.17g");
         first = false;
     }
     printf("}, \"regime\": ");
-    print_json_string(pr->regimes[inst->regime].id);
-    printf(", \"energy\": %.17g, \"period\": %.17g, \"q0\": ", inst->energy, inst->period);
+    dm_json_string(stdout, pr->regimes[inst->regime].id);
+    print_json_number("energy", inst->energy);
+    print_json_number("period", inst->period);
+    printf(", \"q0\": ");
     print_vector_json(inst->q0, inst->dof);
     printf(", \"p0\": ");
     print_vector_json(inst->p0, inst->dof);
-    printf(", \"section\": {\"coord\": %d, \"level\": %.17g}", inst->section.coord,
-           inst->section.level);
-    printf(", \"first_crossing\": %.17g}\n", inst->first_crossing);
+    printf(", \"section\": {\"coord\": %d", inst->section.coord);
+    print_json_number("level", inst->section.level);
+    printf("}");
+    print_json_number("first_crossing", inst->first_crossing);
+    printf("}\n");
 }
 
 int dm_cmd_period(int argc, char **argv)
 {
-    static const struct option options[] = {
-        { "json", no_argument, NULL, 'j' },
-        { "help", no_argument, NULL, 'h' },
-        { NULL, 0, NULL, 0 },
-    };
-    bool json = false;
-    opterr = 0; /* our own one-line messages */
-    optind = 1;
-    int c;
-    /* GNU getopt_long permutes: --json may come anywhere among the key=value pairs. */
-    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
-        switch (c) {
-        case 'j':
-            json = true;
-            break;
-        case 'h':
-            print_usage(stdout);
-            return 0;
-        default:
-            if (optopt != 0 && optopt != '?')
-                return dm_cli_usage_error(CMD, "unknown option '-%c' (try --help)", optopt);
-            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
-                                      argv[optind - 1]);
-        }
-    }
+    bool json;
+    int code = dm_cli_json_option(CMD, argc, argv, usage, &json);
+    if (code >= 0)
+        return code;
     if (optind >= argc)
         return dm_cli_usage_error(CMD, "missing PROBLEM (see `driftmark list`)");
 

@@ -17,10 +17,10 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 #include <unistd.h>
 
 #include "cli.h"
+#include "dm_clock.h"
 #include "harness.h"
 #include "mpi_run.h"
 
@@ -31,21 +31,6 @@ static void on_signal(int sig)
 {
     stop_signal = sig;
     stop_flag = 1;
-}
-
-static void utc_now(char *buf, size_t size)
-{
-    time_t now = time(NULL);
-    struct tm tm;
-    gmtime_r(&now, &tm);
-    strftime(buf, size, "%Y-%m-%dT%H:%M:%SZ", &tm);
-}
-
-static double seconds_since(const struct timespec *t0)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)(t.tv_sec - t0->tv_sec) + 1e-9 * (double)(t.tv_nsec - t0->tv_nsec);
 }
 
 /* One line, redrawn in place: runs done of total, the current run, elapsed, left. */
@@ -66,12 +51,6 @@ static void progress(size_t done, size_t total, double work, const char *current
     fprintf(stderr, "\r\033[K[%s] %zu/%zu  %.0fs elapsed, ~%s left  %s", bar, done, total,
             elapsed, left, current);
     fflush(stderr);
-}
-
-/* The progress line of an MPI job: the runs every rank finished. */
-static void progress_of_ranks(size_t done, size_t total, const char *current, double elapsed)
-{
-    progress(done, total, total > 0 ? (double)done / (double)total : 1.0, current, elapsed);
 }
 
 static int default_jobs(void)
@@ -143,9 +122,7 @@ static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
         st = dm_results_read_runs(resume, suite, *results, &kept, &err);
         if (st != DM_OK) {
             fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            for (size_t i = 0; i < suite->n_runs; i++)
-                dm_run_result_free(&(*results)[i]);
-            free(*results);
+            dm_cli_free_results(*results, suite->n_runs);
             *results = NULL;
             dm_suite_free(suite);
             return st == DM_EINPUT ? 2 : 1;
@@ -173,21 +150,16 @@ static void catch_signals(void)
     signal(SIGXFSZ, SIG_IGN);
 }
 
-static int run_command(int argc, char **argv, dm_mpi_world *world);
+typedef struct run_options {
+    const char *suite_path;        /* NULL: the built-in default suite */
+    const char *output, *resume;
+    bool force;
+    int jobs;
+} run_options;
 
-int dm_cmd_run(int argc, char **argv)
-{
-    dm_mpi_world world;
-    dm_error err = { 0 };
-    if (dm_mpi_begin(&world, &err) != DM_OK) {
-        fprintf(stderr, "driftmark: run: %s\n", err.msg);
-        return err.code == DM_EINPUT ? 2 : 1;
-    }
-    int code = run_command(argc, argv, &world);
-    return dm_mpi_end(&world, code);
-}
-
-static int run_command(int argc, char **argv, dm_mpi_world *world)
+/* Reads the command line into *o. Returns -1 to go on, else the exit status (after
+ * --help, or a usage error). */
+static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_options *o)
 {
     static const struct option options[] = {
         { "output", required_argument, NULL, 'o' },
@@ -197,23 +169,21 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
-    const char *output = NULL, *resume = NULL;
-    bool force = false;
-    int jobs = dm_mpi_default_jobs(world, default_jobs());
+    *o = (run_options){ .jobs = dm_mpi_default_jobs(world, default_jobs()) };
     int c;
     optind = 1;
     opterr = 0;
     while ((c = getopt_long(argc, argv, ":o:j:fr:h", options, NULL)) != -1) {
         switch (c) {
-        case 'o': output = optarg; break;
-        case 'f': force = true; break;
-        case 'r': resume = optarg; break;
+        case 'o': o->output = optarg; break;
+        case 'f': o->force = true; break;
+        case 'r': o->resume = optarg; break;
         case 'j': {
             double v;
             if (dm_parse_double(optarg, &v) != 0 || v < 1 || v > 1024 || v != floor(v))
                 return dm_cli_usage_error("run", "--jobs takes a whole number from 1 to 1024, "
                                           "not '%s'", optarg);
-            jobs = (int)v;
+            o->jobs = (int)v;
             break;
         }
         case 'h': print_usage(stdout); return 0;
@@ -228,125 +198,81 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
     if (argc - optind > 1)
         return dm_cli_usage_error("run", "expected at most one suite file, got %d",
                                   argc - optind);
-    if (resume != NULL && (optind < argc || output != NULL))
+    if (o->resume != NULL && (optind < argc || o->output != NULL))
         return dm_cli_usage_error("run", "--resume FILE continues the suite stored in FILE "
                                   "and rewrites FILE: give no suite file and no -o with it");
+    o->suite_path = optind < argc ? argv[optind] : NULL;
+    return -1;
+}
 
-    dm_suite suite;
-    memset(&suite, 0, sizeof suite);
-    dm_run_result *results = NULL;
-    int setup = world->rank == 0 ? prepare(&suite, &results, optind < argc ? argv[optind] : NULL,
-                                           output, resume, force)
-                                 : 0;
-    /* every rank learns rank 0's verdict; the others validate the same suite text */
-    setup = dm_mpi_share_suite(world, setup, &suite);
-    if (setup != 0) {
-        if (results != NULL) {
-            for (size_t i = 0; i < suite.n_runs; i++)
-                dm_run_result_free(&results[i]);
-            free(results);
-            dm_suite_free(&suite);
-        }
-        return setup;
-    }
-    catch_signals();
-    if (world->rank > 0) {
-        dm_mpi_job job = { .suite = &suite, .jobs = jobs, .stop = &stop_flag,
-                           .stop_signal = &stop_signal };
-        dm_mpi_work(world, &job);
-        dm_suite_free(&suite);
-        /* a stop or a failure is reported by rank 0 (a failure was sent to it), whose
-         * status every rank takes */
-        return job.failed ? 1 : 0;
-    }
-
-    dm_error err = { 0 };
-    dm_status st;
-    dm_sweep_fit *fits = calloc(suite.n_sweeps ? suite.n_sweeps : 1, sizeof *fits);
-    dm_summary_row *rows = calloc(suite.n_runs ? suite.n_runs : 1, sizeof *rows);
-    size_t *order = malloc(sizeof *order * (suite.n_runs ? suite.n_runs : 1));
-    int exit_code = 0;
-    if (fits == NULL || rows == NULL || order == NULL) {
-        fprintf(stderr, "driftmark: run: out of memory for %zu runs\n", suite.n_runs);
-        exit_code = 1;
-        if (world->size > 1) {
-            /* the other ranks wait for work: hand out none */
-            dm_mpi_job job = { .suite = &suite, .results = results, .order = order,
-                               .n_order = 0, .jobs = 1, .stop = &stop_flag,
-                               .stop_signal = &stop_signal };
-            dm_mpi_coordinate(world, &job);
-        }
-        goto cleanup;
-    }
-
-    char started[32];
-    utc_now(started, sizeof started);
-    size_t n_order = 0;
-    for (size_t i = 0; i < suite.n_runs; i++)
-        if (results[i].status == DM_RUN_NOT_RUN)
-            order[n_order++] = i;
-    dm_run_order_longest_first(&suite, order, n_order);
-
-    struct timespec t0;
-    clock_gettime(CLOCK_MONOTONIC, &t0);
-    if (world->size > 1) {
-        /* rank 0 hands the runs out to every rank (its own threads too) in this order */
-        dm_mpi_job job = { .suite = &suite, .results = results, .order = order,
-                           .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
-                           .stop_signal = &stop_signal, .t0 = t0,
-                           .progress = isatty(STDERR_FILENO) ? progress_of_ranks : NULL };
-        dm_mpi_coordinate(world, &job);
-        if (job.progress != NULL) {
-            progress_of_ranks(job.done, n_order, "", seconds_since(&t0));
-            fputc('\n', stderr);
-        }
-        fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
-                        "runs came from the other ranks, %llu bytes\n", world->size, jobs,
-                job.runs_received, (unsigned long long)job.bytes_received);
-        if (job.failed) {
-            fprintf(stderr, "driftmark: run: %s\n", job.error.msg);
-            exit_code = 1;
-        }
-    } else {
-        /* the pool (pool.c): each result at its own index, whatever the jobs */
-        bool tty = isatty(STDERR_FILENO);
-        st = dm_run_pool(&suite, results, order, n_order, jobs, &stop_flag,
-                         tty ? progress : NULL, NULL, &err);
+/* Runs order[0..n_order) on this process's threads (pool.c) or, under mpirun, on every
+ * rank (mpi_run.c); each result lands at its own index either way. Returns 0, or 1
+ * when a run could not be run (reported). */
+static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_result *results,
+                    const size_t *order, size_t n_order, int jobs)
+{
+    bool tty = isatty(STDERR_FILENO);
+    if (world->size == 1) {
+        dm_error err = { 0 };
+        dm_status st = dm_run_pool(suite, results, order, n_order, jobs, &stop_flag,
+                                   tty ? progress : NULL, NULL, &err);
         if (tty)
             fputc('\n', stderr);
-        if (st != DM_OK) {
-            fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            exit_code = 1;
-        }
+        if (st == DM_OK)
+            return 0;
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        return 1;
     }
+    /* rank 0 hands the runs out to every rank (its own threads too) in this order */
+    dm_mpi_job job = { .suite = suite, .results = results, .order = order,
+                       .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
+                       .stop_signal = &stop_signal, .progress = tty ? progress : NULL };
+    dm_mpi_coordinate(world, &job);
+    if (tty)
+        fputc('\n', stderr);
+    fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
+                    "runs came from the other ranks, %llu bytes\n", world->size, jobs,
+            job.runs_received, (unsigned long long)job.bytes_received);
+    if (!job.failed)
+        return 0;
+    fprintf(stderr, "driftmark: run: %s\n", job.error.msg);
+    return 1;
+}
 
-    /* Whatever happened above, every run that ran is written. */
-    for (size_t w = 0; w < suite.n_sweeps; w++)
-        if (dm_sweep_fit_compute(&suite, &suite.sweeps[w], results, &fits[w], &err) != DM_OK) {
+/* Writes every run that ran (whatever stopped the others), prints the summary table,
+ * the sweep fits, where the file is, and how to continue after a signal. `fits` and
+ * `rows` have room for every sweep and run. Returns the exit status, from `code`, the
+ * status so far. */
+static int write_and_report(const dm_suite *suite, const dm_run_result *results,
+                            dm_sweep_fit *fits, dm_summary_row *rows, const char *started,
+                            double t0, int code)
+{
+    dm_error err = { 0 };
+    for (size_t w = 0; w < suite->n_sweeps; w++)
+        if (dm_sweep_fit_compute(suite, &suite->sweeps[w], results, &fits[w], &err) != DM_OK) {
             fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            exit_code = 1;
+            code = 1;
         }
     size_t n_rows = 0;
-    for (size_t i = 0; i < suite.n_runs; i++)
+    for (size_t i = 0; i < suite->n_runs; i++)
         if (results[i].status != DM_RUN_NOT_RUN)
-            dm_summary_row_fill(&rows[n_rows++], &suite.runs[i], &results[i]);
+            dm_summary_row_fill(&rows[n_rows++], &suite->runs[i], &results[i]);
     bool written = false;
     if (n_rows > 0) {
-        st = dm_results_write(suite.output, &suite, results, fits, started, &err);
-        if (st != DM_OK) {
+        if (dm_results_write(suite->output, suite, results, fits, started, &err) != DM_OK) {
             fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            exit_code = 1;
+            code = 1;
         } else {
             written = true;
         }
     }
     dm_table_print(stdout, rows, n_rows, DM_TABLE_TEXT);
-    if (suite.n_sweeps > 0) {
+    if (suite->n_sweeps > 0) {
         printf("\n%-56s %12s %6s %12s %6s\n", "sweep", "energy order", "points",
                "phase order", "points");
-        for (size_t w = 0; w < suite.n_sweeps; w++) {
+        for (size_t w = 0; w < suite->n_sweeps; w++) {
             const dm_sweep_fit *f = &fits[w];
-            printf("%-56s %12.3f %6zu %12.3f %6zu\n", suite.sweeps[w].name, f->energy_order,
+            printf("%-56s %12.3f %6zu %12.3f %6zu\n", suite->sweeps[w].name, f->energy_order,
                    f->n_energy_points, f->phase_order, f->n_phase_points);
             /* the runs a fit left out, and why */
             for (size_t i = 0; i < f->n_runs && f->energy_use != NULL; i++) {
@@ -355,37 +281,121 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
                 if (f->energy_use[i] == DM_FIT_NOT_RUN)
                     continue;
                 printf("  left out: %s: energy %s, phase %s\n",
-                       suite.runs[suite.sweeps[w].runs[i]].id,
+                       suite->runs[suite->sweeps[w].runs[i]].id,
                        dm_fit_use_name((dm_fit_use)f->energy_use[i]),
                        dm_fit_use_name((dm_fit_use)f->phase_use[i]));
             }
         }
     }
     if (written)
-        printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite.output, n_rows, suite.n_runs,
-               seconds_since(&t0));
+        printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite->output, n_rows,
+               suite->n_runs, dm_clock_seconds() - t0);
     if (stop_signal) {
         if (written)
             fprintf(stderr, "driftmark: run: stopped by signal %d; completed runs are in %s; "
                             "continue with: driftmark run --resume %s\n", (int)stop_signal,
-                    suite.output, suite.output);
+                    suite->output, suite->output);
         else
             fprintf(stderr, "driftmark: run: stopped by signal %d before any run completed; "
                             "nothing written\n", (int)stop_signal);
-        exit_code = 128 + (int)stop_signal;
+        code = 128 + (int)stop_signal;
     }
+    return code;
+}
 
-cleanup:
-    if (results != NULL)
-        for (size_t i = 0; i < suite.n_runs; i++)
-            dm_run_result_free(&results[i]);
-    free(results);
+/* Rank 0 (or the one process), with the suite loaded and checked: runs what `results`
+ * does not hold yet, longest first, then writes and reports. Returns the exit status. */
+static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_result *results,
+                     int jobs)
+{
+    /* 1. room for the order of the runs, the sweep fits and the table */
+    size_t n = suite->n_runs ? suite->n_runs : 1;
+    size_t *order = malloc(n * sizeof *order);
+    dm_sweep_fit *fits = calloc(suite->n_sweeps ? suite->n_sweeps : 1, sizeof *fits);
+    dm_summary_row *rows = calloc(n, sizeof *rows);
+    int code = 0;
+    if (order == NULL || fits == NULL || rows == NULL) {
+        fprintf(stderr, "driftmark: run: out of memory for %zu runs\n", suite->n_runs);
+        if (world->size > 1) {
+            /* the other ranks wait for work: hand out none */
+            dm_mpi_job job = { .suite = suite, .results = results, .order = order,
+                               .n_order = 0, .jobs = 1, .stop = &stop_flag,
+                               .stop_signal = &stop_signal };
+            dm_mpi_coordinate(world, &job);
+        }
+        code = 1;
+    } else {
+        /* 2. the runs not kept from --resume, longest first */
+        char started[32];
+        dm_cli_utc_now(started, sizeof started);
+        size_t n_order = 0;
+        for (size_t i = 0; i < suite->n_runs; i++)
+            if (results[i].status == DM_RUN_NOT_RUN)
+                order[n_order++] = i;
+        dm_run_order_longest_first(suite, order, n_order);
+        /* 3. run them, then write every run that ran and report */
+        double t0 = dm_clock_seconds();
+        code = run_runs(world, suite, results, order, n_order, jobs);
+        code = write_and_report(suite, results, fits, rows, started, t0, code);
+    }
+    free(order);
     if (fits != NULL)
-        for (size_t w = 0; w < suite.n_sweeps; w++)
+        for (size_t w = 0; w < suite->n_sweeps; w++)
             dm_sweep_fit_free(&fits[w]);
     free(fits);
     free(rows);
-    free(order);
+    return code;
+}
+
+/* The command on one rank: read the command line; rank 0 loads the suite and every
+ * rank learns it; rank 0 runs it (with the others' help) and writes the file, the
+ * others run what rank 0 hands them. */
+static int run_command(int argc, char **argv, dm_mpi_world *world)
+{
+    run_options o;
+    int code = parse_options(argc, argv, world, &o);
+    if (code >= 0)
+        return code;
+
+    dm_suite suite;
+    memset(&suite, 0, sizeof suite);
+    dm_run_result *results = NULL;
+    code = world->rank == 0 ? prepare(&suite, &results, o.suite_path, o.output, o.resume,
+                                      o.force)
+                            : 0;
+    /* every rank learns rank 0's verdict; the others validate the same suite text */
+    code = dm_mpi_share_suite(world, code, &suite);
+    if (code != 0) {
+        if (results != NULL) {
+            dm_cli_free_results(results, suite.n_runs);
+            dm_suite_free(&suite);
+        }
+        return code;
+    }
+    catch_signals();
+    if (world->rank > 0) {
+        dm_mpi_job job = { .suite = &suite, .jobs = o.jobs, .stop = &stop_flag,
+                           .stop_signal = &stop_signal };
+        dm_mpi_work(world, &job);
+        /* a stop or a failure is reported by rank 0 (a failure was sent to it), whose
+         * status every rank takes */
+        code = job.failed ? 1 : 0;
+    } else {
+        code = run_suite(world, &suite, results, o.jobs);
+        dm_cli_free_results(results, suite.n_runs);
+    }
     dm_suite_free(&suite);
-    return exit_code;
+    return code;
+}
+
+int dm_cmd_run(int argc, char **argv)
+{
+    dm_mpi_world world;
+    dm_error err = { 0 };
+    if (dm_mpi_begin(&world, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        return err.code == DM_EINPUT ? 2 : 1;
+    }
+    int code = run_command(argc, argv, &world);
+    return dm_mpi_end(&world, code);
 }

@@ -1,6 +1,7 @@
 #include <math.h>
 
 #include "dm_json.h"
+#include "dm_number_text.h"
 
 void dm_json_string(FILE *out, const char *s)
 {
@@ -24,8 +25,13 @@ void dm_json_string(FILE *out, const char *s)
 
 void dm_json_number(FILE *out, double v, const char *format)
 {
-    if (isfinite(v))
+    char text[40];
+    if (isfinite(v) && format == NULL) {
+        dm_number_text(v, text, sizeof text);
+        fputs(text, out);
+    } else if (isfinite(v)) {
         fprintf(out, format, v);
-    else
+    } else {
         fputs("null", out); /* JSON has no NaN or infinity */
+    }
 }

@@ -20,18 +20,24 @@
  * only ever blocks on a message that is already on its way, and sends with MPI_Isend,
  * so no pair of ranks can wait on each other. Waiting ranks poll with short sleeps
  * instead of a blocking call, which in OpenMPI would spin a core the runs need.
+ *
+ * The threads of every rank take their runs from a work queue (pool.h), the one the
+ * --jobs threads of a single process use: at rank 0 the queue of the whole job, from
+ * which rank 0's main thread also hands runs to the other ranks; at another rank the
+ * runs rank 0 handed to it.
  */
 #define _GNU_SOURCE /* sched_getaffinity */
 #include "mpi_run.h"
 
 #include <fcntl.h>
-#include <pthread.h>
 #include <sched.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 #include <unistd.h>
 
+#include "pool.h"
 #include "result_pack.h"
 
 #ifdef DM_HAVE_MPI
@@ -266,121 +272,7 @@ int dm_mpi_end(dm_mpi_world *w, int code)
     return all[0] != 0 ? all[0] : all[1];
 }
 
-/* ---- the threads of one rank ---- */
-
-typedef struct rank_pool {
-    const dm_suite *suite;
-    dm_run_result *results;
-    volatile int *stop;
-    pthread_mutex_t lock;
-    pthread_cond_t wake;
-    size_t *queue;                 /* runs given to this rank, not started yet */
-    size_t q_head, q_tail;         /* a run is given once: n_runs slots suffice */
-    size_t *done;                  /* runs finished and not yet reported */
-    size_t n_done;
-    int waiting;                   /* threads waiting for a run */
-    int alive;                     /* threads not yet ended */
-    bool no_more;                  /* nothing more will be given */
-    bool failed;                   /* a run could not be run: no thread starts another */
-    dm_error error;
-    const char *current;           /* the run started last */
-    pthread_t threads[1024];
-    int n_threads;
-} rank_pool;
-
-static void *pool_thread(void *arg)
-{
-    rank_pool *p = arg;
-    pthread_mutex_lock(&p->lock);
-    for (;;) {
-        while (p->q_head == p->q_tail && !p->no_more && !*p->stop && !p->failed) {
-            p->waiting++;
-            pthread_cond_wait(&p->wake, &p->lock);
-            p->waiting--;
-        }
-        if (*p->stop || p->failed || p->q_head == p->q_tail)
-            break;
-        size_t i = p->queue[p->q_head++];
-        const dm_run_spec *spec = &p->suite->runs[i];
-        p->current = spec->id;
-        pthread_mutex_unlock(&p->lock);
-        dm_error err = { 0 };
-        dm_status st = dm_run(spec, &p->results[i], p->stop, &err);
-        pthread_mutex_lock(&p->lock);
-        if (st != DM_OK) {
-            if (!p->failed) {
-                p->error = err;
-                dm_error_prefix(&p->error, "%s: ", spec->id);
-            }
-            p->failed = true;
-            break;
-        }
-        p->done[p->n_done++] = i;
-    }
-    p->alive--;
-    pthread_mutex_unlock(&p->lock);
-    return NULL;
-}
-
-static bool pool_start(rank_pool *p, const dm_suite *suite, dm_run_result *results,
-                       volatile int *stop, int jobs, dm_error *err)
-{
-    memset(p, 0, sizeof *p);
-    p->suite = suite;
-    p->results = results;
-    p->stop = stop;
-    size_t n = suite->n_runs ? suite->n_runs : 1;
-    p->queue = malloc(n * sizeof *p->queue);
-    p->done = malloc(n * sizeof *p->done);
-    if (p->queue == NULL || p->done == NULL) {
-        free(p->queue);
-        free(p->done);
-        dm_error_set(err, DM_ENOMEM, "out of memory for the run queue of %zu runs", n);
-        return false;
-    }
-    pthread_mutex_init(&p->lock, NULL);
-    pthread_cond_init(&p->wake, NULL);
-    if (jobs > 1024)
-        jobs = 1024;
-    pthread_mutex_lock(&p->lock);
-    for (int j = 0; j < jobs; j++)
-        if (pthread_create(&p->threads[p->n_threads], NULL, pool_thread, p) == 0) {
-            p->n_threads++;
-            p->alive++;
-        }
-    pthread_mutex_unlock(&p->lock);
-    if (p->n_threads == 0) {
-        dm_error_set(err, DM_ENOMEM, "cannot start a thread to run the suite");
-        pthread_mutex_destroy(&p->lock);
-        pthread_cond_destroy(&p->wake);
-        free(p->queue);
-        free(p->done);
-        return false;
-    }
-    return true;
-}
-
-static void pool_finish(rank_pool *p)
-{
-    pthread_mutex_lock(&p->lock);
-    p->no_more = true;
-    pthread_cond_broadcast(&p->wake);
-    pthread_mutex_unlock(&p->lock);
-    for (int j = 0; j < p->n_threads; j++)
-        pthread_join(p->threads[j], NULL);
-    pthread_mutex_destroy(&p->lock);
-    pthread_cond_destroy(&p->wake);
-    free(p->queue);
-    free(p->done);
-}
-
-static double seconds_since(const struct timespec *t0)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)(t.tv_sec - t0->tv_sec) + 1e-9 * (double)(t.tv_nsec - t0->tv_nsec);
-}
-
+/* Takes a message nobody wants off the line. */
 static void receive_and_drop(const MPI_Status *s)
 {
     int count = 0;
@@ -398,82 +290,120 @@ static void receive_and_drop(const MPI_Status *s)
     free(buf);
 }
 
-static void job_fail(dm_mpi_job *job, const dm_error *err, int rank)
-{
-    if (!job->failed) {
-        job->error = *err;
-        if (rank > 0)
-            dm_error_prefix(&job->error, "rank %d: ", rank);
-    }
-    job->failed = true;
-}
-
 /* ---- rank 0 ---- */
 
 typedef struct coordinator {
     dm_mpi_job *job;
-    size_t next;                   /* into job->order: the next run to hand out */
-    int *owner;                    /* the rank each run was given to */
+    dm_work_queue queue;           /* the runs, longest first, for every rank (pool.h) */
+    int size;                      /* ranks in the job */
+    int *owner;                    /* the rank > 0 each run was given to, else -1 */
     MPI_Request *assign_req, *stop_req, *bye_req;
     uint64_t (*assign_buf)[MAX_ASK];
-    bool *finished;
+    bool *finished;                /* the rank said FINISHED */
     int n_finished;
-    const char *current;
+    bool stop_sent;
 } coordinator;
 
-/* Up to k runs to hand out, none once the job stops or failed. */
-static size_t give(coordinator *c, size_t k, uint64_t *out, int rank)
+/* A failure of the job; one at another rank is named after it. */
+static void fail(coordinator *c, dm_error *e, int rank)
 {
-    dm_mpi_job *job = c->job;
-    size_t n = 0;
-    if (*job->stop || job->failed)
-        return 0;
-    while (n < k && c->next < job->n_order) {
-        size_t i = job->order[c->next++];
-        c->owner[i] = rank;
-        c->current = job->suite->runs[i].id;
-        out[n++] = i;
-    }
-    return n;
+    if (rank > 0)
+        dm_error_prefix(e, "rank %d: ", rank);
+    dm_queue_fail(&c->queue, e);
 }
 
-static void take_result(coordinator *c, const MPI_Status *s)
+/* REQUEST: up to the runs asked for (at most MAX_ASK), none once the job stops or
+ * failed, in one ASSIGN. */
+static void on_request(coordinator *c, int src)
+{
+    int k = 0;
+    MPI_Recv(&k, 1, MPI_INT, src, TAG_REQUEST, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    wait_gently(&c->assign_req[src]); /* the last ASSIGN, which src has received */
+    size_t runs[MAX_ASK];
+    size_t n = dm_queue_take(&c->queue, k < 1 ? 1 : k > MAX_ASK ? MAX_ASK : (size_t)k, runs);
+    for (size_t j = 0; j < n; j++) {
+        c->owner[runs[j]] = src;
+        c->assign_buf[src][j] = runs[j];
+    }
+    MPI_Isend(c->assign_buf[src], (int)n, MPI_UINT64_T, src, TAG_ASSIGN, MPI_COMM_WORLD,
+              &c->assign_req[src]);
+}
+
+/* RESULT: stored at its index, if it is one of a run given to that rank. */
+static void on_result(coordinator *c, const MPI_Status *s)
 {
     dm_mpi_job *job = c->job;
     int count = 0;
     MPI_Get_count(s, MPI_BYTE, &count);
     unsigned char *buf = malloc(count > 0 ? (size_t)count : 1);
+    dm_error e = { 0 };
     if (buf == NULL) {
         receive_and_drop(s);
-        dm_error e;
         dm_error_set(&e, DM_ENOMEM, "out of memory receiving a result of %d bytes", count);
-        job_fail(job, &e, 0);
+        fail(c, &e, 0);
         return;
     }
     MPI_Recv(buf, count, MPI_BYTE, s->MPI_SOURCE, TAG_RESULT, MPI_COMM_WORLD,
              MPI_STATUS_IGNORE);
-    dm_error e = { 0 };
     size_t i = 0;
     dm_run_result r;
     if (dm_result_unpack(job->suite, buf, (size_t)count, &i, &r, &e) != DM_OK) {
-        job_fail(job, &e, s->MPI_SOURCE);
+        fail(c, &e, s->MPI_SOURCE);
     } else if (c->owner[i] != s->MPI_SOURCE || job->results[i].status != DM_RUN_NOT_RUN) {
         dm_run_result_free(&r);
         dm_error_set(&e, DM_EIO, "sent a result of run %s it was not given",
                      job->suite->runs[i].id);
-        job_fail(job, &e, s->MPI_SOURCE);
+        fail(c, &e, s->MPI_SOURCE);
     } else {
         job->results[i] = r;
-        job->done++;
+        dm_queue_mark_done(&c->queue, i);
         job->runs_received++;
         job->bytes_received += (uint64_t)count;
     }
     free(buf);
 }
 
-static bool serve(coordinator *c, int size)
+/* FAILED: the reason a run of that rank could not be run. */
+static void on_failed(coordinator *c, const MPI_Status *s)
 {
-    dm_mpi_job *job = c->job;
+    dm_error e = { .code = DM_EIO };
+    int count = 0;
+    MPI_Get_count(s, MPI_CHAR, &count);
+    if (count > 0 && count <= (int)sizeof e.msg) {
+        MPI_Recv(e.msg, count, MPI_CHAR, s->MPI_SOURCE, TAG_FAILED, MPI_COMM_WORLD,
+                 MPI_STATUS_IGNORE);
+        e.msg[sizeof e.msg - 1] = '\0';
+    } else {
+        receive_and_drop(s);
+        snprintf(e.msg, sizeof e.msg, "a run failed (no reason received)");
+    }
+    fail(c, &e, s->MPI_SOURCE);
+}
+
+/* STOPPED: that rank was sent a signal; the whole job stops. */
+static void on_stopped(coordinator *c, int src)
+{
+    int sig = 0;
+    MPI_Recv(&sig, 1, MPI_INT, src, TAG_STOPPED, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    if (*c->job->stop_signal == 0)
+        *c->job->stop_signal = sig;
+    *c->job->stop = 1;
+}
+
+/* FINISHED: that rank sent every result; BYE is its last message. */
+static void on_finished(coordinator *c, int src)
+{
+    MPI_Recv(NULL, 0, MPI_BYTE, src, TAG_FINISHED, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    if (!c->finished[src]) {
+        c->finished[src] = true;
+        c->n_finished++;
+        MPI_Isend(NULL, 0, MPI_BYTE, src, TAG_BYE, MPI_COMM_WORLD, &c->bye_req[src]);
+    }
+}
+
+/* Answers every message already here; true when there was one. */
+static bool serve(coordinator *c)
+{
     bool busy = false;
     int flag = 0;
     MPI_Status s;
@@ -481,276 +411,247 @@ static bool serve(coordinator *c, int size)
            flag) {
         busy = true;
         int src = s.MPI_SOURCE;
-        if (src <= 0 || src >= size) {
+        if (src <= 0 || src >= c->size) {
             receive_and_drop(&s);
             continue;
         }
         switch (s.MPI_TAG) {
-        case TAG_REQUEST: {
-            int k = 0;
-            MPI_Recv(&k, 1, MPI_INT, src, TAG_REQUEST, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-            wait_gently(&c->assign_req[src]); /* the last ASSIGN, which src has received */
-            size_t n = give(c, k < 1 ? 1 : k > MAX_ASK ? MAX_ASK : (size_t)k,
-                            c->assign_buf[src], src);
-            MPI_Isend(c->assign_buf[src], (int)n, MPI_UINT64_T, src, TAG_ASSIGN,
-                      MPI_COMM_WORLD, &c->assign_req[src]);
-            break;
-        }
-        case TAG_RESULT:
-            take_result(c, &s);
-            break;
-        case TAG_FAILED: {
-            dm_error e = { .code = DM_EIO };
-            int count = 0;
-            MPI_Get_count(&s, MPI_CHAR, &count);
-            if (count > 0 && count <= (int)sizeof e.msg) {
-                MPI_Recv(e.msg, count, MPI_CHAR, src, TAG_FAILED, MPI_COMM_WORLD,
-                         MPI_STATUS_IGNORE);
-                e.msg[sizeof e.msg - 1] = '\0';
-            } else {
-                receive_and_drop(&s);
-                snprintf(e.msg, sizeof e.msg, "a run failed (no reason received)");
-            }
-            job_fail(job, &e, src);
-            break;
-        }
-        case TAG_STOPPED: {
-            int sig = 0;
-            MPI_Recv(&sig, 1, MPI_INT, src, TAG_STOPPED, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-            if (*job->stop_signal == 0)
-                *job->stop_signal = sig;
-            *job->stop = 1;
-            break;
-        }
-        case TAG_FINISHED:
-            MPI_Recv(NULL, 0, MPI_BYTE, src, TAG_FINISHED, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-            if (!c->finished[src]) {
-                c->finished[src] = true;
-                c->n_finished++;
-                MPI_Isend(NULL, 0, MPI_BYTE, src, TAG_BYE, MPI_COMM_WORLD, &c->bye_req[src]);
-            }
-            break;
-        default:
-            receive_and_drop(&s);
-            break;
+        case TAG_REQUEST: on_request(c, src); break;
+        case TAG_RESULT: on_result(c, &s); break;
+        case TAG_FAILED: on_failed(c, &s); break;
+        case TAG_STOPPED: on_stopped(c, src); break;
+        case TAG_FINISHED: on_finished(c, src); break;
+        default: receive_and_drop(&s); break;
         }
     }
     return busy;
 }
 
+/* Once the job stops (a signal here or at another rank), tells every rank still working. */
+static void forward_stop(coordinator *c)
+{
+    if (!*c->job->stop || c->stop_sent)
+        return;
+    for (int r = 1; r < c->size; r++)
+        if (!c->finished[r])
+            MPI_Isend(NULL, 0, MPI_BYTE, r, TAG_STOP, MPI_COMM_WORLD, &c->stop_req[r]);
+    c->stop_sent = true;
+}
+
+static void coordinator_free(coordinator *c)
+{
+    free(c->owner);
+    free(c->assign_req);
+    free(c->stop_req);
+    free(c->bye_req);
+    free(c->assign_buf);
+    free(c->finished);
+}
+
+/* The state of every rank, and the queue of job->order with rank 0's threads on it. A
+ * failure to start a thread fails the job but still answers the other ranks; out of
+ * memory for the state, which the answers need, ends the MPI job. */
+static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job *job)
+{
+    size_t n = job->suite->n_runs ? job->suite->n_runs : 1, size = (size_t)w->size;
+    *c = (coordinator){ .job = job, .size = w->size };
+    c->owner = malloc(n * sizeof *c->owner);
+    c->assign_req = malloc(size * sizeof *c->assign_req);
+    c->stop_req = malloc(size * sizeof *c->stop_req);
+    c->bye_req = malloc(size * sizeof *c->bye_req);
+    c->assign_buf = malloc(size * sizeof *c->assign_buf);
+    c->finished = calloc(size, sizeof *c->finished);
+    dm_error e = { 0 };
+    if (c->owner == NULL || c->assign_req == NULL || c->stop_req == NULL ||
+        c->bye_req == NULL || c->assign_buf == NULL || c->finished == NULL) {
+        dm_error_set(&e, DM_ENOMEM, "out of memory for the state of %d ranks", w->size);
+    } else if (dm_queue_init(&c->queue, job->suite, job->results, job->stop, job->progress,
+                             &e) == DM_OK) {
+        for (size_t i = 0; i < n; i++)
+            c->owner[i] = -1;
+        for (int r = 0; r < w->size; r++)
+            c->assign_req[r] = c->stop_req[r] = c->bye_req[r] = MPI_REQUEST_NULL;
+        dm_queue_add(&c->queue, job->order, job->n_order);
+        dm_queue_close(&c->queue);
+        if (dm_queue_start(&c->queue, job->jobs) == 0) {
+            dm_error_set(&e, DM_ENOMEM, "cannot start a thread to run the suite");
+            fail(c, &e, 0);
+        }
+        return;
+    }
+    fprintf(stderr, "driftmark: run: %s\n", e.msg);
+    MPI_Abort(MPI_COMM_WORLD, 1);
+}
+
 void dm_mpi_coordinate(const dm_mpi_world *w, dm_mpi_job *job)
 {
-    int size = w->size;
-    coordinator c = { .job = job };
-    c.owner = malloc(sizeof *c.owner * (job->suite->n_runs ? job->suite->n_runs : 1));
-    c.assign_req = malloc(sizeof *c.assign_req * (size_t)size);
-    c.stop_req = malloc(sizeof *c.stop_req * (size_t)size);
-    c.bye_req = malloc(sizeof *c.bye_req * (size_t)size);
-    c.assign_buf = malloc(sizeof *c.assign_buf * (size_t)size);
-    c.finished = calloc((size_t)size, sizeof *c.finished);
-    rank_pool p;
-    dm_error e = { 0 };
-    bool pool_ok = false;
-    if (c.owner && c.assign_req && c.stop_req && c.bye_req && c.assign_buf && c.finished)
-        pool_ok = pool_start(&p, job->suite, job->results, job->stop, job->jobs, &e);
-    else
-        dm_error_set(&e, DM_ENOMEM, "out of memory for the state of %d ranks", size);
-    if (!pool_ok) {
-        /* the other ranks still wait for their first answer: tell them to stop */
-        job_fail(job, &e, 0);
-        if (c.owner == NULL || c.assign_req == NULL || c.stop_req == NULL ||
-            c.bye_req == NULL || c.assign_buf == NULL || c.finished == NULL)
-            MPI_Abort(MPI_COMM_WORLD, 1);
-    }
-    for (size_t i = 0; i < job->suite->n_runs; i++)
-        c.owner[i] = -1;
-    for (int r = 0; r < size; r++)
-        c.assign_req[r] = c.stop_req[r] = c.bye_req[r] = MPI_REQUEST_NULL;
-
-    bool stop_sent = false;
-    size_t shown = (size_t)-1;
+    /* 1. the queue of runs, longest first, with rank 0's own threads taking from it */
+    coordinator c;
+    coordinator_start(&c, w, job);
+    /* 2. hand out runs and gather results until every thread here has ended and every
+     *    other rank has said FINISHED (the progress line is the queue's) */
     for (;;) {
-        bool busy = serve(&c, size);
-        int alive = 0;
-        if (pool_ok) {
-            pthread_mutex_lock(&p.lock);
-            size_t queued = p.q_tail - p.q_head;
-            if (p.waiting > (int)queued) {
-                uint64_t got[MAX_ASK];
-                size_t n = give(&c, (size_t)p.waiting - queued > MAX_ASK
-                                        ? MAX_ASK : (size_t)p.waiting - queued, got, 0);
-                for (size_t k = 0; k < n; k++)
-                    p.queue[p.q_tail++] = (size_t)got[k];
-                if (n > 0)
-                    busy = true;
-            }
-            if (*job->stop || job->failed || c.next == job->n_order)
-                p.no_more = true;
-            pthread_cond_broadcast(&p.wake);
-            job->done += p.n_done;
-            p.n_done = 0;
-            if (p.failed && !job->failed)
-                job_fail(job, &p.error, 0);
-            alive = p.alive;
-            pthread_mutex_unlock(&p.lock);
-        }
-        if (*job->stop && !stop_sent) {
-            for (int r = 1; r < size; r++)
-                if (!c.finished[r])
-                    MPI_Isend(NULL, 0, MPI_BYTE, r, TAG_STOP, MPI_COMM_WORLD, &c.stop_req[r]);
-            stop_sent = true;
-        }
-        if (job->progress != NULL && job->done != shown) {
-            shown = job->done;
-            job->progress(job->done, job->n_order, c.current ? c.current : "",
-                          seconds_since(&job->t0));
-        }
-        if (alive == 0 && c.n_finished == size - 1)
+        bool busy = serve(&c);
+        forward_stop(&c);
+        dm_queue_state state;
+        dm_queue_look(&c.queue, &state, NULL);
+        if (state.alive == 0 && c.n_finished == c.size - 1)
             break;
         if (!busy)
             nap();
     }
-    if (pool_ok)
-        pool_finish(&p);
-    for (int r = 1; r < size; r++) {
+    /* 3. the outcome, once the last messages to the other ranks are delivered */
+    job->failed = dm_queue_finish(&c.queue, &job->done, &job->error) != DM_OK;
+    for (int r = 1; r < c.size; r++) {
         wait_gently(&c.assign_req[r]);
         wait_gently(&c.stop_req[r]);
         wait_gently(&c.bye_req[r]);
     }
-    free(c.owner);
-    free(c.assign_req);
-    free(c.stop_req);
-    free(c.bye_req);
-    free(c.assign_buf);
-    free(c.finished);
+    coordinator_free(&c);
 }
 
 /* ---- ranks > 0 ---- */
 
-void dm_mpi_work(const dm_mpi_world *w, dm_mpi_job *job)
+typedef struct worker {
+    dm_mpi_job *job;
+    dm_work_queue queue;           /* the runs rank 0 gave this rank (pool.h) */
+    bool have_queue;
+    dm_run_result *results;        /* one slot per run of the suite, freed once sent */
+    size_t *ready;                 /* runs finished and not yet sent */
+    bool outstanding;              /* a REQUEST waits for its ASSIGN */
+    bool no_more;                  /* rank 0 has nothing more to give */
+    bool failed, failed_sent, stopped_sent;
+} worker;
+
+/* The first failure of this rank: no thread of it starts another run. */
+static void worker_fail(worker *k, const dm_error *e)
 {
-    const dm_suite *suite = job->suite;
-    size_t n = suite->n_runs ? suite->n_runs : 1;
-    dm_run_result *results = calloc(n, sizeof *results);
-    size_t *ready = malloc(n * sizeof *ready);
-    rank_pool p;
+    if (k->failed)
+        return;
+    k->failed = true;
+    k->job->error = *e;
+    k->job->failed = true;
+    if (k->have_queue)
+        dm_queue_fail(&k->queue, e);
+}
+
+static void worker_start(worker *k, dm_mpi_job *job)
+{
+    *k = (worker){ .job = job };
+    size_t n = job->suite->n_runs ? job->suite->n_runs : 1;
+    k->results = calloc(n, sizeof *k->results);
+    k->ready = malloc(n * sizeof *k->ready);
     dm_error e = { 0 };
-    bool pool_ok = false;
-    if (results != NULL && ready != NULL)
-        pool_ok = pool_start(&p, suite, results, job->stop, job->jobs, &e);
-    else
+    if (k->results == NULL || k->ready == NULL) {
         dm_error_set(&e, DM_ENOMEM, "out of memory for the results of %zu runs", n);
-    bool outstanding = false, no_more = false, failed_sent = false, stopped_sent = false;
-    bool failed = !pool_ok;
-    if (failed) {
-        job->error = e;
-        job->failed = true;
+        worker_fail(k, &e);
+        return;
     }
-    for (;;) {
-        bool busy = false;
-        size_t n_ready = 0;
-        int want = 0, alive = 0;
-        if (pool_ok) {
-            pthread_mutex_lock(&p.lock);
-            n_ready = p.n_done;
-            memcpy(ready, p.done, n_ready * sizeof *ready);
-            p.n_done = 0;
-            want = p.waiting - (int)(p.q_tail - p.q_head);
-            alive = p.alive;
-            if (p.failed && !failed) {
-                failed = true;
-                job->error = p.error;
-                job->failed = true;
-            }
-            pthread_mutex_unlock(&p.lock);
-        }
-        for (size_t k = 0; k < n_ready; k++) {
-            size_t i = ready[k];
-            unsigned char *buf = NULL;
-            size_t size = 0;
-            if (dm_result_pack(suite, i, &results[i], &buf, &size, &e) == DM_OK) {
-                MPI_Send(buf, (int)size, MPI_BYTE, 0, TAG_RESULT, MPI_COMM_WORLD);
-                job->done++;
-            } else if (!failed) {
-                failed = true;
-                job->error = e;
-                job->failed = true;
-            }
-            free(buf);
-            dm_run_result_free(&results[i]);
-            busy = true;
-        }
-        if (failed && !failed_sent) {
-            MPI_Send(job->error.msg, (int)strlen(job->error.msg) + 1, MPI_CHAR, 0, TAG_FAILED,
-                     MPI_COMM_WORLD);
-            failed_sent = true;
-            if (pool_ok) {
-                pthread_mutex_lock(&p.lock);
-                p.failed = true; /* no thread of this rank starts another run */
-                pthread_mutex_unlock(&p.lock);
-            }
-        }
-        if (*job->stop && *job->stop_signal != 0 && !stopped_sent) {
-            int sig = (int)*job->stop_signal;
-            MPI_Send(&sig, 1, MPI_INT, 0, TAG_STOPPED, MPI_COMM_WORLD);
-            stopped_sent = true;
-        }
-        if (want > 0 && !outstanding && !no_more && !*job->stop && !failed) {
-            int k = want > MAX_ASK ? MAX_ASK : want;
-            MPI_Send(&k, 1, MPI_INT, 0, TAG_REQUEST, MPI_COMM_WORLD);
-            outstanding = true;
-        }
-        int flag = 0;
-        MPI_Status s;
-        while (MPI_Iprobe(0, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &s) == MPI_SUCCESS && flag) {
-            busy = true;
-            if (s.MPI_TAG == TAG_ASSIGN) {
-                uint64_t got[MAX_ASK];
-                int count = 0;
-                MPI_Get_count(&s, MPI_UINT64_T, &count);
-                if (count < 0 || count > MAX_ASK) {
-                    receive_and_drop(&s);
-                    count = 0;
-                } else {
-                    MPI_Recv(got, count, MPI_UINT64_T, 0, TAG_ASSIGN, MPI_COMM_WORLD,
-                             MPI_STATUS_IGNORE);
-                }
-                outstanding = false;
-                if (count == 0)
-                    no_more = true;
-                if (pool_ok) {
-                    pthread_mutex_lock(&p.lock);
-                    for (int k = 0; k < count; k++)
-                        if (got[k] < suite->n_runs && p.q_tail < n)
-                            p.queue[p.q_tail++] = (size_t)got[k];
-                    if (no_more)
-                        p.no_more = true;
-                    pthread_cond_broadcast(&p.wake);
-                    pthread_mutex_unlock(&p.lock);
-                }
-            } else if (s.MPI_TAG == TAG_STOP) {
-                MPI_Recv(NULL, 0, MPI_BYTE, 0, TAG_STOP, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
-                *job->stop = 1;
-            } else {
-                receive_and_drop(&s);
-            }
-        }
-        if (pool_ok && (*job->stop || failed)) {
-            pthread_mutex_lock(&p.lock);
-            pthread_cond_broadcast(&p.wake);
-            pthread_mutex_unlock(&p.lock);
-        }
-        if (!pool_ok && !outstanding)
-            alive = 0;
-        /* every thread ended and its last results were sent above */
-        if (alive == 0 && n_ready == 0 && !outstanding) {
-            MPI_Send(NULL, 0, MPI_BYTE, 0, TAG_FINISHED, MPI_COMM_WORLD);
-            break;
-        }
-        if (!busy)
-            nap();
+    if (dm_queue_init(&k->queue, job->suite, k->results, job->stop, NULL, &e) != DM_OK) {
+        worker_fail(k, &e);
+        return;
     }
-    /* the last word is rank 0's: a STOP may still be on its way before BYE */
+    k->have_queue = true;
+    if (dm_queue_start(&k->queue, job->jobs) == 0) {
+        dm_error_set(&e, DM_ENOMEM, "cannot start a thread to run the suite");
+        worker_fail(k, &e);
+    }
+}
+
+/* Packs and sends each finished run, then frees it; true when there was one. */
+static bool send_results(worker *k, size_t n_ready)
+{
+    for (size_t j = 0; j < n_ready; j++) {
+        size_t i = k->ready[j];
+        unsigned char *buf = NULL;
+        size_t size = 0;
+        dm_error e = { 0 };
+        if (dm_result_pack(k->job->suite, i, &k->results[i], &buf, &size, &e) == DM_OK) {
+            MPI_Send(buf, (int)size, MPI_BYTE, 0, TAG_RESULT, MPI_COMM_WORLD);
+            k->job->done++;
+        } else {
+            worker_fail(k, &e);
+        }
+        free(buf);
+        dm_run_result_free(&k->results[i]);
+    }
+    return n_ready > 0;
+}
+
+/* Tells rank 0, once each, that this rank failed or was sent a signal. */
+static void report(worker *k)
+{
+    dm_mpi_job *job = k->job;
+    if (k->failed && !k->failed_sent) {
+        MPI_Send(job->error.msg, (int)strlen(job->error.msg) + 1, MPI_CHAR, 0, TAG_FAILED,
+                 MPI_COMM_WORLD);
+        k->failed_sent = true;
+    }
+    if (*job->stop && *job->stop_signal != 0 && !k->stopped_sent) {
+        int sig = (int)*job->stop_signal;
+        MPI_Send(&sig, 1, MPI_INT, 0, TAG_STOPPED, MPI_COMM_WORLD);
+        k->stopped_sent = true;
+    }
+}
+
+/* Asks for runs for the threads that wait, one REQUEST at a time. */
+static void ask(worker *k, int hungry)
+{
+    if (hungry <= 0 || k->outstanding || k->no_more || *k->job->stop || k->failed)
+        return;
+    int n = hungry > MAX_ASK ? MAX_ASK : hungry;
+    MPI_Send(&n, 1, MPI_INT, 0, TAG_REQUEST, MPI_COMM_WORLD);
+    k->outstanding = true;
+}
+
+/* ASSIGN: the runs go to the queue; none means nothing more will come. */
+static void on_assign(worker *k, const MPI_Status *s)
+{
+    uint64_t got[MAX_ASK];
+    int count = 0;
+    MPI_Get_count(s, MPI_UINT64_T, &count);
+    if (count < 0 || count > MAX_ASK) {
+        receive_and_drop(s);
+        count = 0;
+    } else {
+        MPI_Recv(got, count, MPI_UINT64_T, 0, TAG_ASSIGN, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    }
+    k->outstanding = false;
+    k->no_more = count == 0;
+    if (!k->have_queue)
+        return;
+    size_t runs[MAX_ASK], n = 0;
+    for (int j = 0; j < count; j++)
+        if (got[j] < k->job->suite->n_runs)
+            runs[n++] = (size_t)got[j];
+    dm_queue_add(&k->queue, runs, n);
+    if (k->no_more)
+        dm_queue_close(&k->queue);
+}
+
+/* Takes every message of rank 0 already here; true when there was one. */
+static bool receive(worker *k)
+{
+    bool busy = false;
+    int flag = 0;
+    MPI_Status s;
+    while (MPI_Iprobe(0, MPI_ANY_TAG, MPI_COMM_WORLD, &flag, &s) == MPI_SUCCESS && flag) {
+        busy = true;
+        if (s.MPI_TAG == TAG_ASSIGN) {
+            on_assign(k, &s);
+        } else if (s.MPI_TAG == TAG_STOP) {
+            MPI_Recv(NULL, 0, MPI_BYTE, 0, TAG_STOP, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+            *k->job->stop = 1;
+        } else {
+            receive_and_drop(&s);
+        }
+    }
+    return busy;
+}
+
+/* The last word is rank 0's: a STOP may still be on its way before BYE. */
+static void wait_for_bye(void)
+{
     for (;;) {
         int flag = 0;
         MPI_Status s;
@@ -761,15 +662,46 @@ void dm_mpi_work(const dm_mpi_world *w, dm_mpi_job *job)
         }
         receive_and_drop(&s);
         if (s.MPI_TAG == TAG_BYE)
-            break;
+            return;
     }
-    if (pool_ok)
-        pool_finish(&p);
-    if (results != NULL)
-        for (size_t i = 0; i < n; i++)
-            dm_run_result_free(&results[i]);
-    free(results);
-    free(ready);
+}
+
+void dm_mpi_work(const dm_mpi_world *w, dm_mpi_job *job)
+{
+    (void)w;
+    /* 1. a slot for each result and the queue rank 0 fills, with this rank's threads */
+    worker k;
+    worker_start(&k, job);
+    /* 2. until every thread has ended and every result is sent: send what finished,
+     *    report a failure or a signal, ask for runs for the threads that wait, take in
+     *    what rank 0 sent */
+    for (;;) {
+        dm_queue_state state = { 0 };
+        size_t n_ready = k.have_queue ? dm_queue_look(&k.queue, &state, k.ready) : 0;
+        if (state.failed)
+            worker_fail(&k, &state.error);
+        bool busy = send_results(&k, n_ready);
+        report(&k);
+        ask(&k, state.hungry);
+        busy |= receive(&k);
+        if (k.have_queue && *job->stop)
+            dm_queue_wake(&k.queue); /* the waiting threads see the stop */
+        if (state.alive == 0 && n_ready == 0 && !k.outstanding) {
+            MPI_Send(NULL, 0, MPI_BYTE, 0, TAG_FINISHED, MPI_COMM_WORLD);
+            break;
+        }
+        if (!busy)
+            nap();
+    }
+    /* 3. wait for BYE, then free */
+    wait_for_bye();
+    if (k.have_queue)
+        dm_queue_finish(&k.queue, NULL, NULL);
+    if (k.results != NULL)
+        for (size_t i = 0; i < job->suite->n_runs; i++)
+            dm_run_result_free(&k.results[i]);
+    free(k.results);
+    free(k.ready);
 }
 
 #endif

@@ -1,41 +1,18 @@
-/* pool.c — runs a list of a suite's runs on a pool of threads (`run --jobs`, and the
- * 1-vs-N-jobs measurement of `bench`).
+/* pool.c — the work queue of a suite's runs (pool.h) and the pool of threads on it
+ * (`run --jobs`, and the 1-vs-N-jobs measurement of `bench`).
  *
- * Workers take the runs in the order given (longest first, so one long run does not
+ * Threads take the runs in the order given (longest first, so one long run does not
  * finish alone at the end) and store each result at its own index, so the results do
- * not depend on the number of jobs. The calling thread is one of the jobs. */
+ * not depend on the number of jobs, nor on the number of MPI ranks (mpi_run.c hands
+ * out runs from the same queue). In dm_run_pool the calling thread is one of the jobs. */
 #include <math.h>
 #include <pthread.h>
-#include <stdatomic.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 
+#include "dm_clock.h"
 #include "harness.h"
-
-typedef struct pool {
-    const dm_suite *suite;
-    dm_run_result *results;
-    const size_t *order;
-    size_t n_order;
-    volatile int *stop;
-    dm_pool_progress progress;
-    atomic_size_t next;
-    atomic_size_t done;
-    atomic_int failed;
-    pthread_mutex_t lock;          /* guards the progress line and the first error */
-    dm_error error;
-    double cost_total, cost_done;  /* estimated work, for the time left (under lock) */
-    struct timespec t0;
-    const char *current;
-} pool;
-
-static double seconds_since(const struct timespec *t0)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)(t.tv_sec - t0->tv_sec) + 1e-9 * (double)(t.tv_nsec - t0->tv_nsec);
-}
+#include "pool.h"
 
 /* Work estimate of a run: force evaluations for fixed steps; adaptive methods are
  * guessed from the horizon and the tolerance (their steps grow as rtol shrinks). */
@@ -70,84 +47,230 @@ void dm_run_order_longest_first(const dm_suite *suite, size_t *order, size_t n)
     cost_suite = NULL;
 }
 
-static void *worker(void *arg)
+/* ---- the work queue ---- */
+
+static bool stopped(const dm_work_queue *q)
 {
-    pool *p = arg;
-    for (;;) {
-        if ((p->stop != NULL && *p->stop) || atomic_load(&p->failed))
-            break;
-        size_t slot = atomic_fetch_add(&p->next, 1);
-        if (slot >= p->n_order)
-            break;
-        size_t i = p->order[slot];
-        const dm_run_spec *spec = &p->suite->runs[i];
-        if (p->progress != NULL) {
-            pthread_mutex_lock(&p->lock);
-            p->current = spec->id;
-            p->progress(atomic_load(&p->done), p->n_order, p->cost_done / p->cost_total,
-                        spec->id, seconds_since(&p->t0));
-            pthread_mutex_unlock(&p->lock);
-        }
-        dm_error err = { 0 };
-        if (dm_run(spec, &p->results[i], p->stop, &err) != DM_OK) {
-            pthread_mutex_lock(&p->lock);
-            if (!atomic_load(&p->failed)) {
-                p->error = err;
-                dm_error_prefix(&p->error, "%s: ", spec->id);
-            }
-            atomic_store(&p->failed, 1);
-            pthread_mutex_unlock(&p->lock);
-            break;
-        }
-        size_t d = atomic_fetch_add(&p->done, 1) + 1;
-        pthread_mutex_lock(&p->lock);
-        p->cost_done += dm_run_estimated_cost(spec);
-        if (p->progress != NULL)
-            p->progress(d, p->n_order, p->cost_done / p->cost_total,
-                        p->current ? p->current : "", seconds_since(&p->t0));
-        pthread_mutex_unlock(&p->lock);
+    return q->stop != NULL && *q->stop;
+}
+
+/* Redraws the progress line (under the lock); `current` NULL: the run handed out last. */
+static void show_progress(dm_work_queue *q, const char *current)
+{
+    if (q->progress == NULL)
+        return;
+    double total = q->cost_total > 0.0 ? q->cost_total : 1.0;
+    q->progress(q->done, q->n_order, q->cost_done / total,
+                current ? current : q->current ? q->current : "", dm_clock_seconds() - q->t0);
+}
+
+/* Counts run i done (under the lock). */
+static void count_done(dm_work_queue *q, size_t i)
+{
+    q->done++;
+    q->cost_done += dm_run_estimated_cost(&q->suite->runs[i]);
+    show_progress(q, NULL);
+}
+
+/* Keeps the first failure and wakes every waiting thread (under the lock). */
+static void record_failure(dm_work_queue *q, const dm_error *err)
+{
+    if (!q->failed)
+        q->error = *err;
+    q->failed = true;
+    pthread_cond_broadcast(&q->wake);
+}
+
+dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
+                        volatile int *stop, dm_pool_progress progress, dm_error *err)
+{
+    memset(q, 0, sizeof *q);
+    size_t n = suite->n_runs ? suite->n_runs : 1;
+    q->order = malloc(n * sizeof *q->order);
+    q->finished = malloc(n * sizeof *q->finished);
+    if (q->order == NULL || q->finished == NULL) {
+        free(q->order);
+        free(q->finished);
+        return dm_error_set(err, DM_ENOMEM, "out of memory for the run queue of %zu runs", n);
     }
+    q->suite = suite;
+    q->results = results;
+    q->stop = stop;
+    q->progress = progress;
+    q->open = true;
+    q->t0 = dm_clock_seconds();
+    pthread_mutex_init(&q->lock, NULL);
+    pthread_cond_init(&q->wake, NULL);
+    return DM_OK;
+}
+
+void dm_queue_add(dm_work_queue *q, const size_t *runs, size_t n)
+{
+    pthread_mutex_lock(&q->lock);
+    for (size_t k = 0; k < n; k++)
+        if (runs[k] < q->suite->n_runs && q->n_order < q->suite->n_runs) {
+            q->order[q->n_order++] = runs[k];
+            q->cost_total += dm_run_estimated_cost(&q->suite->runs[runs[k]]);
+        }
+    pthread_cond_broadcast(&q->wake);
+    pthread_mutex_unlock(&q->lock);
+}
+
+void dm_queue_close(dm_work_queue *q)
+{
+    pthread_mutex_lock(&q->lock);
+    q->open = false;
+    pthread_cond_broadcast(&q->wake);
+    pthread_mutex_unlock(&q->lock);
+}
+
+void dm_queue_serve(dm_work_queue *q)
+{
+    pthread_mutex_lock(&q->lock);
+    for (;;) {
+        while (q->next == q->n_order && q->open && !stopped(q) && !q->failed) {
+            q->waiting++;
+            pthread_cond_wait(&q->wake, &q->lock);
+            q->waiting--;
+        }
+        if (stopped(q) || q->failed || q->next == q->n_order)
+            break;
+        size_t i = q->order[q->next++];
+        const dm_run_spec *spec = &q->suite->runs[i];
+        q->current = spec->id;
+        show_progress(q, spec->id);
+        pthread_mutex_unlock(&q->lock);
+
+        dm_error err = { 0 };
+        dm_status st = dm_run(spec, &q->results[i], q->stop, &err);
+
+        pthread_mutex_lock(&q->lock);
+        if (st != DM_OK) {
+            dm_error_prefix(&err, "%s: ", spec->id);
+            record_failure(q, &err);
+            break;
+        }
+        q->finished[q->n_finished++] = i;
+        count_done(q, i);
+    }
+    pthread_mutex_unlock(&q->lock);
+}
+
+static void *queue_thread(void *arg)
+{
+    dm_work_queue *q = arg;
+    dm_queue_serve(q);
+    pthread_mutex_lock(&q->lock);
+    q->alive--;
+    pthread_mutex_unlock(&q->lock);
     return NULL;
 }
+
+int dm_queue_start(dm_work_queue *q, int threads)
+{
+    pthread_mutex_lock(&q->lock); /* counted alive before any of them can end */
+    for (int j = 0; j < threads && q->n_threads < DM_POOL_MAX_JOBS; j++)
+        if (pthread_create(&q->threads[q->n_threads], NULL, queue_thread, q) == 0) {
+            q->n_threads++;
+            q->alive++;
+        }
+    int started = q->n_threads;
+    pthread_mutex_unlock(&q->lock);
+    return started;
+}
+
+size_t dm_queue_take(dm_work_queue *q, size_t k, size_t *out)
+{
+    size_t n = 0;
+    pthread_mutex_lock(&q->lock);
+    if (!stopped(q) && !q->failed) {
+        while (n < k && q->next < q->n_order)
+            out[n++] = q->order[q->next++];
+        if (n > 0) {
+            q->current = q->suite->runs[out[n - 1]].id;
+            show_progress(q, NULL);
+        }
+    }
+    pthread_mutex_unlock(&q->lock);
+    return n;
+}
+
+void dm_queue_mark_done(dm_work_queue *q, size_t i)
+{
+    pthread_mutex_lock(&q->lock);
+    count_done(q, i);
+    pthread_mutex_unlock(&q->lock);
+}
+
+void dm_queue_fail(dm_work_queue *q, const dm_error *err)
+{
+    pthread_mutex_lock(&q->lock);
+    record_failure(q, err);
+    pthread_mutex_unlock(&q->lock);
+}
+
+void dm_queue_wake(dm_work_queue *q)
+{
+    pthread_mutex_lock(&q->lock);
+    pthread_cond_broadcast(&q->wake);
+    pthread_mutex_unlock(&q->lock);
+}
+
+size_t dm_queue_look(dm_work_queue *q, dm_queue_state *state, size_t *finished)
+{
+    size_t n = 0;
+    pthread_mutex_lock(&q->lock);
+    state->hungry = q->waiting - (int)(q->n_order - q->next);
+    state->alive = q->alive;
+    state->failed = q->failed;
+    if (q->failed)
+        state->error = q->error;
+    if (finished != NULL) {
+        n = q->n_finished;
+        memcpy(finished, q->finished, n * sizeof *finished);
+        q->n_finished = 0;
+    }
+    pthread_mutex_unlock(&q->lock);
+    return n;
+}
+
+dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
+{
+    dm_queue_close(q);
+    for (int j = 0; j < q->n_threads; j++)
+        pthread_join(q->threads[j], NULL);
+    show_progress(q, "");
+    if (done != NULL)
+        *done = q->done;
+    pthread_mutex_destroy(&q->lock);
+    pthread_cond_destroy(&q->wake);
+    free(q->order);
+    free(q->finished);
+    q->order = q->finished = NULL;
+    if (!q->failed)
+        return DM_OK;
+    if (err != NULL)
+        *err = q->error;
+    return q->error.code != DM_OK ? q->error.code : DM_ESOLVER;
+}
+
+/* ---- the pool of `run --jobs` ---- */
 
 dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_t *order,
                       size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
                       size_t *done, dm_error *err)
 {
-    pool p = { .suite = suite, .results = results, .order = order, .n_order = n_order,
-               .stop = stop, .progress = progress };
-    p.cost_total = 0.0;
-    for (size_t i = 0; i < n_order; i++)
-        p.cost_total += dm_run_estimated_cost(&suite->runs[order[i]]);
-    if (!(p.cost_total > 0.0))
-        p.cost_total = 1.0;
-    atomic_init(&p.next, 0);
-    atomic_init(&p.done, 0);
-    atomic_init(&p.failed, 0);
-    pthread_mutex_init(&p.lock, NULL);
-    clock_gettime(CLOCK_MONOTONIC, &p.t0);
+    dm_work_queue q;
+    dm_status st = dm_queue_init(&q, suite, results, stop, progress, err);
+    if (st != DM_OK)
+        return st;
+    dm_queue_add(&q, order, n_order);
+    dm_queue_close(&q);
     if ((size_t)jobs > n_order)
         jobs = n_order > 0 ? (int)n_order : 1;
     if (jobs > DM_POOL_MAX_JOBS)
         jobs = DM_POOL_MAX_JOBS;
-    pthread_t threads[DM_POOL_MAX_JOBS];
-    int started_threads = 0;
-    for (int j = 1; j < jobs; j++)
-        if (pthread_create(&threads[started_threads], NULL, worker, &p) == 0)
-            started_threads++;
-    worker(&p); /* the calling thread is one of the jobs */
-    for (int j = 0; j < started_threads; j++)
-        pthread_join(threads[j], NULL);
-    pthread_mutex_destroy(&p.lock);
-    if (progress != NULL)
-        progress(atomic_load(&p.done), n_order, p.cost_done / p.cost_total, "",
-                 seconds_since(&p.t0));
-    if (done != NULL)
-        *done = atomic_load(&p.done);
-    if (atomic_load(&p.failed)) {
-        if (err != NULL)
-            *err = p.error;
-        return p.error.code != DM_OK ? p.error.code : DM_ESOLVER;
-    }
-    return DM_OK;
+    dm_queue_start(&q, jobs - 1);
+    dm_queue_serve(&q); /* the calling thread is one of the jobs */
+    return dm_queue_finish(&q, done, err);
 }

@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "dm_number_text.h"
 #include "problem.h"
 
 extern const dm_problem dm_problem_harmonic;
@@ -37,18 +38,23 @@ int dm_problem_param_index(const dm_problem *problem, const char *name)
     return -1;
 }
 
-static void describe_range(const dm_param *p, char *buf, size_t size)
+bool dm_param_min_open(const dm_param *p)
 {
-    char lo[64], hi[64];
-    if (isinf(p->min))
-        snprintf(lo, sizeof lo, "(-inf");
-    else
-        snprintf(lo, sizeof lo, "%s%.17g", (p->flags & DM_PARAM_MIN_OPEN) ? "(" : "[", p->min);
-    if (isinf(p->max))
-        snprintf(hi, sizeof hi, "inf)");
-    else
-        snprintf(hi, sizeof hi, "%.17g%s", p->max, (p->flags & DM_PARAM_MAX_OPEN) ? ")" : "]");
-    snprintf(buf, size, "%s, %s", lo, hi);
+    return isinf(p->min) || (p->flags & DM_PARAM_MIN_OPEN);
+}
+
+bool dm_param_max_open(const dm_param *p)
+{
+    return isinf(p->max) || (p->flags & DM_PARAM_MAX_OPEN);
+}
+
+void dm_param_range_text(const dm_param *p, char *buf, size_t size)
+{
+    char lo[40], hi[40];
+    dm_number_text(p->min, lo, sizeof lo);
+    dm_number_text(p->max, hi, sizeof hi);
+    snprintf(buf, size, "%s%s, %s%s", dm_param_min_open(p) ? "(" : "[", lo, hi,
+             dm_param_max_open(p) ? ")" : "]");
 }
 
 dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
@@ -88,7 +94,7 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
         bool above = (p->flags & DM_PARAM_MAX_OPEN) ? !(v < p->max) : !(v <= p->max);
         if (below || above) {
             char range[160];
-            describe_range(p, range, sizeof range);
+            dm_param_range_text(p, range, sizeof range);
             return dm_error_set(err, DM_EINPUT, "%s: %s = %.17g is outside its range %s",
                                 problem->id, p->name, v, range);
         }

@@ -1,7 +1,9 @@
 /* test_problem_limits.c — parameters that are each in range but together overflow
- * double precision are refused for every problem, through the library and the CLI. */
+ * double precision are refused for every problem, through the library and the CLI; a
+ * parameter's range as text, in messages and in `driftmark list`. */
 #include "dm_test_util.h"
 
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -40,11 +42,57 @@ static void overflowing_states_are_refused_by_the_cli(void **state)
     assert_int_equal((int)(strchr(err, '\n') - err + 1), (int)strlen(err)); /* one line */
 }
 
+static void range_text_shows_open_closed_and_infinite_bounds(void **state)
+{
+    char buf[96];
+    const dm_param closed = { .name = "x", .min = -1.5, .max = 0.1 };
+    dm_param_range_text(&closed, buf, sizeof buf);
+    assert_string_equal(buf, "[-1.5, 0.1]");
+    assert_false(dm_param_min_open(&closed));
+    assert_false(dm_param_max_open(&closed));
+    const dm_param half = { .name = "x", .min = 0.0, .max = 1.0, .flags = DM_PARAM_MAX_OPEN };
+    dm_param_range_text(&half, buf, sizeof buf);
+    assert_string_equal(buf, "[0, 1)");
+    const dm_param open = { .name = "x", .min = 0.0, .max = INFINITY,
+                            .flags = DM_PARAM_MIN_OPEN };
+    dm_param_range_text(&open, buf, sizeof buf);
+    assert_string_equal(buf, "(0, inf)");
+    assert_true(dm_param_min_open(&open));
+    assert_true(dm_param_max_open(&open)); /* an infinite bound is never reached */
+    const dm_param any = { .name = "x", .min = -INFINITY, .max = INFINITY };
+    dm_param_range_text(&any, buf, sizeof buf);
+    assert_string_equal(buf, "(-inf, inf)");
+}
+
+/* The refusal and `list` show one range text: the pendulum's amplitude lies in
+ * [-pi, pi], pi in its shortest round-trip form. */
+static void refusal_and_list_show_the_same_range(void **state)
+{
+    const dm_problem *pb = dm_problem_find("pendulum");
+    assert_non_null(pb);
+    int i = dm_problem_param_index(pb, "amplitude");
+    assert_true(i >= 0);
+    char range[96];
+    dm_param_range_text(&pb->params[i], range, sizeof range);
+    assert_string_equal(range, "[-3.141592653589793, 3.141592653589793]");
+    dm_instance inst;
+    dm_error err = { 0 };
+    const char *keys[] = { "amplitude" };
+    const double values[] = { 4.0 };
+    assert_int_equal(dm_instance_init(&inst, pb, 1, keys, values, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, range));
+    char out[16384], errs[256];
+    assert_int_equal(dm_run_capture(DM_EXE " list", out, sizeof out, errs, sizeof errs), 0);
+    assert_non_null(strstr(out, range));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(overflowing_states_are_refused_by_the_library),
         cmocka_unit_test(overflowing_states_are_refused_by_the_cli),
+        cmocka_unit_test(range_text_shows_open_closed_and_infinite_bounds),
+        cmocka_unit_test(refusal_and_list_show_the_same_range),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -9,8 +9,9 @@
 /* A JSON string: quotes, backslashes and control bytes escaped; NULL writes "". */
 void dm_json_string(FILE *out, const char *s);
 
-/* A number with printf format `format` (for one double, e.g. "%.17g"); null when NaN or
- * infinite. */
+/* A number with printf format `format` (for one double, e.g. "%.17g"), or with format
+ * NULL in the shortest form that reads back as the same double (dm_number_text.h);
+ * null when NaN or infinite. */
 void dm_json_number(FILE *out, double v, const char *format);
 
 #endif

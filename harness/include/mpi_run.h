@@ -2,9 +2,9 @@
  *
  * Rank 0 reads and validates the suite (or the file being resumed), sends the suite
  * text to every rank, which validates it again, and then hands out run indices on
- * request, longest first, exactly in the order one process would take them. Each rank
- * runs its runs on its own --jobs threads; only its main thread talks MPI
- * (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
+ * request, longest first, exactly in the order one process would take them, from the
+ * same work queue as the --jobs threads (pool.h). Each rank runs its runs on its own
+ * --jobs threads; only its main thread talks MPI (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
  * dm_run_result (result_pack.h), is stored at its index, and rank 0 writes the one
  * results file with dm_results_write: the file is the one a single process writes.
  *
@@ -18,7 +18,6 @@
 #include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
-#include <time.h>
 
 #include "harness.h"
 
@@ -58,9 +57,9 @@ typedef struct dm_mpi_job {
     int jobs;                      /* threads running runs in this rank */
     volatile int *stop;            /* set by a signal, or by rank 0's word to stop */
     volatile sig_atomic_t *stop_signal; /* the signal that stopped the job, 0: none */
-    /* rank 0 on a terminal: redraws the progress line; NULL for none */
-    void (*progress)(size_t done, size_t total, const char *current, double elapsed);
-    struct timespec t0;
+    /* rank 0 on a terminal: redraws the progress line, as in dm_run_pool (called once
+     * more at the end with current ""); NULL for none */
+    dm_pool_progress progress;
     /* the outcome, on rank 0 for the whole job */
     bool failed;                   /* a run could not be run (error holds why) */
     dm_error error;

@@ -205,6 +205,15 @@ double dm_instance_energy(const dm_instance *inst, const double *q, const double
 /* Index of parameter `name` in problem->params, or -1. */
 int dm_problem_param_index(const dm_problem *problem, const char *name);
 
+/* Whether a bound of p's range is excluded: flagged open, or infinite. */
+bool dm_param_min_open(const dm_param *p);
+bool dm_param_max_open(const dm_param *p);
+
+/* p's range as text for messages and `driftmark list`: "(0, inf)",
+ * "[-3.141592653589793, 3.141592653589793]"; round brackets at excluded bounds, each
+ * number in the shortest form that reads back as the same double. */
+void dm_param_range_text(const dm_param *p, char *buf, size_t size);
+
 /* Time in (0, T] of the first upward section crossing of the exact orbit, found from
  * inst->problem->exact by bracketing and bisection to machine precision. For setups
  * that have no closed form for it. */

@@ -1,0 +1,93 @@
+/* pool.h — the one work queue of a suite's runs (pool.c), shared by the --jobs threads
+ * of `run` and `bench` (dm_run_pool) and by the MPI ranks (mpi_run.c).
+ *
+ * The queue holds the runs to hand out in the order given (longest first), the next one
+ * to hand out, the count of runs done, the first failure and the progress line. Threads
+ * started on it (or a caller of dm_queue_serve) take the next run, run it, and store its
+ * result at its own index of `results`, so the results do not depend on who ran what.
+ * MPI rank 0 also takes runs from it for the other ranks (dm_queue_take) and marks them
+ * done when their results arrive; a rank > 0 adds the runs rank 0 hands it
+ * (dm_queue_add) and collects the finished ones to send back (dm_queue_look).
+ *
+ * Every field is guarded by `lock`; use the functions below. */
+#ifndef DM_POOL_H
+#define DM_POOL_H
+
+#include <pthread.h>
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "harness.h"
+
+typedef struct dm_work_queue {
+    const dm_suite *suite;
+    dm_run_result *results;        /* results[i] of suite->runs[i] */
+    volatile int *stop;            /* set from outside: no run starts after it; may be NULL */
+    dm_pool_progress progress;     /* NULL: none */
+    pthread_mutex_t lock;
+    pthread_cond_t wake;           /* a run was added, the queue closed, a stop or a failure */
+    size_t *order;                 /* the runs to hand out, in order (capacity suite->n_runs) */
+    size_t n_order;                /* runs added so far */
+    size_t next;                   /* into order: the next run to hand out */
+    bool open;                     /* more runs may still be added */
+    size_t done;                   /* runs finished, here or elsewhere */
+    size_t *finished;              /* runs finished here and not yet collected */
+    size_t n_finished;
+    int waiting;                   /* threads waiting for a run to be added */
+    int alive;                     /* threads started by dm_queue_start and not yet ended */
+    bool failed;                   /* a run could not be run: no more are handed out */
+    dm_error error;                /* the first failure */
+    double cost_total, cost_done;  /* estimated work, for the time left */
+    double t0;                     /* dm_clock_seconds() at dm_queue_init */
+    const char *current;           /* the run handed out last */
+    pthread_t threads[DM_POOL_MAX_JOBS];
+    int n_threads;
+} dm_work_queue;
+
+/* What the queue's owner needs to know between two looks. */
+typedef struct dm_queue_state {
+    int hungry;                    /* threads waiting for a run, less the runs queued */
+    int alive;                     /* threads not yet ended */
+    bool failed;
+    dm_error error;                /* the first failure, when failed */
+} dm_queue_state;
+
+/* An empty, open queue for the runs of `suite`, their results going to `results`. */
+dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
+                        volatile int *stop, dm_pool_progress progress, dm_error *err);
+
+/* Appends runs to hand out (indices into suite->runs; any out of range, or beyond one
+ * of each run, are dropped), and wakes the waiting threads. */
+void dm_queue_add(dm_work_queue *q, const size_t *runs, size_t n);
+
+/* Nothing more will be added: threads end once the queue is empty. */
+void dm_queue_close(dm_work_queue *q);
+
+/* Starts `threads` threads serving the queue; returns how many started. */
+int dm_queue_start(dm_work_queue *q, int threads);
+
+/* Serves the queue on the calling thread until it is empty and closed, stopped or
+ * failed. */
+void dm_queue_serve(dm_work_queue *q);
+
+/* Hands out up to k runs to run elsewhere (another rank); none once stopped or failed. */
+size_t dm_queue_take(dm_work_queue *q, size_t k, size_t *out);
+
+/* Run i, handed out by dm_queue_take, finished elsewhere and its result is stored. */
+void dm_queue_mark_done(dm_work_queue *q, size_t i);
+
+/* Records a failure (the first one is kept) and hands out no more runs. */
+void dm_queue_fail(dm_work_queue *q, const dm_error *err);
+
+/* Wakes the waiting threads, after *stop was set. */
+void dm_queue_wake(dm_work_queue *q);
+
+/* Reads the state and, when `finished` is not NULL, moves the runs finished here since
+ * the last look into it (room for suite->n_runs); returns how many. */
+size_t dm_queue_look(dm_work_queue *q, dm_queue_state *state, size_t *finished);
+
+/* Closes the queue, waits for its threads, reports the progress one last time (current
+ * "") and frees it. Returns DM_OK, or the first failure's code with *err set to it. */
+dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err);
+
+#endif
