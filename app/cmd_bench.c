@@ -7,7 +7,7 @@
  * energy error bit for bit (same arithmetic, so the same state). Beside them it times
  * the same steps calling the problem's force() and velocity() through its table: the
  * best the per-step path (dm_stepper_step) can do, which the fused loop
- * (integrators/splitting_block.h) is there to beat. It also times writing a one-run
+ * (problems/include/dm_fused_loop.h) is there to beat. It also times writing a one-run
  * results file of the harness run against the run's wall time, reads the peak resident
  * memory, and times CVODE called directly (bench_loops.c) against CVODE through our
  * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs

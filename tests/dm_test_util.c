@@ -1,4 +1,5 @@
 #include "dm_test_util.h"
+#include "harness.h"
 
 #include <math.h>
 #include <stdio.h>
@@ -58,4 +59,38 @@ int dm_run_capture(const char *cmd, char *out, size_t out_size, char *err, size_
     if (rc == -1 || !WIFEXITED(rc))
         return -1;
     return WEXITSTATUS(rc);
+}
+
+void dm_test_make_spec(dm_run_spec *spec, const char *problem, size_t n_keys,
+                       const char *const *keys, const double *values, const char *method,
+                       double steps_per_period, double rtol, double periods, size_t samples,
+                       int compensated)
+{
+    memset(spec, 0, sizeof *spec);
+    const dm_problem *pb = dm_problem_find(problem);
+    assert_non_null(pb);
+    dm_error err = { 0 };
+    assert_int_equal(dm_instance_init(&spec->inst, pb, n_keys, keys, values, &err), DM_OK);
+    spec->method = dm_method_find(method);
+    assert_non_null(spec->method);
+    snprintf(spec->id, sizeof spec->id, "%s.%s-n%g%s", problem, method, steps_per_period,
+             compensated ? "-compensated" : "");
+    double T = spec->inst.period;
+    spec->t_end = periods * T;
+    spec->periods = periods;
+    spec->samples = samples;
+    spec->energy_limit = 1.0;
+    spec->sweep = -1;
+    if (spec->method->adaptive) {
+        spec->step_setting = DM_SET_BY_RTOL;
+        spec->step_value = rtol;
+        spec->method_config.rtol = rtol;
+        spec->method_config.atol = rtol * 1e-3;
+    } else {
+        spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
+        spec->step_value = steps_per_period;
+        spec->method_config.h = T / steps_per_period;
+    }
+    spec->method_config.compensated = compensated != 0;
+    spec->method_config.t_stop = spec->t_end;
 }

@@ -21,4 +21,13 @@ void dm_assert_close_impl(double a, double b, double tol, const char *sa, const 
  * and returns the exit status (or -1). */
 int dm_run_capture(const char *cmd, char *out, size_t out_size, char *err, size_t err_size);
 
+/* A run spec built by hand (the suite reader is tested on its own): `problem` with
+ * n_keys parameters, `method` at steps_per_period (fixed-step) or rtol (adaptive, atol a
+ * thousandth of it), over `periods` periods in `samples` buckets, energy_limit 1. */
+struct dm_run_spec;
+void dm_test_make_spec(struct dm_run_spec *spec, const char *problem, size_t n_keys,
+                       const char *const *keys, const double *values, const char *method,
+                       double steps_per_period, double rtol, double periods, size_t samples,
+                       int compensated);
+
 #endif

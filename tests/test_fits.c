@@ -12,31 +12,13 @@
 
 #include "harness.h"
 
-/* A run spec built by hand, as in test_runner.c, with up to two problem parameters. */
+/* A run spec with up to two problem parameters (dm_test_make_spec). */
 static void make_spec(dm_run_spec *spec, const char *problem, size_t n_keys,
                       const char *const *keys, const double *values, const char *method,
                       double steps_per_period, double periods, size_t samples, bool compensated)
 {
-    memset(spec, 0, sizeof *spec);
-    const dm_problem *pb = dm_problem_find(problem);
-    assert_non_null(pb);
-    dm_error err = { 0 };
-    assert_int_equal(dm_instance_init(&spec->inst, pb, n_keys, keys, values, &err), DM_OK);
-    spec->method = dm_method_find(method);
-    assert_non_null(spec->method);
-    snprintf(spec->id, sizeof spec->id, "%s.%s-n%g%s", problem, method, steps_per_period,
-             compensated ? "-compensated" : "");
-    double T = spec->inst.period;
-    spec->t_end = periods * T;
-    spec->periods = periods;
-    spec->samples = samples;
-    spec->energy_limit = 1.0;
-    spec->sweep = -1;
-    spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
-    spec->step_value = steps_per_period;
-    spec->method_config.h = T / steps_per_period;
-    spec->method_config.compensated = compensated;
-    spec->method_config.t_stop = spec->t_end;
+    dm_test_make_spec(spec, problem, n_keys, keys, values, method, steps_per_period, 0.0,
+                      periods, samples, compensated);
 }
 
 static double run_exponent(const dm_run_spec *spec, dm_run_status want, double *max_de)

@@ -7,37 +7,15 @@
 
 #include "harness.h"
 
-/* A run spec built by hand (the suite reader is tested on its own). */
+/* A run spec with at most one problem parameter (dm_test_make_spec). */
 static void make_spec(dm_run_spec *spec, const char *problem, const char *key, double value,
                       const char *method, double steps_per_period, double rtol,
                       double periods, size_t samples)
 {
-    memset(spec, 0, sizeof *spec);
-    const dm_problem *pb = dm_problem_find(problem);
-    assert_non_null(pb);
     const char *keys[1] = { key };
     double values[1] = { value };
-    dm_error err = { 0 };
-    assert_int_equal(dm_instance_init(&spec->inst, pb, key ? 1 : 0, keys, values, &err), DM_OK);
-    spec->method = dm_method_find(method);
-    assert_non_null(spec->method);
-    snprintf(spec->id, sizeof spec->id, "%s.%s", problem, method);
-    double T = spec->inst.period;
-    spec->t_end = periods * T;
-    spec->periods = periods;
-    spec->samples = samples;
-    spec->energy_limit = 1.0;
-    spec->sweep = -1;
-    if (spec->method->adaptive) {
-        spec->step_setting = DM_SET_BY_RTOL;
-        spec->method_config.rtol = rtol;
-        spec->method_config.atol = rtol * 1e-3;
-    } else {
-        spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
-        spec->step_value = steps_per_period;
-        spec->method_config.h = T / steps_per_period;
-    }
-    spec->method_config.t_stop = spec->t_end;
+    dm_test_make_spec(spec, problem, key ? 1 : 0, keys, values, method, steps_per_period, rtol,
+                      periods, samples, 0);
 }
 
 static void run_ok(const dm_run_spec *spec, dm_run_result *r)
@@ -285,7 +263,7 @@ static void a_numerical_orbit_that_crosses_a_separatrix_is_reported(void **state
     dm_run_result_free(&r);
 }
 
-/* The fused loop (integrators/splitting_block.h) and the per-step path compute the same
+/* The fused loop (problems/include/dm_fused_loop.h) and the per-step path compute the same
  * operations in the same order: every stored number, count and metric agrees bit for
  * bit, for kick-first and drift-first tables, with and without FSAL, in one and two
  * degrees of freedom, through crossings of wrapped sections and through a divergence. */
