@@ -55,63 +55,46 @@ static size_t nearest_bucket(const double *time, size_t lo, size_t n, double tar
     return a;
 }
 
-double dm_drift_exponent(const dm_series *series, double period, const char **why)
+/* The series can carry a growth law: a finite period, finite values, an error above the
+ * round-off floor. Returns NULL or the reason it cannot. */
+static const char *series_unusable(const dm_series *series, double T)
 {
-    note(why, "");
-    const size_t n = series->n;
-    const double T = period;
-    if (!(T > 0.0) || !isfinite(T)) {
-        note(why, "no finite period");
-        return NAN;
-    }
-    if (n == 0) {
-        note(why, "no buckets");
-        return NAN;
-    }
+    if (!(T > 0.0) || !isfinite(T))
+        return "no finite period";
+    if (series->n == 0)
+        return "no buckets";
     const double *t = series->time, *lo = series->energy_error_min,
                  *hi = series->energy_error_max;
     double peak = 0.0;
-    for (size_t i = 0; i < n; i++) {
-        if (!isfinite(lo[i]) || !isfinite(hi[i]) || !isfinite(t[i])) {
-            note(why, "energy error not finite");
-            return NAN;
-        }
+    for (size_t i = 0; i < series->n; i++) {
+        if (!isfinite(lo[i]) || !isfinite(hi[i]) || !isfinite(t[i]))
+            return "energy error not finite";
         peak = fmax(peak, fmax(fabs(lo[i]), fabs(hi[i])));
     }
-    if (peak <= DRIFT_FLOOR) {
-        note(why, "energy error at the round-off floor (max |dE| <= 64 eps)");
-        return NAN;
-    }
-    /* t0: the first bucket end with a whole period behind it. */
-    size_t i0 = 0;
-    while (i0 < n && t[i0] < T)
-        i0++;
-    if (i0 == n) {
-        note(why, "horizon shorter than one period");
-        return NAN;
-    }
-    const double t0 = t[i0];
-    const double tau_hi = t[n - 1] - t0;
-    const double tau_lo = fmax(T, tau_hi * pow(10.0, -DRIFT_DECADES));
-    if (!(tau_hi >= 10.0 * tau_lo * DRIFT_RATIO_SLACK)) {
-        note(why, "horizon too short (needs 10 periods after the first)");
-        return NAN;
-    }
+    if (peak <= DRIFT_FLOOR)
+        return "energy error at the round-off floor (max |dE| <= 64 eps)";
+    return NULL;
+}
 
-    /* Band centre c_i over the shortest run of buckets ending at i that spans one
-     * period (sliding max and min by monotone queues), and D_i, the running max of
-     * |c - c(t0)| from t0 on. */
+/* D_i for every bucket from i0 on: the running max of |c_i - c0|, c_i the centre of the
+ * band over the shortest run of buckets ending at i that spans one period (sliding max
+ * and min by monotone queues), c0 and r0 the band's centre and half-width at i0.
+ * Returns the malloc'd D (0 before i0), or NULL when out of memory. */
+static double *band_centre_drift(const dm_series *series, double T, size_t i0, double *r0)
+{
+    const size_t n = series->n;
+    const double *t = series->time, *lo = series->energy_error_min,
+                 *hi = series->energy_error_max;
     size_t *qmax = malloc(n * sizeof *qmax), *qmin = malloc(n * sizeof *qmin);
     double *dmax = malloc(n * sizeof *dmax);
     if (qmax == NULL || qmin == NULL || dmax == NULL) {
         free(qmax);
         free(qmin);
         free(dmax);
-        note(why, "out of memory");
-        return NAN;
+        return NULL;
     }
     size_t hmax = 0, tmax = 0, hmin = 0, tmin = 0, j = 0;
-    double c0 = 0.0, r0 = 0.0, d = 0.0;
+    double c0 = 0.0, d = 0.0;
     for (size_t i = 0; i < n; i++) {
         while (tmax > hmax && hi[qmax[tmax - 1]] <= hi[i])
             tmax--;
@@ -134,25 +117,33 @@ double dm_drift_exponent(const dm_series *series, double period, const char **wh
         double c = 0.5 * (wmax + wmin);
         if (i == i0) {
             c0 = c;
-            r0 = 0.5 * (wmax - wmin);
+            *r0 = 0.5 * (wmax - wmin);
         }
         d = fmax(d, fabs(c - c0));
         dmax[i] = d;
     }
     free(qmax);
     free(qmin);
+    return dmax;
+}
 
-    /* The fit points: targets evenly spaced in log tau, rounded to whole periods
-     * (energy leaves some methods once per period, in a step), each taken at the
-     * nearest bucket end; repeats dropped. */
-    double xs[DRIFT_POINTS], ds[DRIFT_POINTS], ms[DRIFT_POINTS], ts[DRIFT_POINTS];
-    size_t m = 0, last = i0;
+/* The fit points: targets evenly spaced in log tau over [tau_lo, tau_hi], rounded to
+ * whole periods (energy leaves some methods once per period, in a step), each taken at
+ * the nearest bucket end after i0, repeats dropped: tau, t, D and the running max of
+ * |dE| there. Returns their number. */
+static size_t fit_points(const dm_series *series, double T, size_t i0, double tau_lo,
+                         double tau_hi, const double *dmax, double *xs, double *ts,
+                         double *ds, double *ms)
+{
+    const double *t = series->time, *lo = series->energy_error_min,
+                 *hi = series->energy_error_max;
+    const double t0 = t[i0];
+    size_t m = 0, last = i0, scanned = 0;
     double running = 0.0;
-    size_t scanned = 0;
     for (int k = 0; k < DRIFT_POINTS; k++) {
         double x = tau_lo * pow(tau_hi / tau_lo, (double)k / (DRIFT_POINTS - 1));
         double whole = fmax(1.0, floor(x / T + 0.5)) * T;
-        size_t b = nearest_bucket(t, i0 + 1, n, t0 + whole);
+        size_t b = nearest_bucket(t, i0 + 1, series->n, t0 + whole);
         if (b <= last)
             continue;
         for (; scanned <= b; scanned++)
@@ -164,6 +155,48 @@ double dm_drift_exponent(const dm_series *series, double period, const char **wh
         m++;
         last = b;
     }
+    return m;
+}
+
+/* The drift exponent, in steps (results/README.md, "The drift exponent"):
+ *  1. a series that can carry a growth law;
+ *  2. t0, the first bucket end with a whole period behind it, and a fit window of at
+ *     most the last 3 and at least 1 decade of tau = t - t0;
+ *  3. D(t), how far the band's centre has moved since t0;
+ *  4. the fit points at whole periods;
+ *  5. bounded (D stayed under a quarter of the band's half-width): the slope of the
+ *     running max of |dE|; else the slope of D against tau. */
+double dm_drift_exponent(const dm_series *series, double period, const char **why)
+{
+    const double T = period;
+    const size_t n = series->n;
+    const char *unusable = series_unusable(series, T);
+    if (unusable != NULL) {
+        note(why, unusable);
+        return NAN;
+    }
+    const double *t = series->time;
+    size_t i0 = 0;
+    while (i0 < n && t[i0] < T)
+        i0++;
+    if (i0 == n) {
+        note(why, "horizon shorter than one period");
+        return NAN;
+    }
+    const double tau_hi = t[n - 1] - t[i0];
+    const double tau_lo = fmax(T, tau_hi * pow(10.0, -DRIFT_DECADES));
+    if (!(tau_hi >= 10.0 * tau_lo * DRIFT_RATIO_SLACK)) {
+        note(why, "horizon too short (needs 10 periods after the first)");
+        return NAN;
+    }
+    double r0 = 0.0;
+    double *dmax = band_centre_drift(series, T, i0, &r0);
+    if (dmax == NULL) {
+        note(why, "out of memory");
+        return NAN;
+    }
+    double xs[DRIFT_POINTS], ds[DRIFT_POINTS], ms[DRIFT_POINTS], ts[DRIFT_POINTS];
+    size_t m = fit_points(series, T, i0, tau_lo, tau_hi, dmax, xs, ts, ds, ms);
     double d_end = dmax[n - 1];
     free(dmax);
     if (m < 4) {
