@@ -20,7 +20,7 @@ double dm_fit_loglog_slope(const double *x, const double *y, size_t n, size_t *u
     return dm_line_fit_slope(&fit);
 }
 
-/* ---- the drift exponent (the definition is in DRIFT_NOTES.md) ---- */
+/* ---- the drift exponent (the definition: results/README.md, "The drift exponent") ---- */
 
 enum {
     DRIFT_POINTS = 32        /* fit targets, evenly spaced in log(t - t0) */
@@ -286,7 +286,7 @@ static dm_fit_use status_use(dm_run_status status)
     return DM_FIT_NO_VALUE;
 }
 
-/* Round-off floors of a sweep point (our own choices, measured: DRIFT_NOTES.md). */
+/* Round-off floors of a sweep point (our own choices, measured on plain and compensated runs; results/README.md, sweeps). */
 #define FIT_ENERGY_FLOOR 4.0   /* max |dE| <= 4 eps sqrt(steps) */
 #define FIT_PHASE_FLOOR 0.25   /* |phase per period| <= 0.25 eps sqrt(steps) */
 #define FIT_LARGE_ENERGY 0.5   /* max |dE| >= 1/2: the error is the size of the energy */

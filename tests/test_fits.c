@@ -1,6 +1,6 @@
 /* test_fits.c — the drift exponent and the sweep fits on runs and series whose answers
  * are known: bounded, linear and random-walk growth, saturated runs, round-off floors
- * and sign changes. The definitions are in DRIFT_NOTES.md. */
+ * and sign changes. The definitions are in results/README.md. */
 #include "dm_test_util.h"
 
 #include <float.h>

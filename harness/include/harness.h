@@ -190,7 +190,7 @@ dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_
                       size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
                       size_t *done, dm_error *err);
 
-/* How fast the energy error grows, as an exponent p of t (DRIFT_NOTES.md has the
+/* How fast the energy error grows, as an exponent p of t (results/README.md has the
  * exact definition): the growth of the centre of the dE band (its min and max over a
  * trailing period) away from where it was after the first period, fitted in log-log
  * over the last decades (at most 3, at least 1) of the run. About 0 bounded, 0.5
@@ -230,7 +230,7 @@ typedef enum dm_fit_use {
     DM_FIT_SWAMPED,          /* status swamped: the energy is gone (or doubled) */
     DM_FIT_NO_VALUE,         /* the value or the step (tolerance) is NaN, inf or zero */
     DM_FIT_LARGE,            /* max |dE| >= 1/2: the error is the size of the energy */
-    DM_FIT_ROUND_OFF,        /* at the round-off floor (DRIFT_NOTES.md) */
+    DM_FIT_ROUND_OFF,        /* at the round-off floor (results/README.md) */
     DM_FIT_SIGN_CHANGE       /* phase only: past a sign change, seen from the finest step */
 } dm_fit_use;
 
