@@ -306,37 +306,26 @@ static int by_x(const void *a, const void *b)
     return (p->slot > q->slot) - (p->slot < q->slot);
 }
 
-dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
-                               const dm_run_result *results, dm_sweep_fit *fit,
-                               dm_error *err)
+dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_sweep_fit *fit,
+                        dm_error *err)
 {
-    size_t n = sweep->n_runs;
-    fit->energy_order = fit->phase_order = NAN;
-    fit->n_energy_points = fit->n_phase_points = 0;
-    fit->n_runs = n;
+    *fit = (dm_sweep_fit){ .energy_order = NAN, .phase_order = NAN, .n_runs = n };
     fit->energy_use = calloc(n ? n : 1, sizeof *fit->energy_use);
     fit->phase_use = calloc(n ? n : 1, sizeof *fit->phase_use);
     fit_point *pts = calloc(n ? n : 1, sizeof *pts);
-    double *xe = calloc(n ? n : 1, sizeof *xe), *ye = calloc(n ? n : 1, sizeof *ye);
-    double *xp = calloc(n ? n : 1, sizeof *xp), *yp = calloc(n ? n : 1, sizeof *yp);
-    if (fit->energy_use == NULL || fit->phase_use == NULL || pts == NULL || xe == NULL ||
-        ye == NULL || xp == NULL || yp == NULL) {
-        free(pts), free(xe), free(ye), free(xp), free(yp);
+    if (fit->energy_use == NULL || fit->phase_use == NULL || pts == NULL) {
+        free(pts);
         dm_sweep_fit_free(fit);
-        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for the fit of %zu runs",
-                            sweep->name, n);
+        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for the fit of %zu runs", name,
+                            n);
     }
     for (size_t i = 0; i < n; i++) {
-        const dm_run_spec *spec = &suite->runs[sweep->runs[i]];
-        const dm_run_result *res = &results[sweep->runs[i]];
-        const dm_run_metrics *mt = &res->metrics;
-        double x = spec->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
-                                              : fabs(spec->method_config.h);
+        double x = in[i].x;
         pts[i] = (fit_point){ .slot = i, .x = x };
-        double root_steps = sqrt((double)(mt->steps > 0 ? mt->steps : 1));
-        dm_fit_use e = status_use(res->status), p = e;
+        double root_steps = sqrt((double)(in[i].steps > 0 ? in[i].steps : 1));
+        dm_fit_use e = status_use(in[i].status), p = e;
         if (e == DM_FIT_USED) {
-            double de = mt->max_energy_error, ph = fabs(mt->phase_error_per_period);
+            double de = in[i].max_energy_error, ph = fabs(in[i].phase_error_per_period);
             bool large = !(de < FIT_LARGE_ENERGY);
             if (!(x > 0.0) || !isfinite(x) || !(de > 0.0) || !isfinite(de))
                 e = DM_FIT_NO_VALUE;
@@ -362,8 +351,7 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
         size_t i = pts[k].slot;
         if (fit->phase_use[i] != DM_FIT_USED)
             continue;
-        const dm_run_result *res = &results[sweep->runs[i]];
-        double s = res->metrics.phase_error_per_period > 0.0 ? 1.0 : -1.0;
+        double s = in[i].phase_error_per_period > 0.0 ? 1.0 : -1.0;
         if (sign == 0.0)
             sign = s;
         else if (s != sign)
@@ -371,25 +359,48 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
         if (isnan(sign))
             fit->phase_use[i] = DM_FIT_SIGN_CHANGE;
     }
-    size_t ne = 0, np = 0;
     for (size_t k = 0; k < n; k++) {
         size_t i = pts[k].slot;
-        const dm_run_metrics *mt = &results[sweep->runs[i]].metrics;
-        if (fit->energy_use[i] == DM_FIT_USED) {
-            xe[ne] = pts[k].x;
-            ye[ne] = mt->max_energy_error;
-            ne++;
-        }
-        if (fit->phase_use[i] == DM_FIT_USED) {
-            xp[np] = pts[k].x;
-            yp[np] = fabs(mt->phase_error_per_period);
-            np++;
-        }
+        if (fit->energy_use[i] == DM_FIT_USED)
+            dm_line_fit_add(&fit->energy_line, log(pts[k].x), log(in[i].max_energy_error));
+        if (fit->phase_use[i] == DM_FIT_USED)
+            dm_line_fit_add(&fit->phase_line, log(pts[k].x),
+                            log(fabs(in[i].phase_error_per_period)));
     }
-    fit->energy_order = dm_fit_loglog_slope(xe, ye, ne, &fit->n_energy_points);
-    fit->phase_order = dm_fit_loglog_slope(xp, yp, np, &fit->n_phase_points);
-    free(pts), free(xe), free(ye), free(xp), free(yp);
+    fit->energy_order = dm_line_fit_slope(&fit->energy_line);
+    fit->phase_order = dm_line_fit_slope(&fit->phase_line);
+    fit->n_energy_points = (size_t)fit->energy_line.n;
+    fit->n_phase_points = (size_t)fit->phase_line.n;
+    free(pts);
     return DM_OK;
+}
+
+dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
+                               const dm_run_result *results, dm_sweep_fit *fit,
+                               dm_error *err)
+{
+    size_t n = sweep->n_runs;
+    dm_fit_input *in = calloc(n ? n : 1, sizeof *in);
+    if (in == NULL) {
+        *fit = (dm_sweep_fit){ .energy_order = NAN, .phase_order = NAN };
+        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for the fit of %zu runs",
+                            sweep->name, n);
+    }
+    for (size_t i = 0; i < n; i++) {
+        const dm_run_spec *spec = &suite->runs[sweep->runs[i]];
+        const dm_run_result *res = &results[sweep->runs[i]];
+        in[i] = (dm_fit_input){
+            .x = spec->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
+                                                       : fabs(spec->method_config.h),
+            .status = res->status,
+            .steps = res->metrics.steps,
+            .max_energy_error = res->metrics.max_energy_error,
+            .phase_error_per_period = res->metrics.phase_error_per_period,
+        };
+    }
+    dm_status st = dm_fit_points(sweep->name, in, n, fit, err);
+    free(in);
+    return st;
 }
 
 static void mark_swamped(dm_run_result *r);

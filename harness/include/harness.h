@@ -22,6 +22,7 @@
 #include <stdio.h>
 
 #include "dm_error.h"
+#include "dm_line_fit.h"
 #include "method.h"
 #include "problem.h"
 #include "run_figures.h"
@@ -241,10 +242,27 @@ typedef struct dm_sweep_fit {
     double phase_order;              /* slope of log |phase error per period| against log h */
     size_t n_energy_points;          /* runs in the energy fit */
     size_t n_phase_points;           /* runs in the phase fit */
+    dm_line_fit energy_line;         /* the fits themselves: log max |dE| and ... */
+    dm_line_fit phase_line;          /* ... log |phase error per period| against log x */
     size_t n_runs;                   /* the sweep's runs; the arrays below have this length */
     unsigned char *energy_use;       /* dm_fit_use of each run, in sweep order (owned) */
     unsigned char *phase_use;
 } dm_sweep_fit;
+
+/* What a fit needs to know of one run of a sweep. */
+typedef struct dm_fit_input {
+    double x;                        /* |h| or rtol */
+    dm_run_status status;
+    uint64_t steps;
+    double max_energy_error;
+    double phase_error_per_period;
+} dm_fit_input;
+
+/* The fits of the points in[0..n): which runs each fit can use (results/README.md,
+ * sweeps) and the log-log lines through them. Allocates fit's arrays (free with
+ * dm_sweep_fit_free); `name` only names the sweep in an out-of-memory error. */
+dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_sweep_fit *fit,
+                        dm_error *err);
 
 /* Least-squares slope of log(y) against log(x) over the points with x, y > 0 and
  * finite; returns NaN with fewer than 2 points. */
