@@ -28,6 +28,9 @@ static const command commands[] = {
       "regime, energy and closed-form period of one starting state" },
     { "show", dm_cmd_show, "show FILE.h5 [--format table|csv|json]",
       "the summary table of a results file" },
+    { "choose", dm_cmd_choose,
+      "choose FILE.h5 --energy-error X [--phase-per-period Y] [--periods N] [--format F]",
+      "the cheapest method and step for a target accuracy, from a results file" },
     { "bench", dm_cmd_bench, "bench [--quick] [--json]",
       "cost of the harness against hand-written loops, of HDF5 and of the CVODE adapter" },
 };

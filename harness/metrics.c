@@ -3,6 +3,7 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "dm_line_fit.h"
 #include "harness.h"
@@ -441,4 +442,14 @@ static void mark_swamped(dm_run_result *r)
                  "%.17g), at least half the energy scale", hi <= -0.5 ? "lost" : "gained", lo,
                  hi, from, ser->time[last]);
     }
+}
+
+dm_run_status dm_run_status_named(const char *name)
+{
+    static const dm_run_status all[] = { DM_RUN_OK, DM_RUN_DIVERGED, DM_RUN_FAILED,
+                                         DM_RUN_INTERRUPTED, DM_RUN_SWAMPED };
+    for (size_t i = 0; i < sizeof all / sizeof all[0]; i++)
+        if (strcmp(name, dm_run_status_name(all[i])) == 0)
+            return all[i];
+    return DM_RUN_NOT_RUN;
 }

@@ -105,6 +105,8 @@ typedef enum dm_run_status {
 } dm_run_status;
 
 const char *dm_run_status_name(dm_run_status status);
+/* The status spelled `name` (dm_run_status_name's words), or DM_RUN_NOT_RUN. */
+dm_run_status dm_run_status_named(const char *name);
 
 /* The stored series: `n` buckets covering the horizon; each keeps dE at its end and
  * the min and max of dE over every step inside it, so no peak is lost by thinning. */

@@ -1,0 +1,399 @@
+/* choose.c — the cheapest method for a target, from a results file's summary
+ * (choose.h; definitions in README.md, "Choosing a method"). */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "choose.h"
+#include "dm_line_fit.h"
+
+/* A fit this far off its points (rms residual of log10 max |dE|) is too poor to read a
+ * step from: errors 40 % off the line on average. Our own threshold. */
+#define CHOOSE_MAX_FIT_RMS 0.15
+/* Points a fitted line needs before a step is read off it. */
+#define CHOOSE_MIN_POINTS 3
+/* How far beyond the finest measured step a fitted line is followed: a factor 10 in the
+ * step (our own limit: an order of a method holds over a decade, not over six). */
+#define CHOOSE_MAX_BEYOND 10.0
+
+const char *dm_choice_basis_name(dm_choice_basis basis)
+{
+    switch (basis) {
+    case DM_BASIS_NONE: return "none";
+    case DM_BASIS_MEASURED: return "measured";
+    case DM_BASIS_INTERPOLATED: return "interpolated";
+    case DM_BASIS_EXTRAPOLATED: return "extrapolated";
+    }
+    return "none";
+}
+
+/* The variant (run id up to its first '.') and the method entry: the method id and
+ * whatever follows the step or tolerance in the id ("-atol1e-12", "-compensated"). */
+static void group_names(const dm_summary_row *r, char *variant, char *method)
+{
+    /* "<variant>.<method>-<h|n|rtol><value>[options]": the variant's own numbers may
+     * hold dots, so the method part is found as the last ".<method>-" */
+    char key[DM_RUN_ID_MAX + 2];
+    snprintf(key, sizeof key, ".%s-", r->method);
+    const char *at = NULL;
+    for (const char *p = strstr(r->run_id, key); p != NULL; p = strstr(p + 1, key))
+        at = p;
+    if (at == NULL) { /* not one of our ids: the whole id is its own group */
+        snprintf(variant, DM_RUN_ID_MAX, "%s", r->run_id);
+        snprintf(method, DM_RUN_ID_MAX, "%s", r->method);
+        return;
+    }
+    snprintf(variant, DM_RUN_ID_MAX, "%.*s", (int)(at - r->run_id), r->run_id);
+    const char *p = at + strlen(key);
+    while (*p >= 'a' && *p <= 'z')
+        p++;              /* h, n or rtol */
+    char *end;
+    strtod(p, &end);      /* the value, "1e-08" included */
+    snprintf(method, DM_RUN_ID_MAX, "%s%s", r->method, end);
+}
+
+static bool is_adaptive(const dm_summary_row *r)
+{
+    return isnan(r->h) && !isnan(r->rtol);
+}
+
+static double x_of(const dm_summary_row *r)
+{
+    return is_adaptive(r) ? r->rtol : fabs(r->h);
+}
+
+/* Periods a run covered: its force evaluations over those per period. */
+static double periods_of(const dm_summary_row *r)
+{
+    return (double)r->force_evals / r->force_evals_per_period;
+}
+
+static bool ok_row(const dm_summary_row *r)
+{
+    return dm_run_status_named(r->status) == DM_RUN_OK;
+}
+
+/* Everything one group of runs needs to be answered. */
+typedef struct group {
+    const dm_summary_row *const *rows;
+    size_t n;
+    const dm_target *target;
+    dm_sweep_fit fit;
+    dm_line_fit cost_line;       /* log cost per period against log x, ok runs */
+    double seconds_per_eval;     /* median wall seconds per force evaluation, ok runs */
+    double factor;               /* max |dE| growth to the target horizon */
+} group;
+
+static int by_value(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* The growth of max |dE| from the measured horizon to the target's, from the drift law
+ * of the runs the energy fit uses; false (with the reason) when it cannot be known. */
+static bool horizon_growth(group *g, dm_choice *c)
+{
+    double measured = INFINITY, q = 0.0;
+    bool all_bounded = true, unknown = false;
+    for (size_t i = 0; i < g->n; i++) {
+        const dm_summary_row *r = g->rows[i];
+        if (!ok_row(r))
+            continue;
+        measured = fmin(measured, periods_of(r));
+        if (strcmp(r->drift_class, "bounded") != 0)
+            all_bounded = false;
+        if (isnan(r->drift_exponent))
+            unknown = true;
+        else
+            q = fmax(q, r->drift_exponent);
+    }
+    double want = g->target->periods;
+    g->factor = 1.0;
+    if (isnan(want) || !(want > measured * (1.0 + 1e-9))) {
+        snprintf(c->horizon_rule, sizeof c->horizon_rule, "measured horizon");
+        return true;
+    }
+    if (all_bounded) {
+        snprintf(c->horizon_rule, sizeof c->horizon_rule, "bounded");
+        return true;
+    }
+    if (unknown) {
+        snprintf(c->why_not, sizeof c->why_not,
+                 "cannot extend %.3g measured periods to %.3g: a drift exponent is unmeasured",
+                 measured, want);
+        return false;
+    }
+    g->factor = pow(want / measured, q);
+    snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponent %.2f", q);
+    return true;
+}
+
+static double cost_at(const group *g, double x)
+{
+    return exp(dm_line_fit_at(&g->cost_line, log(x)));
+}
+
+/* The predictions at x from the fitted lines (NaN where there is no line). */
+static void predict(const group *g, double x, dm_choice *c)
+{
+    c->energy_error = exp(dm_line_fit_at(&g->fit.energy_line, log(x))) * g->factor;
+    c->phase_per_period = exp(dm_line_fit_at(&g->fit.phase_line, log(x)));
+}
+
+/* target / predicted over the targets given (the smallest); +inf with no target. */
+static double margin_of(const dm_target *t, double energy, double phase)
+{
+    double m = INFINITY;
+    if (!isnan(t->max_energy_error))
+        m = fmin(m, t->max_energy_error / energy);
+    if (!isnan(t->phase_per_period))
+        m = fmin(m, t->phase_per_period / phase);
+    return isnan(m) ? 0.0 : m;
+}
+
+/* The cheapest ok run that meets the target as measured (scaled to the horizon). */
+static const dm_summary_row *best_measured(const group *g, double *closeness)
+{
+    const dm_summary_row *best = NULL;
+    *closeness = INFINITY;
+    for (size_t i = 0; i < g->n; i++) {
+        const dm_summary_row *r = g->rows[i];
+        if (!ok_row(r))
+            continue;
+        double m = margin_of(g->target, r->max_energy_error * g->factor,
+                             fabs(r->phase_error_per_period));
+        *closeness = fmin(*closeness, m > 0.0 ? 1.0 / m : INFINITY);
+        if (m >= 1.0 && (best == NULL || r->force_evals_per_period < best->force_evals_per_period))
+            best = r;
+    }
+    return best;
+}
+
+/* The step (or tolerance) where the fitted lines meet the targets (the smaller of the
+ * two when both are given); NaN when a line is missing or poor. */
+static double fitted_x(const group *g, char *why, size_t why_size)
+{
+    double x = INFINITY;
+    const dm_target *t = g->target;
+    struct { double target; const dm_line_fit *line; size_t n; const char *what; } fits[] = {
+        { t->max_energy_error / g->factor, &g->fit.energy_line, g->fit.n_energy_points,
+          "energy" },
+        { t->phase_per_period, &g->fit.phase_line, g->fit.n_phase_points, "phase" },
+    };
+    for (size_t k = 0; k < 2; k++) {
+        if (isnan(fits[k].target))
+            continue;
+        double p = dm_line_fit_slope(fits[k].line);
+        double rms = dm_line_fit_rms_residual(fits[k].line) / log(10.0);
+        if (fits[k].n < CHOOSE_MIN_POINTS || !(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS)) {
+            if (fits[k].n < CHOOSE_MIN_POINTS)
+                snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off "
+                         "a fit of %d or more)", fits[k].what, fits[k].n, CHOOSE_MIN_POINTS);
+            else
+                snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g "
+                         "decades; needs order > 0, rms <= %.2f)", fits[k].what, p, rms,
+                         CHOOSE_MAX_FIT_RMS);
+            return NAN;
+        }
+        const dm_line_fit *l = fits[k].line;
+        x = fmin(x, exp(l->mean_x + (log(fits[k].target) - l->mean_y) / p));
+    }
+    return x;
+}
+
+/* A run that did not end ok at a step between x and the coarsest ok step: the method
+ * is not to be trusted there. */
+static const dm_summary_row *bad_run_in_range(const group *g, double x)
+{
+    double top = 0.0;
+    for (size_t i = 0; i < g->n; i++)
+        if (ok_row(g->rows[i]))
+            top = fmax(top, x_of(g->rows[i]));
+    for (size_t i = 0; i < g->n; i++) {
+        const dm_summary_row *r = g->rows[i];
+        double xr = x_of(r);
+        if (!ok_row(r) && xr >= x * (1.0 - 1e-12) && xr <= top * (1.0 + 1e-12))
+            return r;
+    }
+    return NULL;
+}
+
+/* Fills the group's fit, cost line and time per evaluation. */
+static dm_status group_fits(group *g, const char *name, dm_error *err)
+{
+    dm_fit_input *in = calloc(g->n ? g->n : 1, sizeof *in);
+    double *spe = calloc(g->n ? g->n : 1, sizeof *spe);
+    if (in == NULL || spe == NULL) {
+        free(in);
+        free(spe);
+        return dm_error_set(err, DM_ENOMEM, "out of memory choosing for %s", name);
+    }
+    size_t ns = 0;
+    for (size_t i = 0; i < g->n; i++) {
+        const dm_summary_row *r = g->rows[i];
+        in[i] = (dm_fit_input){ .x = x_of(r), .status = dm_run_status_named(r->status),
+                                .steps = r->steps, .max_energy_error = r->max_energy_error,
+                                .phase_error_per_period = r->phase_error_per_period };
+        if (ok_row(r) && r->force_evals_per_period > 0.0 && isfinite(r->force_evals_per_period)) {
+            dm_line_fit_add(&g->cost_line, log(x_of(r)), log(r->force_evals_per_period));
+            if (r->force_evals > 0 && isfinite(r->wall_seconds))
+                spe[ns++] = r->wall_seconds / (double)r->force_evals;
+        }
+    }
+    qsort(spe, ns, sizeof *spe, by_value);
+    g->seconds_per_eval = ns ? spe[ns / 2] : NAN;
+    dm_status st = dm_fit_points(name, in, g->n, &g->fit, err);
+    free(in);
+    free(spe);
+    return st;
+}
+
+/* One group's answer into *c. */
+static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
+{
+    c->adaptive = is_adaptive(g->rows[0]);
+    c->x = c->cost_per_period = c->seconds_per_period = NAN;
+    c->energy_error = c->phase_per_period = c->fit_rms = NAN;
+    c->beyond = 1.0;
+    dm_status st = group_fits(g, c->method, err);
+    if (st != DM_OK)
+        return st;
+    c->n_points = g->fit.n_energy_points;
+    c->fit_rms = dm_line_fit_rms_residual(&g->fit.energy_line) / log(10.0);
+    if (!horizon_growth(g, c))
+        return DM_OK;
+    c->horizon_factor = g->factor;
+    double closeness;
+    const dm_summary_row *m = best_measured(g, &closeness);
+    c->closeness = closeness;
+    char why[DM_CHOICE_TEXT] = "";
+    double xf = fitted_x(g, why, sizeof why);
+    /* the fitted step is used where it is cheaper than the best measured run */
+    bool use_fit = !isnan(xf) && (m == NULL || xf > x_of(m) * (1.0 + 1e-12));
+    if (use_fit) {
+        double lo = INFINITY, hi = 0.0;
+        for (size_t i = 0; i < g->n; i++)
+            if (g->fit.energy_use[i] == DM_FIT_USED || g->fit.phase_use[i] == DM_FIT_USED) {
+                lo = fmin(lo, x_of(g->rows[i]));
+                hi = fmax(hi, x_of(g->rows[i]));
+            }
+        if (xf > hi) { /* the coarsest measured step already meets it: go no further */
+            use_fit = false;
+        } else if (xf < lo / CHOOSE_MAX_BEYOND) {
+            use_fit = false;
+            snprintf(why, sizeof why, "its fit reaches the target only at %s = %.3g, %.3g "
+                     "times finer than measured (followed at most %g times)",
+                     c->adaptive ? "rtol" : "h", xf, lo / xf, CHOOSE_MAX_BEYOND);
+        } else {
+            c->x = xf;
+            c->basis = xf >= lo * (1.0 - 1e-12) ? DM_BASIS_INTERPOLATED : DM_BASIS_EXTRAPOLATED;
+            c->beyond = xf < lo ? lo / xf : 1.0;
+            predict(g, xf, c);
+            c->cost_per_period = cost_at(g, xf);
+        }
+    }
+    if (!use_fit && m != NULL) {
+        c->x = x_of(m);
+        c->basis = DM_BASIS_MEASURED;
+        snprintf(c->run_id, sizeof c->run_id, "%s", m->run_id);
+        c->energy_error = m->max_energy_error * g->factor;
+        c->phase_per_period = fabs(m->phase_error_per_period);
+        c->cost_per_period = m->force_evals_per_period;
+    }
+    if (c->basis == DM_BASIS_NONE) {
+        char best[64] = "no run ended ok";
+        if (isfinite(closeness))
+            snprintf(best, sizeof best, "its best run is %.3g times over it", closeness);
+        snprintf(c->why_not, sizeof c->why_not, "no run meets the target (%s)%s%s", best,
+                 why[0] ? " and " : "", why);
+        return DM_OK;
+    }
+    c->seconds_per_period = c->cost_per_period * g->seconds_per_eval;
+    c->margin = margin_of(g->target, c->energy_error, c->phase_per_period);
+    const dm_summary_row *bad = bad_run_in_range(g, c->x);
+    if (bad != NULL) {
+        snprintf(c->why_not, sizeof c->why_not, "run %s ended %s at %s = %.3g, inside the "
+                 "range used", bad->run_id, bad->status, c->adaptive ? "rtol" : "h", x_of(bad));
+        return DM_OK;
+    }
+    c->ranked = true;
+    return DM_OK;
+}
+
+static int by_variant_then_cost(const void *a, const void *b)
+{
+    const dm_choice *p = a, *q = b;
+    int v = strcmp(p->variant, q->variant);
+    if (v != 0)
+        return v;
+    if (p->ranked != q->ranked)
+        return p->ranked ? -1 : 1;
+    if (p->ranked && p->cost_per_period != q->cost_per_period)
+        return p->cost_per_period < q->cost_per_period ? -1 : 1;
+    return strcmp(p->method, q->method);
+}
+
+dm_status dm_choose(const dm_summary_row *rows, size_t n, const dm_target *target,
+                    dm_choice **choices, size_t *n_choices, bool *all_answered, dm_error *err)
+{
+    *choices = NULL;
+    *n_choices = 0;
+    *all_answered = false;
+    /* every row's group: variant and method entry */
+    dm_choice *out = calloc(n ? n : 1, sizeof *out);
+    const dm_summary_row **members = calloc(n ? n : 1, sizeof *members);
+    size_t *group_of = calloc(n ? n : 1, sizeof *group_of);
+    if (out == NULL || members == NULL || group_of == NULL) {
+        free(out), free(members), free(group_of);
+        return dm_error_set(err, DM_ENOMEM, "out of memory choosing among %zu runs", n);
+    }
+    size_t ng = 0;
+    for (size_t i = 0; i < n; i++) {
+        char variant[DM_RUN_ID_MAX], method[DM_RUN_ID_MAX];
+        group_names(&rows[i], variant, method);
+        size_t k = 0;
+        while (k < ng && !(strcmp(out[k].variant, variant) == 0 &&
+                           strcmp(out[k].method, method) == 0))
+            k++;
+        if (k == ng) {
+            snprintf(out[k].variant, sizeof out[k].variant, "%s", variant);
+            snprintf(out[k].method, sizeof out[k].method, "%s", method);
+            ng++;
+        }
+        group_of[i] = k;
+    }
+    dm_status st = DM_OK;
+    for (size_t k = 0; k < ng && st == DM_OK; k++) {
+        size_t m = 0;
+        for (size_t i = 0; i < n; i++)
+            if (group_of[i] == k)
+                members[m++] = &rows[i];
+        group g = { .rows = members, .n = m, .target = target, .factor = 1.0 };
+        st = answer_group(&g, &out[k], err);
+        dm_sweep_fit_free(&g.fit);
+    }
+    free(members);
+    free(group_of);
+    if (st != DM_OK) {
+        free(out);
+        return st;
+    }
+    qsort(out, ng, sizeof *out, by_variant_then_cost);
+    bool all = ng > 0;
+    for (size_t k = 0; k < ng;) {
+        size_t end = k, rank = 0;
+        while (end < ng && strcmp(out[end].variant, out[k].variant) == 0) {
+            if (out[end].ranked)
+                out[end].rank = (int)++rank;
+            end++;
+        }
+        all = all && rank > 0;
+        k = end;
+    }
+    *choices = out;
+    *n_choices = ng;
+    *all_answered = all;
+    return DM_OK;
+}

@@ -1,0 +1,129 @@
+#!/usr/bin/python3
+"""`driftmark choose` on cases whose answer is known in advance.
+
+- Stormer-Verlet (kick-drift-kick) on the harmonic oscillator from rest conserves
+  p^2/2 + (1 - h^2 w^2/4) w^2 q^2/2 exactly (Hairer, Lubich, Wanner, Geometric Numerical
+  Integration, 2006, common practice), so its max |dE| relative to H0 is h^2 w^2 / 4 and
+  the step for a bound Y is h = 2 sqrt(Y) / w, at T / h force evaluations per period.
+- A 4th-order method beats a 2nd-order one at a tight bound: yoshida4 is ranked first.
+- A bound below the measured errors is reached by extrapolation, flagged as such; one
+  beyond any reasonable extrapolation gets no answer, exit 3, and the closest named.
+- A linear drift (RK4) extended to a 10 times longer horizon needs about 10 times less
+  error at the measured horizon; a bounded one (Verlet) needs none.
+- Bad input: one line, exit 2.
+
+usage: check_choose.py PATH/TO/driftmark
+"""
+import json
+import math
+import os
+import subprocess
+import sys
+import tempfile
+
+EXE = sys.argv[1]
+failures = []
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+    return cond
+
+
+def run(args, cwd):
+    return subprocess.run([EXE] + args, capture_output=True, text=True, cwd=cwd)
+
+
+def choose(path, cwd, *opts):
+    p = run(["choose", path, "--format", "json", *opts], cwd)
+    data = json.loads(p.stdout) if p.stdout.strip() else None
+    return p, data
+
+
+def one(data, variant, method):
+    for c in data["choices"]:
+        if c["variant"] == variant and c["method"] == method:
+            return c
+    return None
+
+
+with tempfile.TemporaryDirectory() as tmp:
+    w = 1.7
+    suite = os.path.join(tmp, "s.yaml")
+    with open(suite, "w") as f:
+        f.write(f"""\
+name: choose-check
+output: {tmp}/s.h5
+horizon: {{periods: 200}}
+samples: 256
+problems:
+  - {{problem: harmonic, omega: {w}}}
+  - {{problem: pendulum, amplitude: 1.0}}
+methods:
+  - {{method: verlet, steps_per_period: [16, 32, 64, 128]}}
+  - {{method: yoshida4, steps_per_period: [16, 32, 64]}}
+  - {{method: rk4, steps_per_period: [16, 32, 64]}}
+""")
+    p = run(["run", suite, "--force"], tmp)
+    check(p.returncode == 0, f"run: {p.returncode} {p.stderr}")
+    out = os.path.join(tmp, "s.h5")
+
+    # 1. Verlet's step for a bound on the harmonic oscillator, against the closed form
+    Y = 1e-3
+    p, data = choose(out, tmp, "--energy-error", repr(Y))
+    v = one(data, "harmonic-omega1.7", "verlet")
+    h_exact = 2 * math.sqrt(Y) / w
+    T = 2 * math.pi / w
+    print(f"verlet on harmonic: h {v['x']:.6g} (closed form {h_exact:.6g}), basis {v['basis']}, "
+          f"cost {v['cost_per_period']:.6g} (T/h {T / h_exact:.6g}), fit rms {v['fit_rms']:.3g}")
+    check(v["ranked"] and v["basis"] == "interpolated", f"verlet interpolated: {v}")
+    check(abs(v["x"] / h_exact - 1) < 0.02, f"verlet h {v['x']} vs {h_exact}")
+    check(abs(v["cost_per_period"] / (T / h_exact) - 1) < 0.02,
+          f"verlet cost {v['cost_per_period']} vs {T / h_exact}")
+    check(abs(v["energy_error"] / Y - 1) < 1e-9, "the fitted line meets the bound exactly")
+
+    # 2. at a tight bound the 4th-order method is the cheapest
+    p, data = choose(out, tmp, "--energy-error", "1e-8")
+    ranked = [c for c in data["choices"] if c["variant"] == "pendulum-amplitude1" and c["ranked"]]
+    print("pendulum at 1e-8:", [(c["rank"], c["method"], round(c["cost_per_period"], 1), c["basis"])
+                                for c in ranked])
+    check(ranked and ranked[0]["method"] == "yoshida4", f"yoshida4 first: {ranked}")
+
+    # 3. extrapolation flagged, and its limit
+    p, data = choose(out, tmp, "--energy-error", "1e-4")  # finest measured: 6.0e-4
+    v = one(data, "harmonic-omega1.7", "verlet")
+    check(v["basis"] == "extrapolated" and v["beyond"] > 1, f"extrapolated: {v}")
+    p, data = choose(out, tmp, "--energy-error", "1e-30")
+    check(p.returncode == 3, f"no answer: exit {p.returncode}")
+    check("closest" in p.stderr, f"closest named: {p.stderr!r}")
+    check(data is not None and data["all_answered"] is False, "json says so")
+
+    # 4. a longer horizon: RK4 drifts, Verlet stays bounded
+    p, data = choose(out, tmp, "--energy-error", "1e-3", "--periods", "2000")
+    v = one(data, "pendulum-amplitude1", "verlet")
+    r = one(data, "pendulum-amplitude1", "rk4")
+    print(f"horizon x10: verlet {v['horizon_rule']} x{v['horizon_factor']:.3g}, "
+          f"rk4 {r['horizon_rule']} x{r['horizon_factor']:.3g}")
+    check(v["horizon_rule"] == "bounded" and v["horizon_factor"] == 1, f"verlet bounded: {v}")
+    check(r["horizon_rule"].startswith("exponent") and 8 < r["horizon_factor"] < 12.5,
+          f"rk4 linear: {r}")
+
+    # 5. every output format, and bad input in one line with exit 2
+    for fmt in ("table", "csv"):
+        p = run(["choose", out, "--energy-error", "1e-3", "--format", fmt], tmp)
+        check(p.returncode == 0 and "verlet" in p.stdout, f"{fmt}: {p.returncode}")
+    p = run(["choose", out, "--energy-error", "1e-3", "--format", "csv"], tmp)
+    header = p.stdout.splitlines()[0].split(",")
+    check(all(len(l.split(",")) >= len(header) for l in p.stdout.splitlines()[1:]), "csv rows")
+    for args in (["choose", out], ["choose", out, "--energy-error", "-1"],
+                 ["choose", os.path.join(tmp, "missing.h5"), "--energy-error", "1e-3"],
+                 ["choose", out, "--energy-error", "1e-3", "--format", "xml"]):
+        p = run(args, tmp)
+        check(p.returncode == 2 and p.stderr.count("\n") == 1, f"{args[2:]}: {p.returncode} {p.stderr!r}")
+
+if failures:
+    print(f"0 passed, {len(failures)} failed")
+    sys.exit(1)
+print("choose: 1 passed, 0 failed")
