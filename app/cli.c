@@ -31,6 +31,9 @@ static const command commands[] = {
     { "choose", dm_cmd_choose,
       "choose FILE.h5 --energy-error X [--phase-per-period Y] [--periods N] [--format F]",
       "the cheapest method and step for a target accuracy, from a results file" },
+    { "compare", dm_cmd_compare,
+      "compare OLD.h5 NEW.h5 [--tolerance R] [--time-tolerance R] [--format F]",
+      "what got better or worse between two results files (exit 4: something worse)" },
     { "bench", dm_cmd_bench, "bench [--quick] [--json]",
       "cost of the harness against hand-written loops, of HDF5 and of the CVODE adapter" },
 };

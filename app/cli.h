@@ -17,6 +17,7 @@ int dm_cmd_show(int argc, char **argv);
 int dm_cmd_run(int argc, char **argv);
 int dm_cmd_bench(int argc, char **argv);
 int dm_cmd_choose(int argc, char **argv);
+int dm_cmd_compare(int argc, char **argv);
 
 /* Splits "key=value" into a key (copied into key, size bytes) and a parsed finite
  * double. Writes a one-line message to stderr and returns 2 on bad input. */

@@ -78,7 +78,7 @@
       "slope of the phase error against crossing number (radians)")                        \
     X(phase_error_final, REAL, metrics, SA, 0, "phase end", "%.3e",                        \
       "phase error at the last crossing (radians)")                                        \
-    X(max_global_error, REAL, metrics, A, 0, "", "",                                       \
+    X(max_global_error, REAL, metrics, SA, 0, "", "",                                       \
       "max phase-space distance to the exact solution (NaN when none is known)")           \
     X(t_reached, REAL, metrics, A, 0, "", "", "time of the last step taken")               \
     X(wall_seconds, REAL, metrics, SA, 0, "", "", "wall-clock time of the run")            \

@@ -1,0 +1,54 @@
+/* compare.h — what changed between two results files, run by run and figure by figure,
+ * for a developer's CI to gate on. Runs are matched by their configuration hash, then by
+ * id; every figure of /summary (the list in run_figures.h) is compared, each as the
+ * kind of figure it is: an error (smaller |x| is better), a cost (smaller is better), a
+ * timing (the same, with a looser tolerance: timings are noisy), or a plain value
+ * (changed or not). The definitions: README.md, "Comparing two results files". */
+#ifndef DM_COMPARE_H
+#define DM_COMPARE_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "harness.h"
+
+typedef enum dm_change {
+    DM_SAME = 0,         /* bit for bit (NaN and NaN alike) */
+    DM_WITHIN,           /* within the tolerance */
+    DM_BETTER,
+    DM_WORSE,
+    DM_CHANGED,          /* a plain value (or a text) that differs */
+    DM_ONLY_OLD,         /* the run is only in the old file */
+    DM_ONLY_NEW          /* ... only in the new one */
+} dm_change;
+
+const char *dm_change_name(dm_change change);
+
+typedef struct dm_compare_options {
+    double tolerance;        /* relative, for errors, costs and plain values */
+    double time_tolerance;   /* relative, for timings */
+} dm_compare_options;
+
+/* One figure of one run that is not the same (or a run in one file only). */
+typedef struct dm_difference {
+    char run_id[DM_RUN_ID_MAX];
+    const char *figure;      /* the figure's name; "run" for a run in one file only */
+    double old_value, new_value;
+    char old_text[32], new_text[32];   /* for status figures */
+    double relative;         /* (new - old) / |old| (NaN when it means nothing) */
+    dm_change change;
+} dm_difference;
+
+typedef struct dm_comparison {
+    size_t runs_matched, runs_same, runs_within, runs_better, runs_worse, runs_changed;
+    size_t only_old, only_new;
+    size_t n;                /* differences listed */
+    dm_difference *list;     /* owned: free() */
+} dm_comparison;
+
+/* Compares the summaries of two files. Fails only when out of memory. */
+dm_status dm_compare(const dm_summary_row *old_rows, size_t n_old,
+                     const dm_summary_row *new_rows, size_t n_new,
+                     const dm_compare_options *options, dm_comparison *out, dm_error *err);
+
+#endif
