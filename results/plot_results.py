@@ -209,7 +209,9 @@ def save(fig, out, formats):
     written = []
     for fmt in formats:
         path = f"{out}.{fmt}"
-        fig.savefig(path, dpi=100)
+        # SVG text stays text (searchable, editable), not glyph outlines
+        with matplotlib.rc_context({"svg.fonttype": "none"}):
+            fig.savefig(path, dpi=100)
         written.append(path)
     plt.close(fig)
     return written
@@ -435,8 +437,10 @@ def work_legend_handles(runs, sweeps, targets):
         colour, marker = method_style(m)
         handles.append(Line2D([], [], ls="none", marker=marker, color=colour, ms=6, label=m))
     for name, rs, ls in sweep_styles(runs, sweeps):
-        handles.append(Line2D([], [], ls=ls, color=method_style(rs[0]["method"])[0], lw=1.1,
-                              label=f"sweep {method_part(rs[0])} .. {method_part(rs[-1])}"))
+        m = rs[0]["method"]
+        first, last = (method_part(r)[len(m) + 1:] for r in (rs[0], rs[-1]))
+        handles.append(Line2D([], [], ls=ls, color=method_style(m)[0], lw=1.1,
+                              label=f"sweep of {m}:\n{first} .. {last}"))
     handles += status_key({r["status"] for r in runs})
     if any(t is not None for t in targets):
         handles.append(Line2D([], [], ls="--", color="black", lw=0.9, label="target"))
