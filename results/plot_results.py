@@ -6,9 +6,14 @@ usage: python3 results/plot_results.py RESULTS.h5 [-o OUTDIR]
 Writes, for each problem variant in the file:
   <variant>-energy.png  |energy error| against time (log-log): the line is the largest
                         |dE| inside each bucket (no peak is lost), the band spans the
-                        bucket's min..max of |dE|;
+                        bucket's min..max of |dE| where dE keeps one sign in it;
   <variant>-phase.png   phase error against time at each section crossing;
-and cost.png: force evaluations against max |dE|, one panel per problem variant.
+  <variant>-work.png    force evaluations and wall seconds per period against max |dE|
+                        and |phase error per period|, with --target-energy X and
+                        --target-phase Y the target and the cheapest ok run meeting it;
+and cost.png: force evaluations per period against max |dE|, one panel per variant.
+--format svg (or both) writes SVG. One colour and marker per method everywhere; runs
+that are not ok are drawn with their status, never dropped.
 
 Needs Debian's python3-h5py and python3-matplotlib. The file layout it reads is the
 contract in results/README.md.
