@@ -165,3 +165,18 @@ int dm_cli_main(int argc, char **argv)
         fprintf(stderr, "driftmark: unknown command '%s' (try --help)\n", name);
     return 2;
 }
+
+int dm_cli_format_option(const char *command_name, const char *value,
+                         dm_table_format *format)
+{
+    static const struct { const char *name; dm_table_format format; } formats[] = {
+        { "table", DM_TABLE_TEXT }, { "csv", DM_TABLE_CSV }, { "json", DM_TABLE_JSON },
+    };
+    for (size_t i = 0; i < sizeof formats / sizeof formats[0]; i++)
+        if (strcmp(value, formats[i].name) == 0) {
+            *format = formats[i].format;
+            return 0;
+        }
+    return dm_cli_usage_error(command_name, "unknown format '%s' (expected table, csv or "
+                              "json)", value);
+}

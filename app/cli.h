@@ -31,6 +31,10 @@ int dm_cli_parse_pair(const char *command, const char *arg, char *key, size_t si
 int dm_cli_json_option(const char *command_name, int argc, char **argv, const char *usage,
                        bool *json);
 
+/* Reads a --format value (table, csv or json) into *format; 0, or the usage error's
+ * exit status (2) with its one line printed. */
+int dm_cli_format_option(const char *command, const char *value, dm_table_format *format);
+
 /* Prints "driftmark: <command>: <message>" to stderr and returns 2. */
 int dm_cli_usage_error(const char *command, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)));

@@ -157,17 +157,7 @@ int dm_cmd_choose(int argc, char **argv)
         case 'e': bad = parse_positive("--energy-error", optarg, &target.max_energy_error); break;
         case 'p': bad = parse_positive("--phase-per-period", optarg, &target.phase_per_period); break;
         case 'n': bad = parse_positive("--periods", optarg, &target.periods); break;
-        case 'f':
-            if (strcmp(optarg, "table") == 0)
-                format = DM_TABLE_TEXT;
-            else if (strcmp(optarg, "csv") == 0)
-                format = DM_TABLE_CSV;
-            else if (strcmp(optarg, "json") == 0)
-                format = DM_TABLE_JSON;
-            else
-                bad = dm_cli_usage_error("choose", "unknown format '%s' (expected table, csv "
-                                         "or json)", optarg);
-            break;
+        case 'f': bad = dm_cli_format_option("choose", optarg, &format); break;
         case 'h': printf("%s\n", usage); return 0;
         default:
             return dm_cli_usage_error("choose", "unknown option or missing value '%s' (%s)",

@@ -144,17 +144,7 @@ int dm_cmd_compare(int argc, char **argv)
         switch (c) {
         case 't': bad = parse_tolerance("--tolerance", optarg, &o.tolerance); break;
         case 'T': bad = parse_tolerance("--time-tolerance", optarg, &o.time_tolerance); break;
-        case 'f':
-            if (strcmp(optarg, "table") == 0)
-                format = DM_TABLE_TEXT;
-            else if (strcmp(optarg, "csv") == 0)
-                format = DM_TABLE_CSV;
-            else if (strcmp(optarg, "json") == 0)
-                format = DM_TABLE_JSON;
-            else
-                bad = dm_cli_usage_error("compare", "unknown format '%s' (expected table, "
-                                         "csv or json)", optarg);
-            break;
+        case 'f': bad = dm_cli_format_option("compare", optarg, &format); break;
         case 'h': printf("%s\n", usage); return 0;
         default:
             return dm_cli_usage_error("compare", "unknown option or missing value '%s' (%s)",
