@@ -17,23 +17,17 @@ usage: check_choose.py PATH/TO/driftmark
 import json
 import math
 import os
-import subprocess
 import sys
 import tempfile
 
+import checklib
+from checklib import check
+
 EXE = sys.argv[1]
-failures = []
-
-
-def check(cond, what):
-    if not cond:
-        failures.append(what)
-        print("FAIL:", what)
-    return cond
 
 
 def run(args, cwd):
-    return subprocess.run([EXE] + args, capture_output=True, text=True, cwd=cwd)
+    return checklib.run(EXE, args, cwd)
 
 
 def choose(path, cwd, *opts):
@@ -123,7 +117,4 @@ methods:
         p = run(args, tmp)
         check(p.returncode == 2 and p.stderr.count("\n") == 1, f"{args[2:]}: {p.returncode} {p.stderr!r}")
 
-if failures:
-    print(f"0 passed, {len(failures)} failed")
-    sys.exit(1)
-print("choose: 1 passed, 0 failed")
+checklib.finish("choose")

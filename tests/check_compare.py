@@ -10,25 +10,19 @@ usage: check_compare.py PATH/TO/driftmark
 import json
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
+
+import checklib
+from checklib import check
 
 import h5py
 
 EXE = sys.argv[1]
-failures = []
-
-
-def check(cond, what):
-    if not cond:
-        failures.append(what)
-        print("FAIL:", what)
-    return cond
 
 
 def run(args, cwd):
-    return subprocess.run([EXE] + args, capture_output=True, text=True, cwd=cwd)
+    return checklib.run(EXE, args, cwd)
 
 
 def compare(a, b, cwd, *opts):
@@ -114,7 +108,4 @@ with tempfile.TemporaryDirectory() as tmp:
         p = run(args, tmp)
         check(p.returncode == 2 and p.stderr.count("\n") == 1, f"{args[1:]}: {p.returncode} {p.stderr!r}")
 
-if failures:
-    print(f"0 passed, {len(failures)} failed")
-    sys.exit(1)
-print("compare: 1 passed, 0 failed")
+checklib.finish("compare")
