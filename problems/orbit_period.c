@@ -1,0 +1,309 @@
+/* orbit_period.c — turning points and the period integral of a one-degree-of-freedom
+ * orbit with no closed form (orbit_period.h). */
+#include <float.h>
+#include <math.h>
+#include <stdbool.h>
+#include <string.h>
+
+#include "orbit_period.h"
+
+/* Gauss-Kronrod 7-15 rule on [-1, 1]: the Kronrod abscissae (the odd-indexed ones are
+ * the 7-point Gauss abscissae) with their weights, as tabulated with QUADPACK
+ * (R. Piessens et al., QUADPACK, Springer 1983, routine QK15; the same values are in
+ * GSL's qk15.c). tests/test_orbit_period.c checks the rule integrates every polynomial
+ * of degree <= 22 (Kronrod) and <= 13 (Gauss) exactly. */
+static const double xgk[8] = {
+    0.991455371120812639206854697526329, 0.949107912342758524526189684047851,
+    0.864864423359769072789712788640926, 0.741531185599394439863864773280788,
+    0.586087235467691130294144845693013, 0.405845151377397166906606412076961,
+    0.207784955007898467600689403773245, 0.000000000000000000000000000000000,
+};
+static const double wgk[8] = {
+    0.022935322010529224963732008058970, 0.063092092629978553290700663189204,
+    0.104790010322250183839876322541518, 0.140653259715525918745189590510238,
+    0.169004726639267902826583426598550, 0.190350578064785409913256402421014,
+    0.204432940075298892414161999234649, 0.209482141084727828012999174891714,
+};
+static const double wg[4] = {
+    0.129484966168869693270611432679082, 0.279705391489276667901467771423780,
+    0.381830050505118944950369775488975, 0.417959183673469387755102040816327,
+};
+
+enum { MAX_PIECES = 400 };          /* subintervals the adaptive rule may make */
+#define PERIOD_TOLERANCE 1e-13      /* relative, of the period */
+
+/* The integrand after q = c - d cos(phi): d sin(phi) / sqrt(E - V(q)). Next to a
+ * turning point E - V(q) is the difference of two nearly equal numbers; where it would
+ * keep fewer than 6 good digits it is taken from a quadratic in the distance x to the
+ * turning point, gap = s x + k x^2 / 2, with s and k fitted once at each end, and x
+ * given exactly by the substitution: q - q- = 2 d sin^2(phi/2), q+ - q = 2 d cos^2(phi/2). */
+typedef struct end_model {
+    double s, k;                      /* slope and curvature of E - V inward */
+} end_model;
+
+typedef struct integrand {
+    dm_potential_fn V;
+    void *data;
+    double E, c, d;
+    end_model minus, plus;
+    int evaluations;
+    bool bad;                         /* V not finite on the orbit */
+} integrand;
+
+static double f(integrand *in, double phi)
+{
+    double q = in->c - in->d * cos(phi);
+    double v = in->V(in->data, q);
+    in->evaluations++;
+    if (!isfinite(v)) {
+        in->bad = true;
+        return 0.0;
+    }
+    double gap = in->E - v;
+    if (!(gap > 1e6 * DBL_EPSILON * (fabs(in->E) + fabs(v)))) {
+        double sh = sin(0.5 * phi), ch = cos(0.5 * phi);
+        const end_model *e = phi < 0.5 * M_PI ? &in->minus : &in->plus;
+        double x = 2.0 * in->d * (phi < 0.5 * M_PI ? sh * sh : ch * ch);
+        gap = x * (e->s + 0.5 * e->k * x);
+        if (!(gap > 0.0))
+            return 0.0; /* on a turning point: a node of weight zero in the limit */
+    }
+    return in->d * sin(phi) / sqrt(gap);
+}
+
+/* E - V inward from the turning point qt (direction dir): slope and curvature from
+ * two points, h and 2h inside, h a small part of the orbit. */
+static end_model fit_end(dm_potential_fn V, void *data, double E, double qt, double dir,
+                         double h)
+{
+    double g0 = E - V(data, qt), g1 = E - V(data, qt + dir * h), g2 = E - V(data, qt + 2 * dir * h);
+    return (end_model){ .s = (4.0 * g1 - g2 - 3.0 * g0) / (2.0 * h),
+                        .k = (g2 - 2.0 * g1 + g0) / (h * h) };
+}
+
+double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,
+                    double *gauss7)
+{
+    double half = 0.5 * (b - a), centre = 0.5 * (a + b);
+    double fc = fn(data, centre);
+    double k = fc * wgk[7], g = fc * wg[3];
+    for (int j = 0; j < 7; j++) {
+        double x = half * xgk[j];
+        double s = fn(data, centre - x) + fn(data, centre + x);
+        k += wgk[j] * s;
+        if (j % 2 == 1)
+            g += wg[j / 2] * s;
+    }
+    *gauss7 = g * half;
+    return k * half;
+}
+
+static double f_of(void *data, double phi)
+{
+    return f(data, phi);
+}
+
+/* K15 on [a, b] with QUADPACK's error estimate (QK15: the Kronrod-Gauss difference,
+ * scaled down for smooth integrands, and never below 50 eps of the integral of |f|). */
+static double kronrod(integrand *in, double a, double b, double *error)
+{
+    double g;
+    double k = dm_kronrod15(f_of, in, a, b, &g);
+    /* |f| and |f - mean| over the piece, by the same rule */
+    double half = 0.5 * (b - a), centre = 0.5 * (a + b), mean = k / (b - a);
+    double fc = f(in, centre);
+    double resabs = wgk[7] * fabs(fc), resasc = wgk[7] * fabs(fc - mean);
+    for (int j = 0; j < 7; j++) {
+        double x = half * xgk[j];
+        double f1 = f(in, centre - x), f2 = f(in, centre + x);
+        resabs += wgk[j] * (fabs(f1) + fabs(f2));
+        resasc += wgk[j] * (fabs(f1 - mean) + fabs(f2 - mean));
+    }
+    resabs *= fabs(half);
+    resasc *= fabs(half);
+    double e = fabs(k - g);
+    if (resasc != 0.0 && e != 0.0)
+        e = resasc * fmin(1.0, pow(200.0 * e / resasc, 1.5));
+    if (resabs > DBL_MIN / (50.0 * DBL_EPSILON))
+        e = fmax(50.0 * DBL_EPSILON * resabs, e);
+    *error = e;
+    return k;
+}
+
+/* Adaptive: the piece with the largest error is halved until the sum of the errors
+ * is below the tolerance relative to the integral. */
+static double adapt(integrand *in, double a, double b, double *rel_error)
+{
+    double lo[MAX_PIECES], hi[MAX_PIECES], val[MAX_PIECES], err[MAX_PIECES];
+    int n = 1;
+    lo[0] = a;
+    hi[0] = b;
+    val[0] = kronrod(in, a, b, &err[0]);
+    for (;;) {
+        double total = 0.0, total_err = 0.0;
+        int worst = 0;
+        for (int i = 0; i < n; i++) {
+            total += val[i];
+            total_err += err[i];
+            if (err[i] > err[worst])
+                worst = i;
+        }
+        *rel_error = total_err / fabs(total);
+        if (*rel_error <= PERIOD_TOLERANCE || n + 1 > MAX_PIECES || in->bad)
+            return total;
+        double mid = 0.5 * (lo[worst] + hi[worst]);
+        if (!(mid > lo[worst] && mid < hi[worst]))
+            return total; /* the piece cannot be split further */
+        lo[n] = mid;
+        hi[n] = hi[worst];
+        hi[worst] = mid;
+        val[worst] = kronrod(in, lo[worst], hi[worst], &err[worst]);
+        val[n] = kronrod(in, lo[n], hi[n], &err[n]);
+        n++;
+    }
+}
+
+/* Within one step from a point `a` inside the orbit (E - V >= 0) to a point `b` also
+ * inside: is there a forbidden zone between them (a barrier the step went over)? The
+ * midpoint is tested; when it lies below the chord (E - V dips) the dip's bottom is
+ * sought by golden-section search. Returns a point between with E - V < 0, or NAN. */
+static double zone_between(dm_potential_fn V, void *data, double E, double a, double fa,
+                           double b, double fb)
+{
+    double m = 0.5 * (a + b), fm = E - V(data, m);
+    if (fm < 0.0)
+        return m;
+    if (!(fm < 0.5 * (fa + fb)))
+        return NAN;
+    const double r = 0.5 * (3.0 - sqrt(5.0));
+    double x1 = a + r * (b - a), x2 = b - r * (b - a);
+    double f1 = E - V(data, x1), f2 = E - V(data, x2);
+    for (int it = 0; it < 80; it++) {
+        if (f1 < 0.0)
+            return x1;
+        if (f2 < 0.0)
+            return x2;
+        if (f1 < f2) {
+            b = x2, x2 = x1, f2 = f1;
+            x1 = a + r * (b - a);
+            f1 = E - V(data, x1);
+        } else {
+            a = x1, x1 = x2, f1 = f2;
+            x2 = b - r * (b - a);
+            f2 = E - V(data, x2);
+        }
+    }
+    return NAN;
+}
+
+/* The turning point on one side (direction +1 or -1) of q0: stepped out to the first
+ * point where E - V < 0, then bisected to the last bit. A step grows (x2) while E - V
+ * does, and where E - V falls it goes at most half way to where the line through the
+ * last two points reaches zero; every step is also checked for a dip below zero between
+ * its ends (zone_between), so a narrow forbidden zone (a barrier just above E, next to a
+ * separatrix) is not stepped over. Returns false when E - V stays >= 0 out to `reach`. */
+static bool turning_point(dm_potential_fn V, void *data, double E, double q0, double dir,
+                          double reach, double *at, bool *not_finite)
+{
+    double inside = q0, f_inside = E - V(data, q0);
+    double step = 1e-6 * fmax(1.0, fabs(q0));
+    const double smallest = 1e-13 * fmax(1.0, fabs(q0));
+    for (;;) {
+        double q = inside + dir * step;
+        double v = V(data, q);
+        if (!isfinite(v) && !(v == INFINITY)) {
+            *not_finite = true;
+            return false;
+        }
+        double fq = E - v;
+        double outside = fq < 0.0 ? q : zone_between(V, data, E, inside, f_inside, q, fq);
+        if (!isnan(outside)) { /* V = +inf (a wall) counts as outside */
+            double a = inside, b = outside;
+            for (int it = 0; it < 1100; it++) {
+                double mid = 0.5 * (a + b);
+                if (mid == a || mid == b)
+                    break;
+                if (E - V(data, mid) >= 0.0)
+                    a = mid;
+                else
+                    b = mid;
+            }
+            *at = a;
+            return true;
+        }
+        double slope = (fq - f_inside) / step; /* along the direction of travel */
+        inside = q;
+        f_inside = fq;
+        if (fabs(q - q0) > reach)
+            return false;
+        double next = 2.0 * step;
+        if (slope < 0.0)
+            next = fmin(next, fmax(0.5 * fq / -slope, smallest));
+        step = next;
+    }
+}
+
+dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, double q0,
+                          double reach, const char *what, dm_orbit *orbit, dm_error *err)
+{
+    memset(orbit, 0, sizeof *orbit);
+    double v0 = V(data, q0);
+    if (!isfinite(v0) || !isfinite(E))
+        return dm_error_set(err, DM_EINPUT, "%s: V = %.17g at the start q0 = %.17g is not "
+                            "finite", what, v0, q0);
+    if (E < v0)
+        return dm_error_set(err, DM_EINPUT, "%s: energy %.17g is below V(q0) = %.17g "
+                            "(impossible)", what, E, v0);
+    bool not_finite = false;
+    double qm = NAN, qp = NAN;
+    bool left = turning_point(V, data, E, q0, -1.0, reach, &qm, &not_finite);
+    bool right = turning_point(V, data, E, q0, +1.0, reach, &qp, &not_finite);
+    if (not_finite)
+        return dm_error_set(err, DM_EINPUT, "%s: V is not finite on the orbit of energy "
+                            "%.17g through q0 = %.17g", what, E, q0);
+    if (!left || !right)
+        return dm_error_set(err, DM_EINPUT, "%s: the orbit of energy %.17g through q0 = "
+                            "%.17g is unbounded (no turning point within %g %s of it): "
+                            "no period", what, E, q0, reach, left ? "above" : "below");
+    if (!(qp - qm > 2e-6 * fmax(1.0, fabs(q0))))
+        return dm_error_set(err, DM_EINPUT, "%s: the start q0 = %.17g at energy %.17g is an "
+                            "equilibrium, or next to one (no oscillation to resolve)", what,
+                            q0, E);
+    /* At a turning point that is a maximum of V (a separatrix) E - V grows like the
+     * square of the distance, not linearly, and the period diverges. Next to one, the
+     * slope of V at the turning point is small and E - V, a difference of two nearly
+     * equal numbers there, limits the integral: measured, an orbit whose turning-point
+     * slope times the half-width, over the largest E - V on the orbit, is 1e-3 gets its
+     * period to 3e-10; at 1e-4 only to 1e-8, at 1e-6 to 1e-6. Below 1e-3 the orbit is
+     * refused (tests/test_orbit_period.c). */
+    double d = 0.5 * (qp - qm), h = 1e-6 * d;
+    double slope_m = (E - V(data, qm + h)) / h, slope_p = (E - V(data, qp - h)) / h;
+    double widest = fmax(E - V(data, 0.5 * (qp + qm)), fmax(E - v0, DBL_MIN));
+    for (int i = 1; i < 16; i++)
+        widest = fmax(widest, E - V(data, qm + (qp - qm) * i / 16.0));
+    double flat_m = slope_m * d / widest, flat_p = slope_p * d / widest;
+    if (!(flat_m >= 1e-3) || !(flat_p >= 1e-3))
+        return dm_error_set(err, DM_EINPUT, "%s: energy %.17g is too close to a separatrix "
+                            "(V is nearly flat at the turning point q = %.17g: relative slope "
+                            "%.2g, below 1e-3): its period cannot be integrated to 3e-10 in "
+                            "double precision", what, E, flat_m < flat_p ? qm : qp,
+                            fmin(flat_m, flat_p));
+    integrand in = { .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
+                     .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
+                     .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
+    double rel = NAN;
+    double integral = adapt(&in, 0.0, M_PI, &rel);
+    if (in.bad)
+        return dm_error_set(err, DM_EINPUT, "%s: V is not finite between the turning points "
+                            "%.17g and %.17g", what, qm, qp);
+    orbit->q_minus = qm;
+    orbit->q_plus = qp;
+    orbit->period = sqrt(2.0 * m) * integral;
+    orbit->error_estimate = rel;
+    orbit->evaluations = in.evaluations;
+    if (!(rel <= 1e-9) || !isfinite(orbit->period))
+        return dm_error_set(err, DM_EINPUT, "%s: the period integral at energy %.17g does not "
+                            "converge (relative error %.2g): too close to a separatrix",
+                            what, E, rel);
+    return DM_OK;
+}
