@@ -111,6 +111,13 @@ int dm_cmd_period(int argc, char **argv)
 
     const char *id = argv[optind++];
     const dm_problem *problem = dm_problem_find(id);
+    if (problem == NULL && strchr(id, '/') != NULL) {
+        /* a path: a problem from the user's own compiled code */
+        char hash[17];
+        dm_error lerr = { 0 };
+        if (dm_problem_load(id, &problem, hash, &lerr) != DM_OK)
+            return dm_cli_usage_error(CMD, "%s", lerr.msg);
+    }
     if (problem == NULL) {
         const char *names[64];
         size_t n_names = dm_problem_count < 64 ? dm_problem_count : 64;

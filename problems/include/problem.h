@@ -188,6 +188,30 @@ struct dm_problem {
                        double *out);
 };
 
+/* ---- problems from the user's own code (library.c) ----
+ * A shared object defines, against this header (installed by `cmake --install` with a
+ * pkg-config file, driftmark-problem), one function
+ *
+ *     const dm_problem *dm_problem_entry(unsigned *abi)
+ *
+ * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
+ * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
+ * fused loop's types change, so an object built against another version is refused. */
+#define DM_PROBLEM_ABI 1u
+
+typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
+
+/* Loads the object at `path` once (later calls with the same path return the same table)
+ * and checks its table (dm_problem_check); `hash` gets 16 hex digits of a hash of the
+ * object's bytes, so a result can be traced to exactly what ran. The object stays loaded
+ * for the life of the process. Errors are one line naming the path. */
+dm_status dm_problem_load(const char *path, const dm_problem **problem, char hash[17],
+                          dm_error *err);
+
+/* The rules of the table (the "required" fields above, counts in range, names set,
+ * invariants all or nothing): DM_OK or a one-line error naming the first broken one. */
+dm_status dm_problem_check(const dm_problem *problem, dm_error *err);
+
 /* ---- registry (registry.c) ---- */
 extern const dm_problem *const dm_problems[];
 extern const size_t dm_problem_count;
