@@ -127,8 +127,14 @@ static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
             dm_suite_free(suite);
             return st == DM_EINPUT ? 2 : 1;
         }
-        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu\n", resume,
+        size_t continued = 0;
+        for (size_t i = 0; i < suite->n_runs; i++)
+            continued += (*results)[i].checkpoint != NULL;
+        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu", resume,
                 kept, suite->n_runs - kept);
+        if (continued > 0)
+            fprintf(stderr, " (%zu continued from their checkpoints)", continued);
+        fputc('\n', stderr);
     }
     return 0;
 }
@@ -329,9 +335,14 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
         char started[32];
         dm_cli_utc_now(started, sizeof started);
         size_t n_order = 0;
-        for (size_t i = 0; i < suite->n_runs; i++)
-            if (results[i].status == DM_RUN_NOT_RUN)
+        for (size_t i = 0; i < suite->n_runs; i++) {
+            /* The other ranks run from the start: an interrupted run they are handed is
+             * not continued from its checkpoint (the checkpoint stays here). */
+            if (world->size > 1 && results[i].checkpoint != NULL)
+                dm_run_result_free(&results[i]);
+            if (results[i].status == DM_RUN_NOT_RUN || results[i].checkpoint != NULL)
                 order[n_order++] = i;
+        }
         dm_run_order_longest_first(suite, order, n_order);
         /* 3. run them, then write every run that ran and report */
         double t0 = dm_clock_seconds();

@@ -142,7 +142,10 @@ void dm_queue_serve(dm_work_queue *q)
         pthread_mutex_unlock(&q->lock);
 
         dm_error err = { 0 };
-        dm_status st = dm_run(spec, &q->results[i], q->stop, &err);
+        /* an interrupted run read back with its checkpoint continues from it */
+        dm_status st = q->results[i].checkpoint != NULL
+                           ? dm_run_resume(spec, &q->results[i], q->stop, &err)
+                           : dm_run(spec, &q->results[i], q->stop, &err);
 
         pthread_mutex_lock(&q->lock);
         if (st != DM_OK) {

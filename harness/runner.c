@@ -12,7 +12,13 @@
 #include <string.h>
 #include "dm_clock.h"
 #include "dm_line_fit.h"
+#include "checkpoint.h"
 #include "harness.h"
+
+/* A stop request is polled, and the progress published, every POLL_STEPS steps of a
+ * fixed-step run (every ADAPTIVE_POLL_STEPS adaptive steps) and at bucket ends. */
+#define POLL_STEPS ((uint64_t)1 << 16)
+#define ADAPTIVE_POLL_STEPS ((uint64_t)4096)
 
 const char *dm_run_status_name(dm_run_status status)
 {
@@ -41,6 +47,7 @@ void dm_run_result_free(dm_run_result *result)
     free(result->crossings.number);
     free(result->crossings.time);
     free(result->crossings.phase_error);
+    free(result->checkpoint);
     memset(result, 0, sizeof *result);
 }
 
@@ -205,6 +212,23 @@ typedef struct run_context {
     dm_run_status status;
 } run_context;
 
+static bool stop_requested(const run_context *c)
+{
+    return c->stop != NULL && *c->stop;
+}
+
+/* The steps and the fraction of the horizon done, for a progress reader on another
+ * thread (a relaxed store: a slightly old value is fine). */
+static void publish_progress(run_context *c)
+{
+    double f = c->fixed ? (c->n_steps > 0 ? (double)c->loop.k / (double)c->n_steps : 1.0)
+                        : c->cur->t / c->spec->t_end;
+    f = f > 0.0 ? (f < 1.0 ? f : 1.0) : 0.0;
+    __atomic_store_n(&c->result->live_steps, c->loop.k, __ATOMIC_RELAXED);
+    __atomic_store_n(&c->result->live_fraction, (uint64_t)(f * 4294967296.0),
+                     __ATOMIC_RELAXED);
+}
+
 /* dE is (H - H0) / E_scale with E_scale = H0 - V_min where the potential has a finite
  * minimum below H0, else |H0| (1 when H0 is 0). */
 static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, double H0)
@@ -254,12 +278,22 @@ static uint64_t bucket_end_step(uint64_t n_steps, size_t samples, size_t bucket)
     return (n_steps / samples) * (bucket + 1) + (n_steps % samples) * (bucket + 1) / samples;
 }
 
-/* One bucket through the problem's fused loop, stopping at every crossing to log it. */
+/* One bucket through the problem's fused loop, stopping at every crossing to log it,
+ * and at every multiple of POLL_STEPS to look for a stop request (a call of the loop
+ * ends where the next begins: splitting a bucket into calls changes no number). */
 static void bucket_fused(run_context *c, uint64_t k_end)
 {
     dm_fused_run *w = &c->loop;
     for (;;) {
-        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w, k_end);
+        uint64_t chunk_end = (w->k | (POLL_STEPS - 1)) + 1;
+        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w,
+                                                 chunk_end < k_end ? chunk_end : k_end);
+        if (ev == DM_FUSED_END && w->k < k_end) {
+            publish_progress(c);
+            if (stop_requested(c))
+                break;
+            continue;
+        }
         if (ev == DM_FUSED_CROSSING) {
             crossing_add(&c->log, w->monitor.coord, w->monitor.crossed_level,
                          dm_step_time(0.0, w->k - 1, c->h), w->x_prev,
@@ -286,6 +320,7 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
     dm_step_monitor *mon = &c->loop.monitor;
     char *reason = c->result->reason;
     const size_t reason_size = sizeof c->result->reason;
+    const uint64_t poll_mask = (c->fixed ? POLL_STEPS : ADAPTIVE_POLL_STEPS) - 1;
     for (;;) {
         if (dm_stepper_step(c->stepper, c->cur, c->nxt) != DM_OK) {
             c->status = DM_RUN_FAILED;
@@ -312,17 +347,18 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
         }
         if (c->fixed ? k >= k_end : c->cur->t >= t_bucket_end)
             break;
-        /* Adaptive steps can shrink without bound: a stop request and the step budget
-         * are checked inside the bucket too. */
-        if (!c->fixed && (k & 4095) == 0) {
-            if (c->spec->step_budget > 0 && k >= c->spec->step_budget) {
+        /* A bucket can be long (and adaptive steps can shrink without bound): a stop
+         * request and the adaptive step budget are checked inside it too. */
+        if ((k & poll_mask) == 0) {
+            publish_progress(c);
+            if (!c->fixed && c->spec->step_budget > 0 && k >= c->spec->step_budget) {
                 c->status = DM_RUN_FAILED;
                 snprintf(reason, reason_size,
                          "took %llu steps, the step budget, before t = %.17g (of %.17g)",
                          (unsigned long long)k, c->cur->t, c->spec->t_end);
                 break;
             }
-            if (c->stop != NULL && *c->stop)
+            if (stop_requested(c))
                 break;
         }
     }
@@ -417,21 +453,104 @@ static void finish_metrics(run_context *c, double wall)
     result->crossings.total = c->log.count;
 }
 
-/* One run:
- *  1. allocate the series; choose the energy scale; note the starting invariants;
- *  2. create the stepper (a failure here is a failed run, not an error);
- *  3. set up the monitor and probe for the fused loop;
- *  4. run the buckets, each through the fused loop or a step at a time, recording
- *     each bucket's end, until the horizon, a divergence, a failure or a stop;
- *  5. compute the run's figures. */
-dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
-                 dm_error *err)
+/* The run's whole state into a new checkpoint (result->checkpoint): `bucket` is the
+ * bucket to run next, or the one stopped inside when in_bucket. Without memory for it
+ * the run is still interrupted; --resume then runs it again from the start. */
+static void checkpoint_take(run_context *c, size_t bucket, bool in_bucket, double wall)
 {
-    memset(result, 0, sizeof *result);
-    dm_status rc = allocate(result, spec, err);
-    if (rc != DM_OK) {
-        dm_run_result_free(result);
-        return rc;
+    dm_checkpoint *ck = calloc(1, sizeof *ck);
+    if (ck == NULL)
+        return;
+    const int n = c->inst->dof;
+    *ck = (dm_checkpoint){ .dof = (uint64_t)n, .bucket = bucket, .in_bucket = in_bucket,
+                           .k = c->loop.k, .t = c->cur->t, .potential = c->cur->potential,
+                           .monitor = c->loop.monitor, .phase_fit = c->log.fit,
+                           .crossing_count = c->log.count, .last_phase = c->log.last_phase,
+                           .crossing_stride = c->result->crossings.stride,
+                           .drift_fit = c->drift_fit, .max_abs = c->max_abs,
+                           .series_n = c->result->series.n,
+                           .crossings_n = c->result->crossings.n, .wall_seconds = wall };
+    /* the fused path keeps the state in loop.x, the per-step path in cur */
+    memcpy(ck->x, c->fused ? c->loop.x : c->cur->x, sizeof(double) * 2 * (size_t)n);
+    memcpy(ck->max_invariant_error, c->result->metrics.max_invariant_error,
+           sizeof ck->max_invariant_error);
+    ck->n_stepper = dm_stepper_save(c->stepper, ck->stepper, DM_STEPPER_RECORD_MAX);
+    c->result->checkpoint = ck;
+}
+
+/* Back to the state of *ck, after the stepper and the monitor were set up as for a new
+ * run; *bucket and *in_bucket say where to go on. */
+static dm_status checkpoint_restore(run_context *c, const dm_checkpoint *ck, size_t *bucket,
+                                    bool *in_bucket, dm_error *err)
+{
+    const int n = c->inst->dof;
+    const dm_run_spec *spec = c->spec;
+    dm_series *ser = &c->result->series;
+    if (ck->dof != (uint64_t)n || ck->bucket >= spec->samples || ser->n > ck->bucket ||
+        ser->capacity != spec->samples || ck->crossing_stride < 1 ||
+        (c->fixed && ck->k > c->n_steps))
+        return dm_error_set(err, DM_EINPUT, "%s: its checkpoint does not fit the run",
+                            spec->id);
+    c->loop.k = ck->k;
+    memcpy(c->loop.x, ck->x, sizeof(double) * 2 * (size_t)n);
+    memcpy(c->cur->x, ck->x, sizeof(double) * 2 * (size_t)n);
+    c->cur->t = ck->t;
+    c->cur->potential = ck->potential;
+    dm_step_monitor *m = &c->loop.monitor;
+    m->level = ck->monitor.level;
+    m->armed = ck->monitor.armed;
+    m->bucket_min = ck->monitor.bucket_min;
+    m->bucket_max = ck->monitor.bucket_max;
+    m->energy_error = ck->monitor.energy_error;
+    m->crossed_level = ck->monitor.crossed_level;
+    c->log.fit = ck->phase_fit;
+    c->log.count = ck->crossing_count;
+    c->log.last_phase = ck->last_phase;
+    c->result->crossings.stride = ck->crossing_stride;
+    c->drift_fit = ck->drift_fit;
+    c->max_abs = ck->max_abs;
+    memcpy(c->result->metrics.max_invariant_error, ck->max_invariant_error,
+           sizeof ck->max_invariant_error);
+    if (dm_stepper_load(c->stepper, ck->stepper, ck->n_stepper, c->cur) != DM_OK)
+        return dm_error_set(err, DM_EINPUT, "%s: %s", spec->id, c->stepper->error.msg);
+    *bucket = ck->bucket;
+    *in_bucket = ck->in_bucket;
+    return DM_OK;
+}
+
+/* Marks the run interrupted at its current point. */
+static void interrupt(run_context *c)
+{
+    c->status = DM_RUN_INTERRUPTED;
+    snprintf(c->result->reason, sizeof c->result->reason, "interrupted at step %llu, t = %.17g",
+             (unsigned long long)c->loop.k, c->cur->t);
+}
+
+/* One run, new (ck NULL) or continued from a checkpoint:
+ *  1. allocate the series (a continued run has them); choose the energy scale; note the
+ *     starting invariants;
+ *  2. create the stepper (a failure here is a failed run, not an error);
+ *  3. set up the monitor and probe for the fused loop; go back to the checkpoint;
+ *  4. run the buckets, each through the fused loop or a step at a time, recording
+ *     each bucket's end, until the horizon, a divergence, a failure or a stop (which
+ *     takes a checkpoint);
+ *  5. compute the run's figures. */
+static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_checkpoint *ck,
+                          const volatile int *stop, dm_error *err)
+{
+    dm_status rc = DM_OK;
+    if (ck == NULL) {
+        memset(result, 0, sizeof *result);
+        rc = allocate(result, spec, err);
+        if (rc != DM_OK) {
+            dm_run_result_free(result);
+            return rc;
+        }
+    } else {
+        /* keep the series, the crossings and the regime change found so far */
+        result->status = DM_RUN_NOT_RUN;
+        result->reason[0] = '\0';
+        memset(&result->metrics, 0, sizeof result->metrics);
     }
     run_context *c = &(run_context){ .spec = spec, .inst = &spec->inst, .result = result,
                                      .stop = stop, .status = DM_RUN_OK };
@@ -454,6 +573,7 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
         snprintf(result->reason, sizeof result->reason, "%s", err ? err->msg : "create failed");
         dm_error_clear(err);
         m->period_exact = inst->period;
+        free(ck);
         return DM_OK;
     }
     c->fixed = !spec->method->adaptive;
@@ -469,32 +589,71 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     /* The fused loop when the method and the problem offer it: probed with zero steps. */
     c->fused = c->fixed &&
                dm_stepper_run_fused(c->stepper, &c->loop, 0) != DM_FUSED_UNSUPPORTED;
+    size_t first = 0;
+    bool inside = false;   /* the first bucket was begun before the checkpoint */
+    double wall_before = 0.0;
+    if (ck != NULL) {
+        rc = checkpoint_restore(c, ck, &first, &inside, err);
+        wall_before = ck->wall_seconds;
+        free(ck);
+        if (rc != DM_OK) {
+            dm_stepper_destroy(c->stepper);
+            return rc;
+        }
+    }
 
     const size_t samples = spec->samples;
     double t_start = dm_clock_seconds();
-    for (size_t bucket = 0; bucket < samples && c->status == DM_RUN_OK; bucket++) {
+    for (size_t bucket = first; bucket < samples && c->status == DM_RUN_OK; bucket++) {
         uint64_t k_end = c->fixed ? bucket_end_step(c->n_steps, samples, bucket) : 0;
         double t_bucket_end = (bucket + 1 == samples)
                                   ? spec->t_end
                                   : spec->t_end * (double)(bucket + 1) / (double)samples;
         if (c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end)
             continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
-        dm_monitor_open_bucket(&c->loop.monitor);
+        if (!(inside && bucket == first))
+            dm_monitor_open_bucket(&c->loop.monitor);
         if (c->fused)
             bucket_fused(c, k_end);
         else
             bucket_plain(c, k_end, t_bucket_end);
         if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
             break; /* failed on the bucket's first step: nothing to record */
+        bool ended = c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end;
+        if (c->status == DM_RUN_OK && !ended) {
+            /* stopped inside the bucket: it is not recorded; the checkpoint keeps its
+             * extremes so far */
+            interrupt(c);
+            checkpoint_take(c, bucket, true, wall_before + dm_clock_seconds() - t_start);
+            break;
+        }
         record_bucket(c);
-        if (stop != NULL && *stop && c->status == DM_RUN_OK && bucket + 1 < samples) {
-            c->status = DM_RUN_INTERRUPTED;
-            snprintf(result->reason, sizeof result->reason,
-                     "interrupted at step %llu, t = %.17g", (unsigned long long)c->loop.k,
-                     c->cur->t);
+        publish_progress(c);
+        bool at_horizon = c->fixed ? c->loop.k >= c->n_steps : c->cur->t >= spec->t_end;
+        if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
+            interrupt(c);
+            checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
         }
     }
-    finish_metrics(c, dm_clock_seconds() - t_start);
+    finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
     dm_stepper_destroy(c->stepper);
     return DM_OK;
+}
+
+dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
+                 dm_error *err)
+{
+    return run_from(spec, result, NULL, stop, err);
+}
+
+dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
+                        const volatile int *stop, dm_error *err)
+{
+    dm_checkpoint *ck = result->checkpoint;
+    if (ck == NULL) {
+        dm_run_result_free(result);
+        return run_from(spec, result, NULL, stop, err);
+    }
+    result->checkpoint = NULL;
+    return run_from(spec, result, ck, stop, err);
 }
