@@ -278,6 +278,14 @@ static uint64_t bucket_end_step(uint64_t n_steps, size_t samples, size_t bucket)
     return (n_steps / samples) * (bucket + 1) + (n_steps % samples) * (bucket + 1) / samples;
 }
 
+/* The step at which a fixed-step bucket at step k next polls: the next multiple of
+ * POLL_STEPS, or the bucket's end when sooner. */
+static uint64_t next_poll(uint64_t k, uint64_t k_end)
+{
+    uint64_t next = (k | (POLL_STEPS - 1)) + 1;
+    return next < k_end ? next : k_end;
+}
+
 /* One bucket through the problem's fused loop, stopping at every crossing to log it,
  * and at every multiple of POLL_STEPS to look for a stop request (a call of the loop
  * ends where the next begins: splitting a bucket into calls changes no number). */
@@ -285,9 +293,7 @@ static void bucket_fused(run_context *c, uint64_t k_end)
 {
     dm_fused_run *w = &c->loop;
     for (;;) {
-        uint64_t chunk_end = (w->k | (POLL_STEPS - 1)) + 1;
-        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w,
-                                                 chunk_end < k_end ? chunk_end : k_end);
+        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w, next_poll(w->k, k_end));
         if (ev == DM_FUSED_END && w->k < k_end) {
             publish_progress(c);
             if (stop_requested(c))
@@ -320,7 +326,6 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
     dm_step_monitor *mon = &c->loop.monitor;
     char *reason = c->result->reason;
     const size_t reason_size = sizeof c->result->reason;
-    const uint64_t poll_mask = (c->fixed ? POLL_STEPS : ADAPTIVE_POLL_STEPS) - 1;
     for (;;) {
         if (dm_stepper_step(c->stepper, c->cur, c->nxt) != DM_OK) {
             c->status = DM_RUN_FAILED;
@@ -347,11 +352,11 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
         }
         if (c->fixed ? k >= k_end : c->cur->t >= t_bucket_end)
             break;
-        /* A bucket can be long (and adaptive steps can shrink without bound): a stop
-         * request and the adaptive step budget are checked inside it too. */
-        if ((k & poll_mask) == 0) {
+        /* Adaptive steps can shrink without bound: a stop request and the step budget
+         * are checked inside the bucket too. */
+        if (!c->fixed && (k & (ADAPTIVE_POLL_STEPS - 1)) == 0) {
             publish_progress(c);
-            if (!c->fixed && c->spec->step_budget > 0 && k >= c->spec->step_budget) {
+            if (c->spec->step_budget > 0 && k >= c->spec->step_budget) {
                 c->status = DM_RUN_FAILED;
                 snprintf(reason, reason_size,
                          "took %llu steps, the step budget, before t = %.17g (of %.17g)",
@@ -361,6 +366,21 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
             if (stop_requested(c))
                 break;
         }
+    }
+}
+
+/* A fixed-step bucket a step at a time, in parts ending at the polls (a stop request
+ * is looked for between them: nothing is added to the steps' loop). */
+static void bucket_plain_polled(run_context *c, uint64_t k_end)
+{
+    while (c->status == DM_RUN_OK) {
+        uint64_t limit = next_poll(c->loop.k, k_end);
+        bucket_plain(c, limit, 0.0);
+        if (c->loop.k < limit || c->loop.k >= k_end)
+            break; /* a failure or a divergence, or the bucket's end */
+        publish_progress(c);
+        if (stop_requested(c))
+            break;
     }
 }
 
@@ -615,6 +635,8 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
             dm_monitor_open_bucket(&c->loop.monitor);
         if (c->fused)
             bucket_fused(c, k_end);
+        else if (c->fixed)
+            bucket_plain_polled(c, k_end);
         else
             bucket_plain(c, k_end, t_bucket_end);
         if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
