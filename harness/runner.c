@@ -51,6 +51,16 @@ void dm_run_result_free(dm_run_result *result)
     memset(result, 0, sizeof *result);
 }
 
+/* What allocate() below takes: 4 series, the exact solution's and each invariant's, of
+ * `samples` doubles, and 3 crossing arrays of at least 64. Keep the two together. */
+double dm_run_memory_bytes(const dm_run_spec *spec)
+{
+    const dm_problem *pb = spec->inst.problem;
+    double cap = (double)spec->samples;
+    double series = 4.0 + (pb->exact != NULL) + (pb->invariants != NULL ? pb->n_invariants : 0);
+    return sizeof(dm_run_result) + sizeof(double) * (series * cap + 3.0 * (cap < 64 ? 64 : cap));
+}
+
 static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *err)
 {
     const dm_problem *pb = spec->inst.problem;
@@ -79,7 +89,7 @@ static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *e
     c->phase_error = calloc(c->capacity, sizeof(double));
     ok = ok && c->number && c->time && c->phase_error;
     if (!ok)
-        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for %zu samples", spec->id, cap);
+        return dm_error_set(err, DM_ENOMEM, "out of memory for %zu samples", cap);
     return DM_OK;
 }
 

@@ -178,6 +178,11 @@ dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
                         const volatile int *stop, dm_error *err);
 void dm_run_result_free(dm_run_result *result);
 
+/* The memory a run's result takes (its series and crossing buffers), in bytes: the
+ * suite reader refuses suites whose runs would take more than memory_limit_gib. */
+double dm_run_memory_bytes(const dm_run_spec *spec);
+#define DM_DEFAULT_MEMORY_LIMIT_GIB 8.0
+
 /* ---- many runs at once (pool.c): `run --jobs` and `bench` ---- */
 
 #define DM_POOL_MAX_JOBS 1024
