@@ -108,6 +108,16 @@ def main():
         check(p.returncode == 0, f"uninterrupted run: exit {p.returncode} {p.stderr.strip()}")
         n_runs = len(statuses(full))
         check(n_runs == 12, f"12 runs, got {n_runs}")
+        # stderr not a terminal: one plain line per finished run
+        done_lines = [l for l in p.stderr.splitlines() if " done: " in l]
+        check(len(done_lines) == 12 and "12/12 done" in done_lines[-1],
+              f"one progress line per run: {p.stderr!r}")
+
+        # --plan lists every run and runs nothing
+        p = run([suite, "--plan", "-o", os.path.join(tmp, "never.h5")])
+        check(p.returncode == 0 and p.stdout.count("\n") == 12 + 3 and "rough time" in p.stdout
+              and not os.path.exists(os.path.join(tmp, "never.h5")),
+              f"--plan: {p.returncode} {p.stdout!r} {p.stderr!r}")
 
         # an existing file is refused without --force, and left as it was
         before = open(full, "rb").read()
