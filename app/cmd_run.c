@@ -33,6 +33,30 @@ static void on_signal(int sig)
     stop_flag = 1;
 }
 
+/* The time left from the fraction of the work done so far (the finished runs and the
+ * steps of the running ones), or "?" before a thousandth of it is done. */
+static void time_left(char *out, size_t size, double work, double elapsed)
+{
+    if (work >= 1e-3 && work <= 1.0)
+        snprintf(out, size, "%.0fs", elapsed * (1.0 - work) / work);
+    else
+        snprintf(out, size, "?");
+}
+
+/* Not on a terminal: one plain line per finished run. */
+static void progress_lines(size_t done, size_t total, double work, const char *current,
+                           double elapsed)
+{
+    static size_t shown;
+    if (done == shown || current[0] == '\0')
+        return;
+    shown = done;
+    char left[32];
+    time_left(left, sizeof left, work, elapsed);
+    fprintf(stderr, "driftmark: run: %zu/%zu done: %s (%.0fs elapsed, ~%s left)\n", done,
+            total, current, elapsed, left);
+}
+
 /* One line, redrawn in place: runs done of total, the current run, elapsed, left. */
 /* `work` is the estimated fraction of the suite's work done (runs differ in cost by
  * orders of magnitude, so the time left is not judged by the count of runs). */
@@ -40,8 +64,7 @@ static void progress(size_t done, size_t total, double work, const char *current
                      double elapsed)
 {
     char left[32] = "?";
-    if (work > 0.0 && done > 0)
-        snprintf(left, sizeof left, "%.0fs", elapsed * (1.0 - work) / work);
+    time_left(left, sizeof left, work, elapsed);
     int width = 24;
     int filled = total > 0 ? (int)((double)width * (double)done / (double)total) : width;
     char bar[32];
@@ -68,7 +91,9 @@ static void print_usage(FILE *out)
                  "  -j, --jobs N        runs at once (default: every core)\n"
                  "  -f, --force         replace an existing results file\n"
                  "  -r, --resume FILE   continue the suite stored in FILE: keep its completed\n"
-                 "                      runs, run the rest, and rewrite FILE\n");
+                 "                      runs, run the rest, and rewrite FILE\n"
+                 "      --plan          list the runs, their steps, work and memory and a\n"
+                 "                      rough time (from a short probe), and run nothing\n");
     if (dm_mpi_built())
         fprintf(out, "  under mpirun -n N (this build has MPI) the runs are spread over N\n"
                      "  processes of -j JOBS threads each (default: the cores each may use);\n"
@@ -127,8 +152,14 @@ static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
             dm_suite_free(suite);
             return st == DM_EINPUT ? 2 : 1;
         }
-        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu\n", resume,
+        size_t continued = 0;
+        for (size_t i = 0; i < suite->n_runs; i++)
+            continued += (*results)[i].checkpoint != NULL;
+        fprintf(stderr, "driftmark: run: %s: keeping %zu completed runs, running %zu", resume,
                 kept, suite->n_runs - kept);
+        if (continued > 0)
+            fprintf(stderr, " (%zu continued from their checkpoints)", continued);
+        fputc('\n', stderr);
     }
     return 0;
 }
@@ -154,6 +185,7 @@ typedef struct run_options {
     const char *suite_path;        /* NULL: the built-in default suite */
     const char *output, *resume;
     bool force;
+    bool plan;
     int jobs;
 } run_options;
 
@@ -166,6 +198,7 @@ static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_o
         { "jobs", required_argument, NULL, 'j' },
         { "force", no_argument, NULL, 'f' },
         { "resume", required_argument, NULL, 'r' },
+        { "plan", no_argument, NULL, 'P' },
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
@@ -178,6 +211,7 @@ static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_o
         case 'o': o->output = optarg; break;
         case 'f': o->force = true; break;
         case 'r': o->resume = optarg; break;
+        case 'P': o->plan = true; break;
         case 'j': {
             double v;
             if (dm_parse_double(optarg, &v) != 0 || v < 1 || v > 1024 || v != floor(v))
@@ -215,7 +249,7 @@ static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_res
     if (world->size == 1) {
         dm_error err = { 0 };
         dm_status st = dm_run_pool(suite, results, order, n_order, jobs, &stop_flag,
-                                   tty ? progress : NULL, NULL, &err);
+                                   tty ? progress : progress_lines, NULL, &err);
         if (tty)
             fputc('\n', stderr);
         if (st == DM_OK)
@@ -226,7 +260,8 @@ static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_res
     /* rank 0 hands the runs out to every rank (its own threads too) in this order */
     dm_mpi_job job = { .suite = suite, .results = results, .order = order,
                        .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
-                       .stop_signal = &stop_signal, .progress = tty ? progress : NULL };
+                       .stop_signal = &stop_signal,
+                       .progress = tty ? progress : progress_lines };
     dm_mpi_coordinate(world, &job);
     if (tty)
         fputc('\n', stderr);
@@ -329,9 +364,14 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
         char started[32];
         dm_cli_utc_now(started, sizeof started);
         size_t n_order = 0;
-        for (size_t i = 0; i < suite->n_runs; i++)
-            if (results[i].status == DM_RUN_NOT_RUN)
+        for (size_t i = 0; i < suite->n_runs; i++) {
+            /* The other ranks run from the start: an interrupted run they are handed is
+             * not continued from its checkpoint (the checkpoint stays here). */
+            if (world->size > 1 && results[i].checkpoint != NULL)
+                dm_run_result_free(&results[i]);
+            if (results[i].status == DM_RUN_NOT_RUN || results[i].checkpoint != NULL)
                 order[n_order++] = i;
+        }
         dm_run_order_longest_first(suite, order, n_order);
         /* 3. run them, then write every run that ran and report */
         double t0 = dm_clock_seconds();
@@ -347,6 +387,52 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
     return code;
 }
 
+/* --plan: every run with its steps (fixed-step runs; adaptive ones choose theirs), its
+ * estimated work in force evaluations, the memory its result takes, and the suite's
+ * total with a rough time: the work times the time a force evaluation took in a probe of
+ * 2^20 steps of the first fixed-step run, shared among `jobs` threads. Runs nothing. */
+static int print_plan(const dm_suite *suite, int jobs)
+{
+    double work = 0.0, bytes = 0.0;
+    printf("%-56s %16s %16s %12s\n", "run", "steps", "force evals", "memory MiB");
+    for (size_t i = 0; i < suite->n_runs; i++) {
+        const dm_run_spec *spec = &suite->runs[i];
+        double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
+        char steps[32] = "adaptive";
+        if (!spec->method->adaptive)
+            snprintf(steps, sizeof steps, "%.0f", ceil(spec->t_end / fabs(spec->method_config.h)));
+        printf("%-56s %16s %16.4g %12.1f\n", spec->id, steps, cost, mem / 1048576.0);
+        work += cost;
+        bytes += mem;
+    }
+    printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
+           bytes / 1048576.0);
+    for (size_t i = 0; i < suite->n_runs; i++) {
+        if (suite->runs[i].method->adaptive)
+            continue;
+        dm_run_spec probe = suite->runs[i];
+        double steps = 1048576.0;
+        if (probe.t_end > steps * fabs(probe.method_config.h))
+            probe.t_end = steps * fabs(probe.method_config.h);
+        probe.samples = 1;
+        dm_run_result r;
+        dm_error err = { 0 };
+        double t0 = dm_clock_seconds();
+        if (dm_run(&probe, &r, NULL, &err) != DM_OK)
+            break;
+        double seconds = dm_clock_seconds() - t0, evals = (double)r.metrics.counts.force_evals;
+        dm_run_result_free(&r);
+        if (evals > 0)
+            printf("rough time: %.0f s on %d threads (%.3g ns a force evaluation in a probe of "
+                   "%s; adaptive runs are a guess from their tolerance)\n",
+                   work * seconds / evals / (jobs < (int)suite->n_runs ? jobs : (int)suite->n_runs),
+                   jobs, 1e9 * seconds / evals, suite->runs[i].id);
+        return 0;
+    }
+    printf("rough time: not estimated (no fixed-step run to probe)\n");
+    return 0;
+}
+
 /* The command on one rank: read the command line; rank 0 loads the suite and every
  * rank learns it; rank 0 runs it (with the others' help) and writes the file, the
  * others run what rank 0 hands them. */
@@ -359,6 +445,19 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
 
     dm_suite suite;
     memset(&suite, 0, sizeof suite);
+    if (o.plan) {
+        if (world->rank > 0)
+            return 0;
+        dm_error err = { 0 };
+        dm_status st = load_suite(&suite, o.suite_path, o.output, o.resume, &err);
+        if (st != DM_OK) {
+            fprintf(stderr, "driftmark: run: %s\n", err.msg);
+            return st == DM_EINPUT ? 2 : 1;
+        }
+        code = print_plan(&suite, o.jobs);
+        dm_suite_free(&suite);
+        return code;
+    }
     dm_run_result *results = NULL;
     code = world->rank == 0 ? prepare(&suite, &results, o.suite_path, o.output, o.resume,
                                       o.force)

@@ -9,6 +9,7 @@
 #include <pthread.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "dm_clock.h"
 #include "harness.h"
@@ -54,22 +55,55 @@ static bool stopped(const dm_work_queue *q)
     return q->stop != NULL && *q->stop;
 }
 
-/* Redraws the progress line (under the lock); `current` NULL: the run handed out last. */
+/* Redraws the progress line (under the lock); `current` NULL: the run handed out last.
+ * The work done counts the finished runs and the part of each run running here that
+ * its runner has published (runs on other ranks count when they finish). */
 static void show_progress(dm_work_queue *q, const char *current)
 {
     if (q->progress == NULL)
         return;
-    double total = q->cost_total > 0.0 ? q->cost_total : 1.0;
-    q->progress(q->done, q->n_order, q->cost_done / total,
-                current ? current : q->current ? q->current : "", dm_clock_seconds() - q->t0);
+    double total = q->cost_total > 0.0 ? q->cost_total : 1.0, done = q->cost_done;
+    char line[DM_RUN_ID_MAX + 64] = "";
+    for (size_t i = 0; i < q->suite->n_runs; i++) {
+        if (!q->running[i])
+            continue;
+        const dm_run_result *r = &q->results[i];
+        double f = (double)__atomic_load_n(&r->live_fraction, __ATOMIC_RELAXED) / 4294967296.0;
+        done += f * dm_run_estimated_cost(&q->suite->runs[i]);
+        if (current == NULL && line[0] == '\0')
+            snprintf(line, sizeof line, "%s %.0f%% (%llu steps)", q->suite->runs[i].id,
+                     100.0 * f,
+                     (unsigned long long)__atomic_load_n(&r->live_steps, __ATOMIC_RELAXED));
+    }
+    if (current == NULL)
+        current = line[0] ? line : q->current ? q->current : "";
+    q->progress(q->done, q->n_order, done / total, current, dm_clock_seconds() - q->t0);
 }
 
-/* Counts run i done (under the lock). */
+/* Redraws the progress every second while runs run. */
+static void *ticker_thread(void *arg)
+{
+    dm_work_queue *q = arg;
+    pthread_mutex_lock(&q->lock);
+    while (q->ticking) {
+        struct timespec until;
+        clock_gettime(CLOCK_REALTIME, &until);
+        until.tv_sec += 1;
+        pthread_cond_timedwait(&q->wake, &q->lock, &until);
+        if (q->ticking)
+            show_progress(q, NULL);
+    }
+    pthread_mutex_unlock(&q->lock);
+    return NULL;
+}
+
+/* Counts run i done (under the lock); the progress names it. */
 static void count_done(dm_work_queue *q, size_t i)
 {
     q->done++;
+    q->running[i] = 0;
     q->cost_done += dm_run_estimated_cost(&q->suite->runs[i]);
-    show_progress(q, NULL);
+    show_progress(q, q->suite->runs[i].id);
 }
 
 /* Keeps the first failure and wakes every waiting thread (under the lock). */
@@ -88,9 +122,11 @@ dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *
     size_t n = suite->n_runs ? suite->n_runs : 1;
     q->order = malloc(n * sizeof *q->order);
     q->finished = malloc(n * sizeof *q->finished);
-    if (q->order == NULL || q->finished == NULL) {
+    q->running = calloc(n, sizeof *q->running);
+    if (q->order == NULL || q->finished == NULL || q->running == NULL) {
         free(q->order);
         free(q->finished);
+        free(q->running);
         return dm_error_set(err, DM_ENOMEM, "out of memory for the run queue of %zu runs", n);
     }
     q->suite = suite;
@@ -101,6 +137,9 @@ dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *
     q->t0 = dm_clock_seconds();
     pthread_mutex_init(&q->lock, NULL);
     pthread_cond_init(&q->wake, NULL);
+    q->ticking = progress != NULL;
+    if (q->ticking && pthread_create(&q->ticker, NULL, ticker_thread, q) != 0)
+        q->ticking = false;
     return DM_OK;
 }
 
@@ -138,14 +177,19 @@ void dm_queue_serve(dm_work_queue *q)
         size_t i = q->order[q->next++];
         const dm_run_spec *spec = &q->suite->runs[i];
         q->current = spec->id;
+        q->running[i] = 1;
         show_progress(q, spec->id);
         pthread_mutex_unlock(&q->lock);
 
         dm_error err = { 0 };
-        dm_status st = dm_run(spec, &q->results[i], q->stop, &err);
+        /* an interrupted run read back with its checkpoint continues from it */
+        dm_status st = q->results[i].checkpoint != NULL
+                           ? dm_run_resume(spec, &q->results[i], q->stop, &err)
+                           : dm_run(spec, &q->results[i], q->stop, &err);
 
         pthread_mutex_lock(&q->lock);
         if (st != DM_OK) {
+            q->running[i] = 0;
             dm_error_prefix(&err, "%s: ", spec->id);
             record_failure(q, &err);
             break;
@@ -239,6 +283,13 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
     dm_queue_close(q);
     for (int j = 0; j < q->n_threads; j++)
         pthread_join(q->threads[j], NULL);
+    pthread_mutex_lock(&q->lock);
+    bool ticking = q->ticking;
+    q->ticking = false;
+    pthread_cond_broadcast(&q->wake);
+    pthread_mutex_unlock(&q->lock);
+    if (ticking)
+        pthread_join(q->ticker, NULL);
     show_progress(q, "");
     if (done != NULL)
         *done = q->done;
@@ -246,7 +297,9 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
     pthread_cond_destroy(&q->wake);
     free(q->order);
     free(q->finished);
+    free(q->running);
     q->order = q->finished = NULL;
+    q->running = NULL;
     if (!q->failed)
         return DM_OK;
     if (err != NULL)

@@ -40,6 +40,9 @@ typedef struct dm_work_queue {
     double cost_total, cost_done;  /* estimated work, for the time left */
     double t0;                     /* dm_clock_seconds() at dm_queue_init */
     const char *current;           /* the run handed out last */
+    unsigned char *running;        /* running[i]: run i runs on a thread here */
+    pthread_t ticker;              /* redraws the progress every second (with progress) */
+    bool ticking;
     pthread_t threads[DM_POOL_MAX_JOBS];
     int n_threads;
 } dm_work_queue;

@@ -22,6 +22,7 @@
 #include <hdf5.h>
 #include <sundials/sundials_config.h>
 
+#include "checkpoint.h"
 #include "dm_build_info.h"
 #include "harness.h"
 
@@ -458,6 +459,8 @@ static int write_run(hid_t runs, const dm_suite *suite, const dm_run_spec *spec,
     int rc = write_run_description(g, suite, spec);
     rc |= write_run_figures(g, spec, res);
     rc |= write_run_series(g, spec->inst.problem, res);
+    if (res->status == DM_RUN_INTERRUPTED && res->checkpoint != NULL)
+        rc |= dm_checkpoint_write(g, res->checkpoint);
     if (H5Gclose(g) < 0)
         rc = -1;
     return rc;
@@ -1070,8 +1073,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     }
     for (size_t k = 0; k < n; k++) {
         dm_run_status was = status_from_name(rows[k].status);
-        /* Interrupted runs are run again from the start. */
-        if (was == DM_RUN_NOT_RUN || was == DM_RUN_INTERRUPTED)
+        if (was == DM_RUN_NOT_RUN)
             continue;
         for (size_t i = 0; i < suite->n_runs; i++) {
             const dm_run_spec *spec = &suite->runs[i];
@@ -1084,14 +1086,24 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             safe_name(spec->id, gname, sizeof gname);
             hid_t g = H5Gopen2(runs, gname, H5P_DEFAULT);
             int got = g >= 0 ? read_run(g, spec, &rows[k], &results[i]) : -1;
+            /* An interrupted run continues from its checkpoint, or without one (a file
+             * from before checkpoints) runs again from the start. */
+            if (got == 0 && was == DM_RUN_INTERRUPTED) {
+                got = dm_checkpoint_read(g, spec, &results[i], &results[i].checkpoint);
+                if (got == 1)
+                    dm_run_result_free(&results[i]);
+                got = got == 1 ? 0 : got;
+            }
             if (g >= 0)
                 H5Gclose(g);
             if (got != 0) {
+                dm_run_result_free(&results[i]);
                 st = dm_error_set(err, DM_EIO, "cannot read %s: run %s is damaged", path,
                                   spec->id);
                 goto done;
             }
-            (*kept)++;
+            if (was != DM_RUN_INTERRUPTED)
+                (*kept)++;
             break;
         }
     }

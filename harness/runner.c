@@ -12,7 +12,13 @@
 #include <string.h>
 #include "dm_clock.h"
 #include "dm_line_fit.h"
+#include "checkpoint.h"
 #include "harness.h"
+
+/* A stop request is polled, and the progress published, every POLL_STEPS steps of a
+ * fixed-step run (every ADAPTIVE_POLL_STEPS adaptive steps) and at bucket ends. */
+#define POLL_STEPS ((uint64_t)1 << 16)
+#define ADAPTIVE_POLL_STEPS ((uint64_t)4096)
 
 const char *dm_run_status_name(dm_run_status status)
 {
@@ -41,7 +47,18 @@ void dm_run_result_free(dm_run_result *result)
     free(result->crossings.number);
     free(result->crossings.time);
     free(result->crossings.phase_error);
+    free(result->checkpoint);
     memset(result, 0, sizeof *result);
+}
+
+/* What allocate() below takes: 4 series, the exact solution's and each invariant's, of
+ * `samples` doubles, and 3 crossing arrays of at least 64. Keep the two together. */
+double dm_run_memory_bytes(const dm_run_spec *spec)
+{
+    const dm_problem *pb = spec->inst.problem;
+    double cap = (double)spec->samples;
+    double series = 4.0 + (pb->exact != NULL) + (pb->invariants != NULL ? pb->n_invariants : 0);
+    return sizeof(dm_run_result) + sizeof(double) * (series * cap + 3.0 * (cap < 64 ? 64 : cap));
 }
 
 static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *err)
@@ -72,7 +89,7 @@ static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *e
     c->phase_error = calloc(c->capacity, sizeof(double));
     ok = ok && c->number && c->time && c->phase_error;
     if (!ok)
-        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for %zu samples", spec->id, cap);
+        return dm_error_set(err, DM_ENOMEM, "out of memory for %zu samples", cap);
     return DM_OK;
 }
 
@@ -205,6 +222,23 @@ typedef struct run_context {
     dm_run_status status;
 } run_context;
 
+static bool stop_requested(const run_context *c)
+{
+    return c->stop != NULL && *c->stop;
+}
+
+/* The steps and the fraction of the horizon done, for a progress reader on another
+ * thread (a relaxed store: a slightly old value is fine). */
+static void publish_progress(run_context *c)
+{
+    double f = c->fixed ? (c->n_steps > 0 ? (double)c->loop.k / (double)c->n_steps : 1.0)
+                        : c->cur->t / c->spec->t_end;
+    f = f > 0.0 ? (f < 1.0 ? f : 1.0) : 0.0;
+    __atomic_store_n(&c->result->live_steps, c->loop.k, __ATOMIC_RELAXED);
+    __atomic_store_n(&c->result->live_fraction, (uint64_t)(f * 4294967296.0),
+                     __ATOMIC_RELAXED);
+}
+
 /* dE is (H - H0) / E_scale with E_scale = H0 - V_min where the potential has a finite
  * minimum below H0, else |H0| (1 when H0 is 0). */
 static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, double H0)
@@ -254,12 +288,28 @@ static uint64_t bucket_end_step(uint64_t n_steps, size_t samples, size_t bucket)
     return (n_steps / samples) * (bucket + 1) + (n_steps % samples) * (bucket + 1) / samples;
 }
 
-/* One bucket through the problem's fused loop, stopping at every crossing to log it. */
+/* The step at which a fixed-step bucket at step k next polls: the next multiple of
+ * POLL_STEPS, or the bucket's end when sooner. */
+static uint64_t next_poll(uint64_t k, uint64_t k_end)
+{
+    uint64_t next = (k | (POLL_STEPS - 1)) + 1;
+    return next < k_end ? next : k_end;
+}
+
+/* One bucket through the problem's fused loop, stopping at every crossing to log it,
+ * and at every multiple of POLL_STEPS to look for a stop request (a call of the loop
+ * ends where the next begins: splitting a bucket into calls changes no number). */
 static void bucket_fused(run_context *c, uint64_t k_end)
 {
     dm_fused_run *w = &c->loop;
     for (;;) {
-        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w, k_end);
+        dm_fused_event ev = dm_stepper_run_fused(c->stepper, w, next_poll(w->k, k_end));
+        if (ev == DM_FUSED_END && w->k < k_end) {
+            publish_progress(c);
+            if (stop_requested(c))
+                break;
+            continue;
+        }
         if (ev == DM_FUSED_CROSSING) {
             crossing_add(&c->log, w->monitor.coord, w->monitor.crossed_level,
                          dm_step_time(0.0, w->k - 1, c->h), w->x_prev,
@@ -314,7 +364,8 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
             break;
         /* Adaptive steps can shrink without bound: a stop request and the step budget
          * are checked inside the bucket too. */
-        if (!c->fixed && (k & 4095) == 0) {
+        if (!c->fixed && (k & (ADAPTIVE_POLL_STEPS - 1)) == 0) {
+            publish_progress(c);
             if (c->spec->step_budget > 0 && k >= c->spec->step_budget) {
                 c->status = DM_RUN_FAILED;
                 snprintf(reason, reason_size,
@@ -322,9 +373,24 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
                          (unsigned long long)k, c->cur->t, c->spec->t_end);
                 break;
             }
-            if (c->stop != NULL && *c->stop)
+            if (stop_requested(c))
                 break;
         }
+    }
+}
+
+/* A fixed-step bucket a step at a time, in parts ending at the polls (a stop request
+ * is looked for between them: nothing is added to the steps' loop). */
+static void bucket_plain_polled(run_context *c, uint64_t k_end)
+{
+    while (c->status == DM_RUN_OK) {
+        uint64_t limit = next_poll(c->loop.k, k_end);
+        bucket_plain(c, limit, 0.0);
+        if (c->loop.k < limit || c->loop.k >= k_end)
+            break; /* a failure or a divergence, or the bucket's end */
+        publish_progress(c);
+        if (stop_requested(c))
+            break;
     }
 }
 
@@ -417,21 +483,104 @@ static void finish_metrics(run_context *c, double wall)
     result->crossings.total = c->log.count;
 }
 
-/* One run:
- *  1. allocate the series; choose the energy scale; note the starting invariants;
- *  2. create the stepper (a failure here is a failed run, not an error);
- *  3. set up the monitor and probe for the fused loop;
- *  4. run the buckets, each through the fused loop or a step at a time, recording
- *     each bucket's end, until the horizon, a divergence, a failure or a stop;
- *  5. compute the run's figures. */
-dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
-                 dm_error *err)
+/* The run's whole state into a new checkpoint (result->checkpoint): `bucket` is the
+ * bucket to run next, or the one stopped inside when in_bucket. Without memory for it
+ * the run is still interrupted; --resume then runs it again from the start. */
+static void checkpoint_take(run_context *c, size_t bucket, bool in_bucket, double wall)
 {
-    memset(result, 0, sizeof *result);
-    dm_status rc = allocate(result, spec, err);
-    if (rc != DM_OK) {
-        dm_run_result_free(result);
-        return rc;
+    dm_checkpoint *ck = calloc(1, sizeof *ck);
+    if (ck == NULL)
+        return;
+    const int n = c->inst->dof;
+    *ck = (dm_checkpoint){ .dof = (uint64_t)n, .bucket = bucket, .in_bucket = in_bucket,
+                           .k = c->loop.k, .t = c->cur->t, .potential = c->cur->potential,
+                           .monitor = c->loop.monitor, .phase_fit = c->log.fit,
+                           .crossing_count = c->log.count, .last_phase = c->log.last_phase,
+                           .crossing_stride = c->result->crossings.stride,
+                           .drift_fit = c->drift_fit, .max_abs = c->max_abs,
+                           .series_n = c->result->series.n,
+                           .crossings_n = c->result->crossings.n, .wall_seconds = wall };
+    /* the fused path keeps the state in loop.x, the per-step path in cur */
+    memcpy(ck->x, c->fused ? c->loop.x : c->cur->x, sizeof(double) * 2 * (size_t)n);
+    memcpy(ck->max_invariant_error, c->result->metrics.max_invariant_error,
+           sizeof ck->max_invariant_error);
+    ck->n_stepper = dm_stepper_save(c->stepper, ck->stepper, DM_STEPPER_RECORD_MAX);
+    c->result->checkpoint = ck;
+}
+
+/* Back to the state of *ck, after the stepper and the monitor were set up as for a new
+ * run; *bucket and *in_bucket say where to go on. */
+static dm_status checkpoint_restore(run_context *c, const dm_checkpoint *ck, size_t *bucket,
+                                    bool *in_bucket, dm_error *err)
+{
+    const int n = c->inst->dof;
+    const dm_run_spec *spec = c->spec;
+    dm_series *ser = &c->result->series;
+    if (ck->dof != (uint64_t)n || ck->bucket >= spec->samples || ser->n > ck->bucket ||
+        ser->capacity != spec->samples || ck->crossing_stride < 1 ||
+        (c->fixed && ck->k > c->n_steps))
+        return dm_error_set(err, DM_EINPUT, "%s: its checkpoint does not fit the run",
+                            spec->id);
+    c->loop.k = ck->k;
+    memcpy(c->loop.x, ck->x, sizeof(double) * 2 * (size_t)n);
+    memcpy(c->cur->x, ck->x, sizeof(double) * 2 * (size_t)n);
+    c->cur->t = ck->t;
+    c->cur->potential = ck->potential;
+    dm_step_monitor *m = &c->loop.monitor;
+    m->level = ck->monitor.level;
+    m->armed = ck->monitor.armed;
+    m->bucket_min = ck->monitor.bucket_min;
+    m->bucket_max = ck->monitor.bucket_max;
+    m->energy_error = ck->monitor.energy_error;
+    m->crossed_level = ck->monitor.crossed_level;
+    c->log.fit = ck->phase_fit;
+    c->log.count = ck->crossing_count;
+    c->log.last_phase = ck->last_phase;
+    c->result->crossings.stride = ck->crossing_stride;
+    c->drift_fit = ck->drift_fit;
+    c->max_abs = ck->max_abs;
+    memcpy(c->result->metrics.max_invariant_error, ck->max_invariant_error,
+           sizeof ck->max_invariant_error);
+    if (dm_stepper_load(c->stepper, ck->stepper, ck->n_stepper, c->cur) != DM_OK)
+        return dm_error_set(err, DM_EINPUT, "%s: %s", spec->id, c->stepper->error.msg);
+    *bucket = ck->bucket;
+    *in_bucket = ck->in_bucket;
+    return DM_OK;
+}
+
+/* Marks the run interrupted at its current point. */
+static void interrupt(run_context *c)
+{
+    c->status = DM_RUN_INTERRUPTED;
+    snprintf(c->result->reason, sizeof c->result->reason, "interrupted at step %llu, t = %.17g",
+             (unsigned long long)c->loop.k, c->cur->t);
+}
+
+/* One run, new (ck NULL) or continued from a checkpoint:
+ *  1. allocate the series (a continued run has them); choose the energy scale; note the
+ *     starting invariants;
+ *  2. create the stepper (a failure here is a failed run, not an error);
+ *  3. set up the monitor and probe for the fused loop; go back to the checkpoint;
+ *  4. run the buckets, each through the fused loop or a step at a time, recording
+ *     each bucket's end, until the horizon, a divergence, a failure or a stop (which
+ *     takes a checkpoint);
+ *  5. compute the run's figures. */
+static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_checkpoint *ck,
+                          const volatile int *stop, dm_error *err)
+{
+    dm_status rc = DM_OK;
+    if (ck == NULL) {
+        memset(result, 0, sizeof *result);
+        rc = allocate(result, spec, err);
+        if (rc != DM_OK) {
+            dm_run_result_free(result);
+            return rc;
+        }
+    } else {
+        /* keep the series, the crossings and the regime change found so far */
+        result->status = DM_RUN_NOT_RUN;
+        result->reason[0] = '\0';
+        memset(&result->metrics, 0, sizeof result->metrics);
     }
     run_context *c = &(run_context){ .spec = spec, .inst = &spec->inst, .result = result,
                                      .stop = stop, .status = DM_RUN_OK };
@@ -454,6 +603,7 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
         snprintf(result->reason, sizeof result->reason, "%s", err ? err->msg : "create failed");
         dm_error_clear(err);
         m->period_exact = inst->period;
+        free(ck);
         return DM_OK;
     }
     c->fixed = !spec->method->adaptive;
@@ -469,32 +619,73 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
     /* The fused loop when the method and the problem offer it: probed with zero steps. */
     c->fused = c->fixed &&
                dm_stepper_run_fused(c->stepper, &c->loop, 0) != DM_FUSED_UNSUPPORTED;
+    size_t first = 0;
+    bool inside = false;   /* the first bucket was begun before the checkpoint */
+    double wall_before = 0.0;
+    if (ck != NULL) {
+        rc = checkpoint_restore(c, ck, &first, &inside, err);
+        wall_before = ck->wall_seconds;
+        free(ck);
+        if (rc != DM_OK) {
+            dm_stepper_destroy(c->stepper);
+            return rc;
+        }
+    }
 
     const size_t samples = spec->samples;
     double t_start = dm_clock_seconds();
-    for (size_t bucket = 0; bucket < samples && c->status == DM_RUN_OK; bucket++) {
+    for (size_t bucket = first; bucket < samples && c->status == DM_RUN_OK; bucket++) {
         uint64_t k_end = c->fixed ? bucket_end_step(c->n_steps, samples, bucket) : 0;
         double t_bucket_end = (bucket + 1 == samples)
                                   ? spec->t_end
                                   : spec->t_end * (double)(bucket + 1) / (double)samples;
         if (c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end)
             continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
-        dm_monitor_open_bucket(&c->loop.monitor);
+        if (!(inside && bucket == first))
+            dm_monitor_open_bucket(&c->loop.monitor);
         if (c->fused)
             bucket_fused(c, k_end);
+        else if (c->fixed)
+            bucket_plain_polled(c, k_end);
         else
             bucket_plain(c, k_end, t_bucket_end);
         if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
             break; /* failed on the bucket's first step: nothing to record */
+        bool ended = c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end;
+        if (c->status == DM_RUN_OK && !ended) {
+            /* stopped inside the bucket: it is not recorded; the checkpoint keeps its
+             * extremes so far */
+            interrupt(c);
+            checkpoint_take(c, bucket, true, wall_before + dm_clock_seconds() - t_start);
+            break;
+        }
         record_bucket(c);
-        if (stop != NULL && *stop && c->status == DM_RUN_OK && bucket + 1 < samples) {
-            c->status = DM_RUN_INTERRUPTED;
-            snprintf(result->reason, sizeof result->reason,
-                     "interrupted at step %llu, t = %.17g", (unsigned long long)c->loop.k,
-                     c->cur->t);
+        publish_progress(c);
+        bool at_horizon = c->fixed ? c->loop.k >= c->n_steps : c->cur->t >= spec->t_end;
+        if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
+            interrupt(c);
+            checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
         }
     }
-    finish_metrics(c, dm_clock_seconds() - t_start);
+    finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
     dm_stepper_destroy(c->stepper);
     return DM_OK;
+}
+
+dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
+                 dm_error *err)
+{
+    return run_from(spec, result, NULL, stop, err);
+}
+
+dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
+                        const volatile int *stop, dm_error *err)
+{
+    dm_checkpoint *ck = result->checkpoint;
+    if (ck == NULL) {
+        dm_run_result_free(result);
+        return run_from(spec, result, NULL, stop, err);
+    }
+    result->checkpoint = NULL;
+    return run_from(spec, result, ck, stop, err);
 }

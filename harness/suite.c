@@ -414,6 +414,7 @@ typedef struct suite_build {
     const yaml_node_t *output_node;   /* NULL: output derived from the name */
     const char *output_override;      /* the command line's -o, or NULL */
     const yaml_node_t *step_budget_node;
+    double memory_limit_gib;          /* the runs' series may take this much memory */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
 } suite_build;
@@ -433,9 +434,9 @@ static void build_free(suite_build *b)
 
 static const char *const top_keys[] = { "name", "output", "horizon", "samples",
                                         "energy_limit", "step_budget", "problems",
-                                        "methods" };
+                                        "methods", "memory_limit_gib" };
 enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_SAMPLES, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
-       TOP_PROBLEMS, TOP_METHODS, TOP_COUNT };
+       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_COUNT };
 
 static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
 {
@@ -1198,6 +1199,12 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
                          "in [1, 1e18])", b->step_budget);
         b->step_budget_node = value;
         break;
+    case TOP_MEMORY_LIMIT:
+        st = get_positive(c, value, "memory_limit_gib", &b->memory_limit_gib);
+        if (st == DM_OK && !(b->memory_limit_gib <= 1e6))
+            st = fail_at(c, value, "memory_limit_gib = %g is out of range (expected a number "
+                         "of GiB up to 1e6)", b->memory_limit_gib);
+        break;
     case TOP_PROBLEMS:
         st = parse_list(b, value, true);
         break;
@@ -1290,6 +1297,19 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
 
     if ((st = expand_runs(b, suite)) != DM_OK)
         return st;
+    /* Every run's series stays in memory until the file is written: refuse up front a
+     * suite that would run out of it part way. */
+    double bytes = 0.0;
+    for (size_t i = 0; i < suite->n_runs; i++)
+        bytes += dm_run_memory_bytes(&suite->runs[i]);
+    double gib = bytes / 1073741824.0;
+    if (gib > b->memory_limit_gib) {
+        const yaml_node_t *at = value_of[TOP_MEMORY_LIMIT] ? value_of[TOP_MEMORY_LIMIT]
+                                : value_of[TOP_SAMPLES] ? value_of[TOP_SAMPLES] : root;
+        return fail_at(c, at, "the %zu runs' series would take about %.3g GiB of memory, above "
+                       "memory_limit_gib = %g (expected fewer samples or runs, or a larger "
+                       "memory_limit_gib)", suite->n_runs, gib, b->memory_limit_gib);
+    }
     return resolve_output(b, suite, root);
 }
 
@@ -1338,6 +1358,7 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     b.samples = DM_DEFAULT_SAMPLES;
     b.energy_limit = 1.0;
     b.step_budget = DM_DEFAULT_STEP_BUDGET;
+    b.memory_limit_gib = DM_DEFAULT_MEMORY_LIMIT_GIB;
     dm_status st = parse_document(&b, suite);
 
     /* One suite per file: a second document is almost surely a mistake. */

@@ -419,6 +419,34 @@ static dm_status cvode_restart(dm_stepper *s, const dm_point *at)
     return DM_OK;
 }
 
+/* Checkpoints (method.h): nothing of CVODE's own (its history and step size are not
+ * saved); a load restarts it at the point, carrying the work counted so far. */
+static size_t cvode_save(const dm_stepper *s, uint64_t *words, size_t capacity)
+{
+    (void)s;
+    (void)words;
+    (void)capacity;
+    return 0;
+}
+
+static dm_status cvode_load(dm_stepper *s, const uint64_t *words, size_t n,
+                            const dm_point *at, const dm_counts *counts)
+{
+    (void)words;
+    if (n != 0)
+        return dm_error_set(&s->error, DM_EINPUT, "%s: a checkpoint of %zu words, not 0",
+                            s->method->id, n);
+    dm_status st = cvode_restart(s, at);
+    if (st != DM_OK)
+        return st;
+    cvode_stepper *c = (cvode_stepper *)s;
+    s->counts = *counts;
+    c->carried = *counts;
+    c->carried.force_evals = c->carried.velocity_evals = 0; /* ours, never reset */
+    c->carried.max_iters_in_step = 0;
+    return DM_OK;
+}
+
 /* `order` holds the maximum order: CVODE varies the order from 1 up to it. */
 const dm_method dm_cvode_bdf = {
     .id = "cvode-bdf",
@@ -433,6 +461,8 @@ const dm_method dm_cvode_bdf = {
     .create = cvode_create,
     .step = cvode_step,
     .restart = cvode_restart,
+    .save = cvode_save,
+    .load = cvode_load,
     .destroy = cvode_destroy,
     .sync_counts = cvode_sync_counts,
 };
@@ -450,6 +480,8 @@ const dm_method dm_cvode_adams = {
     .create = cvode_create,
     .step = cvode_step,
     .restart = cvode_restart,
+    .save = cvode_save,
+    .load = cvode_load,
     .destroy = cvode_destroy,
     .sync_counts = cvode_sync_counts,
 };

@@ -152,6 +152,39 @@ static void midpoint_destroy(dm_stepper *base)
     free(s);
 }
 
+/* Checkpoints (method.h): the step clock and the predictor (the last step's slope). */
+static size_t midpoint_save(const dm_stepper *base, uint64_t *w, size_t capacity)
+{
+    const midpoint_stepper *s = (const midpoint_stepper *)base;
+    size_t n = 2 * (size_t)base->dof;
+    if (capacity < 3 + n)
+        return 0;
+    w[0] = dm_word_of_double(s->clock.origin);
+    w[1] = s->clock.n;
+    w[2] = s->slope_valid;
+    for (size_t c = 0; c < n; c++)
+        w[3 + c] = dm_word_of_double(s->slope[c]);
+    return 3 + n;
+}
+
+static dm_status midpoint_load(dm_stepper *base, const uint64_t *w, size_t n,
+                               const dm_point *at, const dm_counts *counts)
+{
+    midpoint_stepper *s = (midpoint_stepper *)base;
+    size_t want = 3 + 2 * (size_t)base->dof;
+    if (n != want)
+        return dm_error_set(&base->error, DM_EINPUT, "%s: a checkpoint of %zu words, not %zu",
+                            base->method->id, n, want);
+    restart_at(s, at);
+    s->clock.origin = dm_double_of_word(w[0]);
+    s->clock.n = w[1];
+    s->slope_valid = w[2] != 0;
+    for (size_t c = 0; c + 3 < want; c++)
+        s->slope[c] = dm_double_of_word(w[3 + c]);
+    base->counts = *counts;
+    return DM_OK;
+}
+
 const dm_method dm_midpoint = {
     .id = "midpoint",
     .name = "implicit midpoint rule",
@@ -166,4 +199,6 @@ const dm_method dm_midpoint = {
     .step = midpoint_step,
     .restart = midpoint_restart,
     .destroy = midpoint_destroy,
+    .save = midpoint_save,
+    .load = midpoint_load,
 };

@@ -120,3 +120,34 @@ void dm_stepper_destroy(dm_stepper *s)
     else
         s->method->destroy(s);
 }
+
+/* ---- checkpoints: the work counted, then the method's own words ---- */
+
+#define COUNT_WORDS (sizeof(dm_counts) / sizeof(uint64_t))
+
+size_t dm_stepper_save(dm_stepper *s, uint64_t *words, size_t capacity)
+{
+    if (capacity > DM_STEPPER_RECORD_MAX)
+        capacity = DM_STEPPER_RECORD_MAX;
+    if (capacity < COUNT_WORDS)
+        return 0;
+    memcpy(words, dm_stepper_counts(s), sizeof(dm_counts));
+    size_t own = 0;
+    if (s->method->splitting != NULL)
+        own = dm_splitting_save(s, words + COUNT_WORDS, capacity - COUNT_WORDS);
+    else if (s->method->save != NULL)
+        own = s->method->save(s, words + COUNT_WORDS, capacity - COUNT_WORDS);
+    return COUNT_WORDS + own;
+}
+
+dm_status dm_stepper_load(dm_stepper *s, const uint64_t *words, size_t n, const dm_point *at)
+{
+    if (n < COUNT_WORDS || (s->method->splitting == NULL && s->method->load == NULL))
+        return dm_error_set(&s->error, DM_EINPUT, "%s: a checkpoint of %zu words is not one "
+                            "of this method's", s->method->id, n);
+    dm_counts counts;
+    memcpy(&counts, words, sizeof counts);
+    if (s->method->splitting != NULL)
+        return dm_splitting_load(s, words + COUNT_WORDS, n - COUNT_WORDS, at, &counts);
+    return s->method->load(s, words + COUNT_WORDS, n - COUNT_WORDS, at, &counts);
+}

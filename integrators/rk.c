@@ -134,6 +134,31 @@ static void rk_destroy(dm_stepper *base)
     free(s);
 }
 
+/* Checkpoints (method.h): the step clock; the stages are recomputed each step. */
+static size_t rk_save(const dm_stepper *base, uint64_t *w, size_t capacity)
+{
+    const rk_stepper *s = (const rk_stepper *)base;
+    if (capacity < 2)
+        return 0;
+    w[0] = dm_word_of_double(s->clock.origin);
+    w[1] = s->clock.n;
+    return 2;
+}
+
+static dm_status rk_load(dm_stepper *base, const uint64_t *w, size_t n, const dm_point *at,
+                         const dm_counts *counts)
+{
+    rk_stepper *s = (rk_stepper *)base;
+    if (n != 2)
+        return dm_error_set(&base->error, DM_EINPUT, "%s: a checkpoint of %zu words, not 2",
+                            base->method->id, n);
+    restart_at(s, at);
+    s->clock.origin = dm_double_of_word(w[0]);
+    s->clock.n = w[1];
+    base->counts = *counts;
+    return DM_OK;
+}
+
 const dm_method dm_euler = {
     .id = "euler",
     .name = "explicit Euler",
@@ -147,6 +172,8 @@ const dm_method dm_euler = {
     .step = rk_step,
     .restart = rk_restart,
     .destroy = rk_destroy,
+    .save = rk_save,
+    .load = rk_load,
 };
 
 const dm_method dm_rk4 = {
@@ -163,4 +190,6 @@ const dm_method dm_rk4 = {
     .step = rk_step,
     .restart = rk_restart,
     .destroy = rk_destroy,
+    .save = rk_save,
+    .load = rk_load,
 };

@@ -232,3 +232,59 @@ void dm_splitting_destroy(dm_stepper *base)
     free(s->ch);
     free(s);
 }
+
+/* ---- checkpoints: clock origin and count, the per-step FSAL force (valid, V, grad),
+ * the compensation (2 dof), the fused loop's FSAL force (valid, V, grad) ---- */
+
+static size_t splitting_words(int dof)
+{
+    return 6 + 4 * (size_t)dof;
+}
+
+size_t dm_splitting_save(const dm_stepper *base, uint64_t *w, size_t capacity)
+{
+    const splitting_stepper *s = (const splitting_stepper *)base;
+    int dof = base->dof;
+    if (capacity < splitting_words(dof))
+        return 0;
+    size_t i = 0;
+    w[i++] = dm_word_of_double(s->clock.origin);
+    w[i++] = s->clock.n;
+    w[i++] = s->force_valid;
+    w[i++] = dm_word_of_double(s->cached_potential);
+    for (int j = 0; j < dof; j++)
+        w[i++] = dm_word_of_double(s->grad[j]);
+    for (int j = 0; j < 2 * dof; j++)
+        w[i++] = dm_word_of_double(s->comp[j]);
+    w[i++] = s->cache.valid;
+    w[i++] = dm_word_of_double(s->cache.potential);
+    for (int j = 0; j < dof; j++)
+        w[i++] = dm_word_of_double(s->cache.grad[j]);
+    return i;
+}
+
+dm_status dm_splitting_load(dm_stepper *base, const uint64_t *w, size_t n, const dm_point *at,
+                            const dm_counts *counts)
+{
+    splitting_stepper *s = (splitting_stepper *)base;
+    int dof = base->dof;
+    if (n != splitting_words(dof))
+        return dm_error_set(&base->error, DM_EINPUT, "%s: a checkpoint of %zu words, not %zu",
+                            base->method->id, n, splitting_words(dof));
+    reset_caches(s, at);
+    size_t i = 0;
+    s->clock.origin = dm_double_of_word(w[i++]);
+    s->clock.n = w[i++];
+    s->force_valid = w[i++] != 0;
+    s->cached_potential = dm_double_of_word(w[i++]);
+    for (int j = 0; j < dof; j++)
+        s->grad[j] = dm_double_of_word(w[i++]);
+    for (int j = 0; j < 2 * dof; j++)
+        s->comp[j] = dm_double_of_word(w[i++]);
+    s->cache.valid = w[i++] != 0;
+    s->cache.potential = dm_double_of_word(w[i++]);
+    for (int j = 0; j < dof; j++)
+        s->cache.grad[j] = dm_double_of_word(w[i++]);
+    base->counts = *counts;
+    return DM_OK;
+}

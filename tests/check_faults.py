@@ -53,7 +53,10 @@ def run(args, cwd, shell_prefix=None, timeout=120):
 
 
 def one_line(stderr):
-    return stderr.endswith("\n") and stderr.count("\n") == 1
+    """One error line, beside the progress lines of finished runs (stderr not a terminal:
+    "driftmark: run: K/N done: RUN ...")."""
+    lines = [l for l in stderr.splitlines(keepends=True) if " done: " not in l]
+    return len(lines) == 1 and lines[0].endswith("\n")
 
 
 def write(path, content):

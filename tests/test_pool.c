@@ -109,8 +109,9 @@ static void pool_results_do_not_depend_on_the_jobs(void **state)
                                  &done, &err),
                      DM_OK);
     assert_int_equal(done, N_RUNS);
-    /* a start and an end a run, and the last word with no current run */
-    assert_int_equal(seen_calls, 2 * N_RUNS + 1);
+    /* a start and an end a run, and the last word with no current run (and a redraw
+     * a second while runs run) */
+    assert_true(seen_calls >= 2 * N_RUNS + 1);
     assert_int_equal(seen_wrong, 0);
     assert_int_equal(seen_done, N_RUNS);
     assert_int_equal(seen_total, N_RUNS);

@@ -155,15 +155,36 @@ typedef struct dm_run_result {
     dm_run_metrics metrics;
     dm_series series;
     dm_crossings crossings;
+    /* A run stopped before its horizon: its whole state, written with it and read back
+     * by --resume to continue it (harness/checkpoint.h; NULL otherwise; owned). */
+    struct dm_checkpoint *checkpoint;
+    /* While the run runs: its steps and the fraction of its horizon done, in parts per
+     * 2^32, published every 2^16 steps (read them with __atomic_load_n, relaxed). */
+    uint64_t live_steps, live_fraction;
 } dm_run_result;
 
 /* Runs one spec. Fills *result (allocates its series; free with dm_run_result_free).
  * A numerical fault is not an error of this call: it returns DM_OK with
- * result->status set. `stop` (may be NULL) is polled between buckets: when it becomes
- * non-zero the run ends as interrupted. */
+ * result->status set. `stop` (may be NULL) is polled every 2^16 steps (every 4096
+ * adaptive steps) and between buckets: when it becomes non-zero before the horizon the
+ * run ends as interrupted, with its whole state in result->checkpoint. Fails only when
+ * out of memory (DM_ENOMEM). */
 dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
                  dm_error *err);
+
+/* Continues the run whose interrupted result (with its checkpoint, as dm_run left it or
+ * dm_results_read_runs read it back) is *result: fixed-step runs exactly as if never
+ * stopped; CVODE restarted at the saved state (results/README.md). A result without a
+ * checkpoint runs from the start. A checkpoint that does not fit the run is an error
+ * (DM_EINPUT). */
+dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
+                        const volatile int *stop, dm_error *err);
 void dm_run_result_free(dm_run_result *result);
+
+/* The memory a run's result takes (its series and crossing buffers), in bytes: the
+ * suite reader refuses suites whose runs would take more than memory_limit_gib. */
+double dm_run_memory_bytes(const dm_run_spec *spec);
+#define DM_DEFAULT_MEMORY_LIMIT_GIB 8.0
 
 /* ---- many runs at once (pool.c): `run --jobs` and `bench` ---- */
 
@@ -288,8 +309,10 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
 
 /* For --resume: reads back every run of the file at `path` whose id and configuration
  * hash match a run of `suite` and that completed (ok, diverged or failed), into
- * results[i] (which must be zeroed: DM_RUN_NOT_RUN). Interrupted runs are left to run
- * again. *kept counts the runs read. */
+ * results[i] (which must be zeroed: DM_RUN_NOT_RUN); *kept counts them. An interrupted
+ * run with a checkpoint is read too, status interrupted with result->checkpoint set,
+ * for dm_run_resume to continue (not counted in *kept); one without is left to run
+ * again. */
 dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
                                dm_run_result *results, size_t *kept, dm_error *err);
 

@@ -17,7 +17,9 @@
 #define DM_METHOD_H
 
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdint.h>
+#include <string.h>
 
 #include "dm_error.h"
 #include "problem.h"
@@ -152,6 +154,14 @@ struct dm_method {
      * method that reads its counters lazily instead of after every step (the CVODE
      * adapter asks CVODE for them only here, on restart, on failure and at t_stop). */
     void (*sync_counts)(dm_stepper *s);
+    /* Checkpoints (dm_stepper_save / dm_stepper_load below). save writes the method's
+     * own state (caches, step clock) as at most `capacity` 64-bit words (doubles by
+     * their bits) and returns how many; load takes them back for a stepper continuing
+     * from `at` with the work `counts` done so far, or fails with s->error filled
+     * (a record of the wrong length). */
+    size_t (*save)(const dm_stepper *s, uint64_t *words, size_t capacity);
+    dm_status (*load)(dm_stepper *s, const uint64_t *words, size_t n, const dm_point *at,
+                      const dm_counts *counts);
 };
 
 /* ---- the fused loop ----
@@ -184,5 +194,34 @@ dm_status dm_stepper_set_step(dm_stepper *s, double h, const dm_point *at);
  * s->counts, whenever the run may not have reached t_stop. */
 const dm_counts *dm_stepper_counts(dm_stepper *s);
 void dm_stepper_destroy(dm_stepper *s);
+
+/* ---- checkpoints ----
+ * A stepper's whole state as a record of 64-bit words (doubles by their bits): the
+ * work counted, then the method's own caches and step clock. A stepper created for the
+ * same method, instance and configuration and given the record back by dm_stepper_load
+ * at the same point continues exactly as the saved one would have: fixed-step methods
+ * bit for bit (caches restored, not recomputed); CVODE restarts at the point
+ * (CVodeReInit: order 1 and a new first step), so its later steps differ within its
+ * tolerance. */
+#define DM_STEPPER_RECORD_MAX (16 + 8 * DM_MAX_DOF)
+/* Returns the words written (at most capacity, at most DM_STEPPER_RECORD_MAX). */
+size_t dm_stepper_save(dm_stepper *s, uint64_t *words, size_t capacity);
+/* `at` is the point the saved stepper had reached, in the buffer the next step reads. */
+dm_status dm_stepper_load(dm_stepper *s, const uint64_t *words, size_t n, const dm_point *at);
+
+/* Doubles into checkpoint words and back, by their bits. */
+static inline uint64_t dm_word_of_double(double v)
+{
+    uint64_t w;
+    memcpy(&w, &v, sizeof w);
+    return w;
+}
+
+static inline double dm_double_of_word(uint64_t w)
+{
+    double v;
+    memcpy(&v, &w, sizeof v);
+    return v;
+}
 
 #endif
