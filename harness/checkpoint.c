@@ -47,6 +47,8 @@ static void flag(cursor *c, bool *v)
     *v = u != 0;
 }
 
+/* The line's sums; its syy (only for the rms residual, which no run figure uses) is not
+ * kept. */
 static void fit(cursor *c, dm_line_fit *f)
 {
     real(c, &f->n);
