@@ -222,10 +222,15 @@ def main():
             proc = subprocess.Popen(mpirun(2, [suite_file, "-o", sig, "-j", "1"]),
                                     stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                                     env=mpi_env())
-            time.sleep(0.8)
+            # signal once rank 0 reports its first finished run (not after a fixed wait:
+            # on a loaded machine the ranks may not have started by then)
+            first = proc.stderr.readline()
+            while first and " done: " not in first:
+                first = proc.stderr.readline()
             t = time.time()
             proc.send_signal(signum)
             out, err = proc.communicate(timeout=120)
+            err = first + err
             print(f"{name}: the job ended {time.time() - t:.1f} s after the signal")
             # after SIGUSR1 mpirun passes on the ranks' 128 + signal; after SIGTERM it
             # exits 1 whatever the ranks say
