@@ -2,12 +2,14 @@
  * energy, closed-form period, starting state and first section crossing of one
  * starting state, all from the problem's setup (no integration). */
 #include <getopt.h>
+#include <math.h>
 #include <stdbool.h>
 #include <stdio.h>
 #include <string.h>
 
 #include "cli.h"
 #include "dm_json.h"
+#include "orbit_period.h"
 #include "problem.h"
 
 #define CMD "period"
@@ -35,6 +37,34 @@ static void print_vector_json(const double *v, int n)
     printf("]");
 }
 
+static double potential_of(void *data, double q)
+{
+    const dm_instance *inst = data;
+    return inst->problem->potential(inst, &q);
+}
+
+/* An independent check of the closed-form period, for one degree of freedom and
+ * T = p^2 / (2 m): the period integral between the turning points
+ * (problems/include/orbit_period.h). NaN, with the reason, where it does not apply. */
+static double period_by_quadrature(const dm_instance *inst, char *why, size_t size)
+{
+    const dm_problem *pr = inst->problem;
+    double p1 = 1.0, p2 = 2.0, t1 = pr->kinetic(inst, &p1), t2 = pr->kinetic(inst, &p2);
+    if (inst->dof != 1 || !(t1 > 0.0) || t2 != 4.0 * t1) {
+        snprintf(why, size, "applies to one degree of freedom with T = p^2 / (2 m)");
+        return NAN;
+    }
+    dm_orbit o;
+    dm_error err = { 0 };
+    double reach = 1e3 * fmax(1.0, fabs(inst->q0[0]));
+    if (dm_orbit_period(potential_of, (void *)inst, 0.5 / t1, inst->energy, inst->q0[0], reach,
+                        pr->id, &o, &err) != DM_OK) {
+        snprintf(why, size, "%s", err.msg);
+        return NAN;
+    }
+    return o.period;
+}
+
 static void print_text(const dm_instance *inst)
 {
     const dm_problem *pr = inst->problem;
@@ -54,6 +84,13 @@ static void print_text(const dm_instance *inst)
     printf("%-16s%s\n", "regime", pr->regimes[inst->regime].id);
     printf("%-16s%.17g\n", "energy", inst->energy);
     printf("%-16s%.17g\n", "period", inst->period);
+    char why[DM_ERROR_MSG_MAX];
+    double tq = period_by_quadrature(inst, why, sizeof why);
+    if (isnan(tq))
+        printf("%-16s- (%s)\n", "period_check", why);
+    else
+        printf("%-16s%.17g (quadrature between the turning points: relative difference "
+               "%.1e)\n", "period_check", tq, fabs(tq - inst->period) / inst->period);
     print_vector_text("q0", inst->q0, inst->dof);
     print_vector_text("p0", inst->p0, inst->dof);
     printf("%-16sq[%d] = %.17g upward\n", "section", inst->section.coord, inst->section.level);
@@ -89,6 +126,8 @@ static void print_json(const dm_instance *inst)
     dm_json_string(stdout, pr->regimes[inst->regime].id);
     print_json_number("energy", inst->energy);
     print_json_number("period", inst->period);
+    char why[DM_ERROR_MSG_MAX];
+    print_json_number("period_quadrature", period_by_quadrature(inst, why, sizeof why));
     printf(", \"q0\": ");
     print_vector_json(inst->q0, inst->dof);
     printf(", \"p0\": ");

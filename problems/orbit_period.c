@@ -251,6 +251,11 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
     if (!isfinite(v0) || !isfinite(E))
         return dm_error_set(err, DM_EINPUT, "%s: V = %.17g at the start q0 = %.17g is not "
                             "finite", what, v0, q0);
+    /* A start at rest is a turning point, and its energy, computed otherwise than V's
+     * own arithmetic does, may lie a rounding below V(q0): the orbit is then the one of
+     * energy V(q0), as far as V can tell. */
+    if (E < v0 && v0 - E <= 64.0 * DBL_EPSILON * (fabs(E) + fabs(v0)))
+        E = v0;
     if (E < v0)
         return dm_error_set(err, DM_EINPUT, "%s: energy %.17g is below V(q0) = %.17g "
                             "(impossible)", what, E, v0);

@@ -127,6 +127,19 @@ c = mp.sqrt(Eref)
 check("morse 1e-6 below: closed form against quadrature", Tref,
       quad_period(lambda q: (1 - mp.exp(-q)) ** 2, Eref, x0, -mp.log(1 - c)), 1e-15)
 
+# `period` checks its closed form against driftmark's own quadrature of the period
+# integral (problems/orbit_period.c) for one degree of freedom: they must agree wherever
+# the quadrature applies (away from a separatrix, with turning points)
+for problem, params in (("pendulum", {"amplitude": 0.5}), ("pendulum", {"amplitude": 3.0}),
+                        ("double_well", {"energy": -0.2}), ("double_well", {"energy": 0.3}),
+                        ("morse", {"energy": 0.9}), ("harmonic", {"omega": 3.3})):
+    r = period_json(problem, **params)
+    q = r.get("period_quadrature")
+    ok = q is not None and abs(q - r["period"]) <= 1e-11 * r["period"]
+    print(f"{problem} {params}: period {r['period']!r}, quadrature {q!r}")
+    if not ok:
+        failures.append(f"{problem} {params}: quadrature {q} against {r['period']}")
+
 if failures:
     print("\n".join("FAIL: " + f for f in failures))
     sys.exit(1)
