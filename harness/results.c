@@ -1011,6 +1011,9 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
             FIGURE_AT(f, r, dm_run_status) = status_from_name(text);
+            /* a status we do not know would be run again while counted as kept */
+            if (FIGURE_AT(f, r, dm_run_status) == DM_RUN_NOT_RUN)
+                rc = -1;
             break;
         case DM_FIGURE_TEXT:
             /* one a file from before it existed lacks reads as empty */
@@ -1130,6 +1133,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             int got = g >= 0 ? read_run(g, spec, &rows[k], &results[i]) : -1;
             if (g >= 0)
                 H5Gclose(g);
+
             if (got != 0) {
                 st = dm_error_set(err, DM_EINPUT, "cannot read %s: run %s is damaged", path,
                                   spec->id);

@@ -119,6 +119,8 @@ def main():
                                                            np.array([b"x"] * 4096))),
             ("written-array.h5", lambda f: replace_attr(f, "n_runs_written",
                                                         np.arange(4096, dtype="u8"))),
+            # a status the reader does not know was run again under "running 0"
+            ("status-unknown.h5", lambda f: replace_attr(first_run(f), "status", "weird")),
         ]
         for name, edit in cases:
             hostile(base, name, edit)
