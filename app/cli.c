@@ -54,12 +54,14 @@ static void print_help(FILE *out)
 
 int dm_cli_usage_error(const char *command_name, const char *fmt, ...)
 {
+    /* one line, whatever bytes a path or option held */
+    char raw[DM_ERROR_MSG_MAX * 2], clean[DM_ERROR_MSG_MAX * 2];
     va_list ap;
     va_start(ap, fmt);
-    fprintf(stderr, "driftmark: %s: ", command_name);
-    vfprintf(stderr, fmt, ap);
-    fputc('\n', stderr);
+    vsnprintf(raw, sizeof raw, fmt, ap);
     va_end(ap);
+    dm_escape_controls(raw, clean, sizeof clean);
+    fprintf(stderr, "driftmark: %s: %s\n", command_name, clean);
     return 2;
 }
 
@@ -159,10 +161,12 @@ int dm_cli_main(int argc, char **argv)
     for (size_t i = 0; i < n_commands; i++)
         names[i] = commands[i].name;
     const char *hint = dm_suggest(name, names, n_commands);
+    char clean[256];
+    dm_escape_controls(name, clean, sizeof clean);
     if (hint)
-        fprintf(stderr, "driftmark: unknown command '%s' (did you mean '%s'?)\n", name, hint);
+        fprintf(stderr, "driftmark: unknown command '%s' (did you mean '%s'?)\n", clean, hint);
     else
-        fprintf(stderr, "driftmark: unknown command '%s' (try --help)\n", name);
+        fprintf(stderr, "driftmark: unknown command '%s' (try --help)\n", clean);
     return 2;
 }
 

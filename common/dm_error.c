@@ -7,14 +7,42 @@
 #include <stdlib.h>
 #include <string.h>
 
+void dm_escape_controls(const char *in, char *out, size_t size)
+{
+    if (size == 0)
+        return;
+    size_t used = 0;
+    for (const unsigned char *s = (const unsigned char *)in; *s && used + 1 < size; s++) {
+        char esc[8];
+        if (*s >= 0x20 && *s != 0x7f) {
+            out[used++] = (char)*s;
+            continue;
+        }
+        switch (*s) {
+        case '\n': snprintf(esc, sizeof esc, "\\n"); break;
+        case '\r': snprintf(esc, sizeof esc, "\\r"); break;
+        case '\t': snprintf(esc, sizeof esc, "\\t"); break;
+        default: snprintf(esc, sizeof esc, "\\x%02x", (unsigned)*s); break;
+        }
+        size_t n = strlen(esc);
+        if (used + n + 1 > size)
+            break;
+        memcpy(out + used, esc, n);
+        used += n;
+    }
+    out[used] = '\0';
+}
+
 dm_status dm_error_set(dm_error *err, dm_status code, const char *fmt, ...)
 {
     if (err != NULL) {
+        char raw[DM_ERROR_MSG_MAX];
         va_list ap;
         va_start(ap, fmt);
-        err->code = code;
-        vsnprintf(err->msg, sizeof err->msg, fmt, ap);
+        vsnprintf(raw, sizeof raw, fmt, ap);
         va_end(ap);
+        err->code = code;
+        dm_escape_controls(raw, err->msg, sizeof err->msg);
     }
     return code;
 }
@@ -23,13 +51,14 @@ void dm_error_prefix(dm_error *err, const char *fmt, ...)
 {
     if (err == NULL)
         return;
-    char head[DM_ERROR_MSG_MAX];
+    char raw[DM_ERROR_MSG_MAX], head[DM_ERROR_MSG_MAX];
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(head, sizeof head, fmt, ap);
+    int n = vsnprintf(raw, sizeof raw, fmt, ap);
     va_end(ap);
     if (n <= 0)
         return;
+    dm_escape_controls(raw, head, sizeof head);
     size_t hl = strlen(head);
     size_t ml = strlen(err->msg);
     if (hl + ml >= sizeof err->msg)

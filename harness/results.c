@@ -31,21 +31,14 @@
 #define DM_CHUNK_MAX 4096
 #define DM_DEFLATE_LEVEL 4
 
-/* HDF5 prints its error stack to stderr by default; we report one line ourselves. */
-typedef struct quiet_hdf5 {
-    H5E_auto2_t func;
-    void *data;
-} quiet_hdf5;
-
-static void hdf5_quiet(quiet_hdf5 *q)
+/* HDF5 prints its error stack to stderr by default; we report one line ourselves. It
+ * stays off for the rest of the process: with it on again, HDF5's own clean-up at exit
+ * prints "HDF5: infinite loop closing library" and a line of codes after a damaged file
+ * failed to open. (The setting is per thread in a thread-safe HDF5: every thread that
+ * opens a file calls this first.) */
+static void hdf5_silence(void)
 {
-    H5Eget_auto2(H5E_DEFAULT, &q->func, &q->data);
     H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
-}
-
-static void hdf5_restore(const quiet_hdf5 *q)
-{
-    H5Eset_auto2(H5E_DEFAULT, q->func, q->data);
 }
 
 /* ---- types ---- */
@@ -586,21 +579,18 @@ static dm_status build_image(const char *path, const char *tmp, const dm_suite *
                              const char *start_time_utc, void **image, size_t *image_size,
                              dm_error *err)
 {
-    quiet_hdf5 q;
-    hdf5_quiet(&q);
+    hdf5_silence();
     hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
     if (fapl < 0 || H5Pset_fapl_core(fapl, (size_t)1 << 20, 0) < 0 ||
         H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) < 0) {
         if (fapl >= 0)
             H5Pclose(fapl);
-        hdf5_restore(&q);
         return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused an "
                             "in-memory file", path);
     }
     hid_t file = H5Fcreate(tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl);
     H5Pclose(fapl);
     if (file < 0) {
-        hdf5_restore(&q);
         return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused to "
                             "create it", path);
     }
@@ -620,7 +610,6 @@ static dm_status build_image(const char *path, const char *tmp, const dm_suite *
         what = "the file image";
     }
     H5Fclose(file);
-    hdf5_restore(&q);
     if (st == DM_ENOMEM)
         return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
     if (st != DM_OK)
@@ -674,21 +663,27 @@ static dm_status write_image(const char *path, const char *tmp, const void *imag
     return DM_OK;
 }
 
-dm_status dm_results_write(const char *path, const dm_suite *suite,
-                           const dm_run_result *results, const dm_sweep_fit *fits,
-                           const char *start_time_utc, dm_error *err)
+int dm_results_temp_path(const char *path, long pid, char *buf, size_t size)
 {
     /* ".NAME.tmp-PID" in the target's directory: rename() is atomic only within one
      * file system, and the dot keeps it out of plain listings. */
-    char tmp[1200];
     const char *slash = strrchr(path, '/');
     const char *base = slash ? slash + 1 : path;
     int dir_len = slash ? (int)(slash - path + 1) : 0;
     if (*base == '\0')
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name", path);
-    int w = snprintf(tmp, sizeof tmp, "%.*s.%s.tmp-%ld", dir_len, path, base, (long)getpid());
-    if (w < 0 || (size_t)w >= sizeof tmp)
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': path too long", path);
+        return -1;
+    int w = snprintf(buf, size, "%.*s.%s.tmp-%ld", dir_len, path, base, pid);
+    return w < 0 || (size_t)w >= size ? -1 : 0;
+}
+
+dm_status dm_results_write(const char *path, const dm_suite *suite,
+                           const dm_run_result *results, const dm_sweep_fit *fits,
+                           const char *start_time_utc, dm_error *err)
+{
+    char tmp[1200];
+    if (dm_results_temp_path(path, (long)getpid(), tmp, sizeof tmp) != 0)
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name or "
+                            "too long", path);
     void *image = NULL;
     size_t size = 0;
     dm_status st = build_image(path, tmp, suite, results, fits, start_time_utc, &image, &size,
@@ -701,69 +696,120 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
 
 /* ---- reading /summary back ---- */
 
-/* Reads a text attribute, fixed-length or variable-length, into buf. Returns 0 or -1. */
-static int read_text_attr(hid_t loc, const char *name, char *buf, size_t size)
+/* The longest text attribute we read (the suite text is the longest we write: a suite
+ * is at most DM_SUITE_MAX_BYTES). A file claiming more is not ours. */
+#define DM_TEXT_ATTR_MAX ((size_t)DM_SUITE_MAX_BYTES + 1)
+
+/* Opens attribute `name` of loc only when it holds exactly one value of the expected
+ * class: a text (H5T_STRING) when text is true, else a number (H5T_INTEGER or H5T_FLOAT,
+ * or H5T_INTEGER only when whole is true). Anything else - missing, an array, a
+ * compound, a text where a number belongs - is -1: a hostile file must never make
+ * H5Aread write more than the one value we have room for. */
+static hid_t open_one_value_attr(hid_t loc, const char *name, bool text, bool whole)
 {
     if (H5Aexists(loc, name) <= 0)
         return -1;
     hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
     if (a < 0)
         return -1;
-    int rc = -1;
     hid_t ft = H5Aget_type(a);
     hid_t space = H5Aget_space(a);
-    if (ft >= 0 && space >= 0 && H5Tget_class(ft) == H5T_STRING &&
-        H5Sget_simple_extent_npoints(space) == 1) {
-        /* The memory type copies the file's character set: HDF5 does not convert
-         * between ASCII and UTF-8. */
-        if (H5Tis_variable_str(ft) > 0) {
-            hid_t mt = H5Tcopy(ft);
-            char *value = NULL;
-            if (mt >= 0 && H5Aread(a, mt, &value) >= 0 && value != NULL) {
-                snprintf(buf, size, "%s", value);
-                rc = 0;
-            }
-            if (value != NULL)
-                H5free_memory(value);
-            if (mt >= 0)
-                H5Tclose(mt);
-        } else {
-            size_t n = H5Tget_size(ft);
-            char *value = calloc(n + 1, 1);
-            hid_t mt = H5Tcopy(ft);
-            if (value && mt >= 0 && H5Tset_size(mt, n + 1) >= 0 &&
-                H5Tset_strpad(mt, H5T_STR_NULLTERM) >= 0 && H5Aread(a, mt, value) >= 0) {
-                snprintf(buf, size, "%s", value);
-                rc = 0;
-            }
-            free(value);
-            if (mt >= 0)
-                H5Tclose(mt);
-        }
-    }
+    H5T_class_t cls = ft >= 0 ? H5Tget_class(ft) : H5T_NO_CLASS;
+    bool ok = space >= 0 && H5Sget_simple_extent_npoints(space) == 1 &&
+              H5Sget_simple_extent_ndims(space) <= 1;
+    if (text)
+        ok = ok && cls == H5T_STRING;
+    else
+        ok = ok && (cls == H5T_INTEGER || (!whole && cls == H5T_FLOAT));
     if (space >= 0)
         H5Sclose(space);
+    if (ft >= 0)
+        H5Tclose(ft);
+    if (!ok) {
+        H5Aclose(a);
+        return -1;
+    }
+    return a;
+}
+
+/* Reads a one-value text attribute, fixed-length or variable-length, into a new
+ * NUL-terminated string (cut at its first NUL). Returns 0 or -1. */
+static int read_text_attr_alloc(hid_t loc, const char *name, char **out)
+{
+    *out = NULL;
+    hid_t a = open_one_value_attr(loc, name, true, false);
+    if (a < 0)
+        return -1;
+    hid_t ft = H5Aget_type(a);
+    /* The memory type copies the file's character set: HDF5 does not convert between
+     * ASCII and UTF-8. */
+    hid_t mt = ft >= 0 ? H5Tcopy(ft) : -1;
+    int rc = -1;
+    if (mt >= 0 && H5Tis_variable_str(ft) > 0) {
+        char *value = NULL;
+        if (H5Aread(a, mt, &value) >= 0 && value != NULL &&
+            strnlen(value, DM_TEXT_ATTR_MAX) < DM_TEXT_ATTR_MAX) {
+            *out = strdup(value);
+            rc = *out != NULL ? 0 : -1;
+        }
+        if (value != NULL)
+            H5free_memory(value);
+    } else if (mt >= 0) {
+        size_t n = H5Tget_size(ft);
+        char *value = n > 0 && n < DM_TEXT_ATTR_MAX ? calloc(n + 1, 1) : NULL;
+        if (value != NULL && H5Tset_size(mt, n + 1) >= 0 &&
+            H5Tset_strpad(mt, H5T_STR_NULLTERM) >= 0 && H5Aread(a, mt, value) >= 0) {
+            *out = value;
+            value = NULL;
+            rc = 0;
+        }
+        free(value);
+    }
+    if (mt >= 0)
+        H5Tclose(mt);
     if (ft >= 0)
         H5Tclose(ft);
     H5Aclose(a);
     return rc;
 }
 
-static int read_int_attr(hid_t loc, const char *name, long long *out)
+/* Reads a one-value text attribute into buf (cut to fit). Returns 0 or -1. */
+static int read_text_attr(hid_t loc, const char *name, char *buf, size_t size)
 {
-    if (H5Aexists(loc, name) <= 0)
+    char *value = NULL;
+    if (read_text_attr_alloc(loc, name, &value) != 0)
         return -1;
-    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
+    snprintf(buf, size, "%s", value);
+    free(value);
+    return 0;
+}
+
+/* Reads a one-value numeric attribute, converted by HDF5 to the memory type (whole:
+ * integers only). Returns 0 or -1. */
+static int read_number_attr(hid_t loc, const char *name, hid_t mem_type, bool whole,
+                            void *out)
+{
+    hid_t a = open_one_value_attr(loc, name, false, whole);
     if (a < 0)
         return -1;
-    int rc = -1;
-    hid_t ft = H5Aget_type(a);
-    if (ft >= 0 && H5Tget_class(ft) == H5T_INTEGER && H5Aread(a, H5T_NATIVE_LLONG, out) >= 0)
-        rc = 0;
-    if (ft >= 0)
-        H5Tclose(ft);
+    int rc = H5Aread(a, mem_type, out) >= 0 ? 0 : -1;
     H5Aclose(a);
     return rc;
+}
+
+static int read_int_attr(hid_t loc, const char *name, long long *out)
+{
+    return read_number_attr(loc, name, H5T_NATIVE_LLONG, true, out);
+}
+
+static int read_double_attr(hid_t loc, const char *name, double *out)
+{
+    return read_number_attr(loc, name, H5T_NATIVE_DOUBLE, false, out);
+}
+
+static int read_u64_attr(hid_t loc, const char *name, uint64_t *out)
+{
+    return read_number_attr(loc, name, H5T_NATIVE_UINT64, true, out);
 }
 
 /* A real figure that a file from before it existed lacks reads as not measured (NaN):
@@ -797,10 +843,15 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
                             "this one reads schema %d and older)", path, schema,
                             DM_SCHEMA_VERSION);
     if (H5Lexists(file, "summary", H5P_DEFAULT) <= 0)
-        return dm_error_set(err, DM_EIO, "cannot read %s: it has no /summary dataset", path);
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /summary dataset", path);
+    uint64_t written = 0;
+    bool claims = H5Aexists(file, "n_runs_written") > 0;
+    if (claims && read_u64_attr(file, "n_runs_written", &written) != 0)
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: its n_runs_written attribute is "
+                            "not one whole number", path);
     hid_t d = H5Dopen2(file, "summary", H5P_DEFAULT);
     if (d < 0)
-        return dm_error_set(err, DM_EIO, "cannot read %s: /summary is damaged", path);
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: /summary is damaged", path);
     dm_status st = DM_OK;
     hid_t space = H5Dget_space(d);
     hid_t ft = H5Dget_type(d);
@@ -808,7 +859,15 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
     hssize_t count = space >= 0 ? H5Sget_simple_extent_npoints(space) : -1;
     if (count < 0 || ft < 0 || mt < 0 || H5Tget_class(ft) != H5T_COMPOUND ||
         H5Sget_simple_extent_ndims(space) != 1) {
-        st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is not a table of runs", path);
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary is not a table of runs",
+                          path);
+    } else if (count > DM_SUITE_MAX_RUNS || (claims && (uint64_t)count > written)) {
+        /* Bounded before anything is allocated: a small compressed file can claim
+         * millions of rows, and no suite has more than DM_SUITE_MAX_RUNS runs. */
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary has %lld rows (expected "
+                          "at most the file's n_runs_written, %llu, and at most %d, the most "
+                          "a suite has)", path, (long long)count, (unsigned long long)written,
+                          DM_SUITE_MAX_RUNS);
     } else {
         dm_summary_row *buf = calloc(count > 0 ? (size_t)count : 1, sizeof *buf);
         if (buf != NULL)
@@ -817,8 +876,8 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
             st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
         } else if (count > 0 && H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) < 0) {
             free(buf);
-            st = dm_error_set(err, DM_EIO, "cannot read %s: /summary is damaged or truncated",
-                              path);
+            st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary is damaged or "
+                              "truncated", path);
         } else {
             /* Never trust a file's strings to be terminated. */
             const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
@@ -846,60 +905,44 @@ dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_
 {
     *rows = NULL;
     *n = 0;
-    FILE *f = fopen(path, "rb");
-    if (f == NULL)
-        return dm_error_set(err, DM_EIO, "cannot open %s: %s", path, strerror(errno));
-    fclose(f);
-    quiet_hdf5 q;
-    hdf5_quiet(&q);
+    int fd = dm_open_regular(path, "results file", 0, err);
+    if (fd < 0)
+        return DM_EINPUT;
+    close(fd);
+    hdf5_silence();
     dm_status st;
     hid_t file = H5Fis_hdf5(path) > 0 ? H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT) : -1;
     if (file < 0) {
-        st = dm_error_set(err, DM_EIO, "cannot read %s: not an HDF5 file or truncated", path);
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated",
+                          path);
     } else {
         st = read_summary_open(file, path, rows, n, err);
         H5Fclose(file);
     }
-    hdf5_restore(&q);
     return st;
 }
 
 /* ---- reading whole runs back (for --resume) ---- */
 
-/* Reads a scalar numeric attribute, converted by HDF5 to the memory type. */
-static int read_number_attr(hid_t loc, const char *name, hid_t mem_type, void *out)
-{
-    if (H5Aexists(loc, name) <= 0)
-        return -1;
-    hid_t a = H5Aopen(loc, name, H5P_DEFAULT);
-    if (a < 0)
-        return -1;
-    int rc = H5Aread(a, mem_type, out) >= 0 ? 0 : -1;
-    H5Aclose(a);
-    return rc;
-}
-
-static int read_double_attr(hid_t loc, const char *name, double *out)
-{
-    return read_number_attr(loc, name, H5T_NATIVE_DOUBLE, out);
-}
-
-static int read_u64_attr(hid_t loc, const char *name, uint64_t *out)
-{
-    return read_number_attr(loc, name, H5T_NATIVE_UINT64, out);
-}
-
-/* Reads a one-dimensional double dataset of exactly `n` elements into a new array, or
- * n = (size_t)-1 to take whatever length it has (returned in *n). */
+/* Reads a one-dimensional numeric dataset of exactly `n` elements into a new array of
+ * doubles, or n = (size_t)-1 to take whatever length it has (returned in *n), at most
+ * `capacity` elements either way. Returns 0, or -1 with nothing allocated. */
 static int read_doubles(hid_t g, const char *name, size_t *n, size_t capacity, double **out)
 {
+    if (H5Lexists(g, name, H5P_DEFAULT) <= 0)
+        return -1;
     hid_t d = H5Dopen2(g, name, H5P_DEFAULT);
     if (d < 0)
         return -1;
     hid_t space = H5Dget_space(d);
-    hssize_t count = space >= 0 ? H5Sget_simple_extent_npoints(space) : -1;
+    hid_t ft = H5Dget_type(d);
+    H5T_class_t cls = ft >= 0 ? H5Tget_class(ft) : H5T_NO_CLASS;
+    hssize_t count = space >= 0 && H5Sget_simple_extent_ndims(space) == 1
+                         ? H5Sget_simple_extent_npoints(space)
+                         : -1;
     int rc = -1;
-    if (count >= 0 && (*n == (size_t)-1 || (size_t)count == *n) && (size_t)count <= capacity) {
+    if ((cls == H5T_FLOAT || cls == H5T_INTEGER) && count >= 0 &&
+        (*n == (size_t)-1 || (size_t)count == *n) && (size_t)count <= capacity) {
         double *buf = calloc(capacity > 0 ? capacity : 1, sizeof(double));
         if (buf != NULL &&
             (count == 0 || H5Dread(d, H5T_NATIVE_DOUBLE, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) >= 0)) {
@@ -910,6 +953,8 @@ static int read_doubles(hid_t g, const char *name, size_t *n, size_t capacity, d
             free(buf);
         }
     }
+    if (ft >= 0)
+        H5Tclose(ft);
     if (space >= 0)
         H5Sclose(space);
     H5Dclose(d);
@@ -969,6 +1014,9 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
             FIGURE_AT(f, r, dm_run_status) = status_from_name(text);
+            /* a status we do not know would be run again while counted as kept */
+            if (FIGURE_AT(f, r, dm_run_status) == DM_RUN_NOT_RUN)
+                rc = -1;
             break;
         case DM_FIGURE_TEXT:
             /* one a file from before it existed lacks reads as empty */
@@ -1050,8 +1098,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     dm_status st = dm_results_read_summary(path, &rows, &n, err);
     if (st != DM_OK)
         return st;
-    quiet_hdf5 q;
-    hdf5_quiet(&q);
+    hdf5_silence();
     hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
     hid_t runs = -1;
     long long schema = 0;
@@ -1068,7 +1115,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     }
     runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
     if (runs < 0) {
-        st = dm_error_set(err, DM_EIO, "cannot read %s: it has no /runs group", path);
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /runs group", path);
         goto done;
     }
     for (size_t k = 0; k < n; k++) {
@@ -1096,9 +1143,10 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             }
             if (g >= 0)
                 H5Gclose(g);
+
             if (got != 0) {
                 dm_run_result_free(&results[i]);
-                st = dm_error_set(err, DM_EIO, "cannot read %s: run %s is damaged", path,
+                st = dm_error_set(err, DM_EINPUT, "cannot read %s: run %s is damaged", path,
                                   spec->id);
                 goto done;
             }
@@ -1112,7 +1160,6 @@ done:
         H5Gclose(runs);
     if (file >= 0)
         H5Fclose(file);
-    hdf5_restore(&q);
     free(rows);
     return st;
 }
@@ -1128,35 +1175,16 @@ dm_status dm_results_read_suite_text(const char *path, char **text, char *source
     free(rows);
     if (st != DM_OK)
         return st;
-    quiet_hdf5 q;
-    hdf5_quiet(&q);
+    hdf5_silence();
     hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
-    st = dm_error_set(err, DM_EIO, "cannot read %s: it holds no suite text", path);
-    if (file >= 0 && H5Aexists(file, "suite_text") > 0) {
-        hid_t a = H5Aopen(file, "suite_text", H5P_DEFAULT);
-        hid_t ft = a >= 0 ? H5Aget_type(a) : -1;
-        if (ft >= 0 && H5Tis_variable_str(ft) > 0) {
-            hid_t mt = H5Tcopy(ft);
-            char *value = NULL;
-            if (mt >= 0 && H5Aread(a, mt, &value) >= 0 && value != NULL) {
-                *text = strdup(value);
-                st = *text ? DM_OK : dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
-            }
-            if (value != NULL)
-                H5free_memory(value);
-            if (mt >= 0)
-                H5Tclose(mt);
-        }
-        if (ft >= 0)
-            H5Tclose(ft);
-        if (a >= 0)
-            H5Aclose(a);
-        if (st == DM_OK && read_text_attr(file, "suite_source", source, source_size) != 0)
+    st = dm_error_set(err, DM_EINPUT, "cannot read %s: it holds no suite text", path);
+    if (file >= 0 && read_text_attr_alloc(file, "suite_text", text) == 0) {
+        st = DM_OK;
+        if (read_text_attr(file, "suite_source", source, source_size) != 0)
             snprintf(source, source_size, "%s", path);
     }
     if (file >= 0)
         H5Fclose(file);
-    hdf5_restore(&q);
     if (st == DM_OK)
         dm_error_clear(err);
     return st;

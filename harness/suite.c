@@ -11,7 +11,10 @@
  *   for each problem variant, for each method entry, for each step or tolerance value
  * in file order. A (variant, method entry) pair with two or more step or tolerance values is a sweep.
  */
+#include <dirent.h>
 #include <errno.h>
+#include <fcntl.h>
+#include <signal.h>
 #include <inttypes.h>
 #include <math.h>
 #include <stdarg.h>
@@ -32,8 +35,9 @@
 #define DM_RTOL_MIN 1e-14
 #define DM_RTOL_MAX 1e-1
 #define DM_RANGE_MAX 100          /* values one {from, to, factor} range may give */
+#define DM_RANGE_STEPS_MAX 100000 /* factors one range may take before merging whole values */
+#define DM_MAX_DEPTH 64           /* nesting of lists and mappings (a suite needs 4) */
 #define DM_LIST_MAX 1000          /* values one list may give */
-#define DM_SUITE_MAX_RUNS 10000   /* runs one suite may expand to */
 
 /* ---- locations and errors ---- */
 
@@ -41,6 +45,10 @@ typedef struct parse_ctx {
     yaml_document_t *doc;
     const char *source;
     dm_error *err;
+    /* where scalars tagged explicitly as something other than a number (!!str ...)
+     * start: the document API gives every scalar a tag, so only the events tell */
+    size_t *text_tagged;
+    size_t n_text_tagged;
 } parse_ctx;
 
 static size_t node_line(const yaml_node_t *node)
@@ -56,43 +64,17 @@ static size_t node_column(const yaml_node_t *node)
 static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
 
-/* Messages quote what the user wrote, and a YAML text may hold any character (a quoted
- * "a\nb", a block scalar): control characters are written as escapes so that the
- * error stays one line and nothing reaches the terminal raw. */
-static void escape_controls(const char *in, char *out, size_t size)
-{
-    size_t used = 0;
-    for (const unsigned char *s = (const unsigned char *)in; *s && used + 1 < size; s++) {
-        char esc[8];
-        if (*s >= 0x20 && *s != 0x7f) {
-            out[used++] = (char)*s;
-            continue;
-        }
-        switch (*s) {
-        case '\n': snprintf(esc, sizeof esc, "\\n"); break;
-        case '\r': snprintf(esc, sizeof esc, "\\r"); break;
-        case '\t': snprintf(esc, sizeof esc, "\\t"); break;
-        default: snprintf(esc, sizeof esc, "\\x%02x", (unsigned)*s); break;
-        }
-        size_t n = strlen(esc);
-        if (used + n + 1 > size)
-            break;
-        memcpy(out + used, esc, n);
-        used += n;
-    }
-    out[used] = '\0';
-}
-
 static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
 {
-    char what[DM_ERROR_MSG_MAX], clean[DM_ERROR_MSG_MAX];
+    /* Messages quote what the user wrote, and a YAML text may hold any character (a
+     * quoted "a\nb", a block scalar): dm_error_set keeps the message one line. */
+    char what[DM_ERROR_MSG_MAX];
     va_list ap;
     va_start(ap, fmt);
     vsnprintf(what, sizeof what, fmt, ap);
     va_end(ap);
-    escape_controls(what, clean, sizeof clean);
     return dm_error_set(c->err, DM_EINPUT, "%s:%zu:%zu: %s", c->source, node_line(node),
-                        node_column(node), clean);
+                        node_column(node), what);
 }
 
 /* Adds the location of `node` in front of an error written elsewhere
@@ -185,12 +167,27 @@ static dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
     return DM_OK;
 }
 
+static bool tagged_as_text(const parse_ctx *c, const yaml_node_t *node)
+{
+    for (size_t i = 0; i < c->n_text_tagged; i++)
+        if (c->text_tagged[i] == node->start_mark.index)
+            return true;
+    return false;
+}
+
 static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
                             double *out)
 {
     if (node->type != YAML_SCALAR_NODE)
         return fail_at(c, node, "%s must be a number, found %s (expected a number such as 0.5)",
                        what, node_kind(node));
+    if (tagged_as_text(c, node)) {
+        const char *tag = (const char *)node->tag;
+        bool core = strncmp(tag, "tag:yaml.org,2002:", 18) == 0;
+        return fail_at(c, node, "%s must be a number, found '%s' tagged %s%s (expected an "
+                       "untagged number, or one tagged !!float or !!int)", what,
+                       scalar_text(node), core ? "!!" : "", core ? tag + 18 : tag);
+    }
     if (!scalar_is_quoted(node) && scalar_text(node)[0] == '\0')
         return fail_at(c, node, "%s has no value (expected a number)", what);
     if (scalar_is_quoted(node))
@@ -314,9 +311,17 @@ static dm_status get_range(parse_ctx *c, const yaml_node_t *map, const char *wha
     if (factor < 1.0 && to > from)
         return fail_at(c, found[1], "%s range goes down (factor %g) but to = %g is above from "
                        "= %g (expected to <= from, or a factor > 1)", what, factor, to, from);
+    /* Bounded before anything is generated: a factor next to 1 would otherwise give
+     * values without end (or values that round to the same double, which the cap on
+     * distinct values never sees). */
+    double raw_count = log(to / from) / log(factor);
+    if (!(raw_count <= DM_RANGE_STEPS_MAX))
+        return fail_at(c, found[2], "%s range with factor %.17g takes more than %d steps "
+                       "from %g to %g (expected a factor further from 1)", what, factor,
+                       DM_RANGE_STEPS_MAX, from, to);
     out->n = 0;
     const double slack = 1e-9;
-    for (int k = 0;; k++) {
+    for (int k = 0; k <= DM_RANGE_STEPS_MAX + 1; k++) {
         double v = from * pow(factor, k);
         bool past = factor > 1.0 ? v > to * (1 + slack) : v < to * (1 - slack);
         if (past)
@@ -327,6 +332,10 @@ static dm_status get_range(parse_ctx *c, const yaml_node_t *map, const char *wha
             v = round(v);
         if (whole && out->n > 0 && v == out->v[out->n - 1])
             continue; /* rounding merged two neighbours */
+        if (out->n > 0 && v == out->v[out->n - 1])
+            return fail_at(c, found[2], "%s range factor %.17g is so close to 1 that two "
+                           "values round to the same number %.17g (expected a factor "
+                           "further from 1)", what, factor, v);
         if (out->n == DM_RANGE_MAX)
             return fail_at(c, map, "%s range gives more than %d values (expected a shorter "
                            "range or a larger factor)", what, DM_RANGE_MAX);
@@ -397,6 +406,7 @@ typedef struct variant {
     const char *keys[DM_MAX_PARAMS];
     double values[DM_MAX_PARAMS];
     char part[DM_RUN_ID_MAX];         /* "pendulum-amplitude2.5" */
+    const yaml_node_t *value_nodes[DM_MAX_PARAMS]; /* where each value was written */
 } variant;
 
 typedef struct suite_build {
@@ -416,6 +426,7 @@ typedef struct suite_build {
     const yaml_node_t *step_budget_node;
     double memory_limit_gib;          /* the runs' series may take this much memory */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
+    const variant **run_variants;     /* per run: its problem variant */
     uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
 } suite_build;
 
@@ -429,6 +440,7 @@ static void build_free(suite_build *b)
         free(b->methods[i].values);
     free(b->methods);
     free(b->run_nodes);
+    free(b->run_variants);
     free(b->run_id_hashes);
 }
 
@@ -825,6 +837,7 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
             for (int k = 0; k < e->n_given; k++) {
                 x->keys[k] = e->problem->params[e->param[k]].name;
                 x->values[k] = e->values[k]->v[pick[k]];
+                x->value_nodes[k] = e->values[k]->node[pick[k]];
                 fits = fits && appendf(x->part, sizeof x->part, &used, "-%s%g", x->keys[k],
                                        x->values[k]);
             }
@@ -1028,6 +1041,30 @@ static dm_status add_sweep(dm_suite *suite, const char *base, dm_step_setting se
     return DM_OK;
 }
 
+/* Where a run that repeats run r was written, and where r was: the step value, or when
+ * both runs come from the same step value, the problems entry, or within one entry the
+ * parameter value that repeats. */
+static void twin_nodes(const suite_build *b, size_t r, const variant *x,
+                       const yaml_node_t *step_node, const yaml_node_t **here,
+                       const yaml_node_t **first_at)
+{
+    const variant *y = b->run_variants[r];
+    *here = step_node;
+    *first_at = b->run_nodes[r];
+    if (step_node != b->run_nodes[r])
+        return;
+    *here = x->entry->node;
+    *first_at = y->entry->node;
+    if (x->entry != y->entry)
+        return;
+    for (size_t k = 0; k < x->n_given; k++)
+        if (x->value_nodes[k] != y->value_nodes[k]) {
+            *here = x->value_nodes[k];
+            *first_at = y->value_nodes[k];
+            return;
+        }
+}
+
 static dm_status expand_runs(suite_build *b, dm_suite *suite)
 {
     parse_ctx *c = &b->ctx;
@@ -1049,9 +1086,10 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
     suite->runs = calloc(nv * per_variant, sizeof *suite->runs);
     suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
     b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
+    b->run_variants = calloc(nv * per_variant, sizeof *b->run_variants);
     b->run_id_hashes = calloc(nv * per_variant, sizeof *b->run_id_hashes);
     if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL ||
-        b->run_id_hashes == NULL) {
+        b->run_variants == NULL || b->run_id_hashes == NULL) {
         free(v);
         return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
     }
@@ -1070,18 +1108,20 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                     if (b->run_id_hashes[r] != id_hash ||
                         strcmp(suite->runs[r].id, spec->id) != 0)
                         continue;
+                    const yaml_node_t *here, *first_at;
+                    twin_nodes(b, r, &v[i], me->values->node[k], &here, &first_at);
                     if (strcmp(suite->runs[r].config, spec->config) == 0)
-                        st = fail_at(c, me->values->node[k], "run %s is given twice (first "
-                                     "at line %zu; expected every run to differ)", spec->id,
-                                     node_line(b->run_nodes[r]));
+                        st = fail_at(c, here, "run %s is given twice (first at line %zu; "
+                                     "expected every run to differ)", spec->id,
+                                     node_line(first_at));
                     else
-                        st = fail_at(c, me->values->node[k], "run id %s names two different "
-                                     "runs (first at line %zu; expected values that differ "
-                                     "within 6 significant digits)", spec->id,
-                                     node_line(b->run_nodes[r]));
+                        st = fail_at(c, here, "run id %s names two different runs (first at "
+                                     "line %zu; expected values that differ within 6 "
+                                     "significant digits)", spec->id, node_line(first_at));
                     goto done;
                 }
                 b->run_nodes[suite->n_runs] = me->values->node[k];
+                b->run_variants[suite->n_runs] = &v[i];
                 b->run_id_hashes[suite->n_runs] = id_hash;
                 suite->n_runs++;
             }
@@ -1107,11 +1147,59 @@ done:
     return st;
 }
 
+/* A killed `run` leaves its temporary file ".NAME.tmp-PID" (up to the size of a whole
+ * results file) beside NAME. Those of processes that no longer exist are removed:
+ * only names of exactly that form, for this NAME. */
+static void remove_stale_temps(const char *dir, const char *base)
+{
+    DIR *d = opendir(dir);
+    if (d == NULL)
+        return;
+    size_t base_len = strlen(base);
+    struct dirent *e;
+    while ((e = readdir(d)) != NULL) {
+        const char *n = e->d_name;
+        if (n[0] != '.' || strncmp(n + 1, base, base_len) != 0 ||
+            strncmp(n + 1 + base_len, ".tmp-", 5) != 0)
+            continue;
+        const char *digits = n + 1 + base_len + 5;
+        char *end = NULL;
+        errno = 0;
+        long pid = strtol(digits, &end, 10);
+        if (*digits < '1' || *digits > '9' || *end != '\0' || errno != 0 || pid <= 0 ||
+            pid == (long)getpid() || (pid_t)pid != pid)
+            continue;
+        if (kill((pid_t)pid, 0) == 0 || errno != ESRCH)
+            continue; /* alive (or not ours to ask about): leave it */
+        char path[2300];
+        int w = snprintf(path, sizeof path, "%s/%s", dir, n);
+        if (w > 0 && (size_t)w < sizeof path)
+            unlink(path);
+    }
+    closedir(d);
+}
+
+/* An error about the output file: at its suite line, or, when the command line named
+ * the file (-o, or the file being resumed), as "command line: ...". */
+static dm_status output_fail(suite_build *b, const yaml_node_t *at, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+
+static dm_status output_fail(suite_build *b, const yaml_node_t *at, const char *fmt, ...)
+{
+    char what[DM_ERROR_MSG_MAX];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(what, sizeof what, fmt, ap);
+    va_end(ap);
+    if (b->output_override != NULL)
+        return dm_error_set(b->ctx.err, DM_EINPUT, "command line: %s", what);
+    return fail_at(&b->ctx, at, "%s", what);
+}
+
 /* The results file is written beside its final name and renamed into place, so the
  * directory must exist and be writable before the first run starts. */
 static dm_status check_output(suite_build *b, const char *output, const yaml_node_t *at)
 {
-    parse_ctx *c = &b->ctx;
     char dir[1024];
     const char *slash = strrchr(output, '/');
     if (slash == NULL)
@@ -1121,21 +1209,43 @@ static dm_status check_output(suite_build *b, const char *output, const yaml_nod
     else
         snprintf(dir, sizeof dir, "%.*s", (int)(slash - output), output);
     if (slash != NULL && slash[1] == '\0')
-        return fail_at(c, at, "output '%s' names a directory (expected a file name such as "
+        return output_fail(b, at, "output '%s' names a directory (expected a file name such as "
                        "results/study.h5)", output);
     struct stat sb;
     if (stat(dir, &sb) != 0)
-        return fail_at(c, at, "output directory '%s'%s does not exist (expected an existing, "
+        return output_fail(b, at, "output directory '%s'%s does not exist (expected an existing, "
                        "writable directory)", dir,
-                       b->output_node ? "" : " of the default output results/NAME.h5");
+                       b->output_node || b->output_override ? ""
+                                                            : " of the default output results/NAME.h5");
     if (!S_ISDIR(sb.st_mode))
-        return fail_at(c, at, "output directory '%s' is not a directory (expected an existing, "
+        return output_fail(b, at, "output directory '%s' is not a directory (expected an existing, "
                        "writable directory)", dir);
     if (access(dir, W_OK | X_OK) != 0)
-        return fail_at(c, at, "output directory '%s' is not writable: %s (expected a writable "
+        return output_fail(b, at, "output directory '%s' is not writable: %s (expected a writable "
                        "directory)", dir, strerror(errno));
     if (stat(output, &sb) == 0 && S_ISDIR(sb.st_mode))
-        return fail_at(c, at, "output '%s' is a directory (expected a file name)", output);
+        return output_fail(b, at, "output '%s' is a directory (expected a file name)", output);
+    remove_stale_temps(dir, slash ? slash + 1 : output);
+    /* The temporary file the results are written to, made and removed now: a name too
+     * long for the file system (or any other refusal) shows before the first run, not
+     * after the last. */
+    char tmp[1200];
+    if (dm_results_temp_path(output, (long)getpid(), tmp, sizeof tmp) != 0)
+        return output_fail(b, at, "output '%s' is too long (expected a shorter path)", output);
+    int fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
+    if (fd < 0 && errno != EEXIST)
+        return output_fail(b, at, "output '%s' cannot be written: creating its temporary file "
+                       "(.NAME.tmp-PID beside it) failed: %s (expected a shorter or plainer "
+                       "file name)", output, strerror(errno));
+    if (fd >= 0) {
+        close(fd);
+        unlink(tmp);
+    }
+    long name_max = pathconf(dir, _PC_NAME_MAX);
+    const char *base = slash ? slash + 1 : output;
+    if (name_max > 0 && strlen(base) > (size_t)name_max)
+        return output_fail(b, at, "output '%s': the file name has %zu bytes (expected at most %ld "
+                       "on this file system)", output, strlen(base), name_max);
     return DM_OK;
 }
 
@@ -1163,6 +1273,16 @@ static dm_status check_no_nul(parse_ctx *c)
     return DM_OK;
 }
 
+/* Names become file names and table cells: a newline or an escape byte in one is
+ * always a mistake. */
+static bool has_control(const char *s)
+{
+    for (const unsigned char *u = (const unsigned char *)s; *u; u++)
+        if (*u < 0x20 || *u == 0x7f)
+            return true;
+    return false;
+}
+
 /* The value of one top-level key. */
 static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
                                  const yaml_node_t *value)
@@ -1176,9 +1296,15 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
         if (st == DM_OK && strchr(suite->name, '/') != NULL)
             st = fail_at(c, value, "name '%s' contains '/' (expected a plain name)",
                          suite->name);
+        if (st == DM_OK && has_control(suite->name))
+            st = fail_at(c, value, "name '%s' contains a control character (expected a "
+                         "plain name on one line)", suite->name);
         break;
     case TOP_OUTPUT:
         st = get_string(c, value, "output", suite->output, sizeof suite->output);
+        if (st == DM_OK && has_control(suite->output))
+            st = fail_at(c, value, "output '%s' contains a control character (expected a "
+                         "file name on one line)", suite->output);
         b->output_node = value;
         break;
     case TOP_HORIZON:
@@ -1219,23 +1345,11 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
  * line), else the suite's own. */
 static dm_status resolve_output(suite_build *b, dm_suite *suite, const yaml_node_t *root)
 {
-    parse_ctx *c = &b->ctx;
-    dm_status st;
     if (b->output_override != NULL) {
-        /* The command line names the file: check that one, and say so if it is bad. */
+        /* The command line names the file: that one is checked, its errors name no
+         * suite line */
         snprintf(suite->output, sizeof suite->output, "%s", b->output_override);
-        dm_error *err = c->err;
-        dm_error saved_err = *err;
-        st = check_output(b, suite->output, root);
-        if (st != DM_OK) {
-            /* drop the suite location: the path came from the command line */
-            const char *msg = strstr(err->msg, ": output");
-            char text[DM_ERROR_MSG_MAX];
-            snprintf(text, sizeof text, "-o %.200s%.300s", suite->output, msg ? msg : err->msg);
-            *err = saved_err;
-            return dm_error_set(err, DM_EINPUT, "%s", text);
-        }
-        return DM_OK;
+        return check_output(b, suite->output, root);
     }
     return check_output(b, suite->output, b->output_node ? b->output_node : root);
 }
@@ -1313,6 +1427,60 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     return resolve_output(b, suite, root);
 }
 
+/* One cheap pass over libyaml's events before the document is built: refuses nesting
+ * deeper than DM_MAX_DEPTH (100,000 levels took the document loader most of a minute)
+ * and notes the scalars tagged explicitly as something other than a number. A syntax
+ * error is left for the loader, which reports it. */
+static dm_status prescan(parse_ctx *c, const char *text, size_t length)
+{
+    yaml_parser_t parser;
+    if (!yaml_parser_initialize(&parser))
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory starting the YAML reader");
+    yaml_parser_set_input_string(&parser, (const unsigned char *)text, length);
+    dm_status st = DM_OK;
+    size_t cap = 0;
+    int depth = 0;
+    for (bool done = false; !done && st == DM_OK;) {
+        yaml_event_t ev;
+        if (!yaml_parser_parse(&parser, &ev))
+            break;
+        switch (ev.type) {
+        case YAML_STREAM_END_EVENT: done = true; break;
+        case YAML_SEQUENCE_START_EVENT:
+        case YAML_MAPPING_START_EVENT:
+            if (++depth > DM_MAX_DEPTH)
+                st = dm_error_set(c->err, DM_EINPUT, "%s:%zu:%zu: lists and mappings nested "
+                                  "more than %d deep (expected a suite of a few levels)",
+                                  c->source, ev.start_mark.line + 1, ev.start_mark.column + 1,
+                                  DM_MAX_DEPTH);
+            break;
+        case YAML_SEQUENCE_END_EVENT:
+        case YAML_MAPPING_END_EVENT: depth--; break;
+        case YAML_SCALAR_EVENT: {
+            const char *tag = (const char *)ev.data.scalar.tag;
+            if (tag == NULL || strcmp(tag, YAML_INT_TAG) == 0 || strcmp(tag, YAML_FLOAT_TAG) == 0)
+                break;
+            if (c->n_text_tagged == cap) {
+                size_t grown_cap = cap ? 2 * cap : 16;
+                size_t *grown = realloc(c->text_tagged, grown_cap * sizeof *grown);
+                if (grown == NULL) {
+                    st = dm_error_set(c->err, DM_ENOMEM, "out of memory reading %s", c->source);
+                    break;
+                }
+                c->text_tagged = grown;
+                cap = grown_cap;
+            }
+            c->text_tagged[c->n_text_tagged++] = ev.start_mark.index;
+            break;
+        }
+        default: break;
+        }
+        yaml_event_delete(&ev);
+    }
+    yaml_parser_delete(&parser);
+    return st;
+}
+
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          const char *source, const char *output, dm_error *err)
 {
@@ -1328,9 +1496,22 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     memcpy(suite->text, text, length);
     suite->text[length] = '\0';
 
+    if (length > (size_t)DM_SUITE_MAX_BYTES) {
+        dm_suite_free(suite);
+        return dm_error_set(err, DM_EINPUT, "%s: the suite text has %zu bytes (expected at "
+                            "most %d, 1 MiB)", source, length, DM_SUITE_MAX_BYTES);
+    }
+    parse_ctx scan = { .source = suite->source, .err = err };
+    if (prescan(&scan, text, length) != DM_OK) {
+        free(scan.text_tagged);
+        dm_suite_free(suite);
+        return err->code;
+    }
+
     yaml_parser_t parser;
     yaml_document_t doc;
     if (!yaml_parser_initialize(&parser)) {
+        free(scan.text_tagged);
         dm_suite_free(suite);
         return dm_error_set(err, DM_ENOMEM, "out of memory starting the YAML reader");
     }
@@ -1347,13 +1528,15 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          "YAML)", source, parser.problem_mark.line + 1,
                          parser.problem_mark.column + 1, problem);
         yaml_parser_delete(&parser);
+        free(scan.text_tagged);
         dm_suite_free(suite);
         return DM_EINPUT;
     }
 
     suite_build b;
     memset(&b, 0, sizeof b);
-    b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .err = err };
+    b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .err = err,
+                         .text_tagged = scan.text_tagged, .n_text_tagged = scan.n_text_tagged };
     b.output_override = output;
     b.samples = DM_DEFAULT_SAMPLES;
     b.energy_limit = 1.0;
@@ -1379,6 +1562,7 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
         }
     }
     build_free(&b);
+    free(scan.text_tagged);
     yaml_document_delete(&doc);
     yaml_parser_delete(&parser);
     if (st != DM_OK)
@@ -1386,37 +1570,71 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     return st;
 }
 
+int dm_open_regular(const char *path, const char *what, long long max_bytes, dm_error *err)
+{
+    /* O_NONBLOCK: opening a FIFO with no writer returns at once instead of waiting */
+    int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+    if (fd < 0) {
+        dm_error_set(err, DM_EINPUT, "cannot open %s %s: %s", what, path, strerror(errno));
+        return -1;
+    }
+    struct stat sb;
+    const char *bad = NULL;
+    if (fstat(fd, &sb) != 0)
+        bad = strerror(errno);
+    else if (S_ISDIR(sb.st_mode))
+        bad = "it is a directory (expected a file)";
+    else if (!S_ISREG(sb.st_mode))
+        bad = "it is not a regular file (a pipe, a device or a socket; expected a file)";
+    if (bad != NULL) {
+        dm_error_set(err, DM_EINPUT, "cannot read %s %s: %s", what, path, bad);
+        close(fd);
+        return -1;
+    }
+    if (max_bytes > 0 && (long long)sb.st_size > max_bytes) {
+        dm_error_set(err, DM_EINPUT, "cannot read %s %s: it has %lld bytes (expected at most "
+                     "%lld)", what, path, (long long)sb.st_size, max_bytes);
+        close(fd);
+        return -1;
+    }
+    int flags = fcntl(fd, F_GETFL);
+    if (flags >= 0)
+        fcntl(fd, F_SETFL, flags & ~O_NONBLOCK);
+    return fd;
+}
+
 dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err)
 {
     memset(suite, 0, sizeof *suite);
-    FILE *f = fopen(path, "rb");
-    if (f == NULL)
-        return dm_error_set(err, DM_EINPUT, "cannot open suite %s: %s", path, strerror(errno));
-    size_t cap = 4096, n = 0;
-    char *buf = malloc(cap);
-    while (buf != NULL) {
-        n += fread(buf + n, 1, cap - n, f);
-        if (n < cap)
+    int fd = dm_open_regular(path, "suite", DM_SUITE_MAX_BYTES, err);
+    if (fd < 0)
+        return DM_EINPUT;
+    /* At most DM_SUITE_MAX_BYTES, whatever the size said: one byte more is refused. */
+    char *buf = malloc((size_t)DM_SUITE_MAX_BYTES + 1);
+    size_t n = 0;
+    int read_errno = 0;
+    while (buf != NULL && n <= (size_t)DM_SUITE_MAX_BYTES) {
+        ssize_t got = read(fd, buf + n, (size_t)DM_SUITE_MAX_BYTES + 1 - n);
+        if (got < 0 && errno == EINTR)
+            continue;
+        if (got < 0)
+            read_errno = errno;
+        if (got <= 0)
             break;
-        char *grown = realloc(buf, cap * 2);
-        if (grown == NULL) {
-            free(buf);
-            buf = NULL;
-            break;
-        }
-        buf = grown;
-        cap *= 2;
+        n += (size_t)got;
     }
-    bool bad = ferror(f);
-    int saved = errno;
-    fclose(f);
+    close(fd);
     if (buf == NULL)
         return dm_error_set(err, DM_ENOMEM, "out of memory reading suite %s", path);
-    if (bad) {
-        free(buf);
-        return dm_error_set(err, DM_EINPUT, "cannot read suite %s: %s", path, strerror(saved));
-    }
-    dm_status st = dm_suite_parse(suite, buf, n, path, output, err);
+    dm_status st;
+    if (read_errno != 0)
+        st = dm_error_set(err, DM_EINPUT, "cannot read suite %s: %s", path,
+                          strerror(read_errno));
+    else if (n > (size_t)DM_SUITE_MAX_BYTES)
+        st = dm_error_set(err, DM_EINPUT, "cannot read suite %s: it is longer than %d bytes "
+                          "(1 MiB, the most a suite may hold)", path, DM_SUITE_MAX_BYTES);
+    else
+        st = dm_suite_parse(suite, buf, n, path, output, err);
     free(buf);
     return st;
 }

@@ -82,7 +82,7 @@ static void cell_of(char *buf, size_t size, const dm_figure *f, const dm_summary
     switch (f->kind) {
     case DM_FIGURE_COUNT: snprintf(buf, size, "%" PRIu64, ROW_VALUE(f, r, uint64_t)); break;
     case DM_FIGURE_REAL: cell_number(buf, size, ROW_VALUE(f, r, double), f->format); break;
-    default: snprintf(buf, size, "%s", (const char *)r + f->row_at); break;
+    default: dm_escape_controls((const char *)r + f->row_at, buf, size); break;
     }
 }
 
@@ -105,7 +105,7 @@ static void print_text(FILE *out, const dm_summary_row *rows, size_t n)
         }
         for (size_t i = 0; i < n; i++) {
             const dm_summary_row *r = &rows[i];
-            snprintf(cell[0], sizeof cell[0], "%s", r->run_id);
+            dm_escape_controls(r->run_id, cell[0], sizeof cell[0]);
             for (size_t j = 1; j < n_cols; j++)
                 cell_of(cell[j], sizeof cell[j], cols[j], r);
             for (size_t j = 0; j < n_cols; j++) {
@@ -121,28 +121,38 @@ static void print_text(FILE *out, const dm_summary_row *rows, size_t n)
         }
     }
     /* Why a run did not finish belongs beside the numbers, not in a column. */
+    /* Texts read from a file are printed with their control bytes escaped. */
     for (size_t i = 0; i < n; i++) {
+        char id[4 * sizeof rows[i].run_id], status[4 * sizeof rows[i].status];
+        char reason[4 * sizeof rows[i].reason], change[4 * sizeof rows[i].regime_change];
+        dm_escape_controls(rows[i].run_id, id, sizeof id);
+        dm_escape_controls(rows[i].status, status, sizeof status);
+        dm_escape_controls(rows[i].reason, reason, sizeof reason);
+        dm_escape_controls(rows[i].regime_change, change, sizeof change);
         if (rows[i].reason[0] != '\0')
-            fprintf(out, "  %s: %s: %s\n", rows[i].run_id, rows[i].status, rows[i].reason);
+            fprintf(out, "  %s: %s: %s\n", id, status, reason);
         if (rows[i].regime_change[0] != '\0')
             fprintf(out, "  %s: its energy crossed a separatrix the exact orbit never "
-                    "reaches: %s\n", rows[i].run_id, rows[i].regime_change);
+                    "reaches: %s\n", id, change);
     }
 }
 
 /* ---- CSV (RFC 4180 quoting) and JSON ---- */
 
-static void csv_text(FILE *out, const char *s)
+static void csv_text(FILE *out, const char *text)
 {
-    if (strpbrk(s, ",\"\n\r") == NULL) {
+    /* control bytes escaped (a file's texts are not trusted), then RFC 4180 quoting */
+    char s[4 * DM_CONFIG_MAX];
+    dm_escape_controls(text, s, sizeof s);
+    if (strpbrk(s, ",\"") == NULL) {
         fputs(s, out);
         return;
     }
     fputc('"', out);
-    for (; *s; s++) {
-        if (*s == '"')
+    for (const char *c = s; *c; c++) {
+        if (*c == '"')
             fputc('"', out);
-        fputc(*s, out);
+        fputc(*c, out);
     }
     fputc('"', out);
 }

@@ -57,6 +57,45 @@ void dm_param_range_text(const dm_param *p, char *buf, size_t size)
              dm_param_max_open(p) ? ")" : "]");
 }
 
+/* The smallest energy scale a run may measure its energy error against, relative to
+ * the size of the energies it adds up (|T|, |V|, |H|, |V_min|). Common practice, our
+ * choice: the round-off of H alone (about 1.1e-16 of that size) then stays below about
+ * 1e-4 of the scale, so a method's energy error is not swamped before its first step. */
+#define DM_ENERGY_SCALE_MIN_REL 1e-12
+
+/* A state finite in every number can still be beyond double precision for a run, which
+ * sees its energy only as T + V in double precision (harness/runner.c):
+ *  - that energy must lie in the state's own regime (morse amplitude 50: E rounds to
+ *    D, the escape energy, though setup's quad arithmetic found it bound);
+ *  - the run's energy scale (H0 - V_min, or |H0| without a minimum) must be resolved:
+ *    harmonic omega 1e-300 (omega^2 underflows: H0 = V_min = 0, the particle never
+ *    moves) and pendulum energy -0.9999999999999999 (a scale of 1e-16) are refused. */
+static dm_status check_resolved(const dm_instance *inst, double potential, dm_error *err)
+{
+    const dm_problem *problem = inst->problem;
+    double kinetic = problem->kinetic(inst, inst->p0);
+    double H0 = kinetic + potential;
+    if (problem->regime_of_energy != NULL &&
+        problem->regime_of_energy(inst, H0) != inst->regime)
+        return dm_error_set(err, DM_EINPUT,
+                            "%s: in double precision the starting energy is %.17g, outside "
+                            "the %s regime of this state (expected a state whose energy "
+                            "double precision can tell from the regime's edge)", problem->id,
+                            H0, problem->regimes[inst->regime].id);
+    double size = fmax(fmax(fabs(kinetic), fabs(potential)), fabs(H0));
+    if (inst->has_v_min)
+        size = fmax(size, fabs(inst->v_min));
+    double scale = inst->has_v_min ? H0 - inst->v_min : fabs(H0);
+    if (!(scale > 0.0) || scale < DM_ENERGY_SCALE_MIN_REL * size)
+        return dm_error_set(err, DM_EINPUT,
+                            "%s: the energy scale %s is %.3g beside energies of size %.3g: "
+                            "below what double precision resolves (expected a scale of at "
+                            "least %g of them; a larger amplitude or energy)", problem->id,
+                            inst->has_v_min ? "H0 - V_min" : "|H0|", scale, size,
+                            DM_ENERGY_SCALE_MIN_REL);
+    return DM_OK;
+}
+
 dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
                            const char *const *keys, const double *values, dm_error *err)
 {
@@ -139,7 +178,7 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
                             "%s: the %s is %g, beyond double precision (expected parameters "
                             "whose starting state, energy and period are finite)",
                             problem->id, what, value);
-    return DM_OK;
+    return check_resolved(inst, potential, err);
 }
 
 double dm_instance_energy(const dm_instance *inst, const double *q, const double *p)

@@ -2,7 +2,7 @@
  *
  * Built only with -DDM_FUZZ=ON and clang (CMakeLists.txt); run with the seed corpus in
  * tests/fuzz_corpus/ (tests/ci_extra.sh does, for 60 s). Any input must either parse or
- * be refused with one DM_EINPUT line "FILE:LINE:COLUMN: ..." (or "-o PATH..." for the
+ * be refused with one DM_EINPUT line "FILE:LINE:COLUMN: ..." (or "command line: ..." for the
  * output override); a crash, a sanitizer report, a leak, a multi-line message or any
  * other status is a finding. */
 #include <stdint.h>
@@ -57,8 +57,8 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
         if (strchr(err.msg, '\n') != NULL || strchr(err.msg, '\r') != NULL)
             finding("an error message of more than one line", &err);
         if (st == DM_EINPUT && strncmp(err.msg, FUZZ_SOURCE ":", strlen(FUZZ_SOURCE) + 1) != 0 &&
-            strncmp(err.msg, "-o ", 3) != 0)
-            finding("an error message that does not start with FILE: (or -o)", &err);
+            strncmp(err.msg, "command line: ", 14) != 0)
+            finding("an error message that does not start with FILE: (or command line:)", &err);
         if (suite.runs != NULL || suite.text != NULL || suite.n_runs != 0)
             finding("a refused suite that is not left empty", &err);
     }

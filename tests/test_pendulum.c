@@ -270,7 +270,16 @@ static void small_amplitude_period_tends_to_2_pi_sqrt_l_over_g(void **state)
     dm_instance inst = must_make("amplitude", 1e-3, "g_over_l", 4.0);
     double T0 = 2.0 * M_PI / 2.0;
     assert_close(inst.period / T0 - 1.0, 1e-6 / 16.0, 1e-5);
-    assert_close(must_make("amplitude", 1e-8, "g_over_l", 4.0).period, T0, 1e-15);
+    /* 1e-5 rad: T / T0 - 1 = 6.25e-12, still told from round-off */
+    assert_close(must_make("amplitude", 1e-5, "g_over_l", 4.0).period, T0, 1e-11);
+    /* 1e-8 rad: H0 - V_min = 5e-17 beside V = -1, below what a run in double precision
+     * resolves (issue 12): refused, as energy -0.9999999999999999 is */
+    dm_instance tiny;
+    dm_error err;
+    assert_int_equal(make(&tiny, "amplitude", 1e-8, "g_over_l", 4.0, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, "below what double precision resolves"));
+    assert_int_equal(make(&tiny, "energy", -0.9999999999999999, NULL, 0, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, "the energy scale H0 - V_min is 1.11e-16"));
 }
 
 static void handbook_period_ratios_at_30_60_and_90_degrees(void **state)
@@ -287,15 +296,19 @@ static void handbook_period_ratios_at_30_60_and_90_degrees(void **state)
 
 static void hanging_rest_and_inverted_state_energies(void **state)
 {
-    /* Nondimensional pendulum: hanging at rest E = -1 = v_min, inverted state E = +1
-     * (the separatrix) (common practice). */
-    dm_instance inst = must_make("amplitude", 1e-9, NULL, 0);
-    assert_true(inst.has_v_min && inst.v_min == -1.0);
-    assert_close(inst.energy, -1.0, 1e-15);
-    dm_instance near_top = must_make("amplitude", M_PI - 1e-9, NULL, 0);
-    assert_close(near_top.energy, 1.0, 1e-15);
     dm_instance inst2;
     dm_error err;
+    /* Nondimensional pendulum: hanging at rest E = -1 = v_min, inverted state E = +1
+     * (the separatrix) (common practice). */
+    dm_instance inst = must_make("amplitude", 1e-5, NULL, 0);
+    assert_true(inst.has_v_min && inst.v_min == -1.0);
+    assert_close(inst.energy, -1.0, 1e-10);
+    dm_instance near_top = must_make("amplitude", M_PI - 1e-6, NULL, 0);
+    assert_close(near_top.energy, 1.0, 1e-12);
+    /* pi - 1e-9: E = 1 - 5e-19 rounds to 1, the separatrix, in the run's double
+     * precision: refused (issue 12) */
+    assert_int_equal(make(&inst2, "amplitude", M_PI - 1e-9, NULL, 0, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, "outside the libration regime"));
     assert_int_equal(make(&inst2, "energy", -1.0, NULL, 0, &err), DM_EINPUT);
     assert_int_equal(make(&inst2, "energy", 1.0, NULL, 0, &err), DM_EINPUT);
 }

@@ -31,6 +31,42 @@ static void overflowing_states_are_refused_by_the_library(void **state)
     expect_refused("double_well", 2, k2, v2);
 }
 
+static void expect_unresolved(const char *problem, const char *key, double value,
+                              const char *needle)
+{
+    dm_instance inst;
+    dm_error err = { 0 };
+    const char *keys[] = { key };
+    const double values[] = { value };
+    assert_int_equal(dm_instance_init(&inst, dm_problem_find(problem), 1, keys, values, &err),
+                     DM_EINPUT);
+    if (strstr(err.msg, needle) == NULL || strncmp(err.msg, problem, strlen(problem)) != 0) {
+        print_error("%s = %g: message '%s' lacks '%s'\n", key, value, err.msg, needle);
+        fail();
+    }
+}
+
+/* Issue 12, item 10: each ran as `ok` with meaningless figures. */
+static void states_a_run_cannot_resolve_are_refused(void **state)
+{
+    /* omega^2 = 1e-600 underflows to 0: H0 = V_min = 0 and the particle never moves */
+    expect_unresolved("harmonic", "omega", 1e-300, "the energy scale H0 - V_min is 0");
+    /* exp(-50) = 2e-22: E = D (1 - exp(-50))^2 rounds to D, the escape energy */
+    expect_unresolved("morse", "amplitude", 50.0, "starting energy is 1, outside the bound");
+    /* -1 + 1.1e-16: an energy scale of one ulp of V_min */
+    expect_unresolved("pendulum", "energy", -0.9999999999999999, "1.11e-16 beside");
+    /* the same problems a little inside the limit still set up */
+    dm_instance inst;
+    dm_error err;
+    const char *k[] = { "omega" }, *a[] = { "amplitude" }, *e[] = { "energy" };
+    assert_int_equal(dm_instance_init(&inst, dm_problem_find("harmonic"), 1, k,
+                                      (const double[]){ 1e-150 }, &err), DM_OK);
+    assert_int_equal(dm_instance_init(&inst, dm_problem_find("morse"), 1, a,
+                                      (const double[]){ 20.0 }, &err), DM_OK);
+    assert_int_equal(dm_instance_init(&inst, dm_problem_find("pendulum"), 1, e,
+                                      (const double[]){ -0.9999999 }, &err), DM_OK);
+}
+
 static void overflowing_states_are_refused_by_the_cli(void **state)
 {
     char out[4096], err[4096];
@@ -91,6 +127,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(overflowing_states_are_refused_by_the_library),
         cmocka_unit_test(overflowing_states_are_refused_by_the_cli),
+        cmocka_unit_test(states_a_run_cannot_resolve_are_refused),
         cmocka_unit_test(range_text_shows_open_closed_and_infinite_bounds),
         cmocka_unit_test(refusal_and_list_show_the_same_range),
     };

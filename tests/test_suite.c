@@ -650,10 +650,12 @@ static void duplicate_runs_are_refused(void **state)
     expect_error(HEAD PROB "methods:\n  - {h: [0.1, 0.1000001], method: FIXED}\n", SRC ":6:15: ",
                  "names two different runs (first at line 6; expected values that differ "
                  "within 6 significant digits)");
-    /* two problem entries that are the same variant */
+    /* two problem entries that are the same variant: the error points at the second
+     * entry and names the first (both runs share the one step value, which says
+     * nothing) */
     expect_error(HEAD "problems:\n  - {problem: harmonic}\n  - {problem: harmonic}\n"
                  "methods:\n  - {h: 0.1, method: FIXED}\n",
-                 SRC ":7:9: ", "is given twice");
+                 SRC ":5:5: ", "is given twice (first at line 4;");
 }
 
 static void output_directory_must_exist(void **state)

@@ -25,8 +25,14 @@ typedef struct dm_error {
     char msg[DM_ERROR_MSG_MAX];
 } dm_error;
 
+/* Control bytes of `in` written as escapes (\n, \t, \x1b ...) into out, cut to fit:
+ * for any text that came from a file or the user before it reaches a terminal, so a
+ * message stays one line and no escape sequence is sent raw. */
+void dm_escape_controls(const char *in, char *out, size_t size);
+
 /* Sets *err (if err is not NULL) and returns code, so a failing path can say
- * `return dm_error_set(err, DM_EINPUT, "...", ...);`. */
+ * `return dm_error_set(err, DM_EINPUT, "...", ...);`. The message is always one line:
+ * control bytes in it (from a quoted path or name) are escaped. */
 dm_status dm_error_set(dm_error *err, dm_status code, const char *fmt, ...)
     __attribute__((format(printf, 3, 4)));
 

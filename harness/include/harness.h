@@ -31,6 +31,8 @@
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
 #define DM_NAME_MAX 128
 #define DM_CONFIG_MAX 1024
+#define DM_SUITE_MAX_RUNS 10000          /* runs one suite may expand to */
+#define DM_SUITE_MAX_BYTES (1 << 20)     /* the longest suite text read (1 MiB) */
 
 /* ---- what one run is ---- */
 
@@ -89,6 +91,12 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          const char *source, const char *output, dm_error *err);
 dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err);
 dm_status dm_suite_default(dm_suite *suite, const char *output, dm_error *err);
+
+/* Opens `path` for reading only when it is a regular file of at most max_bytes (0: any
+ * size): a FIFO, a device or a directory is refused at once rather than blocking or
+ * flooding the reader. Returns the descriptor, or -1 with *err set (DM_EINPUT, naming
+ * `what` and the path). Suites and results files are read through it. */
+int dm_open_regular(const char *path, const char *what, long long max_bytes, dm_error *err);
 void dm_suite_free(dm_suite *suite);
 
 extern const char dm_default_suite_text[];
@@ -306,6 +314,11 @@ void dm_sweep_fit_free(dm_sweep_fit *fit);
 dm_status dm_results_write(const char *path, const dm_suite *suite,
                            const dm_run_result *results, const dm_sweep_fit *fits,
                            const char *start_time_utc, dm_error *err);
+
+/* The temporary name the file at `path` is written under by process `pid`,
+ * ".NAME.tmp-PID" in NAME's own directory. Returns 0, or -1 when it does not fit or
+ * path names no file. */
+int dm_results_temp_path(const char *path, long pid, char *buf, size_t size);
 
 /* For --resume: reads back every run of the file at `path` whose id and configuration
  * hash match a run of `suite` and that completed (ok, diverged or failed), into

@@ -1,0 +1,221 @@
+#!/usr/bin/python3
+"""Hostile results files and inputs through the command line (issue 12): whatever a
+file holds, `show` and `run --resume` print one line, exit 2 and never crash, hang or
+print HDF5's own error stack; texts from a file reach the terminal with their control
+bytes escaped.
+
+  - an attribute stored as an array where one value belongs (schema_version of 4096
+    elements, a run's max_energy_error or steps): refused, not read past its end
+    (under the sanitizer build, which CI runs this with, a crash is a failure);
+  - a text where a number belongs, a number where a text belongs;
+  - /summary claiming more rows than n_runs_written or than a suite can have;
+  - a FIFO and a device given as the results file (must not block);
+  - a damaged HDF5 header: our one line only;
+  - a run_id, reason and suite_source holding an escape sequence and a newline.
+
+Hostile files are made with h5py from a small valid file the built driftmark writes.
+
+usage: check_hostile_files.py PATH/TO/driftmark     (CTest passes the built executable)
+"""
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+
+import h5py
+import numpy as np
+
+EXE = os.path.abspath(sys.argv[1])
+failures = []
+
+
+def check(cond, what):
+    if not cond:
+        failures.append(what)
+        print("FAIL:", what)
+    return cond
+
+
+def run(args, cwd, timeout=60, env=None):
+    return subprocess.run([EXE] + args, cwd=cwd, capture_output=True, text=True,
+                          timeout=timeout, env=env)
+
+
+# HDF5 1.10 keeps one block of its own (56 bytes, allocated inside libhdf5) after an
+# H5Fopen of a damaged file fails: in the sanitizer build, LeakSanitizer would report
+# it at exit. Those runs alone go without the leak check; every other check stays.
+NO_LEAK_CHECK = dict(os.environ, ASAN_OPTIONS=":".join(
+    [o for o in os.environ.get("ASAN_OPTIONS", "").split(":") if o and
+     not o.startswith("detect_leaks")] + ["detect_leaks=0"]))
+
+
+SUITE = """name: tiny
+horizon: {periods: 3}
+samples: 8
+problems:
+  - {problem: harmonic}
+methods:
+  - {method: verlet, steps_per_period: [16, 32]}
+"""
+
+
+def refused(cwd, args, label, needle=None, env=None):
+    """One line on stderr, exit 2, no HDF5 stack, nothing on stdout."""
+    try:
+        r = run(args, cwd, timeout=20, env=env)
+    except subprocess.TimeoutExpired:
+        check(False, f"{label}: hangs")
+        return
+    check(r.returncode == 2, f"{label}: exit {r.returncode} (expected 2): {r.stderr!r}")
+    check(r.stderr.endswith("\n") and r.stderr.count("\n") == 1,
+          f"{label}: not one line: {r.stderr!r}")
+    check("HDF5-DIAG" not in r.stderr and "#000" not in r.stderr,
+          f"{label}: HDF5's own error stack printed")
+    check("\x1b" not in r.stderr, f"{label}: a raw escape byte on stderr")
+    if needle is not None:
+        check(needle in r.stderr, f"{label}: {needle!r} not in {r.stderr!r}")
+
+
+def hostile(base, name, edit):
+    path = os.path.join(os.path.dirname(base), name)
+    shutil.copy(base, path)
+    with h5py.File(path, "r+") as f:
+        edit(f)
+    return name
+
+
+def first_run(f):
+    return f["runs"][sorted(f["runs"].keys())[0]]
+
+
+def replace_attr(obj, name, value):
+    del obj.attrs[name]
+    obj.attrs[name] = value
+
+
+def main():
+    with tempfile.TemporaryDirectory() as tmp:
+        with open(os.path.join(tmp, "s.yaml"), "w") as f:
+            f.write(SUITE)
+        r = run(["run", "s.yaml", "-o", "good.h5"], tmp)
+        if not check(r.returncode == 0, f"the small suite runs: {r.stderr}"):
+            return
+        base = os.path.join(tmp, "good.h5")
+
+        # arrays where one value belongs (ASan: stack- and heap-buffer-overflow before)
+        cases = [
+            ("schema-array.h5", lambda f: replace_attr(f, "schema_version",
+                                                       np.arange(4096, dtype="i4"))),
+            ("energy-array.h5", lambda f: replace_attr(first_run(f), "max_energy_error",
+                                                       np.zeros(4096))),
+            ("steps-array.h5", lambda f: replace_attr(first_run(f), "steps",
+                                                      np.zeros(4096, dtype="u8"))),
+            ("steps-text.h5", lambda f: replace_attr(first_run(f), "steps", "many")),
+            ("status-number.h5", lambda f: replace_attr(first_run(f), "status", 3.5)),
+            ("status-array.h5", lambda f: replace_attr(first_run(f), "status",
+                                                       np.array([b"ok"] * 4096))),
+            ("suite-text-array.h5", lambda f: replace_attr(f, "suite_text",
+                                                           np.array([b"x"] * 4096))),
+            ("written-array.h5", lambda f: replace_attr(f, "n_runs_written",
+                                                        np.arange(4096, dtype="u8"))),
+            # a status the reader does not know was run again under "running 0"
+            ("status-unknown.h5", lambda f: replace_attr(first_run(f), "status", "weird")),
+        ]
+        for name, edit in cases:
+            hostile(base, name, edit)
+            refused(tmp, ["run", "--resume", name], f"resume {name}")
+        # `show` reads only the root and /summary: the root's attributes are checked
+        for name in ("schema-array.h5", "written-array.h5"):
+            refused(tmp, ["show", name], f"show {name}")
+        r = run(["show", "steps-array.h5"], tmp)
+        check(r.returncode == 0, f"show steps-array.h5: /summary alone is still readable "
+                                 f"(exit {r.returncode}: {r.stderr!r})")
+
+        # a run whose group is damaged: exit 2, as the README's table says for a file
+        # that is not readable as ours
+        hostile(base, "no-series.h5", lambda f: first_run(f).__delitem__("time"))
+        refused(tmp, ["run", "--resume", "no-series.h5"], "resume a run without its series",
+                "is damaged")
+
+        # /summary claiming more rows than the file wrote, or than a suite can have
+        def more_rows(f):
+            rows = f["summary"][()]
+            del f["summary"]
+            f.create_dataset("summary", data=np.concatenate([rows] * 3))
+        hostile(base, "more-rows.h5", more_rows)
+        refused(tmp, ["show", "more-rows.h5"], "show more rows than written",
+                "n_runs_written")
+
+        def many_rows(f):
+            rows = f["summary"][()]
+            del f["summary"]
+            f.create_dataset("summary", data=np.resize(rows, 20001), compression="gzip")
+            replace_attr(f, "n_runs_written", np.uint64(20001))
+        hostile(base, "many-rows.h5", many_rows)
+        refused(tmp, ["show", "many-rows.h5"], "show 20001 rows", "at most 10000")
+
+        # not regular files: refused at once, not read or waited on
+        os.mkfifo(os.path.join(tmp, "fifo.h5"))
+        refused(tmp, ["show", "fifo.h5"], "show a FIFO", "not a regular file")
+        refused(tmp, ["run", "--resume", "fifo.h5"], "resume a FIFO", "not a regular file")
+        refused(tmp, ["show", "/dev/zero"], "show /dev/zero", "not a regular file")
+        refused(tmp, ["run", "fifo.h5"], "run a FIFO as the suite", "not a regular file")
+
+        # a damaged root-group header (64 zero bytes from byte 128 of this small file):
+        # H5Fopen fails, and HDF5's clean-up at exit used to add "HDF5: infinite loop
+        # closing library" and a line of codes to our one line
+        with open(base, "rb") as f:
+            data = bytearray(f.read())
+        data[128:192] = b"\x00" * 64
+        with open(os.path.join(tmp, "header.h5"), "wb") as f:
+            f.write(data)
+        refused(tmp, ["show", "header.h5"], "show a damaged header", env=NO_LEAK_CHECK)
+        refused(tmp, ["run", "--resume", "header.h5"], "resume a damaged header",
+                env=NO_LEAK_CHECK)
+
+        # texts from a file are printed with their control bytes escaped
+        def evil_texts(f):
+            rows = f["summary"][()]
+            rows["run_id"][0] = b"evil\x1b[31m\nrow"
+            rows["reason"][0] = b"why\x1b]0;title\x07"
+            del f["summary"]
+            f.create_dataset("summary", data=rows)
+            f.attrs["suite_source"] = "src\x1b[2J\nsecond.yaml"
+        hostile(base, "evil.h5", evil_texts)
+        for fmt in ("table", "csv"):
+            r = run(["show", "evil.h5", "--format", fmt], tmp)
+            check(r.returncode == 0, f"show evil.h5 --format {fmt}: exit {r.returncode}")
+            check("\x1b" not in r.stdout and "\x07" not in r.stdout,
+                  f"show --format {fmt}: a raw control byte reached the terminal")
+            check("evil\\x1b[31m\\nrow" in r.stdout, f"show --format {fmt}: the run id is "
+                  f"not shown escaped: {r.stdout!r}")
+        # the suite's source names its errors: break the suite text to see it printed
+        def evil_source_bad_suite(f):
+            evil_texts(f)
+            replace_attr(f, "suite_text", "horizon: [")
+        hostile(base, "evil-source.h5", evil_source_bad_suite)
+        refused(tmp, ["run", "--resume", "evil-source.h5"], "resume with a hostile source",
+                "src\\x1b[2J\\nsecond.yaml")
+
+        # a path with a newline: still one line
+        weird = os.path.join(tmp, "a\nb.h5")
+        shutil.copy(os.path.join(tmp, "header.h5"), weird)
+        refused(tmp, ["show", "a\nb.h5"], "show a path with a newline", "a\\nb.h5",
+                env=NO_LEAK_CHECK)
+
+        # the suite text of a file hangs nothing: a range that never ended before
+        hostile(base, "endless.h5", lambda f: replace_attr(
+            f, "suite_text", SUITE.replace("[16, 32]", "{from: 1, to: 100, factor: "
+                                           "1.000000000000001}")))
+        refused(tmp, ["run", "--resume", "endless.h5"], "resume an endless range",
+                "takes more than 100000 steps")
+
+    if failures:
+        print(f"{len(failures)} failure(s)")
+        sys.exit(1)
+    print("check_hostile_files: all checks passed")
+
+
+if __name__ == "__main__":
+    main()
