@@ -961,20 +961,6 @@ static int read_doubles(hid_t g, const char *name, size_t *n, size_t capacity, d
     return rc;
 }
 
-static dm_run_status status_from_name(const char *name)
-{
-    if (strcmp(name, "ok") == 0)
-        return DM_RUN_OK;
-    if (strcmp(name, "diverged") == 0)
-        return DM_RUN_DIVERGED;
-    if (strcmp(name, "failed") == 0)
-        return DM_RUN_FAILED;
-    if (strcmp(name, "interrupted") == 0)
-        return DM_RUN_INTERRUPTED;
-    if (strcmp(name, "swamped") == 0)
-        return DM_RUN_SWAMPED;
-    return DM_RUN_NOT_RUN;
-}
 
 /* A figure kept only in /summary back from the run's row. */
 static int figure_from_row(const dm_figure *f, const dm_summary_row *row, dm_run_result *r)
@@ -983,7 +969,7 @@ static int figure_from_row(const dm_figure *f, const dm_summary_row *row, dm_run
     switch (f->kind) {
     case DM_FIGURE_REAL:
     case DM_FIGURE_COUNT: memcpy((char *)r + f->at, at, f->size); return 0;
-    case DM_FIGURE_STATUS: FIGURE_AT(f, r, dm_run_status) = status_from_name(at); return 0;
+    case DM_FIGURE_STATUS: FIGURE_AT(f, r, dm_run_status) = dm_run_status_named(at); return 0;
     case DM_FIGURE_TEXT: snprintf((char *)r + f->at, f->size, "%s", at); return 0;
     default: return -1; /* never in /summary */
     }
@@ -1013,7 +999,7 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
         case DM_FIGURE_COUNT: rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t)); break;
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
-            FIGURE_AT(f, r, dm_run_status) = status_from_name(text);
+            FIGURE_AT(f, r, dm_run_status) = dm_run_status_named(text);
             /* a status we do not know would be run again while counted as kept */
             if (FIGURE_AT(f, r, dm_run_status) == DM_RUN_NOT_RUN)
                 rc = -1;
@@ -1119,7 +1105,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
         goto done;
     }
     for (size_t k = 0; k < n; k++) {
-        dm_run_status was = status_from_name(rows[k].status);
+        dm_run_status was = dm_run_status_named(rows[k].status);
         if (was == DM_RUN_NOT_RUN)
             continue;
         for (size_t i = 0; i < suite->n_runs; i++) {

@@ -26,6 +26,7 @@
 
 #include <yaml.h>
 
+#include "dm_hash.h"
 #include "harness.h"
 
 #define DM_DEFAULT_SAMPLES 4096
@@ -772,17 +773,6 @@ static dm_status parse_list(suite_build *b, const yaml_node_t *node, bool proble
 
 /* ---- expansion ---- */
 
-static uint64_t fnv1a64(const char *text)
-{
-    /* FNV-1a, 64-bit offset basis and prime (Fowler, Noll, Vo; IETF draft
-     * draft-eastlake-fnv, common practice). */
-    uint64_t h = UINT64_C(14695981039346656037);
-    for (const unsigned char *s = (const unsigned char *)text; *s; s++) {
-        h ^= *s;
-        h *= UINT64_C(1099511628211);
-    }
-    return h;
-}
 
 /* Appends to buf; returns false when it no longer fits. */
 static bool appendf(char *buf, size_t size, size_t *used, const char *fmt, ...)
@@ -980,7 +970,7 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
                        suite->energy_limit);
     if (!ok)
         return fail_at(&b->ctx, me->values->node[value_index], "configuration of run %s is too long", spec->id);
-    snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, fnv1a64(spec->config));
+    snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, dm_hash_text(spec->config));
     return DM_OK;
 }
 
@@ -1103,7 +1093,7 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                     goto done;
                 /* Twins are looked for among every earlier run (up to 10^4, so 5e7
                  * pairs): a 64-bit compare first, the text only when the hashes meet. */
-                uint64_t id_hash = fnv1a64(spec->id);
+                uint64_t id_hash = dm_hash_text(spec->id);
                 for (size_t r = 0; r < suite->n_runs; r++) {
                     if (b->run_id_hashes[r] != id_hash ||
                         strcmp(suite->runs[r].id, spec->id) != 0)
