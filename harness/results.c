@@ -331,6 +331,10 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
 
     /* the problem */
     rc |= attr_text(g, "problem", pr->id);
+    if (spec->problem_library[0] != '\0') {
+        rc |= attr_text(g, "problem_library", spec->problem_library);
+        rc |= attr_text(g, "problem_library_hash", spec->problem_library_hash);
+    }
     char given[512] = "";
     size_t used = 0;
     for (int i = 0; i < pr->n_params; i++) {

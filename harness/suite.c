@@ -385,6 +385,8 @@ static dm_status get_values(parse_ctx *c, const yaml_node_t *node, const char *w
 typedef struct problem_entry {
     const yaml_node_t *node;
     const dm_problem *problem;
+    char library[1024];               /* problem_library: the object's path, or "" */
+    char library_hash[DM_HASH_HEX];
     int n_given;
     int param[DM_MAX_PARAMS];         /* table indices of the given parameters, ascending */
     value_list *values[DM_MAX_PARAMS];
@@ -488,6 +490,31 @@ static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
     return DM_OK;
 }
 
+/* `problem_library: PATH`: a problem from the user's own compiled code (problem.h,
+ * dm_problem_load). A relative path is taken from the suite file's folder. */
+static dm_status load_library(parse_ctx *c, const yaml_node_t *value, problem_entry *e)
+{
+    if (e->problem != NULL)
+        return fail_at(c, value, "give either problem or problem_library, not both");
+    char path[1024];
+    dm_status st = get_string(c, value, "problem_library", path, sizeof path);
+    if (st != DM_OK)
+        return st;
+    const char *slash = strrchr(c->source, '/');
+    int n = path[0] != '/' && slash != NULL
+                ? snprintf(e->library, sizeof e->library, "%.*s/%s", (int)(slash - c->source),
+                           c->source, path)
+                : snprintf(e->library, sizeof e->library, "%s%s", path[0] == '/' ? "" : "./",
+                           path);
+    if (n < 0 || (size_t)n >= sizeof e->library)
+        return fail_at(c, value, "problem_library path is too long (at most %zu bytes with "
+                       "the suite's folder)", sizeof e->library - 1);
+    dm_error lerr = { 0 };
+    if (dm_problem_load(e->library, &e->problem, e->library_hash, &lerr) != DM_OK)
+        return fail_at(c, value, "%s", lerr.msg);
+    return DM_OK;
+}
+
 static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
                                      problem_entry *e)
 {
@@ -507,8 +534,15 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         const char *name;
         if ((st = get_key(c, p, &key, &name)) != DM_OK)
             return st;
+        if (strcmp(name, "problem_library") == 0) {
+            if ((st = load_library(c, node_at(c, p->value), e)) != DM_OK)
+                return st;
+            continue;
+        }
         if (strcmp(name, "problem") != 0)
             continue;
+        if (e->library[0] != '\0')
+            return fail_at(c, key, "give either problem or problem_library, not both");
         const yaml_node_t *value = node_at(c, p->value);
         char id[DM_NAME_MAX];
         if ((st = get_string(c, value, "problem", id, sizeof id)) != DM_OK)
@@ -523,7 +557,8 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         }
     }
     if (e->problem == NULL)
-        return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...})");
+        return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...} "
+                       "or {problem_library: PATH.so, ...})");
 
     const dm_problem *pr = e->problem;
     const char *names[DM_MAX_PARAMS];
@@ -535,7 +570,7 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         yaml_node_t *key;
         const char *name;
         get_key(c, p, &key, &name);
-        if (strcmp(name, "problem") == 0)
+        if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0)
             continue;
         int i = dm_problem_param_index(pr, name);
         if (i < 0) {
@@ -947,6 +982,8 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
     char *cfg = spec->config;
     size_t cu = 0;
     bool ok = appendf(cfg, DM_CONFIG_MAX, &cu, "problem=%s", pr->id);
+    if (spec->problem_library_hash[0] != '\0') /* what ran, not where it lay */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " library=%s", spec->problem_library_hash);
     for (int i = 0; i < pr->n_params; i++)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " %s=%.17g", pr->params[i].name,
                            inst->param[i]);
@@ -980,6 +1017,9 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
 {
     memset(spec, 0, sizeof *spec);
     spec->inst = x->inst;
+    snprintf(spec->problem_library, sizeof spec->problem_library, "%s", x->entry->library);
+    snprintf(spec->problem_library_hash, sizeof spec->problem_library_hash, "%s",
+             x->entry->library_hash);
     spec->n_given = x->n_given;
     for (size_t k = 0; k < x->n_given; k++) {
         spec->given_keys[k] = x->keys[k];

@@ -57,6 +57,38 @@ with tempfile.TemporaryDirectory() as tmp:
     print(f"glider period {r['period']!r} against mpmath {mp.nstr(T, 17)}: {mp.nstr(rel, 3)}")
     check(rel < 1e-14, f"glider period relative error {rel}")
 
+    # a suite of it, as of a built-in problem: Verlet's order, the file names the object
+    suite = os.path.join(tmp, "glider.yaml")
+    with open(suite, "w") as f:
+        f.write("""\
+name: glider-valley
+output: glider.h5
+horizon: {periods: 300}
+samples: 128
+problems:
+  - {problem_library: glider.so, energy: -0.3, width: 0.7}
+methods:
+  - {method: verlet, steps_per_period: [32, 64, 128]}
+""")
+    p = checklib.run(EXE, ["run", suite, "--force"], tmp)
+    check(p.returncode == 0, f"suite of the library: {p.returncode} {p.stderr}")
+    import h5py
+    with h5py.File(os.path.join(tmp, "glider.h5"), "r") as f:
+        sw = f["sweeps"][list(f["sweeps"])[0]]
+        order = float(sw.attrs["energy_order"])
+        g = f["runs"][list(f["runs"])[0]]
+        lib, digest = g.attrs["problem_library"], g.attrs["problem_library_hash"]
+        config = g.attrs["config"]
+    print(f"glider under verlet: energy order {order:.4f}; {lib} {digest}")
+    check(abs(order - 2.0) < 0.05, f"Verlet's order on the glider: {order}")
+    check(lib.endswith("glider.so") and len(digest) == 16 and f"library={digest}" in config,
+          f"the file traces the object: {lib} {digest} {config}")
+    with open(suite, "a") as f:
+        f.write("  - {problem_library: missing.so}\n")
+    p = checklib.run(EXE, ["run", suite, "--force"], tmp)
+    check(p.returncode == 2 and p.stderr.count("\n") == 1 and "glider.yaml:" in p.stderr,
+          f"a missing library in a suite: {p.returncode} {p.stderr!r}")
+
     # broken objects: refused in one line, exit 2
     bad = os.path.join(tmp, "bad.c")
     cases = {

@@ -51,6 +51,10 @@ typedef struct dm_run_spec {
     size_t n_given;
     const char *given_keys[DM_MAX_PARAMS];
     double given_values[DM_MAX_PARAMS];
+    /* a problem from the user's own code: the object's path and the hash of its bytes
+     * (both empty for a built-in problem) */
+    char problem_library[1024];
+    char problem_library_hash[DM_HASH_HEX];
     const dm_method *method;
     dm_method_config method_config;  /* h (resolved), rtol, atol, compensated, t_stop */
     dm_step_setting step_setting;                    /* how the step or tolerance was given */
