@@ -11,6 +11,7 @@
  * The same walk over the fields writes, measures and reads the buffer, so the three
  * cannot drift apart.
  */
+#include "checkpoint.h"
 #include "result_pack.h"
 
 #include <stdbool.h>
@@ -19,7 +20,7 @@
 #include <string.h>
 
 #define PACK_MAGIC "DMRP"
-#define PACK_VERSION 2u
+#define PACK_VERSION 3u
 #define PACK_BYTE_ORDER 0x01020304u
 
 /* Every field of dm_run_metrics is a figure of the list or one of dm_counts (each of
@@ -136,6 +137,13 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
     put_array(c, x->number, x->n);
     put_array(c, x->time, x->n);
     put_array(c, x->phase_error, x->n);
+
+    /* an interrupted run's checkpoint, as the struct's bytes: the ranks of one job run
+     * one build on one kind of machine (README, "Running on a cluster"), and the record
+     * is checked against its run when --resume reads it from the file */
+    put_u32(c, r->checkpoint != NULL);
+    if (r->checkpoint != NULL)
+        put(c, r->checkpoint, sizeof *r->checkpoint);
 }
 
 dm_status dm_result_pack(const dm_suite *suite, size_t index, const dm_run_result *r,
@@ -328,6 +336,16 @@ dm_status dm_result_unpack(const dm_suite *suite, const unsigned char *buf, size
     if (ok) {
         what = "its crossings";
         ok = get_crossings(&c, spec, &r->crossings, &nomem);
+    }
+    if (ok) {
+        what = "its checkpoint";
+        uint32_t has = 0;
+        ok = get(&c, &has, sizeof has) && has <= 1;
+        if (ok && has) {
+            r->checkpoint = malloc(sizeof *r->checkpoint);
+            nomem = r->checkpoint == NULL;
+            ok = !nomem && get(&c, r->checkpoint, sizeof *r->checkpoint);
+        }
     }
     if (ok && c.at != size) {
         what = "its end (bytes left over)";

@@ -13,6 +13,7 @@
 #include <string.h>
 
 #include "harness.h"
+#include "checkpoint.h"
 #include "result_pack.h"
 
 static const char suite_text[] =
@@ -147,6 +148,10 @@ static void interrupted_and_never_started_results_round_trip(void **state)
     assert_int_equal(dm_result_pack(&suite, 0, &stopped, &buf, &size, &err), DM_OK);
     assert_int_equal(dm_result_unpack(&suite, buf, size, &index, &back, &err), DM_OK);
     assert_same_result(&stopped, &back, &suite.runs[0]);
+    /* its checkpoint travels with it, so another rank's stopped run can be continued */
+    assert_non_null(stopped.checkpoint);
+    assert_non_null(back.checkpoint);
+    assert_memory_equal(stopped.checkpoint, back.checkpoint, sizeof *stopped.checkpoint);
     dm_run_result_free(&back);
     dm_run_result_free(&stopped);
     free(buf);
