@@ -215,11 +215,16 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     return DM_OK;
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    double a = inst->param[P_A], b = inst->param[P_B], x = q[0];
+    grad[0] = x * (b * (x * x) - a);
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double a = inst->param[P_A], b = inst->param[P_B], x = q[0], x2 = x * x;
-    grad[0] = x * (b * x2 - a);
-    return x2 * (0.25 * b * x2 - 0.5 * a);
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static void velocity(const dm_instance *inst, const double *p, double *v)
@@ -285,6 +290,7 @@ const dm_problem dm_problem_double_well = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,

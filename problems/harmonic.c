@@ -35,10 +35,15 @@ static double potential(const dm_instance *inst, const double *q)
     return 0.5 * w * w * q[0] * q[0];
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    grad[0] = inst->param[P_OMEGA] * inst->param[P_OMEGA] * q[0];
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
+    gradient(inst, q, grad);
     double w2 = inst->param[P_OMEGA] * inst->param[P_OMEGA];
-    grad[0] = w2 * q[0];
     return 0.5 * w2 * q[0] * q[0];
 }
 
@@ -85,6 +90,7 @@ const dm_problem dm_problem_harmonic = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,

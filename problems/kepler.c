@@ -169,14 +169,26 @@ static double potential(const dm_instance *inst, const double *q)
     return -inst->param[P_MU] / sqrt(q[0] * q[0] + q[1] * q[1]);
 }
 
-static double force(const dm_instance *inst, const double *q, double *grad)
+/* Writes grad V = mu q / r^3 and returns 1 / r. */
+static inline double gradient_and_inverse_radius(const dm_instance *inst, const double *q,
+                                                 double *grad)
 {
     double mu = inst->param[P_MU];
     double inv_r = 1.0 / sqrt(q[0] * q[0] + q[1] * q[1]);
     double k = mu * inv_r * inv_r * inv_r;
     grad[0] = k * q[0];
     grad[1] = k * q[1];
-    return -mu * inv_r;
+    return inv_r;
+}
+
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    (void)gradient_and_inverse_radius(inst, q, grad);
+}
+
+static double force(const dm_instance *inst, const double *q, double *grad)
+{
+    return -inst->param[P_MU] * gradient_and_inverse_radius(inst, q, grad);
 }
 
 static double kinetic(const dm_instance *inst, const double *p)
@@ -263,6 +275,7 @@ const dm_problem dm_problem_kepler = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,

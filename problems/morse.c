@@ -132,14 +132,20 @@ static double potential(const dm_instance *inst, const double *q)
     return D * s * s;
 }
 
-static double force(const dm_instance *inst, const double *q, double *grad)
+static void gradient(const dm_instance *inst, const double *q, double *grad)
 {
     double D = inst->param[P_DEPTH];
     double alpha = inst->param[P_ALPHA];
     double s = expm1(-alpha * (q[0] - inst->param[P_XE])); /* y - 1 */
     /* dV/dx = 2 D alpha y (1 - y) */
     grad[0] = -2.0 * D * alpha * (1.0 + s) * s;
-    return D * s * s;
+}
+
+static double force(const dm_instance *inst, const double *q, double *grad)
+{
+    /* the one expm1 of both is computed once (-fno-math-errno makes it pure) */
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static double kinetic(const dm_instance *inst, const double *p)
@@ -226,6 +232,7 @@ const dm_problem dm_problem_morse = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,

@@ -133,13 +133,16 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     return DM_OK;
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    grad[0] = inst->param[P_G_OVER_L] * sin(q[0]);
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double g = inst->param[P_G_OVER_L];
     /* sin and cos of the same angle: gcc turns the pair into one sincos call. */
-    double s = sin(q[0]), c = cos(q[0]);
-    grad[0] = g * s;
-    return -g * c;
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static void velocity(const dm_instance *inst, const double *p, double *v)
@@ -206,6 +209,7 @@ const dm_problem dm_problem_pendulum = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,

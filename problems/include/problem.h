@@ -149,6 +149,11 @@ struct dm_problem {
     /* Writes grad V(q) into grad and returns V(q): both come from the same
      * intermediate results (sincos, 1/r), so a monitor gets V for free. */
     double (*force)(const dm_instance *inst, const double *q, double *grad);
+    /* Optional: writes grad V(q) alone, the same numbers force() writes, bit for bit
+     * (tests/test_registry.c checks it), for the methods that never use V (Runge-Kutta
+     * stages, implicit midpoint iterations): no cos, no division for V. NULL: force()
+     * with V dropped (dm_problem_gradient below). */
+    void (*gradient)(const dm_instance *inst, const double *q, double *grad);
     double (*kinetic)(const dm_instance *inst, const double *p);
     /* Writes grad T(p) (the velocity dq/dt) into v. */
     void (*velocity)(const dm_instance *inst, const double *p, double *v);
@@ -187,6 +192,21 @@ struct dm_problem {
     void (*invariants)(const dm_instance *inst, const double *q, const double *p,
                        double *out);
 };
+
+/* grad V(q) of a problem that has no gradient function: force() with V dropped. */
+static inline void dm_gradient_from_force(const dm_instance *inst, const double *q,
+                                          double *grad)
+{
+    (void)inst->problem->force(inst, q, grad);
+}
+
+typedef void (*dm_gradient_fn)(const dm_instance *inst, const double *q, double *grad);
+
+/* The problem's gradient, or its default. */
+static inline dm_gradient_fn dm_problem_gradient(const dm_problem *problem)
+{
+    return problem->gradient != NULL ? problem->gradient : dm_gradient_from_force;
+}
 
 /* ---- registry (registry.c) ---- */
 extern const dm_problem *const dm_problems[];
