@@ -260,8 +260,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_double_well = {
     .id = "double_well",
@@ -294,6 +295,7 @@ const dm_problem dm_problem_double_well = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

@@ -70,8 +70,9 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = -a * w * sin(w * t);
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_harmonic = {
     .id = "harmonic",
@@ -94,6 +95,7 @@ const dm_problem dm_problem_harmonic = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .hessian = hessian,
     .exact = exact,
 };

@@ -254,8 +254,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? 0 : -1;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 2)
+DM_FUSED_RK_LOOP(fused_rk_loop, 2)
 
 const dm_problem dm_problem_kepler = {
     .id = "kepler",
@@ -279,6 +280,7 @@ const dm_problem dm_problem_kepler = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

@@ -206,8 +206,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < inst->param[P_DEPTH] ? 0 : -1;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_morse = {
     .id = "morse",
@@ -236,6 +237,7 @@ const dm_problem dm_problem_morse = {
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

@@ -17,6 +17,7 @@
 #ifndef DM_FUSED_LOOP_H
 #define DM_FUSED_LOOP_H
 
+#include <float.h>
 #include <math.h>
 #include <string.h>
 
@@ -174,6 +175,242 @@ dm_fused_dispatch(const dm_instance *inst, const dm_fused_table *table, dm_fused
     {                                                                                       \
         return dm_fused_dispatch(inst, table, cache, run, k_end, (DOF), force, velocity,    \
                                  kinetic, potential);                                       \
+    }
+
+/* ==== the Runge-Kutta family ====
+ * The step arithmetic of explicit tableaux and of the implicit midpoint rule, written
+ * once: the per-step paths (integrators/rk.c, integrators/midpoint.c) call these
+ * functions with the problem's functions through the table and the dof known at run
+ * time, the fused loop below with them inline and the dof and the tableau's shape as
+ * constants. The slopes are f(y) = (grad T(p), -grad V(q)), grad V from gradient(). */
+
+/* One explicit step y1 = y0 + h sum_i b_i k_i, stage i at y0 + h sum_j a_ij k_j. Every
+ * sum runs over the nonzero coefficients only, in order, and starts from its first
+ * term; a sum with no term leaves y0 as it is. With `subdiagonal` (a constant) the
+ * caller has checked dm_rk_is_subdiagonal: only a_i,i-1 and every b_i are nonzero, so
+ * the zero tests vanish at compile time. y1 may not be y0. */
+static inline __attribute__((always_inline)) void
+dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
+                    const double *y0, double *y1, const int N, const int S,
+                    const bool subdiagonal, dm_gradient_fn gradient,
+                    dm_fused_velocity velocity)
+{
+    double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF];
+#pragma GCC unroll 4
+    for (int i = 0; i < S; i++) {
+        for (int c = 0; c < 2 * N; c++) {
+            double sum = 0.0;
+            bool any = false;
+            for (int j = 0; j < i; j++) {
+                if (subdiagonal ? j != i - 1 : t->a[i][j] == 0.0)
+                    continue;
+                double term = t->a[i][j] * k[j][c];
+                sum = any ? sum + term : term;
+                any = true;
+            }
+            y[c] = any ? y0[c] + h * sum : y0[c];
+        }
+        velocity(inst, y + N, k[i]);
+        gradient(inst, y, k[i] + N);
+        for (int c = N; c < 2 * N; c++)
+            k[i][c] = -k[i][c];
+    }
+    for (int c = 0; c < 2 * N; c++) {
+        double sum = 0.0;
+        bool any = false;
+#pragma GCC unroll 4
+        for (int i = 0; i < S; i++) {
+            if (!subdiagonal && t->b[i] == 0.0)
+                continue;
+            double term = t->b[i] * k[i][c];
+            sum = any ? sum + term : term;
+            any = true;
+        }
+        y1[c] = any ? y0[c] + h * sum : y0[c];
+    }
+}
+
+/* Whether only a_i,i-1 (i >= 1) and every b_i are nonzero (Euler, classical RK4). */
+static inline bool dm_rk_is_subdiagonal(const dm_rk_tableau *t)
+{
+    for (int i = 0; i < t->stages; i++) {
+        if (t->b[i] == 0.0)
+            return false;
+        for (int j = 0; j < i; j++)
+            if ((t->a[i][j] != 0.0) != (j == i - 1))
+                return false;
+    }
+    return true;
+}
+
+/* Updates below this many ulps of |k| count as converged. */
+#define DM_MIDPOINT_CONVERGED_ULPS 4.0
+/* An update that no longer shrinks is accepted as the round-off floor only when it is
+ * already this small (in ulps of |k|); otherwise the iteration goes on (and fails at
+ * the cap if it diverges or oscillates). */
+#define DM_MIDPOINT_STAGNATION_ULPS 1024.0
+
+/* max(a, b) for an a that is never NaN: b when b > a, else a (so a NaN b is passed
+ * over). It is fmax(a, b) whenever a is not NaN and neither is -0, which holds for the
+ * non-negative sizes below, and it compiles to one maxsd where fmax is a call. */
+static inline double dm_larger(double a, double b)
+{
+    return b > a ? b : a;
+}
+
+/* One implicit midpoint step y1 = y0 + h f(k), k = y0 + (h/2) f(k) solved by fixed-point
+ * iteration from the predictor y0 + (h/2) f (the last step's slope, when *slope_valid)
+ * or y0, until the update is below a few ulps of k or stops shrinking at round-off
+ * level. f holds the slope at the last iterate on return (the next predictor). Returns
+ * whether it converged within max_iterations; *iterations and *update say how it went.
+ * Without convergence y1 is not written and *slope_valid is cleared. */
+static inline __attribute__((always_inline)) bool
+dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const double *y0,
+                 double *y1, double *f, bool *slope_valid, const int N,
+                 dm_gradient_fn gradient, dm_fused_velocity velocity, int *iterations,
+                 double *update_out)
+{
+    const double half_h = 0.5 * h;
+    double k[2 * DM_MAX_DOF];
+    for (int c = 0; c < 2 * N; c++)
+        k[c] = *slope_valid ? y0[c] + half_h * f[c] : y0[c];
+
+    double previous_update = INFINITY, update = INFINITY;
+    int it = 0;
+    bool converged = false;
+    while (it < max_iterations) {
+        velocity(inst, k + N, f);
+        gradient(inst, k, f + N);
+        it++;
+        update = 0.0;
+        double size = 0.0;
+        for (int c = 0; c < 2 * N; c++) {
+            if (c >= N)
+                f[c] = -f[c];
+            double next = y0[c] + half_h * f[c];
+            update = dm_larger(update, fabs(next - k[c]));
+            size = dm_larger(size, fabs(next));
+            k[c] = next;
+        }
+        if (!isfinite(update))
+            break;
+        double ulp = DBL_EPSILON * size;
+        if (update <= DM_MIDPOINT_CONVERGED_ULPS * ulp ||
+            (update >= previous_update && update <= DM_MIDPOINT_STAGNATION_ULPS * ulp)) {
+            converged = true;
+            break;
+        }
+        previous_update = update;
+    }
+    *iterations = it;
+    *update_out = update;
+    *slope_valid = converged;
+    if (converged) {
+        /* y1 = y0 + h f(k) with f taken at the iterate the last update came from. */
+        for (int c = 0; c < 2 * N; c++)
+            y1[c] = y0[c] + h * f[c];
+    }
+    return converged;
+}
+
+/* The fused Runge-Kutta loop: steps and the per-step monitor from run->k until k_end
+ * or an event. S is the number of stages of an explicit tableau, 0 for the implicit
+ * midpoint rule. The state before a step stays in y0 while the step writes y1: no copy
+ * is made for x_prev. */
+static inline __attribute__((always_inline)) int
+dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
+                  dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end, const int N,
+                  const int S, const bool subdiagonal, dm_gradient_fn gradient,
+                  dm_fused_velocity velocity, dm_fused_kinetic kinetic,
+                  dm_fused_potential potential)
+{
+    double y0[2 * DM_MAX_DOF], y1[2 * DM_MAX_DOF], f[2 * DM_MAX_DOF];
+    for (int c = 0; c < 2 * N; c++) {
+        y0[c] = run->x[c];
+        f[c] = cache->slope[c];
+    }
+    bool slope_valid = cache->slope_valid;
+    const dm_rk_tableau *t = method->tableau;
+    const double h = method->h;
+    const int max_iterations = method->max_iterations;
+    dm_step_monitor mon = run->monitor; /* a local copy: kept in registers */
+    const uint64_t k_start = run->k;
+    uint64_t k = k_start, evaluations = 0, most = cache->max_iterations_in_step;
+    int event = DM_FUSED_END;
+
+    while (k < k_end) {
+        if (S == 0) {
+            int it;
+            double update;
+            bool ok = dm_midpoint_step(inst, h, max_iterations, y0, y1, f, &slope_valid, N,
+                                       gradient, velocity, &it, &update);
+            evaluations += (uint64_t)it;
+            most = (uint64_t)it > most ? (uint64_t)it : most;
+            if (!ok) {
+                cache->failed_iterations = it;
+                cache->failed_update = update;
+                event = DM_FUSED_FAILED;
+                break;
+            }
+        } else {
+            dm_rk_explicit_step(inst, t, h, y0, y1, N, S, subdiagonal, gradient, velocity);
+        }
+        k++;
+        dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, y1 + N), potential(inst, y1),
+                                           dm_fused_component(y1, N, mon.coord));
+        if (ev != DM_STEP_QUIET) {
+            event = (int)ev; /* the same numbers as dm_fused_event's (problem.h) */
+            for (int c = 0; c < 2 * N; c++) {
+                run->x_prev[c] = y0[c];
+                y0[c] = y1[c];
+            }
+            break;
+        }
+        for (int c = 0; c < 2 * N; c++)
+            y0[c] = y1[c];
+    }
+
+    for (int c = 0; c < 2 * N; c++) {
+        run->x[c] = y0[c];
+        cache->slope[c] = f[c];
+    }
+    cache->slope_valid = slope_valid;
+    cache->evaluations += S == 0 ? evaluations : (k - k_start) * (uint64_t)S;
+    cache->max_iterations_in_step = most;
+    run->monitor = mon;
+    run->k = k;
+    return event;
+}
+
+static inline __attribute__((always_inline)) int
+dm_fused_rk_dispatch(const dm_instance *inst, const dm_fused_rk *method,
+                     dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end, const int N,
+                     dm_gradient_fn gradient, dm_fused_velocity velocity,
+                     dm_fused_kinetic kinetic, dm_fused_potential potential)
+{
+    const dm_rk_tableau *t = method->tableau;
+#define DM_FUSED_RK_SHAPE(S, SUB)                                                         \
+    dm_fused_rk_steps(inst, method, cache, run, k_end, N, S, SUB, gradient, velocity,     \
+                      kinetic, potential)
+    if (t == NULL) /* implicit midpoint */
+        return DM_FUSED_RK_SHAPE(0, false);
+    if (t->stages == 4 && dm_rk_is_subdiagonal(t)) /* classical RK4 */
+        return DM_FUSED_RK_SHAPE(4, true);
+    if (t->stages == 1 && dm_rk_is_subdiagonal(t)) /* explicit Euler */
+        return DM_FUSED_RK_SHAPE(1, true);
+    return DM_FUSED_RK_SHAPE(t->stages, false);
+#undef DM_FUSED_RK_SHAPE
+}
+
+/* Defines `static int NAME(...)`, the problem's fused Runge-Kutta loop, over its static
+ * gradient, velocity, kinetic and potential functions, for DOF degrees of freedom. */
+#define DM_FUSED_RK_LOOP(NAME, DOF)                                                        \
+    _Static_assert((DOF) >= 1 && (DOF) <= DM_MAX_DOF, "DM_FUSED_RK_LOOP: DOF out of range"); \
+    static int NAME(const dm_instance *inst, const dm_fused_rk *method,                    \
+                    dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end)            \
+    {                                                                                       \
+        return dm_fused_rk_dispatch(inst, method, cache, run, k_end, (DOF), gradient,       \
+                                    velocity, kinetic, potential);                          \
     }
 
 #endif
