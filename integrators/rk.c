@@ -19,16 +19,7 @@ typedef struct rk_stepper {
     dm_fused_rk_cache cache;  /* the fused loop's counts */
 } rk_stepper;
 
-/* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
-static const dm_rk_tableau euler_tableau = { .stages = 1, .b = { 1.0 } };
-
-/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, §II.1; from
- * memory of the book). */
-static const dm_rk_tableau rk4_tableau = {
-    .stages = 4,
-    .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
-    .b = { 1.0 / 6.0, 1.0 / 3.0, 1.0 / 3.0, 1.0 / 6.0 },
-};
+/* The tableaux (dm_rk_euler_tableau, dm_rk4_tableau) are in dm_fused_loop.h. */
 
 static void restart_at(rk_stepper *s, const dm_point *at)
 {
@@ -58,14 +49,14 @@ static dm_stepper *euler_create(const dm_method *m, const dm_instance *inst,
                                 const dm_method_config *config, const dm_point *start,
                                 dm_error *err)
 {
-    return rk_create(&euler_tableau, m, inst, config, start, err);
+    return rk_create(&dm_rk_euler_tableau, m, inst, config, start, err);
 }
 
 static dm_stepper *rk4_create(const dm_method *m, const dm_instance *inst,
                               const dm_method_config *config, const dm_point *start,
                               dm_error *err)
 {
-    return rk_create(&rk4_tableau, m, inst, config, start, err);
+    return rk_create(&dm_rk4_tableau, m, inst, config, start, err);
 }
 
 /* The step arithmetic is dm_rk_explicit_step (dm_fused_loop.h), the fused loop's own. */
@@ -78,8 +69,8 @@ static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
     double h = base->config.h;
     if (from->x != s->state_x)
         restart_at(s, from);
-    dm_rk_explicit_step(inst, tab, h, from->x, to->x, base->dof, tab->stages, false,
-                        dm_problem_gradient(problem), problem->velocity);
+    dm_rk_explicit_step_any(inst, tab, h, from->x, to->x, base->dof,
+                            dm_problem_gradient(problem), problem->velocity);
     base->counts.force_evals += (uint64_t)tab->stages;
     base->counts.velocity_evals += (uint64_t)tab->stages;
     base->counts.steps++;

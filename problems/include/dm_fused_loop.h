@@ -184,25 +184,55 @@ dm_fused_dispatch(const dm_instance *inst, const dm_fused_table *table, dm_fused
  * time, the fused loop below with them inline and the dof and the tableau's shape as
  * constants. The slopes are f(y) = (grad T(p), -grad V(q)), grad V from gradient(). */
 
-/* One explicit step y1 = y0 + h sum_i b_i k_i, stage i at y0 + h sum_j a_ij k_j. Every
- * sum runs over the nonzero coefficients only, in order, and starts from its first
- * term; a sum with no term leaves y0 as it is. With `subdiagonal` (a constant) the
- * caller has checked dm_rk_is_subdiagonal: only a_i,i-1 and every b_i are nonzero, so
- * the zero tests vanish at compile time. y1 may not be y0. */
+/* The shipped tableaux, written once: integrators/rk.c runs them, and the fused loop
+ * recognises them so that their numbers are constants it folds in (zero terms and
+ * products by 1 vanish at compile time). */
+/* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
+static const dm_rk_tableau dm_rk_euler_tableau = { .stages = 1, .b = { 1.0 } };
+/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, §II.1; from
+ * memory of the book). */
+static const dm_rk_tableau dm_rk4_tableau = {
+    .stages = 4,
+    .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
+    .b = { 1.0 / 6.0, 1.0 / 3.0, 1.0 / 3.0, 1.0 / 6.0 },
+};
+
+/* Whether two tableaux hold the same numbers. */
+static inline bool dm_rk_same_tableau(const dm_rk_tableau *x, const dm_rk_tableau *y)
+{
+    if (x->stages != y->stages)
+        return false;
+    for (int i = 0; i < x->stages; i++) {
+        if (x->b[i] != y->b[i])
+            return false;
+        for (int j = 0; j < i; j++)
+            if (x->a[i][j] != y->a[i][j])
+                return false;
+    }
+    return true;
+}
+
+/* One explicit step y1 = y0 + h sum_i b_i k_i, stage i at y0 + h sum_j a_ij k_j, with
+ * S = t->stages a constant (dm_rk_explicit_step_any below for any t). Every sum runs over the nonzero coefficients only, in order, and
+ * starts from its first term; a sum with no term leaves y0 as it is. When t points to
+ * one of the constant tableaux above, the zero tests are decided at compile time.
+ * y1 may not be y0. */
 static inline __attribute__((always_inline)) void
 dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
                     const double *y0, double *y1, const int N, const int S,
-                    const bool subdiagonal, dm_gradient_fn gradient,
-                    dm_fused_velocity velocity)
+                    dm_gradient_fn gradient, dm_fused_velocity velocity)
 {
-    double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF];
+    /* y is zeroed for the compiler's sake only (-Wmaybe-uninitialized with a dof known
+     * at run time); with a constant dof the stores vanish */
+    double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF] = { 0 };
 #pragma GCC unroll 4
     for (int i = 0; i < S; i++) {
         for (int c = 0; c < 2 * N; c++) {
             double sum = 0.0;
             bool any = false;
+#pragma GCC unroll 4
             for (int j = 0; j < i; j++) {
-                if (subdiagonal ? j != i - 1 : t->a[i][j] == 0.0)
+                if (t->a[i][j] == 0.0)
                     continue;
                 double term = t->a[i][j] * k[j][c];
                 sum = any ? sum + term : term;
@@ -220,7 +250,7 @@ dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
         bool any = false;
 #pragma GCC unroll 4
         for (int i = 0; i < S; i++) {
-            if (!subdiagonal && t->b[i] == 0.0)
+            if (t->b[i] == 0.0)
                 continue;
             double term = t->b[i] * k[i][c];
             sum = any ? sum + term : term;
@@ -230,17 +260,18 @@ dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
     }
 }
 
-/* Whether only a_i,i-1 (i >= 1) and every b_i are nonzero (Euler, classical RK4). */
-static inline bool dm_rk_is_subdiagonal(const dm_rk_tableau *t)
+/* The same for a tableau known at run time: S made a constant by a switch. */
+static inline __attribute__((always_inline)) void
+dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double h,
+                        const double *y0, double *y1, const int N, dm_gradient_fn gradient,
+                        dm_fused_velocity velocity)
 {
-    for (int i = 0; i < t->stages; i++) {
-        if (t->b[i] == 0.0)
-            return false;
-        for (int j = 0; j < i; j++)
-            if ((t->a[i][j] != 0.0) != (j == i - 1))
-                return false;
+    switch (t->stages) {
+    case 1: dm_rk_explicit_step(inst, t, h, y0, y1, N, 1, gradient, velocity); break;
+    case 2: dm_rk_explicit_step(inst, t, h, y0, y1, N, 2, gradient, velocity); break;
+    case 3: dm_rk_explicit_step(inst, t, h, y0, y1, N, 3, gradient, velocity); break;
+    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
     }
-    return true;
 }
 
 /* Updates below this many ulps of |k| count as converged. */
@@ -272,6 +303,7 @@ dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const do
 {
     const double half_h = 0.5 * h;
     double k[2 * DM_MAX_DOF];
+#pragma GCC unroll 12
     for (int c = 0; c < 2 * N; c++)
         k[c] = *slope_valid ? y0[c] + half_h * f[c] : y0[c];
 
@@ -284,6 +316,7 @@ dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const do
         it++;
         update = 0.0;
         double size = 0.0;
+#pragma GCC unroll 12
         for (int c = 0; c < 2 * N; c++) {
             if (c >= N)
                 f[c] = -f[c];
@@ -314,13 +347,13 @@ dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const do
 }
 
 /* The fused Runge-Kutta loop: steps and the per-step monitor from run->k until k_end
- * or an event. S is the number of stages of an explicit tableau, 0 for the implicit
- * midpoint rule. The state before a step stays in y0 while the step writes y1: no copy
+ * or an event. t is the explicit tableau (NULL: the implicit midpoint rule), S its
+ * number of stages when t is one of the constant tableaux, else -1. The state before a step stays in y0 while the step writes y1: no copy
  * is made for x_prev. */
 static inline __attribute__((always_inline)) int
 dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
-                  dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end, const int N,
-                  const int S, const bool subdiagonal, dm_gradient_fn gradient,
+                  const dm_rk_tableau *t, dm_fused_rk_cache *cache, dm_fused_run *run,
+                  uint64_t k_end, const int N, const int S, dm_gradient_fn gradient,
                   dm_fused_velocity velocity, dm_fused_kinetic kinetic,
                   dm_fused_potential potential)
 {
@@ -330,7 +363,6 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
         f[c] = cache->slope[c];
     }
     bool slope_valid = cache->slope_valid;
-    const dm_rk_tableau *t = method->tableau;
     const double h = method->h;
     const int max_iterations = method->max_iterations;
     dm_step_monitor mon = run->monitor; /* a local copy: kept in registers */
@@ -339,7 +371,7 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
     int event = DM_FUSED_END;
 
     while (k < k_end) {
-        if (S == 0) {
+        if (t == NULL) {
             int it;
             double update;
             bool ok = dm_midpoint_step(inst, h, max_iterations, y0, y1, f, &slope_valid, N,
@@ -352,8 +384,10 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
                 event = DM_FUSED_FAILED;
                 break;
             }
+        } else if (S > 0) {
+            dm_rk_explicit_step(inst, t, h, y0, y1, N, S, gradient, velocity);
         } else {
-            dm_rk_explicit_step(inst, t, h, y0, y1, N, S, subdiagonal, gradient, velocity);
+            dm_rk_explicit_step_any(inst, t, h, y0, y1, N, gradient, velocity);
         }
         k++;
         dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, y1 + N), potential(inst, y1),
@@ -369,48 +403,47 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
         for (int c = 0; c < 2 * N; c++)
             y0[c] = y1[c];
     }
-
     for (int c = 0; c < 2 * N; c++) {
         run->x[c] = y0[c];
         cache->slope[c] = f[c];
     }
     cache->slope_valid = slope_valid;
-    cache->evaluations += S == 0 ? evaluations : (k - k_start) * (uint64_t)S;
+    cache->evaluations += t == NULL ? evaluations : (k - k_start) * (uint64_t)t->stages;
     cache->max_iterations_in_step = most;
     run->monitor = mon;
     run->k = k;
     return event;
 }
 
-static inline __attribute__((always_inline)) int
-dm_fused_rk_dispatch(const dm_instance *inst, const dm_fused_rk *method,
-                     dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end, const int N,
-                     dm_gradient_fn gradient, dm_fused_velocity velocity,
-                     dm_fused_kinetic kinetic, dm_fused_potential potential)
-{
-    const dm_rk_tableau *t = method->tableau;
-#define DM_FUSED_RK_SHAPE(S, SUB)                                                         \
-    dm_fused_rk_steps(inst, method, cache, run, k_end, N, S, SUB, gradient, velocity,     \
-                      kinetic, potential)
-    if (t == NULL) /* implicit midpoint */
-        return DM_FUSED_RK_SHAPE(0, false);
-    if (t->stages == 4 && dm_rk_is_subdiagonal(t)) /* classical RK4 */
-        return DM_FUSED_RK_SHAPE(4, true);
-    if (t->stages == 1 && dm_rk_is_subdiagonal(t)) /* explicit Euler */
-        return DM_FUSED_RK_SHAPE(1, true);
-    return DM_FUSED_RK_SHAPE(t->stages, false);
-#undef DM_FUSED_RK_SHAPE
-}
-
 /* Defines `static int NAME(...)`, the problem's fused Runge-Kutta loop, over its static
- * gradient, velocity, kinetic and potential functions, for DOF degrees of freedom. */
+ * gradient, velocity, kinetic and potential functions, for DOF degrees of freedom: one
+ * function per shape (the implicit midpoint rule, RK4, Euler, any other tableau), each
+ * compiled on its own so that each gets the registers to itself. */
+#define DM_FUSED_RK_SHAPE(NAME, SHAPE, T, S, DOF)                                          \
+    static __attribute__((noinline)) int NAME##_##SHAPE(                                   \
+        const dm_instance *inst, const dm_fused_rk *method, dm_fused_rk_cache *cache,      \
+        dm_fused_run *run, uint64_t k_end)                                                 \
+    {                                                                                       \
+        return dm_fused_rk_steps(inst, method, (T), cache, run, k_end, (DOF), (S),         \
+                                 gradient, velocity, kinetic, potential);                  \
+    }
 #define DM_FUSED_RK_LOOP(NAME, DOF)                                                        \
     _Static_assert((DOF) >= 1 && (DOF) <= DM_MAX_DOF, "DM_FUSED_RK_LOOP: DOF out of range"); \
+    DM_FUSED_RK_SHAPE(NAME, midpoint, NULL, -1, DOF)                                        \
+    DM_FUSED_RK_SHAPE(NAME, rk4, &dm_rk4_tableau, 4, DOF)                                   \
+    DM_FUSED_RK_SHAPE(NAME, euler, &dm_rk_euler_tableau, 1, DOF)                            \
+    DM_FUSED_RK_SHAPE(NAME, any, method->tableau, -1, DOF)                                  \
     static int NAME(const dm_instance *inst, const dm_fused_rk *method,                    \
                     dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end)            \
     {                                                                                       \
-        return dm_fused_rk_dispatch(inst, method, cache, run, k_end, (DOF), gradient,       \
-                                    velocity, kinetic, potential);                          \
+        const dm_rk_tableau *t = method->tableau;                                           \
+        if (t == NULL)                                                                      \
+            return NAME##_midpoint(inst, method, cache, run, k_end);                        \
+        if (dm_rk_same_tableau(t, &dm_rk4_tableau))                                         \
+            return NAME##_rk4(inst, method, cache, run, k_end);                             \
+        if (dm_rk_same_tableau(t, &dm_rk_euler_tableau))                                    \
+            return NAME##_euler(inst, method, cache, run, k_end);                           \
+        return NAME##_any(inst, method, cache, run, k_end);                                 \
     }
 
 #endif
