@@ -1,6 +1,7 @@
-/* dm_fused_loop.h — the fused loop: any splitting table's steps and the per-step monitor
- * in one loop, compiled inside a problem's own file so that its force, velocity and
- * kinetic energy are inlined. A problem opts in with one line after its static
+/* dm_fused_loop.h — the fused loops: any splitting table's steps (and, below, a
+ * Runge-Kutta tableau's or the implicit midpoint rule's) and the per-step monitor in one
+ * loop, compiled inside a problem's own file so that its force, velocity and kinetic
+ * energy are inlined. A problem opts in with one line after its static
  * force/velocity/kinetic/potential functions,
  *
  *     DM_FUSED_LOOP(fused_loop, 1)        (the name to define, the degrees of freedom)
