@@ -8,6 +8,7 @@
  */
 #include "bench_loops.h"
 
+#include <float.h>
 #include <math.h>
 
 #include <cvode/cvode.h>
@@ -165,6 +166,182 @@ void dm_bare_yoshida4_kepler(double mu, const dm_bare_coefficients *c, uint64_t 
     state->p[1] = py;
     state->potential = V;
 }
+
+/* ---- classical RK4 and the implicit midpoint rule ----
+ * y = (q, p) with N degrees of freedom in small arrays of constant size (the compiler
+ * keeps them in registers), the slope f(y) = (p, -grad V(q)) with grad V written as the
+ * problems' gradient() writes it, and V as their potential() does. */
+
+static inline void pendulum_gradient(double g, const double *q, double *grad)
+{
+    grad[0] = g * sin(q[0]);
+}
+
+static inline double pendulum_potential(double g, const double *q)
+{
+    return -g * cos(q[0]);
+}
+
+static inline void kepler_gradient(double mu, const double *q, double *grad)
+{
+    double inv_r = 1.0 / sqrt(q[0] * q[0] + q[1] * q[1]);
+    double k = mu * inv_r * inv_r * inv_r;
+    grad[0] = k * q[0];
+    grad[1] = k * q[1];
+}
+
+static inline double kepler_potential(double mu, const double *q)
+{
+    return -mu / sqrt(q[0] * q[0] + q[1] * q[1]);
+}
+
+typedef void bare_gradient(double k, const double *q, double *grad);
+typedef double bare_potential(double k, const double *q);
+
+static inline __attribute__((always_inline)) void
+slope(double k, const double *y, double *f, const int N, bare_gradient *gradient)
+{
+    double grad[2];
+    gradient(k, y, grad);
+    for (int i = 0; i < N; i++) {
+        f[i] = y[N + i];
+        f[N + i] = -grad[i];
+    }
+}
+
+/* After a step: V, and the largest |T + V - H0| so far. */
+static inline __attribute__((always_inline)) void
+watch_energy(double k, const double *y, double H0, double *V, double *worst, const int N,
+             bare_potential *potential)
+{
+    double T = N == 1 ? 0.5 * y[1] * y[1] : 0.5 * (y[2] * y[2] + y[3] * y[3]);
+    *V = potential(k, y);
+    double e = fabs(T + *V - H0);
+    *worst = e > *worst ? e : *worst;
+}
+
+static inline __attribute__((always_inline)) void
+bare_start(const dm_bare_state *state, double *y, const int N)
+{
+    for (int i = 0; i < N; i++) {
+        y[i] = state->q[i];
+        y[N + i] = state->p[i];
+    }
+}
+
+static inline __attribute__((always_inline)) void
+bare_end(dm_bare_state *state, const double *y, double V, double worst, uint64_t steps,
+         const int N)
+{
+    for (int i = 0; i < N; i++) {
+        state->q[i] = y[i];
+        state->p[i] = y[N + i];
+    }
+    state->potential = V;
+    state->worst = worst;
+    state->steps_done = steps;
+}
+
+/* RK4 as rk.c steps it: stage i at y + h (a_i,i-1 k_i-1), the end at
+ * y + h (((b1 k1 + b2 k2) + b3 k3) + b4 k4), the tableau's numbers written in. */
+static inline __attribute__((always_inline)) void
+rk4_loop(double k, const dm_bare_coefficients *c, uint64_t steps, dm_bare_state *state,
+         const int N, const bool with_energy, bare_gradient *gradient,
+         bare_potential *potential)
+{
+    const double h = c->h, H0 = c->H0;
+    const double b1 = 1.0 / 6.0, b2 = 1.0 / 3.0, b3 = 1.0 / 3.0, b4 = 1.0 / 6.0;
+    double y[4], s[4], k1[4], k2[4], k3[4], k4[4], V = NAN, worst = 0.0;
+    bare_start(state, y, N);
+    for (uint64_t n = 0; n < steps; n++) {
+        slope(k, y, k1, N, gradient);
+        for (int i = 0; i < 2 * N; i++)
+            s[i] = y[i] + h * (0.5 * k1[i]);
+        slope(k, s, k2, N, gradient);
+        for (int i = 0; i < 2 * N; i++)
+            s[i] = y[i] + h * (0.5 * k2[i]);
+        slope(k, s, k3, N, gradient);
+        for (int i = 0; i < 2 * N; i++)
+            s[i] = y[i] + h * (1.0 * k3[i]);
+        slope(k, s, k4, N, gradient);
+        for (int i = 0; i < 2 * N; i++)
+            y[i] = y[i] + h * (b1 * k1[i] + b2 * k2[i] + b3 * k3[i] + b4 * k4[i]);
+        if (with_energy)
+            watch_energy(k, y, H0, &V, &worst, N, potential);
+    }
+    bare_end(state, y, V, worst, steps, N);
+}
+
+/* The implicit midpoint rule as midpoint.c steps it: the fixed-point iteration on
+ * m = y + (h/2) f(m) from the last step's slope, stopped at a few ulps or at round-off
+ * stagnation (dm_fused_loop.h has the rule and its constants: 4 and 1024 ulps). */
+static inline __attribute__((always_inline)) void
+midpoint_loop(double k, const dm_bare_coefficients *c, uint64_t steps, dm_bare_state *state,
+              const int N, const bool with_energy, bare_gradient *gradient,
+              bare_potential *potential)
+{
+    const double h = c->h, half_h = 0.5 * h, H0 = c->H0;
+    const int max_iterations = c->max_iterations;
+    double y[4], m[4], f[4] = { 0 }, V = NAN, worst = 0.0;
+    bool have_slope = false;
+    uint64_t n = 0;
+    bare_start(state, y, N);
+    for (; n < steps; n++) {
+#pragma GCC unroll 4
+        for (int i = 0; i < 2 * N; i++)
+            m[i] = have_slope ? y[i] + half_h * f[i] : y[i];
+        double previous = INFINITY;
+        int it = 0;
+        have_slope = false;
+        while (it < max_iterations) {
+            slope(k, m, f, N, gradient);
+            it++;
+            double update = 0.0, size = 0.0;
+#pragma GCC unroll 4
+            for (int i = 0; i < 2 * N; i++) {
+                double next = y[i] + half_h * f[i];
+                double d = fabs(next - m[i]), a = fabs(next);
+                update = d > update ? d : update;
+                size = a > size ? a : size;
+                m[i] = next;
+            }
+            if (!isfinite(update))
+                break;
+            double ulp = DBL_EPSILON * size;
+            if (update <= 4.0 * ulp || (update >= previous && update <= 1024.0 * ulp)) {
+                have_slope = true;
+                break;
+            }
+            previous = update;
+        }
+        if (!have_slope)
+            break;
+        for (int i = 0; i < 2 * N; i++)
+            y[i] = y[i] + h * f[i];
+        if (with_energy)
+            watch_energy(k, y, H0, &V, &worst, N, potential);
+    }
+    bare_end(state, y, V, worst, n, N);
+}
+
+#define BARE_RK_LOOPS(LOOP, PROBLEM, N)                                                  \
+    void dm_bare_##LOOP##_##PROBLEM(double k, const dm_bare_coefficients *c,            \
+                                    uint64_t steps, dm_bare_state *state)               \
+    {                                                                                   \
+        LOOP##_loop(k, c, steps, state, N, true, PROBLEM##_gradient,                    \
+                    PROBLEM##_potential);                                               \
+    }                                                                                   \
+    void dm_bare_##LOOP##_##PROBLEM##_without_energy(double k, const dm_bare_coefficients *c, \
+                                                     uint64_t steps, dm_bare_state *state) \
+    {                                                                                   \
+        LOOP##_loop(k, c, steps, state, N, false, PROBLEM##_gradient,                   \
+                    PROBLEM##_potential);                                               \
+    }
+
+BARE_RK_LOOPS(rk4, pendulum, 1)
+BARE_RK_LOOPS(rk4, kepler, 2)
+BARE_RK_LOOPS(midpoint, pendulum, 1)
+BARE_RK_LOOPS(midpoint, kepler, 2)
 
 void dm_bare_through_problem(const dm_instance *inst, const dm_bare_coefficients *c,
                              uint64_t steps, dm_bare_state *state)

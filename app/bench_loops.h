@@ -19,14 +19,19 @@
 typedef struct dm_bare_state {
     double q[2], p[2];
     double potential;
+    double worst;         /* RK4 and midpoint: the largest |H - H0| after a step */
+    uint64_t steps_done;  /* RK4 and midpoint: the steps taken */
 } dm_bare_state;
 
 /* Kick-drift-kick coefficients times h, in the order applied: kick[0], drift[0],
- * kick[1], drift[1], ..., kick[n_drift]. */
+ * kick[1], drift[1], ..., kick[n_drift]; or, for the Runge-Kutta loops, h itself. */
 typedef struct dm_bare_coefficients {
     int n_drift;          /* 1 for Störmer–Verlet, 3 for Yoshida's triple jump */
     double kick[4];
     double drift[3];
+    double h;             /* classical RK4 and the implicit midpoint rule */
+    int max_iterations;   /* the implicit midpoint rule's cap */
+    double H0;            /* RK4 and midpoint: H(q0, p0), for the energy they watch */
 } dm_bare_coefficients;
 
 /* One hand-written loop of one method on one problem, `k` the problem's force constant
@@ -41,6 +46,19 @@ dm_bare_loop dm_bare_yoshida4_pendulum, dm_bare_yoshida4_pendulum_sin_only;
 
 /* Kepler H = |p|^2/2 - mu / |q|. */
 dm_bare_loop dm_bare_verlet_kepler, dm_bare_yoshida4_kepler;
+
+/* Classical RK4 and the implicit midpoint rule as rk.c and midpoint.c step them (the
+ * same sums in the same order, the same fixed-point iteration and stopping rule, so the
+ * same iterations). A Runge-Kutta step takes no force at its end, so V is not free as
+ * it is for a splitting step: these loops evaluate V after every step and keep the
+ * largest |H - H0| in state->worst, as a hand loop watching the energy would; the
+ * _without_energy loops never evaluate V (state->potential is then NaN), which shows
+ * what watching the energy costs. A midpoint step that does not converge stops the
+ * loop: state->steps_done says how many steps were taken. */
+dm_bare_loop dm_bare_rk4_pendulum, dm_bare_rk4_pendulum_without_energy;
+dm_bare_loop dm_bare_rk4_kepler, dm_bare_rk4_kepler_without_energy;
+dm_bare_loop dm_bare_midpoint_pendulum, dm_bare_midpoint_pendulum_without_energy;
+dm_bare_loop dm_bare_midpoint_kepler, dm_bare_midpoint_kepler_without_energy;
 
 /* Not a bare loop but the floor of the harness: the same kick-drift-kick steps on any
  * problem, with the state in local arrays and the problem's force() and velocity()

@@ -1,6 +1,7 @@
 /* cmd_bench.c — `driftmark bench [--quick] [--json]`: what the harness costs.
  *
- * For Störmer–Verlet and Yoshida's triple jump on the pendulum and on Kepler it times,
+ * For Störmer–Verlet, Yoshida's triple jump, classical RK4 and the implicit midpoint rule
+ * on the pendulum and on Kepler it times,
  * side by side in this one process, a hand-written loop of the same method and problem
  * (bench_loops.c) and a full harness run (dm_run with every monitor on), alternating
  * them and keeping each one's fastest round; it checks that both end with the same
@@ -32,6 +33,7 @@
 #define CMD "bench"
 #define BENCH_SAMPLES 4096 /* the suite's default sample budget */
 #define CVODE_RTOL 1e-8
+#define BENCH_MIDPOINT_ITERATIONS 100 /* the implicit midpoint rule's cap, in both loops */
 
 /* Peak resident set of this process so far, in KiB (Linux reports ru_maxrss in KiB). */
 static long peak_resident_kib(void)
@@ -62,6 +64,14 @@ static const bench_case cases[] = {
       dm_bare_yoshida4_pendulum_sin_only },
     { "kepler", "eccentricity", 0.6, "verlet", 256, "mu", dm_bare_verlet_kepler, NULL },
     { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL },
+    { "pendulum", "amplitude", 2.5, "rk4", 96, "g_over_l", dm_bare_rk4_pendulum,
+      dm_bare_rk4_pendulum_without_energy },
+    { "kepler", "eccentricity", 0.6, "rk4", 256, "mu", dm_bare_rk4_kepler,
+      dm_bare_rk4_kepler_without_energy },
+    { "pendulum", "amplitude", 2.5, "midpoint", 96, "g_over_l", dm_bare_midpoint_pendulum,
+      dm_bare_midpoint_pendulum_without_energy },
+    { "kepler", "eccentricity", 0.6, "midpoint", 256, "mu", dm_bare_midpoint_kepler,
+      dm_bare_midpoint_kepler_without_energy },
 };
 #define N_CASES (sizeof cases / sizeof cases[0])
 
@@ -84,7 +94,7 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
     memset(spec, 0, sizeof *spec);
     const dm_problem *pb = dm_problem_find(c->problem);
     spec->method = dm_method_find(c->method);
-    if (pb == NULL || spec->method == NULL || spec->method->splitting == NULL)
+    if (pb == NULL || spec->method == NULL || spec->method->adaptive)
         return dm_error_set(err, DM_EINPUT, "bench: case %s/%s is not available", c->problem,
                             c->method);
     const char *keys[1] = { c->key };
@@ -99,6 +109,7 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
     spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
     spec->step_value = c->steps_per_period;
     spec->method_config.h = h;
+    spec->method_config.max_iterations = BENCH_MIDPOINT_ITERATIONS;
     /* The runner takes ceil(t_end / h - 1e-9) steps: aim half a step short of `steps`. */
     spec->t_end = ((double)steps - 0.5) * h;
     spec->periods = spec->t_end / T;
@@ -132,8 +143,13 @@ static dm_status bare_setup_init(bare_setup *b, const bench_case *c, const dm_ru
         return dm_error_set(err, DM_EINPUT, "bench: %s has no parameter %s", c->problem,
                             c->force_param);
     b->k = spec->inst.param[i];
-    const dm_splitting *t = spec->method->splitting;
     double h = spec->method_config.h;
+    b->bc.h = h;
+    b->bc.max_iterations = spec->method_config.max_iterations;
+    b->bc.H0 = dm_instance_energy(&spec->inst, spec->inst.q0, spec->inst.p0);
+    const dm_splitting *t = spec->method->splitting;
+    if (t == NULL)
+        return DM_OK; /* a Runge-Kutta loop: h is all it needs */
     b->bc.n_drift = t->n_drift;
     for (int j = 0; j < t->n_kick && j < 4; j++)
         b->bc.kick[j] = t->kick[j] * h;
@@ -239,7 +255,7 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
     /* 2. rounds of the harness and each loop, keeping each one's fastest */
     out->bare_seconds = out->harness_seconds = INFINITY;
     out->bare_without_potential_seconds = c->bare_without_potential ? INFINITY : NAN;
-    out->through_problem_seconds = INFINITY;
+    out->through_problem_seconds = spec.method->splitting != NULL ? INFINITY : NAN;
     dm_run_result result;
     memset(&result, 0, sizeof result);
     for (int r = 0; r < (quick ? 1 : 3); r++) {
@@ -258,6 +274,12 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
         out->steps = result.metrics.steps;
         dm_bare_state end;
         out->bare_seconds = fmin(out->bare_seconds, run_bare(&b, BARE, out->steps, &end));
+        if (spec.method->splitting == NULL && end.steps_done != out->steps) {
+            dm_run_result_free(&result);
+            return dm_error_set(err, DM_ENUMERIC, "bench: %s: the hand loop took %llu steps "
+                                "of %llu", spec.id, (unsigned long long)end.steps_done,
+                                (unsigned long long)out->steps);
+        }
         if (r == 0) {
             /* 3. the same energy error at the end, bit for bit */
             out->bare_energy_error =
@@ -266,8 +288,10 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
             out->energy_agrees = memcmp(&out->bare_energy_error, &out->harness_energy_error,
                                         sizeof(double)) == 0;
         }
-        out->through_problem_seconds = fmin(out->through_problem_seconds,
-                                            run_bare(&b, THROUGH_PROBLEM, out->steps, NULL));
+        if (spec.method->splitting != NULL) /* the through-table loop is a splitting's */
+            out->through_problem_seconds =
+                fmin(out->through_problem_seconds,
+                     run_bare(&b, THROUGH_PROBLEM, out->steps, NULL));
         if (c->bare_without_potential != NULL)
             out->bare_without_potential_seconds =
                 fmin(out->bare_without_potential_seconds,
@@ -731,8 +755,9 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
     }
     fprintf(f, "  bare: hand-written loop; harn.: dm_run with every monitor; ratio: harn. / bare\n"
                "  table: the same loop calling the problem's force() and velocity() through its\n"
-               "  table (the best the per-step path can do; the fused loop avoids it); -V: the\n"
-               "  pendulum loop evaluating sin only, never V; same: bare and harness end with\n"
+               "  table (splitting methods: the best the per-step path can do; the fused loop\n"
+               "  avoids it); -V: the loop never evaluating V (the pendulum's splitting loops\n"
+               "  evaluate sin only; RK4 and midpoint watch no energy); same: bare and harness end with\n"
                "  the same dE bit for bit; hdf5: writing a one-run results file over the run's\n"
                "  wall time\n\n");
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);

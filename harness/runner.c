@@ -320,6 +320,10 @@ static void bucket_fused(run_context *c, uint64_t k_end)
             c->status = diverged_at(c->result->reason, sizeof c->result->reason,
                                     w->monitor.energy_error, c->energy_limit, w->k,
                                     dm_step_time(0.0, w->k, c->h));
+        if (ev == DM_FUSED_FAILED) { /* as bucket_plain: the state before the step */
+            c->status = DM_RUN_FAILED;
+            snprintf(c->result->reason, sizeof c->result->reason, "%s", c->stepper->error.msg);
+        }
         break;
     }
     c->cur->t = dm_step_time(0.0, w->k, c->h);

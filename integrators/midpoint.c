@@ -9,36 +9,30 @@
  * config->max_iterations fails with DM_ENUMERIC and says which step and after how many
  * iterations. The work per step varies with h and the problem, so the table declares
  * no fixed force count; the counts record every evaluation. */
-#include <float.h>
 #include <inttypes.h>
 #include <math.h>
 #include <stdlib.h>
 
+#include "dm_fused_loop.h"
 #include "method.h"
 
 enum { MIDPOINT_DEFAULT_MAX_ITERATIONS = 100 };
 
-/* Updates below this many ulps of |k| count as converged. */
-#define CONVERGED_ULPS 4.0
-/* An update that no longer shrinks is accepted as the round-off floor only when it is
- * already this small (in ulps of |k|); otherwise the iteration goes on (and fails at
- * the cap if it diverges or oscillates). */
-#define STAGNATION_ULPS 1024.0
-
 typedef struct midpoint_stepper {
     dm_stepper base;
     int max_iterations;
-    double *mid;      /* 2 dof: the midpoint iterate k */
-    double *slope;    /* 2 dof: f at the last iterate; also the predictor of the next step */
+    double slope[2 * DM_MAX_DOF]; /* f at the last iterate; the next step's predictor */
     const double *state_x;
     bool slope_valid;
     dm_step_clock clock;
+    dm_fused_rk_cache cache;      /* the same for the fused loop, and its counts */
 } midpoint_stepper;
 
 static void restart_at(midpoint_stepper *s, const dm_point *at)
 {
     s->state_x = at->x;
     s->slope_valid = false;
+    s->cache.slope_valid = false;
     dm_step_clock_start(&s->clock, at->t);
 }
 
@@ -51,12 +45,8 @@ static dm_stepper *midpoint_create(const dm_method *m, const dm_instance *inst,
                      m->id, config->max_iterations, MIDPOINT_DEFAULT_MAX_ITERATIONS);
         return NULL;
     }
-    int n = 2 * inst->dof;
     midpoint_stepper *s = calloc(1, sizeof *s);
-    double *work = calloc(2 * (size_t)n, sizeof *work);
-    if (s == NULL || work == NULL) {
-        free(s);
-        free(work);
+    if (s == NULL) {
         dm_error_set(err, DM_ENOMEM, "%s: out of memory creating the stepper", m->id);
         return NULL;
     }
@@ -66,77 +56,79 @@ static dm_stepper *midpoint_create(const dm_method *m, const dm_instance *inst,
     s->base.config = *config;
     s->max_iterations = config->max_iterations > 0 ? config->max_iterations
                                                    : MIDPOINT_DEFAULT_MAX_ITERATIONS;
-    s->mid = work;
-    s->slope = work + n;
     restart_at(s, start);
     return &s->base;
 }
 
-static dm_status midpoint_step(dm_stepper *base, const dm_point *from, dm_point *to)
+/* The work of one step's iterations, converged or not. */
+static void count_iterations(dm_stepper *base, int iterations)
 {
-    midpoint_stepper *s = (midpoint_stepper *)base;
-    const dm_instance *inst = base->inst;
-    const dm_problem *problem = inst->problem;
-    int dof = base->dof, n = 2 * dof;
-    double h = base->config.h, half_h = 0.5 * h;
-    const double *y0 = from->x;
-    double *k = s->mid, *f = s->slope;
-    if (y0 != s->state_x)
-        restart_at(s, from);
-
-    /* Predictor: the last step's slope (an O(h^2)-accurate midpoint), else y0. */
-    for (int c = 0; c < n; c++)
-        k[c] = s->slope_valid ? y0[c] + half_h * f[c] : y0[c];
-
-    double previous_update = INFINITY, update = INFINITY;
-    int iterations = 0;
-    bool converged = false;
-    while (iterations < s->max_iterations) {
-        problem->velocity(inst, k + dof, f);
-        problem->force(inst, k, f + dof);
-        iterations++;
-        update = 0.0;
-        double size = 0.0;
-        for (int c = 0; c < n; c++) {
-            if (c >= dof)
-                f[c] = -f[c];
-            double next = y0[c] + half_h * f[c];
-            update = fmax(update, fabs(next - k[c]));
-            size = fmax(size, fabs(next));
-            k[c] = next;
-        }
-        if (!isfinite(update))
-            break;
-        double ulp = DBL_EPSILON * size;
-        if (update <= CONVERGED_ULPS * ulp ||
-            (update >= previous_update && update <= STAGNATION_ULPS * ulp)) {
-            converged = true;
-            break;
-        }
-        previous_update = update;
-    }
     base->counts.force_evals += (uint64_t)iterations;
     base->counts.velocity_evals += (uint64_t)iterations;
     base->counts.nonlin_iters += (uint64_t)iterations;
     if ((uint64_t)iterations > base->counts.max_iters_in_step)
         base->counts.max_iters_in_step = (uint64_t)iterations;
-    if (!converged) {
-        s->slope_valid = false;
-        return dm_error_set(&base->error, DM_ENUMERIC,
-                            "%s: step %" PRIu64 " (t = %.17g, h = %g): fixed-point "
-                            "iteration did not converge in %d iterations (last update %.3g)",
-                            base->method->id, base->counts.steps + 1, from->t, h,
-                            iterations, update);
-    }
-    /* y1 = y0 + h f(k) with f taken at the iterate the last update came from. */
-    for (int c = 0; c < n; c++)
-        to->x[c] = y0[c] + h * f[c];
-    s->slope_valid = true;
+}
+
+/* Why step steps + 1, from time t, failed. */
+static dm_status fail(dm_stepper *base, double t, int iterations, double update)
+{
+    return dm_error_set(&base->error, DM_ENUMERIC,
+                        "%s: step %" PRIu64 " (t = %.17g, h = %g): fixed-point "
+                        "iteration did not converge in %d iterations (last update %.3g)",
+                        base->method->id, base->counts.steps + 1, t, base->config.h,
+                        iterations, update);
+}
+
+/* The step arithmetic is dm_midpoint_step (dm_fused_loop.h), the fused loop's own. */
+static dm_status midpoint_step(dm_stepper *base, const dm_point *from, dm_point *to)
+{
+    midpoint_stepper *s = (midpoint_stepper *)base;
+    const dm_instance *inst = base->inst;
+    const dm_problem *problem = inst->problem;
+    double h = base->config.h;
+    if (from->x != s->state_x)
+        restart_at(s, from);
+    int iterations;
+    double update;
+    bool converged = dm_midpoint_step(inst, h, s->max_iterations, from->x, to->x, s->slope,
+                                      &s->slope_valid, base->dof,
+                                      dm_problem_gradient(problem), problem->velocity,
+                                      &iterations, &update);
+    count_iterations(base, iterations);
+    if (!converged)
+        return fail(base, from->t, iterations, update);
     base->counts.steps++;
     to->t = dm_step_clock_next(&s->clock, h);
     to->potential = NAN; /* the force was taken at the midpoint, not at the end */
     s->state_x = to->x;
     return DM_OK;
+}
+
+/* Whole runs of steps in the problem's fused loop (problem.h), when it has one. */
+static dm_fused_event midpoint_run_fused(dm_stepper *base, dm_fused_run *run,
+                                         uint64_t k_end)
+{
+    midpoint_stepper *s = (midpoint_stepper *)base;
+    const dm_instance *inst = base->inst;
+    if (inst->problem->fused_rk_loop == NULL || base->config.plain_steps)
+        return DM_FUSED_UNSUPPORTED;
+    const dm_fused_rk method = { .tableau = NULL, .h = base->config.h,
+                                 .max_iterations = s->max_iterations };
+    uint64_t k0 = run->k;
+    s->cache.max_iterations_in_step = base->counts.max_iters_in_step;
+    s->cache.evaluations = 0;
+    int event = inst->problem->fused_rk_loop(inst, &method, &s->cache, run, k_end);
+    uint64_t evaluations = s->cache.evaluations;
+    base->counts.force_evals += evaluations;
+    base->counts.velocity_evals += evaluations;
+    base->counts.nonlin_iters += evaluations;
+    base->counts.max_iters_in_step = s->cache.max_iterations_in_step;
+    base->counts.steps += run->k - k0;
+    if (event == DM_FUSED_FAILED)
+        fail(base, dm_step_time(0.0, run->k, base->config.h), s->cache.failed_iterations,
+             s->cache.failed_update);
+    return (dm_fused_event)event;
 }
 
 static dm_status midpoint_restart(dm_stepper *base, const dm_point *at)
@@ -147,40 +139,45 @@ static dm_status midpoint_restart(dm_stepper *base, const dm_point *at)
 
 static void midpoint_destroy(dm_stepper *base)
 {
-    midpoint_stepper *s = (midpoint_stepper *)base;
-    free(s->mid);
-    free(s);
+    free(base);
 }
 
-/* Checkpoints (method.h): the step clock and the predictor (the last step's slope). */
+/* Checkpoints (method.h): the step clock and the predictor (the last step's slope), of
+ * the per-step path and of the fused loop (each keeps its own). */
 static size_t midpoint_save(const dm_stepper *base, uint64_t *w, size_t capacity)
 {
     const midpoint_stepper *s = (const midpoint_stepper *)base;
     size_t n = 2 * (size_t)base->dof;
-    if (capacity < 3 + n)
+    if (capacity < 4 + 2 * n)
         return 0;
     w[0] = dm_word_of_double(s->clock.origin);
     w[1] = s->clock.n;
     w[2] = s->slope_valid;
-    for (size_t c = 0; c < n; c++)
-        w[3 + c] = dm_word_of_double(s->slope[c]);
-    return 3 + n;
+    w[3] = s->cache.slope_valid;
+    for (size_t c = 0; c < n; c++) {
+        w[4 + c] = dm_word_of_double(s->slope[c]);
+        w[4 + n + c] = dm_word_of_double(s->cache.slope[c]);
+    }
+    return 4 + 2 * n;
 }
 
-static dm_status midpoint_load(dm_stepper *base, const uint64_t *w, size_t n,
+static dm_status midpoint_load(dm_stepper *base, const uint64_t *w, size_t n_words,
                                const dm_point *at, const dm_counts *counts)
 {
     midpoint_stepper *s = (midpoint_stepper *)base;
-    size_t want = 3 + 2 * (size_t)base->dof;
-    if (n != want)
+    size_t n = 2 * (size_t)base->dof, want = 4 + 2 * n;
+    if (n_words != want)
         return dm_error_set(&base->error, DM_EINPUT, "%s: a checkpoint of %zu words, not %zu",
-                            base->method->id, n, want);
+                            base->method->id, n_words, want);
     restart_at(s, at);
     s->clock.origin = dm_double_of_word(w[0]);
     s->clock.n = w[1];
     s->slope_valid = w[2] != 0;
-    for (size_t c = 0; c + 3 < want; c++)
-        s->slope[c] = dm_double_of_word(w[3 + c]);
+    s->cache.slope_valid = w[3] != 0;
+    for (size_t c = 0; c < n; c++) {
+        s->slope[c] = dm_double_of_word(w[4 + c]);
+        s->cache.slope[c] = dm_double_of_word(w[4 + n + c]);
+    }
     base->counts = *counts;
     return DM_OK;
 }
@@ -197,6 +194,7 @@ const dm_method dm_midpoint = {
     .force_evals_per_step = 0, /* varies: one per fixed-point iteration (see counts) */
     .create = midpoint_create,
     .step = midpoint_step,
+    .run_fused = midpoint_run_fused,
     .restart = midpoint_restart,
     .destroy = midpoint_destroy,
     .save = midpoint_save,

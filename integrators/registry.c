@@ -101,6 +101,8 @@ dm_fused_event dm_stepper_run_fused(dm_stepper *s, dm_fused_run *run, uint64_t k
 {
     if (s->method->splitting != NULL)
         return dm_splitting_run_fused(s, run, k_end);
+    if (s->method->run_fused != NULL)
+        return s->method->run_fused(s, run, k_end);
     return DM_FUSED_UNSUPPORTED;
 }
 

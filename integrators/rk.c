@@ -2,40 +2,24 @@
  * symplectic nor symmetric: they are the contrast against which the geometric methods
  * are measured (energy drift, growing phase error).
  *
- * One small engine runs any explicit Butcher tableau on y = (q, p) with
- * dq/dt = grad T(p), dp/dt = -grad V(q). */
+ * One engine runs any explicit Butcher tableau on y = (q, p) with dq/dt = grad T(p),
+ * dp/dt = -grad V(q): dm_rk_explicit_step (problems/include/dm_fused_loop.h), called a
+ * step at a time here and inside the problem's fused loop (rk_run_fused). */
 #include <math.h>
 #include <stdlib.h>
 
+#include "dm_fused_loop.h"
 #include "method.h"
-
-#define RK_MAX_STAGES 4
-
-typedef struct rk_tableau {
-    int stages;
-    double a[RK_MAX_STAGES][RK_MAX_STAGES]; /* strictly lower triangular */
-    double b[RK_MAX_STAGES];
-} rk_tableau;
 
 typedef struct rk_stepper {
     dm_stepper base;
-    const rk_tableau *tableau;
-    double *k;        /* stages x 2 dof slopes */
-    double *stage;    /* 2 dof: the state at which a slope is taken */
+    const dm_rk_tableau *tableau;
     const double *state_x;
     dm_step_clock clock;
+    dm_fused_rk_cache cache;  /* the fused loop's counts */
 } rk_stepper;
 
-/* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
-static const rk_tableau euler_tableau = { .stages = 1, .b = { 1.0 } };
-
-/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, §II.1; from
- * memory of the book). */
-static const rk_tableau rk4_tableau = {
-    .stages = 4,
-    .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
-    .b = { 1.0 / 6.0, 1.0 / 3.0, 1.0 / 3.0, 1.0 / 6.0 },
-};
+/* The tableaux (dm_rk_euler_tableau, dm_rk4_tableau) are in dm_fused_loop.h. */
 
 static void restart_at(rk_stepper *s, const dm_point *at)
 {
@@ -43,16 +27,12 @@ static void restart_at(rk_stepper *s, const dm_point *at)
     dm_step_clock_start(&s->clock, at->t);
 }
 
-static dm_stepper *rk_create(const rk_tableau *tab, const dm_method *m,
+static dm_stepper *rk_create(const dm_rk_tableau *tab, const dm_method *m,
                              const dm_instance *inst, const dm_method_config *config,
                              const dm_point *start, dm_error *err)
 {
-    int n = 2 * inst->dof;
     rk_stepper *s = calloc(1, sizeof *s);
-    double *work = calloc((size_t)(tab->stages + 1) * (size_t)n, sizeof *work);
-    if (s == NULL || work == NULL) {
-        free(s);
-        free(work);
+    if (s == NULL) {
         dm_error_set(err, DM_ENOMEM, "%s: out of memory creating the stepper", m->id);
         return NULL;
     }
@@ -61,8 +41,6 @@ static dm_stepper *rk_create(const rk_tableau *tab, const dm_method *m,
     s->base.dof = inst->dof;
     s->base.config = *config;
     s->tableau = tab;
-    s->k = work;
-    s->stage = work + (size_t)tab->stages * (size_t)n;
     restart_at(s, start);
     return &s->base;
 }
@@ -71,47 +49,28 @@ static dm_stepper *euler_create(const dm_method *m, const dm_instance *inst,
                                 const dm_method_config *config, const dm_point *start,
                                 dm_error *err)
 {
-    return rk_create(&euler_tableau, m, inst, config, start, err);
+    return rk_create(&dm_rk_euler_tableau, m, inst, config, start, err);
 }
 
 static dm_stepper *rk4_create(const dm_method *m, const dm_instance *inst,
                               const dm_method_config *config, const dm_point *start,
                               dm_error *err)
 {
-    return rk_create(&rk4_tableau, m, inst, config, start, err);
+    return rk_create(&dm_rk4_tableau, m, inst, config, start, err);
 }
 
+/* The step arithmetic is dm_rk_explicit_step (dm_fused_loop.h), the fused loop's own. */
 static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
 {
     rk_stepper *s = (rk_stepper *)base;
-    const rk_tableau *tab = s->tableau;
+    const dm_rk_tableau *tab = s->tableau;
     const dm_instance *inst = base->inst;
     const dm_problem *problem = inst->problem;
-    int dof = base->dof, n = 2 * dof;
     double h = base->config.h;
-    const double *y0 = from->x;
-    if (y0 != s->state_x)
+    if (from->x != s->state_x)
         restart_at(s, from);
-
-    for (int i = 0; i < tab->stages; i++) {
-        for (int c = 0; c < n; c++) {
-            double sum = 0.0;
-            for (int j = 0; j < i; j++)
-                sum += tab->a[i][j] * s->k[j * n + c];
-            s->stage[c] = y0[c] + h * sum;
-        }
-        double *k = s->k + i * n;
-        problem->velocity(inst, s->stage + dof, k);
-        problem->force(inst, s->stage, k + dof);
-        for (int c = dof; c < n; c++)
-            k[c] = -k[c];
-    }
-    for (int c = 0; c < n; c++) {
-        double sum = 0.0;
-        for (int i = 0; i < tab->stages; i++)
-            sum += tab->b[i] * s->k[i * n + c];
-        to->x[c] = y0[c] + h * sum;
-    }
+    dm_rk_explicit_step_any(inst, tab, h, from->x, to->x, base->dof,
+                            dm_problem_gradient(problem), problem->velocity);
     base->counts.force_evals += (uint64_t)tab->stages;
     base->counts.velocity_evals += (uint64_t)tab->stages;
     base->counts.steps++;
@@ -119,6 +78,23 @@ static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
     to->potential = NAN; /* no slope is taken at the step's end */
     s->state_x = to->x;
     return DM_OK;
+}
+
+/* Whole runs of steps in the problem's fused loop (problem.h), when it has one. */
+static dm_fused_event rk_run_fused(dm_stepper *base, dm_fused_run *run, uint64_t k_end)
+{
+    rk_stepper *s = (rk_stepper *)base;
+    const dm_instance *inst = base->inst;
+    if (inst->problem->fused_rk_loop == NULL || base->config.plain_steps)
+        return DM_FUSED_UNSUPPORTED;
+    const dm_fused_rk method = { .tableau = s->tableau, .h = base->config.h };
+    uint64_t k0 = run->k;
+    int event = inst->problem->fused_rk_loop(inst, &method, &s->cache, run, k_end);
+    base->counts.steps += run->k - k0;
+    base->counts.force_evals += s->cache.evaluations;
+    base->counts.velocity_evals += s->cache.evaluations;
+    s->cache.evaluations = 0;
+    return (dm_fused_event)event;
 }
 
 static dm_status rk_restart(dm_stepper *base, const dm_point *at)
@@ -129,9 +105,7 @@ static dm_status rk_restart(dm_stepper *base, const dm_point *at)
 
 static void rk_destroy(dm_stepper *base)
 {
-    rk_stepper *s = (rk_stepper *)base;
-    free(s->k);
-    free(s);
+    free(base);
 }
 
 /* Checkpoints (method.h): the step clock; the stages are recomputed each step. */
@@ -170,6 +144,7 @@ const dm_method dm_euler = {
     .force_evals_per_step = 1,
     .create = euler_create,
     .step = rk_step,
+    .run_fused = rk_run_fused,
     .restart = rk_restart,
     .destroy = rk_destroy,
     .save = rk_save,
@@ -188,6 +163,7 @@ const dm_method dm_rk4 = {
     .force_evals_per_step = 4,
     .create = rk4_create,
     .step = rk_step,
+    .run_fused = rk_run_fused,
     .restart = rk_restart,
     .destroy = rk_destroy,
     .save = rk_save,

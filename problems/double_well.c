@@ -215,11 +215,16 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     return DM_OK;
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    double a = inst->param[P_A], b = inst->param[P_B], x = q[0];
+    grad[0] = x * (b * (x * x) - a);
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double a = inst->param[P_A], b = inst->param[P_B], x = q[0], x2 = x * x;
-    grad[0] = x * (b * x2 - a);
-    return x2 * (0.25 * b * x2 - 0.5 * a);
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static void velocity(const dm_instance *inst, const double *p, double *v)
@@ -255,8 +260,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_double_well = {
     .id = "double_well",
@@ -285,9 +291,11 @@ const dm_problem dm_problem_double_well = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

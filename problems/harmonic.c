@@ -35,10 +35,15 @@ static double potential(const dm_instance *inst, const double *q)
     return 0.5 * w * w * q[0] * q[0];
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    grad[0] = inst->param[P_OMEGA] * inst->param[P_OMEGA] * q[0];
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
+    gradient(inst, q, grad);
     double w2 = inst->param[P_OMEGA] * inst->param[P_OMEGA];
-    grad[0] = w2 * q[0];
     return 0.5 * w2 * q[0] * q[0];
 }
 
@@ -65,8 +70,9 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = -a * w * sin(w * t);
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_harmonic = {
     .id = "harmonic",
@@ -85,9 +91,11 @@ const dm_problem dm_problem_harmonic = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .hessian = hessian,
     .exact = exact,
 };

@@ -169,14 +169,26 @@ static double potential(const dm_instance *inst, const double *q)
     return -inst->param[P_MU] / sqrt(q[0] * q[0] + q[1] * q[1]);
 }
 
-static double force(const dm_instance *inst, const double *q, double *grad)
+/* Writes grad V = mu q / r^3 and returns 1 / r. */
+static inline double gradient_and_inverse_radius(const dm_instance *inst, const double *q,
+                                                 double *grad)
 {
     double mu = inst->param[P_MU];
     double inv_r = 1.0 / sqrt(q[0] * q[0] + q[1] * q[1]);
     double k = mu * inv_r * inv_r * inv_r;
     grad[0] = k * q[0];
     grad[1] = k * q[1];
-    return -mu * inv_r;
+    return inv_r;
+}
+
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    (void)gradient_and_inverse_radius(inst, q, grad);
+}
+
+static double force(const dm_instance *inst, const double *q, double *grad)
+{
+    return -inst->param[P_MU] * gradient_and_inverse_radius(inst, q, grad);
 }
 
 static double kinetic(const dm_instance *inst, const double *p)
@@ -242,8 +254,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? 0 : -1;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 2)
+DM_FUSED_RK_LOOP(fused_rk_loop, 2)
 
 const dm_problem dm_problem_kepler = {
     .id = "kepler",
@@ -263,9 +276,11 @@ const dm_problem dm_problem_kepler = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

@@ -132,14 +132,20 @@ static double potential(const dm_instance *inst, const double *q)
     return D * s * s;
 }
 
-static double force(const dm_instance *inst, const double *q, double *grad)
+static void gradient(const dm_instance *inst, const double *q, double *grad)
 {
     double D = inst->param[P_DEPTH];
     double alpha = inst->param[P_ALPHA];
     double s = expm1(-alpha * (q[0] - inst->param[P_XE])); /* y - 1 */
     /* dV/dx = 2 D alpha y (1 - y) */
     grad[0] = -2.0 * D * alpha * (1.0 + s) * s;
-    return D * s * s;
+}
+
+static double force(const dm_instance *inst, const double *q, double *grad)
+{
+    /* the one expm1 of both is computed once (-fno-math-errno makes it pure) */
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static double kinetic(const dm_instance *inst, const double *p)
@@ -200,8 +206,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < inst->param[P_DEPTH] ? 0 : -1;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_morse = {
     .id = "morse",
@@ -226,9 +233,11 @@ const dm_problem dm_problem_morse = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

@@ -133,13 +133,16 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     return DM_OK;
 }
 
+static void gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    grad[0] = inst->param[P_G_OVER_L] * sin(q[0]);
+}
+
 static double force(const dm_instance *inst, const double *q, double *grad)
 {
-    double g = inst->param[P_G_OVER_L];
     /* sin and cos of the same angle: gcc turns the pair into one sincos call. */
-    double s = sin(q[0]), c = cos(q[0]);
-    grad[0] = g * s;
-    return -g * c;
+    gradient(inst, q, grad);
+    return potential(inst, q);
 }
 
 static void velocity(const dm_instance *inst, const double *p, double *v)
@@ -178,8 +181,9 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < inst->param[P_G_OVER_L] ? R_LIBRATION : R_ROTATION;
 }
 
-/* The splitting engine's fused loop with this problem's functions inline. */
+/* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
+DM_FUSED_RK_LOOP(fused_rk_loop, 1)
 
 const dm_problem dm_problem_pendulum = {
     .id = "pendulum",
@@ -206,9 +210,11 @@ const dm_problem dm_problem_pendulum = {
     .setup = setup,
     .potential = potential,
     .force = force,
+    .gradient = gradient,
     .kinetic = kinetic,
     .velocity = velocity,
     .fused_loop = fused_loop,
+    .fused_rk_loop = fused_rk_loop,
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,

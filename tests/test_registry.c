@@ -88,6 +88,71 @@ static void every_problem_sets_up_with_its_defaults(void **state)
     }
 }
 
+/* The first of a few points on the exact orbit (q0 and seven more over a period, or
+ * q0 alone without an exact solution) where the problem's gradient does not write the
+ * grad V its force writes, bit for bit; -1 when they agree everywhere. The fused loops
+ * use gradient where the per-step paths of other methods use force, so the two must be
+ * the same numbers. */
+static int gradient_disagrees_with_force(const dm_instance *inst)
+{
+    const dm_problem *pb = inst->problem;
+    if (pb->gradient == NULL)
+        return -1; /* the default is force() itself */
+    int n_points = pb->exact != NULL ? 8 : 1;
+    for (int j = 0; j < n_points; j++) {
+        double q[DM_MAX_DOF], p[DM_MAX_DOF], from_force[DM_MAX_DOF], alone[DM_MAX_DOF];
+        if (j == 0)
+            memcpy(q, inst->q0, sizeof q);
+        else
+            pb->exact(inst, inst->period * j / n_points, q, p);
+        (void)pb->force(inst, q, from_force);
+        pb->gradient(inst, q, alone);
+        if (memcmp(from_force, alone, (size_t)pb->dof * sizeof(double)) != 0)
+            return j;
+    }
+    return -1;
+}
+
+static void every_gradient_writes_what_force_writes(void **state)
+{
+    (void)state;
+    for (size_t i = 0; i < dm_problem_count; i++) {
+        const dm_problem *pb = dm_problems[i];
+        dm_instance inst;
+        dm_error err = { 0 };
+        assert_int_equal(dm_instance_init(&inst, pb, 0, NULL, NULL, &err), DM_OK);
+        int j = gradient_disagrees_with_force(&inst);
+        if (j >= 0)
+            fail_msg("%s: gradient() and force() write different grad V at point %d", pb->id, j);
+    }
+}
+
+/* The check catches a gradient one ulp off: the pendulum's table with a wrong one. */
+static void wrong_gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    inst->problem->force(inst, q, grad);
+    grad[0] = nextafter(grad[0], INFINITY);
+}
+
+static void a_gradient_one_ulp_off_is_caught(void **state)
+{
+    (void)state;
+    const dm_problem *real = dm_problem_find("pendulum");
+    assert_non_null(real);
+    dm_problem fake = *real;
+    fake.gradient = wrong_gradient;
+    dm_instance inst;
+    dm_error err = { 0 };
+    assert_int_equal(dm_instance_init(&inst, &fake, 0, NULL, NULL, &err), DM_OK);
+    assert_int_equal(gradient_disagrees_with_force(&inst), 0);
+    fake.gradient = NULL; /* the default: force() itself */
+    assert_int_equal(gradient_disagrees_with_force(&inst), -1);
+    double g1[DM_MAX_DOF], g2[DM_MAX_DOF];
+    dm_problem_gradient(&fake)(&inst, inst.q0, g1);
+    (void)fake.force(&inst, inst.q0, g2);
+    assert_memory_equal(g1, g2, sizeof(double));
+}
+
 static void every_method_table_is_one_kind_and_sets_its_required_fields(void **state)
 {
     (void)state;
@@ -144,6 +209,8 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(every_problem_table_sets_its_required_fields),
         cmocka_unit_test(every_problem_sets_up_with_its_defaults),
+        cmocka_unit_test(every_gradient_writes_what_force_writes),
+        cmocka_unit_test(a_gradient_one_ulp_off_is_caught),
         cmocka_unit_test(every_method_table_is_one_kind_and_sets_its_required_fields),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -263,26 +263,41 @@ static void a_numerical_orbit_that_crosses_a_separatrix_is_reported(void **state
     dm_run_result_free(&r);
 }
 
-/* The fused loop (problems/include/dm_fused_loop.h) and the per-step path compute the same
- * operations in the same order: every stored number, count and metric agrees bit for
- * bit, for kick-first and drift-first tables, with and without FSAL, in one and two
- * degrees of freedom, through crossings of wrapped sections and through a divergence. */
+/* The fused loops (problems/include/dm_fused_loop.h) and the per-step path compute the
+ * same operations in the same order: every stored number, count and metric agrees bit
+ * for bit, for kick-first and drift-first splitting tables, with and without FSAL, for
+ * explicit Runge-Kutta tableaux and the implicit midpoint rule (its iteration counts
+ * too), in one and two degrees of freedom, through crossings of wrapped sections,
+ * through a divergence and through a midpoint step that fails to converge. */
 static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
 {
+    enum { QUIET, DIVERGE, FAIL };
     static const struct {
         const char *problem, *key;
         double value;
         const char *method;
         double steps_per_period;
+        int made_to;   /* DIVERGE: an energy limit just under the run's largest |dE|;
+                          FAIL: a midpoint iteration cap the run soon needs more than */
     } cases[] = {
-        { "pendulum", "amplitude", 2.5, "verlet", 64 },
-        { "pendulum", "energy", 1.5, "verlet-dkd", 64 },   /* rotation: wrapped section */
-        { "pendulum", "amplitude", 1.0, "symeuler-a", 50 },
-        { "double_well", "energy", -0.1, "symeuler-b", 50 },
-        { "morse", "energy", 0.6, "yoshida4", 40 },
-        { "kepler", "eccentricity", 0.6, "yoshida6", 200 },
-        { "harmonic", NULL, 0, "suzuki4", 30 },
-        { "kepler", "eccentricity", 0.6, "verlet", 100 }, /* made to diverge, below */
+        { "pendulum", "amplitude", 2.5, "verlet", 64, QUIET },
+        { "pendulum", "energy", 1.5, "verlet-dkd", 64, QUIET }, /* rotation: wrapped section */
+        { "pendulum", "amplitude", 1.0, "symeuler-a", 50, QUIET },
+        { "double_well", "energy", -0.1, "symeuler-b", 50, QUIET },
+        { "morse", "energy", 0.6, "yoshida4", 40, QUIET },
+        { "kepler", "eccentricity", 0.6, "yoshida6", 200, QUIET },
+        { "harmonic", NULL, 0, "suzuki4", 30, QUIET },
+        { "kepler", "eccentricity", 0.6, "verlet", 100, DIVERGE },
+        { "pendulum", "amplitude", 2.5, "rk4", 64, QUIET },
+        { "pendulum", "energy", 1.5, "rk4", 40, QUIET },
+        { "kepler", "eccentricity", 0.6, "rk4", 200, QUIET },
+        { "morse", "energy", 0.6, "euler", 400, DIVERGE },
+        { "harmonic", NULL, 0, "rk4", 30, QUIET },
+        { "pendulum", "amplitude", 2.5, "midpoint", 64, QUIET },
+        { "pendulum", "energy", 1.5, "midpoint", 40, QUIET },
+        { "kepler", "eccentricity", 0.6, "midpoint", 200, QUIET },
+        { "double_well", "energy", 0.2, "midpoint", 50, QUIET },
+        { "morse", "energy", 0.6, "midpoint", 16, FAIL },
     };
     for (size_t c = 0; c < sizeof cases / sizeof cases[0]; c++) {
         dm_run_spec spec;
@@ -290,7 +305,26 @@ static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
                   cases[c].steps_per_period, 0, 300, 100);
         dm_run_result fused, plain;
         dm_error err = { 0 };
-        bool last = c + 1 == sizeof cases / sizeof cases[0];
+        bool last = cases[c].made_to == DIVERGE;
+        {   /* the method and problem do have a fused loop: the two paths differ */
+            dm_fused_run probe = { 0 };
+            memcpy(probe.x, spec.inst.q0, sizeof spec.inst.q0);
+            dm_point start = { .t = 0.0, .x = probe.x, .potential = NAN };
+            dm_stepper *st = dm_stepper_create(spec.method, &spec.inst, &spec.method_config,
+                                               &start, &err);
+            assert_non_null(st);
+            assert_int_not_equal(dm_stepper_run_fused(st, &probe, 0), DM_FUSED_UNSUPPORTED);
+            dm_stepper_destroy(st);
+        }
+        if (cases[c].made_to == FAIL) {
+            /* the most iterations a step needed, less one, as the cap: this orbit
+             * needs them again after a few buckets */
+            assert_int_equal(dm_run(&spec, &fused, NULL, &err), DM_OK);
+            assert_int_equal(fused.status, DM_RUN_OK);
+            spec.method_config.max_iterations =
+                (int)fused.metrics.counts.max_iters_in_step - 1;
+            dm_run_result_free(&fused);
+        }
         if (last) {
             /* a limit just under the run's own largest |dE|: it diverges where that
              * peak is first reached */
@@ -301,15 +335,18 @@ static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
         assert_int_equal(dm_run(&spec, &fused, NULL, &err), DM_OK);
         spec.method_config.plain_steps = true;
         assert_int_equal(dm_run(&spec, &plain, NULL, &err), DM_OK);
-        print_message("%s %s: %s, %llu steps, %llu crossings\n", cases[c].problem,
+        print_message("%s %s: %s, %llu steps, %llu crossings %s\n", cases[c].problem,
                       cases[c].method, dm_run_status_name(fused.status),
                       (unsigned long long)fused.metrics.steps,
-                      (unsigned long long)fused.crossings.total);
+                      (unsigned long long)fused.crossings.total, fused.reason);
         assert_int_equal(fused.status, plain.status);
         assert_string_equal(fused.reason, plain.reason);
         assert_true(fused.metrics.steps == plain.metrics.steps);
         assert_true(fused.metrics.counts.force_evals == plain.metrics.counts.force_evals);
         assert_true(fused.metrics.counts.velocity_evals == plain.metrics.counts.velocity_evals);
+        assert_true(fused.metrics.counts.nonlin_iters == plain.metrics.counts.nonlin_iters);
+        assert_true(fused.metrics.counts.max_iters_in_step ==
+                    plain.metrics.counts.max_iters_in_step);
         assert_int_equal(fused.series.n, plain.series.n);
         size_t bytes = fused.series.n * sizeof(double);
         assert_memory_equal(fused.series.time, plain.series.time, bytes);
@@ -325,8 +362,10 @@ static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
                             &plain.metrics.phase_error_per_period, sizeof(double));
         assert_memory_equal(&fused.metrics.max_energy_error, &plain.metrics.max_energy_error,
                             sizeof(double));
-        if (last)
+        if (cases[c].made_to == DIVERGE)
             assert_int_equal(fused.status, DM_RUN_DIVERGED);
+        else if (cases[c].made_to == FAIL)
+            assert_true(fused.status == DM_RUN_FAILED && fused.metrics.steps > 1000);
         else
             assert_true(fused.crossings.total > 100);
         dm_run_result_free(&fused);

@@ -150,6 +150,9 @@ struct dm_method {
     dm_status (*restart)(dm_stepper *s, const dm_point *at);
     /* Frees everything create allocated, the stepper included. */
     void (*destroy)(dm_stepper *s);
+    /* Optional (NULL: the per-step path always runs). What dm_stepper_run_fused does
+     * for this method: its steps in the problem's fused loop, bit for bit like step. */
+    dm_fused_event (*run_fused)(dm_stepper *s, dm_fused_run *run, uint64_t k_end);
     /* Optional (NULL: s->counts is always current). Brings s->counts up to date for a
      * method that reads its counters lazily instead of after every step (the CVODE
      * adapter asks CVODE for them only here, on restart, on failure and at t_stop). */
@@ -166,9 +169,11 @@ struct dm_method {
 
 /* ---- the fused loop ----
  * For a splitting method (without compensated sums) on a problem that provides
- * fused_loop (problem.h), runs steps with the per-step monitor until k_end or an event,
- * as fast as a hand-written loop and bit for bit like dm_stepper_step followed by
- * dm_monitor_step. Returns DM_FUSED_UNSUPPORTED when the method and problem have none. */
+ * fused_loop, or a Runge-Kutta method or the implicit midpoint rule on one that provides
+ * fused_rk_loop (problem.h), runs steps with the per-step monitor until k_end or an
+ * event, as fast as a hand-written loop and bit for bit like dm_stepper_step followed
+ * by dm_monitor_step. Returns DM_FUSED_UNSUPPORTED when the method and problem have
+ * none, DM_FUSED_FAILED (s->error filled) where dm_stepper_step would have failed. */
 dm_fused_event dm_stepper_run_fused(dm_stepper *s, dm_fused_run *run, uint64_t k_end);
 
 /* ---- registry (registry.c) ---- */

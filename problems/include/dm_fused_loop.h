@@ -1,6 +1,7 @@
-/* dm_fused_loop.h — the fused loop: any splitting table's steps and the per-step monitor
- * in one loop, compiled inside a problem's own file so that its force, velocity and
- * kinetic energy are inlined. A problem opts in with one line after its static
+/* dm_fused_loop.h — the fused loops: any splitting table's steps (and, below, a
+ * Runge-Kutta tableau's or the implicit midpoint rule's) and the per-step monitor in one
+ * loop, compiled inside a problem's own file so that its force, velocity and kinetic
+ * energy are inlined. A problem opts in with one line after its static
  * force/velocity/kinetic/potential functions,
  *
  *     DM_FUSED_LOOP(fused_loop, 1)        (the name to define, the degrees of freedom)
@@ -17,6 +18,7 @@
 #ifndef DM_FUSED_LOOP_H
 #define DM_FUSED_LOOP_H
 
+#include <float.h>
 #include <math.h>
 #include <string.h>
 
@@ -174,6 +176,275 @@ dm_fused_dispatch(const dm_instance *inst, const dm_fused_table *table, dm_fused
     {                                                                                       \
         return dm_fused_dispatch(inst, table, cache, run, k_end, (DOF), force, velocity,    \
                                  kinetic, potential);                                       \
+    }
+
+/* ==== the Runge-Kutta family ====
+ * The step arithmetic of explicit tableaux and of the implicit midpoint rule, written
+ * once: the per-step paths (integrators/rk.c, integrators/midpoint.c) call these
+ * functions with the problem's functions through the table and the dof known at run
+ * time, the fused loop below with them inline and the dof and the tableau's shape as
+ * constants. The slopes are f(y) = (grad T(p), -grad V(q)), grad V from gradient(). */
+
+/* The shipped tableaux, written once: integrators/rk.c runs them, and the fused loop
+ * recognises them so that their numbers are constants it folds in (zero terms and
+ * products by 1 vanish at compile time). */
+/* Explicit Euler: y1 = y0 + h f(y0) (common practice). */
+static const dm_rk_tableau dm_rk_euler_tableau = { .stages = 1, .b = { 1.0 } };
+/* Classical RK4 (Kutta 1901; Hairer, Nørsett, Wanner, Solving ODEs I, §II.1; from
+ * memory of the book). */
+static const dm_rk_tableau dm_rk4_tableau = {
+    .stages = 4,
+    .a = { { 0 }, { 0.5 }, { 0.0, 0.5 }, { 0.0, 0.0, 1.0 } },
+    .b = { 1.0 / 6.0, 1.0 / 3.0, 1.0 / 3.0, 1.0 / 6.0 },
+};
+
+/* Whether two tableaux hold the same numbers. */
+static inline bool dm_rk_same_tableau(const dm_rk_tableau *x, const dm_rk_tableau *y)
+{
+    if (x->stages != y->stages)
+        return false;
+    for (int i = 0; i < x->stages; i++) {
+        if (x->b[i] != y->b[i])
+            return false;
+        for (int j = 0; j < i; j++)
+            if (x->a[i][j] != y->a[i][j])
+                return false;
+    }
+    return true;
+}
+
+/* One explicit step y1 = y0 + h sum_i b_i k_i, stage i at y0 + h sum_j a_ij k_j, with
+ * S = t->stages a constant (dm_rk_explicit_step_any below for any t). Every sum runs over the nonzero coefficients only, in order, and
+ * starts from its first term; a sum with no term leaves y0 as it is. When t points to
+ * one of the constant tableaux above, the zero tests are decided at compile time.
+ * y1 may not be y0. */
+static inline __attribute__((always_inline)) void
+dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
+                    const double *y0, double *y1, const int N, const int S,
+                    dm_gradient_fn gradient, dm_fused_velocity velocity)
+{
+    /* y is zeroed for the compiler's sake only (-Wmaybe-uninitialized with a dof known
+     * at run time); with a constant dof the stores vanish */
+    double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF] = { 0 };
+#pragma GCC unroll 4
+    for (int i = 0; i < S; i++) {
+        for (int c = 0; c < 2 * N; c++) {
+            double sum = 0.0;
+            bool any = false;
+#pragma GCC unroll 4
+            for (int j = 0; j < i; j++) {
+                if (t->a[i][j] == 0.0)
+                    continue;
+                double term = t->a[i][j] * k[j][c];
+                sum = any ? sum + term : term;
+                any = true;
+            }
+            y[c] = any ? y0[c] + h * sum : y0[c];
+        }
+        velocity(inst, y + N, k[i]);
+        gradient(inst, y, k[i] + N);
+        for (int c = N; c < 2 * N; c++)
+            k[i][c] = -k[i][c];
+    }
+    for (int c = 0; c < 2 * N; c++) {
+        double sum = 0.0;
+        bool any = false;
+#pragma GCC unroll 4
+        for (int i = 0; i < S; i++) {
+            if (t->b[i] == 0.0)
+                continue;
+            double term = t->b[i] * k[i][c];
+            sum = any ? sum + term : term;
+            any = true;
+        }
+        y1[c] = any ? y0[c] + h * sum : y0[c];
+    }
+}
+
+/* The same for a tableau known at run time: S made a constant by a switch. */
+static inline __attribute__((always_inline)) void
+dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double h,
+                        const double *y0, double *y1, const int N, dm_gradient_fn gradient,
+                        dm_fused_velocity velocity)
+{
+    switch (t->stages) {
+    case 1: dm_rk_explicit_step(inst, t, h, y0, y1, N, 1, gradient, velocity); break;
+    case 2: dm_rk_explicit_step(inst, t, h, y0, y1, N, 2, gradient, velocity); break;
+    case 3: dm_rk_explicit_step(inst, t, h, y0, y1, N, 3, gradient, velocity); break;
+    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
+    }
+}
+
+/* Updates below this many ulps of |k| count as converged. */
+#define DM_MIDPOINT_CONVERGED_ULPS 4.0
+/* An update that no longer shrinks is accepted as the round-off floor only when it is
+ * already this small (in ulps of |k|); otherwise the iteration goes on (and fails at
+ * the cap if it diverges or oscillates). */
+#define DM_MIDPOINT_STAGNATION_ULPS 1024.0
+
+/* max(a, b) for an a that is never NaN: b when b > a, else a (so a NaN b is passed
+ * over). It is fmax(a, b) whenever a is not NaN and neither is -0, which holds for the
+ * non-negative sizes below, and it compiles to one maxsd where fmax is a call. */
+static inline double dm_larger(double a, double b)
+{
+    return b > a ? b : a;
+}
+
+/* One implicit midpoint step y1 = y0 + h f(k), k = y0 + (h/2) f(k) solved by fixed-point
+ * iteration from the predictor y0 + (h/2) f (the last step's slope, when *slope_valid)
+ * or y0, until the update is below a few ulps of k or stops shrinking at round-off
+ * level. f holds the slope at the last iterate on return (the next predictor). Returns
+ * whether it converged within max_iterations; *iterations and *update say how it went.
+ * Without convergence y1 is not written and *slope_valid is cleared. */
+static inline __attribute__((always_inline)) bool
+dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const double *y0,
+                 double *y1, double *f, bool *slope_valid, const int N,
+                 dm_gradient_fn gradient, dm_fused_velocity velocity, int *iterations,
+                 double *update_out)
+{
+    const double half_h = 0.5 * h;
+    double k[2 * DM_MAX_DOF];
+#pragma GCC unroll 12
+    for (int c = 0; c < 2 * N; c++)
+        k[c] = *slope_valid ? y0[c] + half_h * f[c] : y0[c];
+
+    double previous_update = INFINITY, update = INFINITY;
+    int it = 0;
+    bool converged = false;
+    while (it < max_iterations) {
+        velocity(inst, k + N, f);
+        gradient(inst, k, f + N);
+        it++;
+        update = 0.0;
+        double size = 0.0;
+#pragma GCC unroll 12
+        for (int c = 0; c < 2 * N; c++) {
+            if (c >= N)
+                f[c] = -f[c];
+            double next = y0[c] + half_h * f[c];
+            update = dm_larger(update, fabs(next - k[c]));
+            size = dm_larger(size, fabs(next));
+            k[c] = next;
+        }
+        if (!isfinite(update))
+            break;
+        double ulp = DBL_EPSILON * size;
+        if (update <= DM_MIDPOINT_CONVERGED_ULPS * ulp ||
+            (update >= previous_update && update <= DM_MIDPOINT_STAGNATION_ULPS * ulp)) {
+            converged = true;
+            break;
+        }
+        previous_update = update;
+    }
+    *iterations = it;
+    *update_out = update;
+    *slope_valid = converged;
+    if (converged) {
+        /* y1 = y0 + h f(k) with f taken at the iterate the last update came from. */
+        for (int c = 0; c < 2 * N; c++)
+            y1[c] = y0[c] + h * f[c];
+    }
+    return converged;
+}
+
+/* The fused Runge-Kutta loop: steps and the per-step monitor from run->k until k_end
+ * or an event. t is the explicit tableau (NULL: the implicit midpoint rule), S its
+ * number of stages when t is one of the constant tableaux, else -1. The state before a step stays in y0 while the step writes y1: no copy
+ * is made for x_prev. */
+static inline __attribute__((always_inline)) int
+dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
+                  const dm_rk_tableau *t, dm_fused_rk_cache *cache, dm_fused_run *run,
+                  uint64_t k_end, const int N, const int S, dm_gradient_fn gradient,
+                  dm_fused_velocity velocity, dm_fused_kinetic kinetic,
+                  dm_fused_potential potential)
+{
+    double y0[2 * DM_MAX_DOF], y1[2 * DM_MAX_DOF], f[2 * DM_MAX_DOF];
+    for (int c = 0; c < 2 * N; c++) {
+        y0[c] = run->x[c];
+        f[c] = cache->slope[c];
+    }
+    bool slope_valid = cache->slope_valid;
+    const double h = method->h;
+    const int max_iterations = method->max_iterations;
+    dm_step_monitor mon = run->monitor; /* a local copy: kept in registers */
+    const uint64_t k_start = run->k;
+    uint64_t k = k_start, evaluations = 0, most = cache->max_iterations_in_step;
+    int event = DM_FUSED_END;
+
+    while (k < k_end) {
+        if (t == NULL) {
+            int it;
+            double update;
+            bool ok = dm_midpoint_step(inst, h, max_iterations, y0, y1, f, &slope_valid, N,
+                                       gradient, velocity, &it, &update);
+            evaluations += (uint64_t)it;
+            most = (uint64_t)it > most ? (uint64_t)it : most;
+            if (!ok) {
+                cache->failed_iterations = it;
+                cache->failed_update = update;
+                event = DM_FUSED_FAILED;
+                break;
+            }
+        } else if (S > 0) {
+            dm_rk_explicit_step(inst, t, h, y0, y1, N, S, gradient, velocity);
+        } else {
+            dm_rk_explicit_step_any(inst, t, h, y0, y1, N, gradient, velocity);
+        }
+        k++;
+        dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, y1 + N), potential(inst, y1),
+                                           dm_fused_component(y1, N, mon.coord));
+        if (ev != DM_STEP_QUIET) {
+            event = (int)ev; /* the same numbers as dm_fused_event's (problem.h) */
+            for (int c = 0; c < 2 * N; c++) {
+                run->x_prev[c] = y0[c];
+                y0[c] = y1[c];
+            }
+            break;
+        }
+        for (int c = 0; c < 2 * N; c++)
+            y0[c] = y1[c];
+    }
+    for (int c = 0; c < 2 * N; c++) {
+        run->x[c] = y0[c];
+        cache->slope[c] = f[c];
+    }
+    cache->slope_valid = slope_valid;
+    cache->evaluations += t == NULL ? evaluations : (k - k_start) * (uint64_t)t->stages;
+    cache->max_iterations_in_step = most;
+    run->monitor = mon;
+    run->k = k;
+    return event;
+}
+
+/* Defines `static int NAME(...)`, the problem's fused Runge-Kutta loop, over its static
+ * gradient, velocity, kinetic and potential functions, for DOF degrees of freedom: one
+ * function per shape (the implicit midpoint rule, RK4, Euler, any other tableau), each
+ * compiled on its own so that each gets the registers to itself. */
+#define DM_FUSED_RK_SHAPE(NAME, SHAPE, T, S, DOF)                                          \
+    static __attribute__((noinline)) int NAME##_##SHAPE(                                   \
+        const dm_instance *inst, const dm_fused_rk *method, dm_fused_rk_cache *cache,      \
+        dm_fused_run *run, uint64_t k_end)                                                 \
+    {                                                                                       \
+        return dm_fused_rk_steps(inst, method, (T), cache, run, k_end, (DOF), (S),         \
+                                 gradient, velocity, kinetic, potential);                  \
+    }
+#define DM_FUSED_RK_LOOP(NAME, DOF)                                                        \
+    _Static_assert((DOF) >= 1 && (DOF) <= DM_MAX_DOF, "DM_FUSED_RK_LOOP: DOF out of range"); \
+    DM_FUSED_RK_SHAPE(NAME, midpoint, NULL, -1, DOF)                                        \
+    DM_FUSED_RK_SHAPE(NAME, rk4, &dm_rk4_tableau, 4, DOF)                                   \
+    DM_FUSED_RK_SHAPE(NAME, euler, &dm_rk_euler_tableau, 1, DOF)                            \
+    DM_FUSED_RK_SHAPE(NAME, any, method->tableau, -1, DOF)                                  \
+    static int NAME(const dm_instance *inst, const dm_fused_rk *method,                    \
+                    dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end)            \
+    {                                                                                       \
+        const dm_rk_tableau *t = method->tableau;                                           \
+        if (t == NULL)                                                                      \
+            return NAME##_midpoint(inst, method, cache, run, k_end);                        \
+        if (dm_rk_same_tableau(t, &dm_rk4_tableau))                                         \
+            return NAME##_rk4(inst, method, cache, run, k_end);                             \
+        if (dm_rk_same_tableau(t, &dm_rk_euler_tableau))                                    \
+            return NAME##_euler(inst, method, cache, run, k_end);                           \
+        return NAME##_any(inst, method, cache, run, k_end);                                 \
     }
 
 #endif

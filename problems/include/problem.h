@@ -119,12 +119,51 @@ typedef enum dm_fused_event {
     DM_FUSED_CROSSING = DM_STEP_CROSSED,     /* the last step crossed the section */
     DM_FUSED_DIVERGED = DM_STEP_DIVERGED,    /* the last step's dE is NaN, Inf or beyond
                                                 the limit */
-    DM_FUSED_UNSUPPORTED                     /* no fused loop for this method and problem */
+    DM_FUSED_UNSUPPORTED,                    /* no fused loop for this method and problem */
+    DM_FUSED_FAILED                          /* the next step could not be taken (the
+                                                implicit midpoint iteration did not
+                                                converge): the state is the one before it */
 } dm_fused_event;
 
 /* Runs steps from run->k until k_end or an event; returns the dm_fused_event. */
 typedef int (*dm_fused_loop_fn)(const dm_instance *inst, const dm_fused_table *table,
                                 dm_fused_cache *cache, dm_fused_run *run, uint64_t k_end);
+
+/* ---- the fused Runge-Kutta loop ----
+ * The same for the Runge-Kutta family on y = (q, p), dq/dt = grad T(p),
+ * dp/dt = -grad V(q): an explicit tableau (integrators/rk.c) or the implicit midpoint
+ * rule (integrators/midpoint.c). The step arithmetic is written once, in
+ * dm_fused_loop.h (dm_rk_explicit_step, dm_midpoint_step), and the per-step paths of
+ * rk.c and midpoint.c call the same functions. */
+#define DM_RK_MAX_STAGES 4
+
+/* An explicit Butcher tableau: a strictly lower triangular, b the weights. */
+typedef struct dm_rk_tableau {
+    int stages;                 /* 1 .. DM_RK_MAX_STAGES */
+    double a[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES];
+    double b[DM_RK_MAX_STAGES];
+} dm_rk_tableau;
+
+typedef struct dm_fused_rk {
+    const dm_rk_tableau *tableau;   /* NULL: the implicit midpoint rule */
+    double h;
+    int max_iterations;             /* implicit midpoint: the fixed-point iteration cap */
+} dm_fused_rk;
+
+/* What one call leaves for the next, and the work done since it was collected. */
+typedef struct dm_fused_rk_cache {
+    double slope[2 * DM_MAX_DOF];   /* implicit midpoint: f at the last iterate, the next
+                                       step's predictor ... */
+    bool slope_valid;               /* ... when a step has converged since the restart */
+    uint64_t evaluations;           /* force and velocity evaluations (one each) */
+    uint64_t max_iterations_in_step;
+    int failed_iterations;          /* DM_FUSED_FAILED: the iterations of the step ... */
+    double failed_update;           /* ... and its last update */
+} dm_fused_rk_cache;
+
+typedef int (*dm_fused_rk_loop_fn)(const dm_instance *inst, const dm_fused_rk *method,
+                                   dm_fused_rk_cache *cache, dm_fused_run *run,
+                                   uint64_t k_end);
 
 /* A problem. Every field is REQUIRED unless marked optional; an optional function may
  * be NULL, with the default its comment states. tests/test_registry.c checks every
@@ -149,6 +188,11 @@ struct dm_problem {
     /* Writes grad V(q) into grad and returns V(q): both come from the same
      * intermediate results (sincos, 1/r), so a monitor gets V for free. */
     double (*force)(const dm_instance *inst, const double *q, double *grad);
+    /* Optional: writes grad V(q) alone, the same numbers force() writes, bit for bit
+     * (tests/test_registry.c checks it), for the methods that never use V (Runge-Kutta
+     * stages, implicit midpoint iterations): no cos, no division for V. NULL: force()
+     * with V dropped (dm_problem_gradient below). */
+    void (*gradient)(const dm_instance *inst, const double *q, double *grad);
     double (*kinetic)(const dm_instance *inst, const double *p);
     /* Writes grad T(p) (the velocity dq/dt) into v. */
     void (*velocity)(const dm_instance *inst, const double *p, double *v);
@@ -174,6 +218,10 @@ struct dm_problem {
      * `.fused_loop = fused_loop` here. NULL: the per-step path runs (slower, same
      * results). */
     dm_fused_loop_fn fused_loop;
+    /* Optional: the same for Runge-Kutta tableaux and the implicit midpoint rule, with
+     * gradient() inline: `DM_FUSED_RK_LOOP(fused_rk_loop, DOF)` and
+     * `.fused_rk_loop = fused_rk_loop`. NULL: the per-step path runs them. */
+    dm_fused_rk_loop_fn fused_rk_loop;
 
     /* Optional: extra conserved quantities the harness monitors (angular momentum, ...).
      * n_invariants = 0 and invariants = NULL: none. Otherwise n_invariants names, how
@@ -211,6 +259,21 @@ dm_status dm_problem_load(const char *path, const dm_problem **problem, char has
 /* The rules of the table (the "required" fields above, counts in range, names set,
  * invariants all or nothing): DM_OK or a one-line error naming the first broken one. */
 dm_status dm_problem_check(const dm_problem *problem, dm_error *err);
+
+/* grad V(q) of a problem that has no gradient function: force() with V dropped. */
+static inline void dm_gradient_from_force(const dm_instance *inst, const double *q,
+                                          double *grad)
+{
+    (void)inst->problem->force(inst, q, grad);
+}
+
+typedef void (*dm_gradient_fn)(const dm_instance *inst, const double *q, double *grad);
+
+/* The problem's gradient, or its default. */
+static inline dm_gradient_fn dm_problem_gradient(const dm_problem *problem)
+{
+    return problem->gradient != NULL ? problem->gradient : dm_gradient_from_force;
+}
 
 /* ---- registry (registry.c) ---- */
 extern const dm_problem *const dm_problems[];
