@@ -19,6 +19,26 @@ static const char *yes_no(bool b)
     return b ? "yes" : "no";
 }
 
+/* The order column: "1-5" for a variable-order method (its orders), else the order. */
+static void order_text(const dm_method *m, char *buf, size_t size)
+{
+    if (m->variable_order)
+        snprintf(buf, size, "1-%d", m->order);
+    else
+        snprintf(buf, size, "%d", m->order);
+}
+
+/* The forces-per-step column: a count, or the word for what decides it. */
+static void forces_text(const dm_method *m, char *buf, size_t size)
+{
+    if (m->adaptive)
+        snprintf(buf, size, "adaptive");
+    else if (m->force_evals_per_step == 0)
+        snprintf(buf, size, "iterative");   /* one per iteration of the step's solve */
+    else
+        snprintf(buf, size, "%d", m->force_evals_per_step);
+}
+
 static void print_text(void)
 {
     printf("problems\n");
@@ -68,13 +88,11 @@ static void print_text(void)
            "symplectic", "symmetric", "forces/step", "name");
     for (size_t i = 0; i < dm_method_count; i++) {
         const dm_method *m = dm_methods[i];
-        char forces[16];
-        if (m->adaptive)
-            snprintf(forces, sizeof forces, "adaptive");
-        else
-            snprintf(forces, sizeof forces, "%d", m->force_evals_per_step);
-        printf("  %-*s  %-*s  %5d  %10s  %9s  %11s  %s\n", wid, m->id, wfam,
-               dm_family_name(m->family), m->order, yes_no(m->symplectic),
+        char forces[16], order[16];
+        forces_text(m, forces, sizeof forces);
+        order_text(m, order, sizeof order);
+        printf("  %-*s  %-*s  %5s  %10s  %9s  %11s  %s\n", wid, m->id, wfam,
+               dm_family_name(m->family), order, yes_no(m->symplectic),
                yes_no(m->symmetric), forces, m->name);
     }
 }
@@ -130,10 +148,23 @@ static void print_json(void)
         dm_json_string(stdout, m->name);
         printf(", \"family\": ");
         dm_json_string(stdout, dm_family_name(m->family));
-        printf(", \"order\": %d, \"symplectic\": %s, \"symmetric\": %s, \"adaptive\": %s, "
-               "\"force_evals_per_step\": %d, \"reference\": ",
-               m->order, m->symplectic ? "true" : "false", m->symmetric ? "true" : "false",
-               m->adaptive ? "true" : "false", m->force_evals_per_step);
+        char forces[16], order[16];
+        forces_text(m, forces, sizeof forces);
+        order_text(m, order, sizeof order);
+        /* order and force_evals_per_step are numbers only when they are one number */
+        if (m->variable_order)
+            printf(", \"order\": null");
+        else
+            printf(", \"order\": %d", m->order);
+        printf(", \"max_order\": %d, \"order_text\": \"%s\", \"symplectic\": %s, "
+               "\"symmetric\": %s, \"adaptive\": %s, \"force_evals_per_step\": ",
+               m->order, order, m->symplectic ? "true" : "false",
+               m->symmetric ? "true" : "false", m->adaptive ? "true" : "false");
+        if (m->force_evals_per_step > 0)
+            printf("%d", m->force_evals_per_step);
+        else
+            printf("null");
+        printf(", \"force_evals_text\": \"%s\", \"reference\": ", forces);
         dm_json_string(stdout, m->reference);
         printf("}");
     }

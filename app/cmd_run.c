@@ -303,24 +303,26 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
     }
     dm_table_print(stdout, rows, n_rows, DM_TABLE_TEXT);
     if (suite->n_sweeps > 0) {
-        printf("\n%-56s %12s %6s %12s %6s\n", "sweep", "energy order", "points",
-               "phase order", "points");
-        for (size_t w = 0; w < suite->n_sweeps; w++) {
-            const dm_sweep_fit *f = &fits[w];
-            printf("%-56s %12.3f %6zu %12.3f %6zu\n", suite->sweeps[w].name, f->energy_order,
-                   f->n_energy_points, f->phase_order, f->n_phase_points);
-            /* the runs a fit left out, and why */
-            for (size_t i = 0; i < f->n_runs && f->energy_use != NULL; i++) {
-                if (f->energy_use[i] == DM_FIT_USED && f->phase_use[i] == DM_FIT_USED)
-                    continue;
-                if (f->energy_use[i] == DM_FIT_NOT_RUN)
-                    continue;
-                printf("  left out: %s: energy %s, phase %s\n",
-                       suite->runs[suite->sweeps[w].runs[i]].id,
-                       dm_fit_use_name((dm_fit_use)f->energy_use[i]),
-                       dm_fit_use_name((dm_fit_use)f->phase_use[i]));
+        /* the sweep table, as `show` prints it from the file */
+        dm_sweep_summary *table = calloc(suite->n_sweeps, sizeof *table);
+        size_t n_table = 0;
+        for (size_t w = 0; table != NULL && w < suite->n_sweeps; w++) {
+            if (dm_sweep_summary_fill(&table[n_table], suite, &suite->sweeps[w], results,
+                                      &fits[w], &err) != DM_OK) {
+                fprintf(stderr, "driftmark: run: %s\n", err.msg);
+                code = 1;
+                break;
             }
+            n_table++;
         }
+        if (table == NULL) {
+            fprintf(stderr, "driftmark: run: out of memory for the sweep table\n");
+            code = 1;
+        } else {
+            fputc('\n', stdout);
+            dm_sweep_table_print(stdout, table, n_table, DM_TABLE_TEXT);
+        }
+        dm_sweep_summaries_free(table, n_table);
     }
     if (written)
         printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite->output, n_rows,

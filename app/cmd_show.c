@@ -1,26 +1,32 @@
-/* cmd_show.c — `driftmark show FILE.h5 [--format table|csv|json]`: print the summary
- * table of a results file. */
+/* cmd_show.c — `driftmark show FILE.h5 [--format table|csv|json] [--sweeps]`: print the
+ * summary table of a results file and its sweep table (as `run` prints them), or with
+ * --sweeps the sweep table alone (so that CSV and JSON hold one table). */
 #include <getopt.h>
+#include <stdbool.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "cli.h"
 #include "harness.h"
 
-static const char usage[] = "usage: driftmark show FILE.h5 [--format table|csv|json]";
+static const char usage[] =
+    "usage: driftmark show FILE.h5 [--format table|csv|json] [--sweeps]";
 
 int dm_cmd_show(int argc, char **argv)
 {
     static const struct option options[] = {
         { "format", required_argument, NULL, 'f' },
+        { "sweeps", no_argument, NULL, 's' },
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
     dm_table_format format = DM_TABLE_TEXT;
+    bool sweeps_only = false;
     optind = 0; /* glibc: full re-initialisation, in case getopt ran before */
     opterr = 0; /* our own one-line messages */
     int c;
-    while ((c = getopt_long(argc, argv, "f:h", options, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, "f:sh", options, NULL)) != -1) {
         switch (c) {
         case 'f':
             if (strcmp(optarg, "table") == 0)
@@ -32,6 +38,9 @@ int dm_cmd_show(int argc, char **argv)
             else
                 return dm_cli_usage_error("show", "unknown format '%s' (expected table, csv "
                                           "or json)", optarg);
+            break;
+        case 's':
+            sweeps_only = true;
             break;
         case 'h':
             printf("%s\n", usage);
@@ -57,11 +66,28 @@ int dm_cmd_show(int argc, char **argv)
 
     dm_summary_row *rows = NULL;
     size_t n = 0;
+    dm_sweep_summary *sweeps = NULL;
+    size_t n_sweeps = 0;
     dm_error err;
     dm_error_clear(&err);
+    /* both read before anything is printed: a damaged file prints one line, no half */
     if (dm_results_read_summary(path, &rows, &n, &err) != DM_OK)
         return dm_cli_usage_error("show", "%s", err.msg);
-    dm_table_print(stdout, rows, n, format);
+    if (dm_results_read_sweeps(path, &sweeps, &n_sweeps, &err) != DM_OK) {
+        free(rows);
+        return dm_cli_usage_error("show", "%s", err.msg);
+    }
+    if (sweeps_only) {
+        dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
+    } else {
+        dm_table_print(stdout, rows, n, format);
+        /* CSV and JSON stay one table each: their sweeps come with --sweeps */
+        if (format == DM_TABLE_TEXT && n_sweeps > 0) {
+            fputc('\n', stdout);
+            dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
+        }
+    }
+    dm_sweep_summaries_free(sweeps, n_sweeps);
     free(rows);
     return 0;
 }

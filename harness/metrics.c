@@ -1,6 +1,7 @@
 /* metrics.c — the fits behind the per-run and per-sweep figures. */
 #include <float.h>
 #include <math.h>
+#include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -262,6 +263,53 @@ const char *dm_fit_use_name(dm_fit_use use)
     case DM_FIT_SIGN_CHANGE: return "sign_change";
     }
     return "unknown";
+}
+
+int dm_fit_use_name_known(const char *name)
+{
+    if (name[0] == '\0')
+        return 1;
+    for (int u = DM_FIT_USED; u <= DM_FIT_SIGN_CHANGE; u++)
+        if (strcmp(name, dm_fit_use_name((dm_fit_use)u)) == 0)
+            return 1;
+    return 0;
+}
+
+dm_status dm_sweep_summary_fill(dm_sweep_summary *s, const dm_suite *suite,
+                                const dm_sweep *sweep, const dm_run_result *results,
+                                const dm_sweep_fit *fit, dm_error *err)
+{
+    memset(s, 0, sizeof *s);
+    snprintf(s->name, sizeof s->name, "%s", sweep->name);
+    s->energy_order = fit ? fit->energy_order : NAN;
+    s->phase_order = fit ? fit->phase_order : NAN;
+    s->n_points_energy = fit ? fit->n_energy_points : 0;
+    s->n_points_phase = fit ? fit->n_phase_points : 0;
+    s->runs = calloc(sweep->n_runs ? sweep->n_runs : 1, sizeof *s->runs);
+    if (s->runs == NULL)
+        return dm_error_set(err, DM_ENOMEM, "%s: out of memory for its table", sweep->name);
+    for (size_t i = 0; i < sweep->n_runs; i++) {
+        size_t k = sweep->runs[i];
+        if (results[k].status == DM_RUN_NOT_RUN)
+            continue;   /* as in the file: only the runs that started */
+        dm_sweep_run_use *u = &s->runs[s->n_runs++];
+        snprintf(u->run_id, sizeof u->run_id, "%s", suite->runs[k].id);
+        bool coded = fit != NULL && fit->energy_use != NULL && i < fit->n_runs;
+        snprintf(u->energy_fit, sizeof u->energy_fit, "%s",
+                 coded ? dm_fit_use_name((dm_fit_use)fit->energy_use[i]) : "");
+        snprintf(u->phase_fit, sizeof u->phase_fit, "%s",
+                 coded ? dm_fit_use_name((dm_fit_use)fit->phase_use[i]) : "");
+    }
+    return DM_OK;
+}
+
+void dm_sweep_summaries_free(dm_sweep_summary *s, size_t n)
+{
+    if (s == NULL)
+        return;
+    for (size_t i = 0; i < n; i++)
+        free(s[i].runs);
+    free(s);
 }
 
 void dm_sweep_fit_free(dm_sweep_fit *fit)

@@ -468,18 +468,25 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
 {
     char gname[DM_RUN_ID_MAX];
     safe_name(sw->name, gname, sizeof gname);
-    hid_t g = H5Gcreate2(sweeps, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
-    if (g < 0)
+    /* the runs that started, their ids and codes: as the sweep table shows them */
+    dm_sweep_summary sum;
+    dm_error err = { 0 };
+    if (dm_sweep_summary_fill(&sum, suite, sw, results, fit, &err) != DM_OK)
         return -1;
-    size_t n = sw->n_runs;
-    const char **ids = calloc(n ? n : 1, sizeof *ids);
-    double *setting = calloc(n ? n : 1, sizeof *setting);
-    double *h = calloc(n ? n : 1, sizeof *h);
-    double *energy = calloc(n ? n : 1, sizeof *energy);
-    double *phase = calloc(n ? n : 1, sizeof *phase);
-    uint64_t *evals = calloc(n ? n : 1, sizeof *evals);
-    const char **energy_use = calloc(n ? n : 1, sizeof *energy_use);
-    const char **phase_use = calloc(n ? n : 1, sizeof *phase_use);
+    hid_t g = H5Gcreate2(sweeps, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0) {
+        free(sum.runs);
+        return -1;
+    }
+    size_t n = sum.n_runs, alloc = n ? n : 1;
+    const char **ids = calloc(alloc, sizeof *ids);
+    double *setting = calloc(alloc, sizeof *setting);
+    double *h = calloc(alloc, sizeof *h);
+    double *energy = calloc(alloc, sizeof *energy);
+    double *phase = calloc(alloc, sizeof *phase);
+    uint64_t *evals = calloc(alloc, sizeof *evals);
+    const char **energy_use = calloc(alloc, sizeof *energy_use);
+    const char **phase_use = calloc(alloc, sizeof *phase_use);
     int rc = -1;
     if (ids && setting && h && energy && phase && evals && energy_use && phase_use) {
         size_t kept = 0;
@@ -487,26 +494,24 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
             const dm_run_spec *spec = &suite->runs[sw->runs[i]];
             const dm_run_result *res = &results[sw->runs[i]];
             if (res->status == DM_RUN_NOT_RUN)
-                continue;
-            ids[kept] = spec->id;
+                continue;   /* as dm_sweep_summary_fill */
+            ids[kept] = sum.runs[kept].run_id;
             setting[kept] = spec->step_value;
             h[kept] = sw->step_setting == DM_SET_BY_RTOL ? spec->method_config.rtol
                                                : spec->method_config.h;
             energy[kept] = res->metrics.max_energy_error;
             phase[kept] = res->metrics.phase_error_per_period;
             evals[kept] = res->metrics.counts.force_evals;
-            bool coded = fit != NULL && fit->energy_use != NULL && i < fit->n_runs;
-            energy_use[kept] = coded ? dm_fit_use_name((dm_fit_use)fit->energy_use[i]) : "";
-            phase_use[kept] = coded ? dm_fit_use_name((dm_fit_use)fit->phase_use[i]) : "";
+            energy_use[kept] = sum.runs[kept].energy_fit;
+            phase_use[kept] = sum.runs[kept].phase_fit;
             kept++;
         }
-        n = kept;
         rc = 0;
         rc |= attr_text(g, "knob", step_setting_name(sw->step_setting));
-        rc |= attr_double(g, "energy_order", fit ? fit->energy_order : NAN);
-        rc |= attr_double(g, "phase_order", fit ? fit->phase_order : NAN);
-        rc |= attr_u64(g, "n_points_energy", fit ? fit->n_energy_points : 0);
-        rc |= attr_u64(g, "n_points_phase", fit ? fit->n_phase_points : 0);
+        rc |= attr_double(g, "energy_order", sum.energy_order);
+        rc |= attr_double(g, "phase_order", sum.phase_order);
+        rc |= attr_u64(g, "n_points_energy", sum.n_points_energy);
+        rc |= attr_u64(g, "n_points_phase", sum.n_points_phase);
         rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
         rc |= dataset_strings(g, "run_id", ids, n);
         rc |= dataset_double(g, sw->step_setting == DM_SET_BY_RTOL ? "rtol" : "h", h, n);
@@ -526,6 +531,7 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     free(evals);
     free(energy_use);
     free(phase_use);
+    free(sum.runs);
     if (H5Gclose(g) < 0)
         rc = -1;
     return rc;
@@ -1177,5 +1183,233 @@ dm_status dm_results_read_suite_text(const char *path, char **text, char *source
         H5Fclose(file);
     if (st == DM_OK)
         dm_error_clear(err);
+    return st;
+}
+
+/* ---- the sweeps (for `show`) ---- */
+
+/* Reads a one-dimensional text dataset of exactly n elements, fixed- or variable-length,
+ * into out[i * width] (each cut to width - 1 bytes and terminated). A text longer than
+ * max_len, or anything but n texts, is -1. */
+static int read_texts(hid_t g, const char *name, size_t n, size_t max_len, char *out,
+                      size_t width)
+{
+    if (H5Lexists(g, name, H5P_DEFAULT) <= 0)
+        return -1;
+    hid_t d = H5Dopen2(g, name, H5P_DEFAULT);
+    if (d < 0)
+        return -1;
+    hid_t space = H5Dget_space(d);
+    hid_t ft = H5Dget_type(d);
+    hid_t mt = ft >= 0 ? H5Tcopy(ft) : -1;
+    hssize_t count = space >= 0 && H5Sget_simple_extent_ndims(space) == 1
+                         ? H5Sget_simple_extent_npoints(space)
+                         : -1;
+    int rc = -1;
+    bool ok = mt >= 0 && H5Tget_class(ft) == H5T_STRING && count >= 0 && (size_t)count == n;
+    if (ok && n == 0) {
+        rc = 0;
+    } else if (ok && H5Tis_variable_str(ft) > 0) {
+        char **values = calloc(n, sizeof *values);
+        if (values != NULL && H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, values) >= 0) {
+            rc = 0;
+            for (size_t i = 0; i < n; i++) {
+                if (values[i] == NULL || strnlen(values[i], max_len + 1) > max_len)
+                    rc = -1;
+                else
+                    snprintf(out + i * width, width, "%s", values[i]);
+            }
+            H5Dvlen_reclaim(mt, space, H5P_DEFAULT, values);
+        }
+        free(values);
+    } else if (ok) {
+        size_t len = H5Tget_size(ft);
+        char *buf = len > 0 && len <= max_len ? calloc(n, len + 1) : NULL;
+        if (buf != NULL && H5Tset_size(mt, len + 1) >= 0 &&
+            H5Tset_strpad(mt, H5T_STR_NULLTERM) >= 0 &&
+            H5Dread(d, mt, H5S_ALL, H5S_ALL, H5P_DEFAULT, buf) >= 0) {
+            for (size_t i = 0; i < n; i++)
+                snprintf(out + i * width, width, "%s", buf + i * (len + 1));
+            rc = 0;
+        }
+        free(buf);
+    }
+    if (mt >= 0)
+        H5Tclose(mt);
+    if (ft >= 0)
+        H5Tclose(ft);
+    if (space >= 0)
+        H5Sclose(space);
+    H5Dclose(d);
+    return rc;
+}
+
+/* One /sweeps/<name> group into s. Returns NULL, or what is wrong with it. */
+static const char *read_sweep(hid_t g, dm_sweep_summary *s)
+{
+    uint64_t n_runs = 0;
+    if (read_double_attr(g, "energy_order", &s->energy_order) != 0)
+        return "its energy_order attribute is not one number";
+    if (read_double_attr(g, "phase_order", &s->phase_order) != 0)
+        return "its phase_order attribute is not one number";
+    if (read_u64_attr(g, "n_points_energy", &s->n_points_energy) != 0)
+        return "its n_points_energy attribute is not one whole number";
+    if (read_u64_attr(g, "n_points_phase", &s->n_points_phase) != 0)
+        return "its n_points_phase attribute is not one whole number";
+    if (read_u64_attr(g, "n_runs", &n_runs) != 0 || n_runs > DM_SUITE_MAX_RUNS)
+        return "its n_runs attribute is not one whole number of at most the runs a suite has";
+    if (s->n_points_energy > n_runs || s->n_points_phase > n_runs)
+        return "it counts more points in a fit than it has runs";
+    s->runs = calloc(n_runs ? (size_t)n_runs : 1, sizeof *s->runs);
+    if (s->runs == NULL)
+        return "out of memory";
+    s->n_runs = (size_t)n_runs;
+    char *ids = calloc(s->n_runs ? s->n_runs : 1, DM_RUN_ID_MAX);
+    char *energy = calloc(s->n_runs ? s->n_runs : 1, DM_FIT_USE_NAME_MAX);
+    char *phase = calloc(s->n_runs ? s->n_runs : 1, DM_FIT_USE_NAME_MAX);
+    const char *why = NULL;
+    if (ids == NULL || energy == NULL || phase == NULL)
+        why = "out of memory";
+    else if (read_texts(g, "run_id", s->n_runs, DM_RUN_ID_MAX - 1, ids, DM_RUN_ID_MAX) != 0)
+        why = "its run_id dataset is not n_runs run ids";
+    else if (read_texts(g, "energy_fit", s->n_runs, DM_FIT_USE_NAME_MAX - 1, energy,
+                        DM_FIT_USE_NAME_MAX) != 0)
+        why = "its energy_fit dataset is not n_runs codes";
+    else if (read_texts(g, "phase_fit", s->n_runs, DM_FIT_USE_NAME_MAX - 1, phase,
+                        DM_FIT_USE_NAME_MAX) != 0)
+        why = "its phase_fit dataset is not n_runs codes";
+    for (size_t i = 0; why == NULL && i < s->n_runs; i++) {
+        dm_sweep_run_use *u = &s->runs[i];
+        memcpy(u->run_id, ids + i * DM_RUN_ID_MAX, DM_RUN_ID_MAX);
+        memcpy(u->energy_fit, energy + i * DM_FIT_USE_NAME_MAX, DM_FIT_USE_NAME_MAX);
+        memcpy(u->phase_fit, phase + i * DM_FIT_USE_NAME_MAX, DM_FIT_USE_NAME_MAX);
+        if (!dm_fit_use_name_known(u->energy_fit) || !dm_fit_use_name_known(u->phase_fit))
+            why = "a run's energy_fit or phase_fit is not a code results/README.md lists";
+    }
+    free(ids);
+    free(energy);
+    free(phase);
+    return why;
+}
+
+typedef struct sweep_names {
+    char (*name)[DM_RUN_ID_MAX];
+    size_t n, capacity;
+} sweep_names;
+
+static herr_t collect_sweep_name(hid_t g, const char *name, const H5L_info_t *info, void *data)
+{
+    (void)g;
+    (void)info;
+    sweep_names *s = data;
+    if (s->n >= s->capacity || strlen(name) >= DM_RUN_ID_MAX)
+        return -1;
+    memcpy(s->name[s->n++], name, strlen(name) + 1);
+    return 0;
+}
+
+/* Where a sweep's first run is in /summary (SIZE_MAX when it is not): the run order. */
+static size_t first_row(const dm_summary_row *rows, size_t n_rows, const dm_sweep_summary *s)
+{
+    for (size_t i = 0; s->n_runs > 0 && i < n_rows; i++)
+        if (strcmp(rows[i].run_id, s->runs[0].run_id) == 0)
+            return i;
+    return SIZE_MAX;
+}
+
+dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, size_t *n,
+                                 dm_error *err)
+{
+    *sweeps = NULL;
+    *n = 0;
+    dm_summary_row *rows = NULL;
+    size_t n_rows = 0;
+    /* the same checks as `show`: ours, not newer, readable */
+    dm_status st = dm_results_read_summary(path, &rows, &n_rows, err);
+    if (st != DM_OK)
+        return st;
+    hdf5_silence();
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    hid_t group = -1;
+    dm_sweep_summary *out = NULL;
+    sweep_names names = { 0 };
+    size_t count = 0;
+    if (file < 0) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated", path);
+        goto done;
+    }
+    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0)
+        goto done;   /* no sweeps */
+    H5G_info_t info;
+    group = H5Gopen2(file, "sweeps", H5P_DEFAULT);
+    if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /sweeps is not a group of at most "
+                          "%d sweeps", path, DM_SUITE_MAX_RUNS);
+        goto done;
+    }
+    names.capacity = (size_t)info.nlinks;
+    names.name = calloc(names.capacity ? names.capacity : 1, sizeof *names.name);
+    out = calloc(names.capacity ? names.capacity : 1, sizeof *out);
+    if (names.name == NULL || out == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    hsize_t at = 0;
+    if (H5Literate(group, H5_INDEX_NAME, H5_ITER_INC, &at, collect_sweep_name, &names) < 0) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /sweeps holds a name longer than "
+                          "a sweep's", path);
+        goto done;
+    }
+    for (size_t i = 0; i < names.n; i++) {
+        char shown[4 * DM_RUN_ID_MAX];
+        dm_escape_controls(names.name[i], shown, sizeof shown);
+        H5O_info_t oi;
+        hid_t g = -1;
+        if (H5Oget_info_by_name(group, names.name[i], &oi, H5P_DEFAULT) >= 0 &&
+            oi.type == H5O_TYPE_GROUP)
+            g = H5Gopen2(group, names.name[i], H5P_DEFAULT);
+        dm_sweep_summary *s = &out[count++];
+        snprintf(s->name, sizeof s->name, "%s", names.name[i]);
+        const char *why = g >= 0 ? read_sweep(g, s) : "it is not a group";
+        if (g >= 0)
+            H5Gclose(g);
+        if (why != NULL) {
+            st = dm_error_set(err, DM_EINPUT, "cannot read %s: sweep %s: %s", path, shown, why);
+            goto done;
+        }
+    }
+    /* in the order of their runs in /summary (a stable insertion sort) */
+    size_t *key = calloc(count ? count : 1, sizeof *key);
+    if (key == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    for (size_t i = 0; i < count; i++)
+        key[i] = first_row(rows, n_rows, &out[i]);
+    for (size_t i = 1; i < count; i++) {
+        dm_sweep_summary s = out[i];
+        size_t k = key[i], j = i;
+        for (; j > 0 && key[j - 1] > k; j--) {
+            out[j] = out[j - 1];
+            key[j] = key[j - 1];
+        }
+        out[j] = s;
+        key[j] = k;
+    }
+    free(key);
+done:
+    if (st != DM_OK) {
+        dm_sweep_summaries_free(out, count);
+        out = NULL;
+        count = 0;
+    }
+    *sweeps = out;
+    *n = count;
+    free(names.name);
+    if (group >= 0)
+        H5Gclose(group);
+    if (file >= 0)
+        H5Fclose(file);
+    free(rows);
     return st;
 }

@@ -12,6 +12,7 @@
 #include <string.h>
 #include "dm_clock.h"
 #include "dm_line_fit.h"
+#include "dm_number_text.h"
 #include "checkpoint.h"
 #include "harness.h"
 
@@ -191,8 +192,10 @@ static void crossing_add(crossing_log *log, int k, double level, double t0, cons
 static dm_run_status diverged_at(char *reason, size_t size, double dE, double limit,
                                  uint64_t step, double t)
 {
-    snprintf(reason, size, "energy error %.3g beyond the limit %.3g at step %llu, t = %.17g",
-             dE, limit, (unsigned long long)step, t);
+    char value_text[40], limit_text[40];
+    dm_number_text_apart(dE, limit, value_text, limit_text, sizeof value_text);
+    snprintf(reason, size, "energy error %s beyond the limit %s at step %llu, t = %.17g",
+             value_text, limit_text, (unsigned long long)step, t);
     return DM_RUN_DIVERGED;
 }
 

@@ -447,11 +447,13 @@ static void build_free(suite_build *b)
     free(b->run_id_hashes);
 }
 
-static const char *const top_keys[] = { "name", "output", "horizon", "samples",
+/* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
+ * still accepted; a suite gives one or the other. */
+static const char *const top_keys[] = { "name", "output", "horizon", "buckets",
                                         "energy_limit", "step_budget", "problems",
-                                        "methods", "memory_limit_gib" };
-enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_SAMPLES, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
-       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_COUNT };
+                                        "methods", "memory_limit_gib", "samples" };
+enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_BUCKETS, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
+       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_SAMPLES, TOP_COUNT };
 
 static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
 {
@@ -1340,8 +1342,9 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
     case TOP_HORIZON:
         st = parse_horizon(b, value);
         break;
+    case TOP_BUCKETS:
     case TOP_SAMPLES:
-        st = get_whole(c, value, "samples", 1, DM_MAX_SAMPLES, &x);
+        st = get_whole(c, value, top_keys[k], 1, DM_MAX_SAMPLES, &x);
         if (st == DM_OK) /* converting an out-of-range x would be undefined */
             b->samples = (size_t)x;
         break;
@@ -1419,6 +1422,10 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
         if (k == TOP_COUNT)
             return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
         value_of[k] = node_at(c, p->value);
+        if ((k == TOP_BUCKETS && value_of[TOP_SAMPLES] != NULL) ||
+            (k == TOP_SAMPLES && value_of[TOP_BUCKETS] != NULL))
+            return fail_at(c, key, "both buckets and samples given (expected one: samples "
+                           "is the older name of buckets)");
         if ((st = parse_top_value(b, suite, k, value_of[k])) != DM_OK)
             return st;
     }
@@ -1449,9 +1456,10 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     double gib = bytes / 1073741824.0;
     if (gib > b->memory_limit_gib) {
         const yaml_node_t *at = value_of[TOP_MEMORY_LIMIT] ? value_of[TOP_MEMORY_LIMIT]
+                                : value_of[TOP_BUCKETS] ? value_of[TOP_BUCKETS]
                                 : value_of[TOP_SAMPLES] ? value_of[TOP_SAMPLES] : root;
         return fail_at(c, at, "the %zu runs' series would take about %.3g GiB of memory, above "
-                       "memory_limit_gib = %g (expected fewer samples or runs, or a larger "
+                       "memory_limit_gib = %g (expected fewer buckets or runs, or a larger "
                        "memory_limit_gib)", suite->n_runs, gib, b->memory_limit_gib);
     }
     return resolve_output(b, suite, root);

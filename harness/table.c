@@ -227,3 +227,97 @@ void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_fo
     case DM_TABLE_JSON: print_json(out, rows, n); break;
     }
 }
+
+/* ---- the sweep table ---- */
+
+static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
+{
+    fprintf(out, "%-56s %12s %6s %12s %6s\n", "sweep", "energy order", "points", "phase order",
+            "points");
+    for (size_t w = 0; w < n; w++) {
+        const dm_sweep_summary *s = &sweeps[w];
+        char name[4 * DM_RUN_ID_MAX], energy[32], phase[32];
+        dm_escape_controls(s->name, name, sizeof name);
+        cell_number(energy, sizeof energy, s->energy_order, "%.3f");
+        cell_number(phase, sizeof phase, s->phase_order, "%.3f");
+        fprintf(out, "%-56s %12s %6" PRIu64 " %12s %6" PRIu64 "\n", name, energy,
+                s->n_points_energy, phase, s->n_points_phase);
+        /* the runs a fit left out, and why */
+        for (size_t i = 0; i < s->n_runs; i++) {
+            const dm_sweep_run_use *u = &s->runs[i];
+            bool used = strcmp(u->energy_fit, "used") == 0 && strcmp(u->phase_fit, "used") == 0;
+            if (used || u->energy_fit[0] == '\0' || strcmp(u->energy_fit, "not_run") == 0)
+                continue;
+            char id[4 * DM_RUN_ID_MAX], e[4 * DM_FIT_USE_NAME_MAX], p[4 * DM_FIT_USE_NAME_MAX];
+            dm_escape_controls(u->run_id, id, sizeof id);
+            dm_escape_controls(u->energy_fit, e, sizeof e);
+            dm_escape_controls(u->phase_fit, p, sizeof p);
+            fprintf(out, "  left out: %s: energy %s, phase %s\n", id, e, p);
+        }
+    }
+}
+
+/* One row per written run of each sweep (a sweep with none: one row, its run fields
+ * empty), the sweep's figures repeated on each. */
+static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
+{
+    fputs("sweep,energy_order,n_points_energy,phase_order,n_points_phase,run_id,energy_fit,"
+          "phase_fit\n", out);
+    for (size_t w = 0; w < n; w++) {
+        const dm_sweep_summary *s = &sweeps[w];
+        for (size_t i = 0; i < (s->n_runs ? s->n_runs : 1); i++) {
+            csv_text(out, s->name);
+            fputc(',', out);
+            csv_number(out, s->energy_order);
+            fprintf(out, ",%" PRIu64 ",", s->n_points_energy);
+            csv_number(out, s->phase_order);
+            fprintf(out, ",%" PRIu64 ",", s->n_points_phase);
+            if (s->n_runs > 0) {
+                csv_text(out, s->runs[i].run_id);
+                fputc(',', out);
+                csv_text(out, s->runs[i].energy_fit);
+                fputc(',', out);
+                csv_text(out, s->runs[i].phase_fit);
+            } else {
+                fputs(",,", out);
+            }
+            fputc('\n', out);
+        }
+    }
+}
+
+static void sweep_json(FILE *out, const dm_sweep_summary *sweeps, size_t n)
+{
+    fputs("[", out);
+    for (size_t w = 0; w < n; w++) {
+        const dm_sweep_summary *s = &sweeps[w];
+        fputs(w ? ",\n  {\"sweep\": " : "\n  {\"sweep\": ", out);
+        dm_json_string(out, s->name);
+        fputs(", \"energy_order\": ", out);
+        dm_json_number(out, s->energy_order, "%.17g");
+        fprintf(out, ", \"n_points_energy\": %" PRIu64 ", \"phase_order\": ", s->n_points_energy);
+        dm_json_number(out, s->phase_order, "%.17g");
+        fprintf(out, ", \"n_points_phase\": %" PRIu64 ", \"runs\": [", s->n_points_phase);
+        for (size_t i = 0; i < s->n_runs; i++) {
+            fputs(i ? ", {\"run_id\": " : "{\"run_id\": ", out);
+            dm_json_string(out, s->runs[i].run_id);
+            fputs(", \"energy_fit\": ", out);
+            dm_json_string(out, s->runs[i].energy_fit);
+            fputs(", \"phase_fit\": ", out);
+            dm_json_string(out, s->runs[i].phase_fit);
+            fputs("}", out);
+        }
+        fputs("]}", out);
+    }
+    fputs(n ? "\n]\n" : "]\n", out);
+}
+
+void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
+                          dm_table_format format)
+{
+    switch (format) {
+    case DM_TABLE_TEXT: sweep_text(out, sweeps, n); break;
+    case DM_TABLE_CSV: sweep_csv(out, sweeps, n); break;
+    case DM_TABLE_JSON: sweep_json(out, sweeps, n); break;
+    }
+}

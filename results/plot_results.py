@@ -16,7 +16,8 @@ and cost.png: force evaluations per period against max |dE|, one panel per varia
 that are not ok are drawn with their status, never dropped.
 
 Needs Debian's python3-h5py and python3-matplotlib. The file layout it reads is the
-contract in results/README.md.
+contract in results/README.md. A missing, unreadable or foreign file, or a bad option,
+is one line on stderr and exit status 2, with nothing written.
 """
 import argparse
 import os
@@ -51,10 +52,50 @@ def method_part(run):
     return run["id"][len(run["variant"]) + 1:] if run["id"].startswith(run["variant"] + ".") else run["id"]
 
 
+def refuse(message):
+    """Bad input: one line on stderr, exit status 2, nothing written."""
+    sys.stderr.write(f"plot_results: {message}\n")
+    sys.exit(2)
+
+
+class Arguments(argparse.ArgumentParser):
+    """argparse, with a bad option or value as our one line (exit 2), not its usage and
+    message on two."""
+
+    def error(self, message):
+        refuse(message)
+
+
+def escaped(path):
+    """A path as one printable line."""
+    return path.encode("unicode_escape").decode("ascii")
+
+
+def read(path):
+    """load() and load_more() of the file at `path`, or one line and exit 2 when it is
+    missing, unreadable, not HDF5 or not a driftmark results file as results/README.md
+    describes it."""
+    shown = escaped(path)
+    if not os.path.exists(path):
+        refuse(f"{shown}: no such file")
+    if not os.path.isfile(path):
+        refuse(f"{shown}: not a regular file")
+    if not os.access(path, os.R_OK):
+        refuse(f"{shown}: cannot be read (permission denied)")
+    try:
+        if not h5py.is_hdf5(path):
+            refuse(f"{shown}: not an HDF5 file")
+        runs = load(path)
+        return runs, load_more(path, runs)
+    except (OSError, KeyError, ValueError, TypeError, IndexError) as e:
+        why = " ".join(str(e).split()) or type(e).__name__
+        refuse(f"{shown}: not a readable driftmark results file ({why})")
+
+
 def load(path):
     with h5py.File(path, "r") as f:
         if text(f.attrs.get("format", "")) != "driftmark-results":
-            sys.exit(f"plot_results: {path}: not a driftmark results file")
+            refuse(f"{escaped(path)}: not a driftmark results file")
         summary = f["summary"][()]
         runs = []
         for row in summary:
@@ -514,7 +555,7 @@ def positive(v):
 
 
 def main():
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap = Arguments(description=__doc__.splitlines()[0])
     ap.add_argument("results")
     ap.add_argument("-o", "--outdir", default=None, help="folder for the PNGs (default: beside the file)")
     ap.add_argument("--target-energy", type=positive, default=None, metavar="X",
@@ -527,9 +568,11 @@ def main():
     formats = ("png", "svg") if a.format == "both" else (a.format,)
     targets = {"energy": a.target_energy, "phase": a.target_phase}
     outdir = a.outdir or os.path.dirname(os.path.abspath(a.results))
-    os.makedirs(outdir, exist_ok=True)
-    runs = load(a.results)
-    sweeps = load_more(a.results, runs)
+    runs, sweeps = read(a.results)   # all of it before anything is written
+    try:
+        os.makedirs(outdir, exist_ok=True)
+    except OSError as e:
+        refuse(f"cannot make the folder {outdir}: {e.strerror}")
     groups = {}
     for r in runs:
         groups.setdefault(r["variant"], []).append(r)

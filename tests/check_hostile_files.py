@@ -125,7 +125,8 @@ def main():
         for name, edit in cases:
             hostile(base, name, edit)
             refused(tmp, ["run", "--resume", name], f"resume {name}")
-        # `show` reads only the root and /summary: the root's attributes are checked
+        # `show` reads the root, /summary and /sweeps (tests/check_show_sweeps.py), not
+        # the runs' groups: the root's attributes are checked
         for name in ("schema-array.h5", "written-array.h5"):
             refused(tmp, ["show", name], f"show {name}")
         r = run(["show", "steps-array.h5"], tmp)

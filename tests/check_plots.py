@@ -182,9 +182,48 @@ def main():
                         check(f"chosen/{want}" in svgs[f"{v}-work"], f"{want} ringed in {v}-work")
 
         # a target that is not a positive number is refused with exit status 2
+        def one_line(q, label, needle):
+            check(q.returncode == 2, f"{label}: exit {q.returncode} (expected 2): {q.stderr!r}")
+            check(q.stderr.count("\n") == 1 and q.stderr.startswith("plot_results: "),
+                  f"{label}: not one line of ours: {q.stderr!r}")
+            check(needle in q.stderr, f"{label}: {needle!r} not in {q.stderr!r}")
+            check(not os.path.exists(os.path.join(tmp, "bad")), f"{label}: something written")
+
         for bad in ("-1", "0", "abc", "nan"):
             q = plot(path, os.path.join(tmp, "bad"), "--target-energy", bad)
-            check(q.returncode == 2 and "Traceback" not in q.stderr, f"--target-energy {bad}: exit {q.returncode}")
+            one_line(q, f"--target-energy {bad}", "expected a positive number")
+        one_line(plot(path, os.path.join(tmp, "bad"), "--format", "gif"), "--format gif",
+                 "--format")
+        one_line(plot(path, os.path.join(tmp, "bad"), "--bogus"), "--bogus", "--bogus")
+
+        # files that are not ours: one line, exit 2, no traceback, nothing written
+        other = os.path.join(tmp, "other.h5")
+        with h5py.File(other, "w") as f:
+            f.attrs["x"] = 1
+        no_summary = os.path.join(tmp, "no-summary.h5")
+        with open(path, "rb") as f:
+            data = f.read()
+        with open(no_summary, "wb") as f:
+            f.write(data)
+        with h5py.File(no_summary, "r+") as f:
+            del f["summary"]
+        truncated = os.path.join(tmp, "truncated.h5")
+        with open(truncated, "wb") as f:
+            f.write(data[:3000])
+        suite = os.path.join(tmp, "plots.yaml")
+        for bad, needle in ((os.path.join(tmp, "missing.h5"), "no such file"),
+                            (tmp, "not a regular file"),
+                            (suite, "not an HDF5 file"),
+                            (other, "not a driftmark results file"),
+                            (no_summary, "not a readable driftmark results file"),
+                            (truncated, "not a readable driftmark results file")):
+            one_line(plot(bad, os.path.join(tmp, "bad")), os.path.basename(bad), needle)
+        if os.geteuid() != 0:   # root reads a file of mode 000
+            unreadable = os.path.join(tmp, "unreadable.h5")
+            with open(unreadable, "wb") as f:
+                f.write(data)
+            os.chmod(unreadable, 0)
+            one_line(plot(unreadable, os.path.join(tmp, "bad")), "unreadable", "cannot be read")
 
     if failures:
         print(f"0 passed, {len(failures)} failed")

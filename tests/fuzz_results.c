@@ -1,5 +1,5 @@
 /* fuzz_results.c — libFuzzer target for the results-file readers: what `show` reads
- * (dm_results_read_summary) and what `run --resume` reads (dm_results_read_suite_text,
+ * (dm_results_read_summary, dm_results_read_sweeps) and what `run --resume` reads (dm_results_read_suite_text,
  * then the suite stored in the file, then dm_results_read_runs).
  *
  * Built only with -DDM_FUZZ=ON and clang (CMakeLists.txt); tests/ci_extra.sh runs it for
@@ -57,6 +57,16 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     if (n > DM_SUITE_MAX_RUNS)
         finding("more rows than a suite can have", NULL);
     free(rows);
+
+    dm_sweep_summary *sweeps = NULL;
+    size_t n_sweeps = 0;
+    st = dm_results_read_sweeps(path, &sweeps, &n_sweeps, &err);
+    if (st != DM_OK) {
+        check_refusal(st, &err);
+        if (sweeps != NULL)
+            finding("refused sweeps left allocated", &err);
+    }
+    dm_sweep_summaries_free(sweeps, n_sweeps);
 
     char *text = NULL;
     char source[1024];

@@ -209,6 +209,79 @@ static void list_json_is_one_object_with_every_problem_and_method(void **state)
     assert_string_equal(first_param, dm_problems[0]->params[0].name);
 }
 
+/* The line of `list` that starts with a method's id, copied into line. */
+static void method_line(const char *id, char *line, size_t size)
+{
+    char key[64];
+    snprintf(key, sizeof key, "\n  %s ", id);
+    const char *at = strstr(out, key);
+    assert_non_null(at);
+    at += 3;
+    size_t n = strcspn(at, "\n");
+    assert_true(n < size);
+    memcpy(line, at, n);
+    line[n] = '\0';
+}
+
+/* A method whose force count depends on its iterations shows the word, never 0; a
+ * variable-order method shows its orders as a range, not one order. */
+static void list_shows_iterative_forces_and_variable_orders_as_such(void **state)
+{
+    char line[512];
+    for (int json = 0; json < 2; json++) {
+        for (size_t i = 0; i < dm_method_count; i++) {
+            const dm_method *m = dm_methods[i];
+            char order[16];
+            if (m->variable_order)
+                snprintf(order, sizeof order, "1-%d", m->order);
+            else
+                snprintf(order, sizeof order, "%d", m->order);
+            const char *forces = m->adaptive ? "adaptive"
+                                 : m->force_evals_per_step == 0 ? "iterative" : NULL;
+            if (!json) {
+                assert_int_equal(run("list"), 0);
+                method_line(m->id, line, sizeof line);
+                print_message("%s\n", line);
+                char want[96];
+                snprintf(want, sizeof want, " %s ", order);
+                assert_non_null(strstr(line, want));
+                if (forces != NULL)
+                    assert_non_null(strstr(line, forces));
+                continue;
+            }
+            char args[700];
+            snprintf(args, sizeof args,
+                     "list --json | /usr/bin/python3 -c 'import json, sys; "
+                     "m = [m for m in json.load(sys.stdin)[\"methods\"] if m[\"id\"] == \"%s\"][0]; "
+                     "print(m[\"order\"], m[\"max_order\"], m[\"order_text\"], "
+                     "m[\"force_evals_per_step\"], m[\"force_evals_text\"])'", m->id);
+            assert_int_equal(run(args), 0);
+            char want[128];
+            if (m->variable_order)
+                snprintf(want, sizeof want, "None %d %s", m->order, order);
+            else
+                snprintf(want, sizeof want, "%d %d %s", m->order, m->order, order);
+            if (forces != NULL)
+                snprintf(want + strlen(want), sizeof want - strlen(want), " None %s\n",
+                         forces);
+            else
+                snprintf(want + strlen(want), sizeof want - strlen(want), " %d %d\n",
+                         m->force_evals_per_step, m->force_evals_per_step);
+            assert_string_equal(out, want);
+        }
+    }
+    /* the two cases this is about, by name */
+    assert_int_equal(run("list"), 0);
+    if (dm_method_find("midpoint") != NULL) {
+        method_line("midpoint", line, sizeof line);
+        assert_non_null(strstr(line, " iterative "));
+    }
+    if (dm_method_find("cvode-bdf") != NULL) {
+        method_line("cvode-bdf", line, sizeof line);
+        assert_non_null(strstr(line, " 1-5 "));
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -218,6 +291,7 @@ int main(void)
         cmocka_unit_test(period_of_the_pendulum_is_four_complete_elliptic_integrals),
         cmocka_unit_test(list_names_every_problem_parameter_regime_and_method),
         cmocka_unit_test(list_json_is_one_object_with_every_problem_and_method),
+        cmocka_unit_test(list_shows_iterative_forces_and_variable_orders_as_such),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -49,6 +49,24 @@ static void error_prefix_keeps_the_message(void **state)
     assert_int_equal(e.code, DM_EINPUT);
 }
 
+/* A value just beyond its limit is printed with the digits that tell them apart. */
+static void value_and_limit_are_printed_apart(void **state)
+{
+    (void)state;
+    char v[40], l[40];
+    dm_number_text_apart(-1.0000108, 1.0, v, l, sizeof v);
+    assert_string_equal(v, "-1.00001");
+    assert_string_equal(l, "1");
+    dm_number_text_apart(0.0123456, 0.01, v, l, sizeof v);   /* 3 digits suffice */
+    assert_string_equal(v, "0.0123");
+    assert_string_equal(l, "0.01");
+    dm_number_text_apart(1.0000000000000002, 1.0, v, l, sizeof v);
+    assert_string_equal(v, "1.0000000000000002");
+    dm_number_text_apart(1.000011, 1.00001, v, l, sizeof v);  /* both get the digits */
+    assert_string_equal(v, "1.000011");
+    assert_string_equal(l, "1.00001");
+}
+
 static void number_text_is_the_shortest_that_reads_back(void **state)
 {
     char buf[40];
@@ -114,6 +132,7 @@ int main(void)
         cmocka_unit_test(suggest_finds_close_misspellings_only),
         cmocka_unit_test(error_prefix_keeps_the_message),
         cmocka_unit_test(number_text_is_the_shortest_that_reads_back),
+        cmocka_unit_test(value_and_limit_are_printed_apart),
         cmocka_unit_test(json_writer_escapes_and_writes_null),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -166,6 +166,8 @@ static void every_method_table_is_one_kind_and_sets_its_required_fields(void **s
         assert_non_null(m->reference);
         assert_true(m->order >= 1);
         assert_true(m->adaptive == (m->family == DM_FAMILY_ADAPTIVE));
+        if (m->variable_order)  /* only a method choosing its steps chooses its order */
+            assert_true(m->adaptive);
         if (m->adaptive)
             assert_int_equal(m->force_evals_per_step, 0);
         else if (m->family != DM_FAMILY_IMPLICIT) /* implicit: iterations decide */

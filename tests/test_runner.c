@@ -362,9 +362,15 @@ static void fused_loop_equals_per_step_path_bit_for_bit(void **state)
                             &plain.metrics.phase_error_per_period, sizeof(double));
         assert_memory_equal(&fused.metrics.max_energy_error, &plain.metrics.max_energy_error,
                             sizeof(double));
-        if (cases[c].made_to == DIVERGE)
+        if (cases[c].made_to == DIVERGE) {
             assert_int_equal(fused.status, DM_RUN_DIVERGED);
-        else if (cases[c].made_to == FAIL)
+            /* the reason's two numbers, as printed, still say |dE| > limit */
+            double printed_dE, printed_limit;
+            assert_int_equal(sscanf(fused.reason, "energy error %lg beyond the limit %lg",
+                                    &printed_dE, &printed_limit), 2);
+            print_message("%s\n", fused.reason);
+            assert_true(fabs(printed_dE) > printed_limit);
+        } else if (cases[c].made_to == FAIL)
             assert_true(fused.status == DM_RUN_FAILED && fused.metrics.steps > 1000);
         else
             assert_true(fused.crossings.total > 100);

@@ -355,6 +355,23 @@ static void defaults_and_time_horizon_are_applied(void **state)
     assert_close(s.energy_limit, 0.25, 0.0);
     assert_int_equal(s.step_budget, 1000000);
     dm_suite_free(&s);
+
+    /* buckets, and samples its older name: the same setting */
+    parse_ok(HEAD PROB METH "buckets: 300\n", &s);
+    assert_int_equal(s.runs[0].samples, 300);
+    char hash[sizeof s.runs[0].hash];
+    snprintf(hash, sizeof hash, "%s", s.runs[0].hash);
+    dm_suite_free(&s);
+    parse_ok(HEAD PROB METH "samples: 300\n", &s);
+    assert_int_equal(s.runs[0].samples, 300);
+    assert_string_equal(s.runs[0].hash, hash);
+    dm_suite_free(&s);
+    expect_error(HEAD PROB METH "buckets: 300\nsamples: 300\n", SRC ":8:1: ",
+                 "both buckets and samples given");
+    expect_error(HEAD PROB METH "samples: 300\nbuckets: 300\n", SRC ":8:1: ",
+                 "both buckets and samples given");
+    expect_error(HEAD PROB METH "buckets: 0\n", SRC ":7:10: ",
+                 "buckets = 0 is out of range");
 }
 
 static void output_defaults_to_results_dir_which_must_exist(void **state)
@@ -444,8 +461,8 @@ static void unknown_keys_are_refused_at_every_level_with_a_hint(void **state)
     expect_error("horizn: {periods: 10}\noutput: OUT\n" PROB METH, SRC ":1:1: ",
                  "unknown key 'horizn' (did you mean 'horizon'?)");
     expect_error(HEAD PROB METH "colour: red\n", SRC ":7:1: ",
-                 "unknown key 'colour' (expected one of: name, output, horizon, samples, "
-                 "energy_limit, step_budget, problems, methods, memory_limit_gib)");
+                 "unknown key 'colour' (expected one of: name, output, horizon, buckets, "
+                 "energy_limit, step_budget, problems, methods, memory_limit_gib, samples)");
     expect_error("horizon: {perods: 10}\noutput: OUT\n" PROB METH, SRC ":1:11: ",
                  "unknown horizon key 'perods' (did you mean 'periods'?)");
     expect_error(HEAD "problems:\n  - {problem: harmonic, amplitde: 2}\n" METH, SRC ":4:25: ",

@@ -8,4 +8,10 @@
 
 void dm_number_text(double v, char *buf, size_t size);
 
+/* A value and the limit it crossed, both in %g with the fewest significant digits (3 at
+ * least) at which the printed |value| differs from the printed limit, so that a message
+ * never reads "-1 beyond the limit 1" for -1.0000108. 17 digits when nothing fewer does. */
+void dm_number_text_apart(double value, double limit, char *value_buf, char *limit_buf,
+                          size_t size);
+
 #endif

@@ -311,6 +311,32 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
                                dm_error *err);
 void dm_sweep_fit_free(dm_sweep_fit *fit);
 
+/* What the sweep table shows of one sweep, from a run's fits or read back from
+ * /sweeps/<name> (results/README.md): the fitted orders, their point counts and each
+ * written run's code in each fit (the datasets energy_fit and phase_fit). */
+#define DM_FIT_USE_NAME_MAX 16
+typedef struct dm_sweep_run_use {
+    char run_id[DM_RUN_ID_MAX];
+    char energy_fit[DM_FIT_USE_NAME_MAX];   /* dm_fit_use_name, or "" (no fit made) */
+    char phase_fit[DM_FIT_USE_NAME_MAX];
+} dm_sweep_run_use;
+
+typedef struct dm_sweep_summary {
+    char name[DM_RUN_ID_MAX];
+    double energy_order, phase_order;
+    uint64_t n_points_energy, n_points_phase;
+    size_t n_runs;
+    dm_sweep_run_use *runs;          /* owned; the runs that started, in sweep order */
+} dm_sweep_summary;
+
+/* The summary of `sweep` from its fit (NULL: none made) and the suite's results. */
+dm_status dm_sweep_summary_fill(dm_sweep_summary *s, const dm_suite *suite,
+                                const dm_sweep *sweep, const dm_run_result *results,
+                                const dm_sweep_fit *fit, dm_error *err);
+void dm_sweep_summaries_free(dm_sweep_summary *s, size_t n);
+/* 1 when `name` is a code of the datasets energy_fit and phase_fit (or ""), else 0. */
+int dm_fit_use_name_known(const char *name);
+
 /* ---- the results file (results.c) ---- */
 
 /* Writes the whole results file: to a temporary file beside `path`, renamed into
@@ -333,6 +359,13 @@ int dm_results_temp_path(const char *path, long pid, char *buf, size_t size);
 dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
                                dm_run_result *results, size_t *kept, dm_error *err);
 
+/* Every sweep of the file at `path` (its /sweeps groups), in the order of the runs
+ * of /summary, into a new array (free with dm_sweep_summaries_free). A file that is not
+ * ours, or a sweep whose attributes or datasets are not as results/README.md says, is
+ * DM_EINPUT with one line naming it. */
+dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, size_t *n,
+                                 dm_error *err);
+
 /* The suite text stored in a results file, and where it came from (malloc'd text). */
 dm_status dm_results_read_suite_text(const char *path, char **text, char *source,
                                      size_t source_size, dm_error *err);
@@ -352,6 +385,10 @@ void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
 
 typedef enum dm_table_format { DM_TABLE_TEXT, DM_TABLE_CSV, DM_TABLE_JSON } dm_table_format;
 void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_format format);
+/* The sweep table: text (each sweep's orders and point counts, then the runs a fit
+ * left out and why), or CSV and JSON (every written run of every sweep with its codes). */
+void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
+                          dm_table_format format);
 
 /* Reads /summary back from a results file (for `show`). Allocates *rows. */
 dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,

@@ -76,7 +76,7 @@
       "(measured - exact) / exact")                                                        \
     X(phase_error_per_period, REAL, metrics, SA, 0, "phase/period", "%.3e",                \
       "slope of the phase error against crossing number (radians)")                        \
-    X(phase_error_final, REAL, metrics, SA, 0, "phase end", "%.3e",                        \
+    X(phase_error_final, REAL, metrics, SA, 0, "final phase err", "%.3e",                  \
       "phase error at the last crossing (radians)")                                        \
     X(max_global_error, REAL, metrics, SA, 0, "", "",                                       \
       "max phase-space distance to the exact solution (NaN when none is known)")           \

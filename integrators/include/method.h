@@ -131,7 +131,9 @@ struct dm_method {
     const char *name;          /* published name */
     const char *reference;     /* where the method or its coefficients are published */
     dm_family family;
-    int order;                 /* >= 1: the classical order */
+    int order;                 /* >= 1: the classical order; of a variable-order method,
+                                  the highest order it may use */
+    bool variable_order;       /* optional: the method varies its order from 1 to order */
     bool symplectic;
     bool symmetric;            /* time-reversible */
     bool adaptive;             /* steps chosen by the method: reads rtol/atol */
