@@ -736,8 +736,8 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
 {
     fprintf(f, "harness (every monitor on, %d samples) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
-    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %5s %7s\n", "case", "steps", "bare M/s",
-            "harn. M/s", "ratio", "table M/s", "-V M/s", "same", "hdf5 %");
+    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
+            "ours M/s", "ratio", "table M/s", "no-V M/s", "= dE", "hdf5 %");
     for (size_t i = 0; i < N_CASES; i++) {
         const bench_case *c = &cases[i];
         const case_result *r = &cr[i];
@@ -753,12 +753,13 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
         if (r->hdf5_note[0])
             fprintf(f, "  %s\n", r->hdf5_note);
     }
-    fprintf(f, "  bare: hand-written loop; harn.: dm_run with every monitor; ratio: harn. / bare\n"
-               "  table: the same loop calling the problem's force() and velocity() through its\n"
-               "  table (splitting methods: the best the per-step path can do; the fused loop\n"
-               "  avoids it); -V: the loop never evaluating V (the pendulum's splitting loops\n"
-               "  evaluate sin only; RK4 and midpoint watch no energy); same: bare and harness end with\n"
-               "  the same dE bit for bit; hdf5: writing a one-run results file over the run's\n"
+    fprintf(f, "  hand: the hand-written loop, steps per second; ours: a whole driftmark run\n"
+               "  with every monitor on; ratio: ours / hand; table: the hand loop calling the\n"
+               "  problem's force() and velocity() through its table (splitting methods: the best\n"
+               "  the per-step path can do; the fused loop avoids it); no-V: the hand loop never\n"
+               "  evaluating V (the pendulum's splitting loops evaluate sin only; RK4 and midpoint\n"
+               "  watch no energy); = dE: the hand loop and driftmark end with the same energy\n"
+               "  error, bit for bit; hdf5: writing a one-run results file, in %% of the run's\n"
                "  wall time\n\n");
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);
     fprintf(f, "CVODE on %s %s=%g, rtol %g: called directly vs through the adapter\n",

@@ -365,8 +365,8 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
     rc |= attr_double(g, "rtol", adaptive ? spec->method_config.rtol : NAN);
     rc |= attr_double(g, "atol", adaptive ? spec->method_config.atol : NAN);
     rc |= attr_bool(g, "compensated", spec->method_config.compensated);
-    rc |= attr_text(g, "knob", step_setting_name(spec->step_setting));
-    rc |= attr_double(g, "knob_value", spec->step_value);
+    rc |= attr_text(g, "step_given_as", step_setting_name(spec->step_setting));
+    rc |= attr_double(g, "step_given", spec->step_value);
 
     /* the run */
     rc |= attr_text(g, "run_id", spec->id);
@@ -507,7 +507,7 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
             kept++;
         }
         rc = 0;
-        rc |= attr_text(g, "knob", step_setting_name(sw->step_setting));
+        rc |= attr_text(g, "step_given_as", step_setting_name(sw->step_setting));
         rc |= attr_double(g, "energy_order", sum.energy_order);
         rc |= attr_double(g, "phase_order", sum.phase_order);
         rc |= attr_u64(g, "n_points_energy", sum.n_points_energy);
@@ -1340,6 +1340,9 @@ dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, si
     }
     if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0)
         goto done;   /* no sweeps */
+    long long schema = 0;
+    if (read_int_attr(file, "schema_version", &schema) != 0 || schema < DM_SCHEMA_VERSION)
+        goto done;   /* schema 1 kept other sweep figures (n_points): not shown */
     H5G_info_t info;
     group = H5Gopen2(file, "sweeps", H5P_DEFAULT);
     if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {

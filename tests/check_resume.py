@@ -164,6 +164,8 @@ def main():
         check(p.returncode == 2 and p.stderr.count("\n") == 1 and "schema" in p.stderr,
               f"--resume of an older schema: {p.returncode} {p.stderr!r}")
         check(open(old, "rb").read() == before, "--resume of an older schema leaves it as it was")
+        p = subprocess.run([EXE, "show", old], capture_output=True, text=True)
+        check(p.returncode == 0 and p.stdout.strip() != "", f"show of an older schema: {p.returncode} {p.stderr!r}")
 
         # real signals: stop mid-suite, a valid file, exit 128 + signal, then resume
         for sig, code in ((signal.SIGINT, 130), (signal.SIGTERM, 143)):

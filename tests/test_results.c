@@ -398,7 +398,7 @@ static const char h5py_check[] =
     "sw = f['sweeps']\n"
     "assert len(sw) == 2, list(sw)\n"
     "first = sw[sorted(sw)[0]]\n"
-    "assert first.attrs['knob'] == 'h' and first.attrs['n_points_energy'] == 2 and first.attrs['n_points_phase'] == 2\n"
+    "assert first.attrs['step_given_as'] == 'h' and first.attrs['n_points_energy'] == 2 and first.attrs['n_points_phase'] == 2\n"
     "for d in ['run_id', 'h', 'force_evals', 'max_energy_error', 'phase_error_per_period']:\n"
     "    assert first[d].shape == (2,), d\n"
     "assert [x.decode() for x in first['run_id'][()]] == ids[0:2]\n"
