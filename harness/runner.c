@@ -563,6 +563,49 @@ static void interrupt(run_context *c)
              (unsigned long long)c->loop.k, c->cur->t);
 }
 
+/* The buckets from `first` (begun before a checkpoint when `inside`), each through the
+ * fused loop or a step at a time, recording each bucket's end, until the horizon, a
+ * divergence, a failure or a stop (which takes a checkpoint). */
+static void run_buckets(run_context *c, size_t first, bool inside, double wall_before,
+                        double t_start)
+{
+    const dm_run_spec *spec = c->spec;
+    const size_t samples = spec->samples;
+    for (size_t bucket = first; bucket < samples && c->status == DM_RUN_OK; bucket++) {
+        uint64_t k_end = c->fixed ? bucket_end_step(c->n_steps, samples, bucket) : 0;
+        double t_bucket_end = (bucket + 1 == samples)
+                                  ? spec->t_end
+                                  : spec->t_end * (double)(bucket + 1) / (double)samples;
+        if (c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end)
+            continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
+        if (!(inside && bucket == first))
+            dm_monitor_open_bucket(&c->loop.monitor);
+        if (c->fused)
+            bucket_fused(c, k_end);
+        else if (c->fixed)
+            bucket_plain_polled(c, k_end);
+        else
+            bucket_plain(c, k_end, t_bucket_end);
+        if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
+            break; /* failed on the bucket's first step: nothing to record */
+        bool ended = c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end;
+        if (c->status == DM_RUN_OK && !ended) {
+            /* stopped inside the bucket: it is not recorded; the checkpoint keeps its
+             * extremes so far */
+            interrupt(c);
+            checkpoint_take(c, bucket, true, wall_before + dm_clock_seconds() - t_start);
+            break;
+        }
+        record_bucket(c);
+        publish_progress(c);
+        bool at_horizon = c->fixed ? c->loop.k >= c->n_steps : c->cur->t >= spec->t_end;
+        if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
+            interrupt(c);
+            checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
+        }
+    }
+}
+
 /* One run, new (ck NULL) or continued from a checkpoint:
  *  1. allocate the series (a continued run has them); choose the energy scale; note the
  *     starting invariants;
@@ -639,41 +682,8 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         }
     }
 
-    const size_t samples = spec->samples;
     double t_start = dm_clock_seconds();
-    for (size_t bucket = first; bucket < samples && c->status == DM_RUN_OK; bucket++) {
-        uint64_t k_end = c->fixed ? bucket_end_step(c->n_steps, samples, bucket) : 0;
-        double t_bucket_end = (bucket + 1 == samples)
-                                  ? spec->t_end
-                                  : spec->t_end * (double)(bucket + 1) / (double)samples;
-        if (c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end)
-            continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
-        if (!(inside && bucket == first))
-            dm_monitor_open_bucket(&c->loop.monitor);
-        if (c->fused)
-            bucket_fused(c, k_end);
-        else if (c->fixed)
-            bucket_plain_polled(c, k_end);
-        else
-            bucket_plain(c, k_end, t_bucket_end);
-        if (c->loop.monitor.bucket_min > c->loop.monitor.bucket_max)
-            break; /* failed on the bucket's first step: nothing to record */
-        bool ended = c->fixed ? c->loop.k >= k_end : c->cur->t >= t_bucket_end;
-        if (c->status == DM_RUN_OK && !ended) {
-            /* stopped inside the bucket: it is not recorded; the checkpoint keeps its
-             * extremes so far */
-            interrupt(c);
-            checkpoint_take(c, bucket, true, wall_before + dm_clock_seconds() - t_start);
-            break;
-        }
-        record_bucket(c);
-        publish_progress(c);
-        bool at_horizon = c->fixed ? c->loop.k >= c->n_steps : c->cur->t >= spec->t_end;
-        if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
-            interrupt(c);
-            checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
-        }
-    }
+    run_buckets(c, first, inside, wall_before, t_start);
     finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
     dm_stepper_destroy(c->stepper);
     return DM_OK;
