@@ -71,8 +71,11 @@ static void print_csv(const dm_comparison *c)
             value_text(d, false, a, sizeof a);
             value_text(d, true, b, sizeof b);
         } else {
-            snprintf(a, sizeof a, isfinite(d->old_value) ? "%.17g" : "", d->old_value);
-            snprintf(b, sizeof b, isfinite(d->new_value) ? "%.17g" : "", d->new_value);
+            a[0] = b[0] = '\0';
+            if (isfinite(d->old_value))
+                snprintf(a, sizeof a, "%.17g", d->old_value);
+            if (isfinite(d->new_value))
+                snprintf(b, sizeof b, "%.17g", d->new_value);
         }
         printf("%s,%s,%s,%s,", d->run_id, d->figure, a, b);
         if (isfinite(d->relative))

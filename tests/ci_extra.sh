@@ -95,11 +95,15 @@ stage_fuzz_results() {
   local ours=0 theirs=0 f
   for f in "$findings"/crash-* "$findings"/leak-* "$findings"/timeout-* "$findings"/oom-*; do
     [ -e "$f" ] || continue
-    local frame
-    frame=$(ASAN_OPTIONS=detect_leaks=1:allocator_may_return_null=1 timeout 60 \
-      ./build-fuzz/fuzz_results -timeout=10 "$f" 2>&1 | grep -E '^ +#[0-9]+ ' |
-      grep -m1 -E 'libhdf5|\.c:[0-9]+' || true)
-    if [[ "$frame" == *libhdf5* ]]; then
+    local frame out rc=0
+    out=$(ASAN_OPTIONS=detect_leaks=1:allocator_may_return_null=1 timeout 60 \
+      ./build-fuzz/fuzz_results -timeout=10 "$f" 2>&1) || rc=$?
+    frame=$(printf '%s\n' "$out" | grep -E '^ +#[0-9]+ ' | grep -m1 -E 'libhdf5|\.c:[0-9]+' || true)
+    if [ "$rc" -eq 0 ]; then
+      # libFuzzer's fork mode can leave an artifact (an empty one) that runs clean on
+      # its own: nothing to judge
+      echo "ci_extra: fuzz_results: $(basename "$f") does not fail when run again"
+    elif [[ "$frame" == *libhdf5* ]]; then
       theirs=$((theirs + 1))
     else
       ours=$((ours + 1))
