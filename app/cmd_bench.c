@@ -734,7 +734,7 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
 static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
                        size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
 {
-    fprintf(f, "harness (every monitor on, %d samples) against a hand-written loop, %s runs\n\n",
+    fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
     fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
             "ours M/s", "ratio", "table M/s", "no-V M/s", "= dE", "hdf5 %");
