@@ -536,6 +536,7 @@ static const char *first_difference(const dm_run_result *a, const dm_run_result 
         { m->phase_error_per_period, n->phase_error_per_period },
         { m->phase_error_final, n->phase_error_final },
         { m->max_global_error, n->max_global_error },
+        { m->closest_approach, n->closest_approach },
         { m->t_reached, n->t_reached },
     };
     for (size_t i = 0; i < sizeof pairs / sizeof pairs[0]; i++)

@@ -63,7 +63,7 @@ static void fit(cursor *c, dm_line_fit *f)
 static size_t transfer(dm_checkpoint *ck, uint64_t *w, bool save, bool header_only)
 {
     cursor c = { .w = w, .save = save };
-    uint64_t version = DM_CHECKPOINT_VERSION, reserved = 0;
+    uint64_t version = DM_CHECKPOINT_VERSION;
     word(&c, &version);
     word(&c, &ck->dof);
     word(&c, &ck->bucket);
@@ -75,7 +75,7 @@ static size_t transfer(dm_checkpoint *ck, uint64_t *w, bool save, bool header_on
     word(&c, &ck->crossing_stride);
     flag(&c, &ck->monitor.armed);
     word(&c, &ck->n_stepper);
-    word(&c, &reserved);
+    real(&c, &ck->closest); /* word 11: 0 (reserved) before N-body */
     if (!save && (version != DM_CHECKPOINT_VERSION || ck->dof < 1 || ck->dof > DM_MAX_DOF))
         return 0;
     if (header_only)

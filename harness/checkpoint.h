@@ -36,6 +36,8 @@ typedef struct dm_checkpoint {
     double max_invariant_error[DM_MAX_INVARIANTS];
     uint64_t series_n, crossings_n;  /* lengths of the run's datasets it goes with */
     double wall_seconds;        /* spent so far */
+    double closest;             /* closest approach of two bodies so far (N-body; else
+                                   unused), in the header's word 11 */
     uint64_t n_stepper;         /* words of the stepper's own record (method.h) */
     uint64_t stepper[DM_STEPPER_RECORD_MAX];
 } dm_checkpoint;

@@ -122,20 +122,22 @@ static void crossings_store(dm_crossings *c, uint64_t number, double t, double p
     c->n++;
 }
 
-/* Cubic Hermite interpolation of q[k] across one step from the states and the vector
- * field at both ends; returns the time in [t0, t1] where it reaches `level`. The
- * sign change is known, so Newton is safeguarded by bisection. */
-static double locate_crossing(const dm_instance *inst, int k, double level, double t0,
+/* Cubic Hermite interpolation of the section's coordinate (q[coord], or q[coord] -
+ * q[ref] for a relative section) across one step from the states and the vector field
+ * at both ends; returns the time in [t0, t1] where it reaches `level`. The sign change
+ * is known, so Newton is safeguarded by bisection. */
+static double locate_crossing(const dm_instance *inst, double level, double t0,
                               const double *x0, double t1, const double *x1)
 {
     const dm_problem *pb = inst->problem;
+    const dm_section *sec = &inst->section;
     int n = inst->dof;
     double v0[DM_MAX_DOF], v1[DM_MAX_DOF];
     pb->velocity(inst, x0 + n, v0);
     pb->velocity(inst, x1 + n, v1);
     double dt = t1 - t0;
-    double y0 = x0[k] - level, y1 = x1[k] - level;
-    double d0 = dt * v0[k], d1 = dt * v1[k];
+    double y0 = dm_section_value(sec, x0) - level, y1 = dm_section_value(sec, x1) - level;
+    double d0 = dt * dm_section_value(sec, v0), d1 = dt * dm_section_value(sec, v1);
     /* H(s) = h00 y0 + h10 d0 + h01 y1 + h11 d1 on s in [0, 1]. */
     double lo = 0.0, hi = 1.0;
     double s = y0 / (y0 - y1); /* the chord's root as the first guess */
@@ -165,7 +167,9 @@ static double locate_crossing(const dm_instance *inst, int k, double level, doub
 }
 
 /* Every crossing as it happens: located inside its step, numbered, compared with the
- * exact orbit's, fitted and kept within the budget. */
+ * exact orbit's, fitted and kept within the budget. Without a period (no_period) there
+ * is no exact orbit: the fit is of the crossing times against their numbers, whose
+ * slope is the measured period, and the phase is NaN. */
 typedef struct crossing_log {
     const dm_instance *inst;
     double period;
@@ -175,15 +179,20 @@ typedef struct crossing_log {
     double last_phase;
 } crossing_log;
 
-static void crossing_add(crossing_log *log, int k, double level, double t0, const double *x0,
+static void crossing_add(crossing_log *log, double level, double t0, const double *x0,
                          double t1, const double *x1)
 {
-    double tc = locate_crossing(log->inst, k, level, t0, x0, t1, x1);
+    double tc = locate_crossing(log->inst, level, t0, x0, t1, x1);
     log->count++;
     double T = log->period;
-    double t_exact = log->inst->first_crossing + (double)(log->count - 1) * T;
-    double phase = 2.0 * M_PI * (tc - t_exact) / T;
-    dm_line_fit_add(&log->fit, (double)log->count, phase);
+    double phase = NAN;
+    if (isfinite(T)) {
+        double t_exact = log->inst->first_crossing + (double)(log->count - 1) * T;
+        phase = 2.0 * M_PI * (tc - t_exact) / T;
+        dm_line_fit_add(&log->fit, (double)log->count, phase);
+    } else {
+        dm_line_fit_add(&log->fit, (double)log->count, tc);
+    }
     crossings_store(log->store, log->count, tc, phase);
     log->last_phase = phase;
 }
@@ -220,6 +229,8 @@ typedef struct run_context {
     crossing_log log;
     dm_line_fit drift_fit;      /* dE against t / T at bucket ends */
     double max_abs;             /* largest |dE| over the recorded buckets */
+    double closest;             /* closest approach of two bodies over the recorded
+                                   buckets (problems with closest_approach), else NaN */
     int n_invariants;
     double invariant_start[DM_MAX_INVARIANTS], invariant_scale[DM_MAX_INVARIANTS];
     dm_run_status status;
@@ -314,7 +325,7 @@ static void bucket_fused(run_context *c, uint64_t k_end)
             continue;
         }
         if (ev == DM_FUSED_CROSSING) {
-            crossing_add(&c->log, w->monitor.coord, w->monitor.crossed_level,
+            crossing_add(&c->log, w->monitor.crossed_level,
                          dm_step_time(0.0, w->k - 1, c->h), w->x_prev,
                          dm_step_time(0.0, w->k, c->h), w->x);
             continue;
@@ -354,9 +365,10 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
         double V = c->nxt->potential;
         if (isnan(V))
             V = pb->potential(inst, x);
-        dm_step_event ev = dm_monitor_step(mon, pb->kinetic(inst, x + n), V, x[mon->coord]);
+        dm_step_event ev = dm_monitor_step(mon, pb->kinetic(inst, x + n), V,
+                                           dm_section_value(&inst->section, x));
         if (ev == DM_STEP_CROSSED)
-            crossing_add(&c->log, mon->coord, mon->crossed_level, c->cur->t, c->cur->x,
+            crossing_add(&c->log, mon->crossed_level, c->cur->t, c->cur->x,
                          c->nxt->t, x);
         dm_point *tmp = c->cur;
         c->cur = c->nxt;
@@ -420,7 +432,10 @@ static void record_bucket(run_context *c)
     double peak = fmax(fabs(mon->bucket_min), fabs(mon->bucket_max));
     if (peak > c->max_abs)
         c->max_abs = peak;
-    dm_line_fit_add(&c->drift_fit, t / inst->period, mon->energy_error);
+    if (isfinite(inst->period))
+        dm_line_fit_add(&c->drift_fit, t / inst->period, mon->energy_error);
+    if (inst->problem->closest_approach != NULL)
+        c->closest = fmin(c->closest, inst->problem->closest_approach(true));
     if (ser->global_error != NULL) {
         double qe[DM_MAX_DOF], pe[DM_MAX_DOF], sum = 0.0;
         inst->problem->exact(inst, t, qe, pe);
@@ -467,6 +482,9 @@ static void finish_metrics(run_context *c, double wall)
     m->t_reached = c->cur->t;
     m->wall_seconds = wall;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;
+    if (c->inst->problem->closest_approach != NULL) /* steps after the last bucket end */
+        c->closest = fmin(c->closest, c->inst->problem->closest_approach(true));
+    m->closest_approach = c->closest;
     m->force_evals_per_period = k > 0 && m->t_reached > 0.0
                                     ? (double)m->counts.force_evals / (m->t_reached / T)
                                     : NAN;
@@ -477,9 +495,14 @@ static void finish_metrics(run_context *c, double wall)
     dm_run_derive_from_series(result, T);
     m->period_exact = T;
     double slope = dm_line_fit_slope(&c->log.fit);
-    m->phase_error_per_period = slope;
-    m->period_rel_error = slope / (2.0 * M_PI);
-    m->period_measured = T * (1.0 + m->period_rel_error);
+    if (isfinite(T)) {
+        m->phase_error_per_period = slope;
+        m->period_rel_error = slope / (2.0 * M_PI);
+        m->period_measured = T * (1.0 + m->period_rel_error);
+    } else { /* no period: the slope of the crossing times is the period measured */
+        m->phase_error_per_period = m->period_rel_error = NAN;
+        m->period_measured = slope;
+    }
     m->phase_error_final = c->log.last_phase;
     m->max_global_error = NAN;
     if (ser->global_error != NULL) {
@@ -498,6 +521,8 @@ static void checkpoint_take(run_context *c, size_t bucket, bool in_bucket, doubl
     dm_checkpoint *ck = calloc(1, sizeof *ck);
     if (ck == NULL)
         return;
+    if (c->inst->problem->closest_approach != NULL) /* the steps of a bucket stopped inside */
+        c->closest = fmin(c->closest, c->inst->problem->closest_approach(true));
     const int n = c->inst->dof;
     *ck = (dm_checkpoint){ .dof = (uint64_t)n, .bucket = bucket, .in_bucket = in_bucket,
                            .k = c->loop.k, .t = c->cur->t, .potential = c->cur->potential,
@@ -505,7 +530,7 @@ static void checkpoint_take(run_context *c, size_t bucket, bool in_bucket, doubl
                            .crossing_count = c->log.count, .last_phase = c->log.last_phase,
                            .crossing_stride = c->result->crossings.stride,
                            .drift_fit = c->drift_fit, .max_abs = c->max_abs,
-                           .series_n = c->result->series.n,
+                           .closest = c->closest, .series_n = c->result->series.n,
                            .crossings_n = c->result->crossings.n, .wall_seconds = wall };
     /* the fused path keeps the state in loop.x, the per-step path in cur */
     memcpy(ck->x, c->fused ? c->loop.x : c->cur->x, sizeof(double) * 2 * (size_t)n);
@@ -546,6 +571,8 @@ static dm_status checkpoint_restore(run_context *c, const dm_checkpoint *ck, siz
     c->result->crossings.stride = ck->crossing_stride;
     c->drift_fit = ck->drift_fit;
     c->max_abs = ck->max_abs;
+    if (c->inst->problem->closest_approach != NULL)
+        c->closest = ck->closest;
     memcpy(c->result->metrics.max_invariant_error, ck->max_invariant_error,
            sizeof ck->max_invariant_error);
     if (dm_stepper_load(c->stepper, ck->stepper, ck->n_stepper, c->cur) != DM_OK)
@@ -664,7 +691,10 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
                              .store = &result->crossings, .last_phase = NAN };
     dm_monitor_start(&c->loop.monitor, H0, 1.0 / m->energy_scale, c->energy_limit,
                      inst->section.coord, inst->section.level, inst->section.wrap,
-                     inst->q0[inst->section.coord]);
+                     dm_section_value(&inst->section, inst->q0));
+    c->closest = inst->problem->closest_approach != NULL ? INFINITY : NAN;
+    if (inst->problem->closest_approach != NULL)
+        (void)inst->problem->closest_approach(true); /* forget the setup's evaluations */
     memcpy(c->loop.x, c->cur->x, sizeof(double) * 2 * (size_t)n);
     /* The fused loop when the method and the problem offer it: probed with zero steps. */
     c->fused = c->fixed &&

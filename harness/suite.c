@@ -28,6 +28,7 @@
 
 #include "dm_hash.h"
 #include "harness.h"
+#include "nbody.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -387,6 +388,11 @@ typedef struct problem_entry {
     const dm_problem *problem;
     char library[1024];               /* problem_library: the object's path, or "" */
     char library_hash[DM_HASH_HEX];
+    const void *data;                 /* a problem that needs data: its data (owned by
+                                         the suite), its source, hash and units */
+    char data_source[1024];
+    char data_hash[DM_HASH_HEX];
+    char units[64];
     int n_given;
     int param[DM_MAX_PARAMS];         /* table indices of the given parameters, ascending */
     value_list *values[DM_MAX_PARAMS];
@@ -414,6 +420,7 @@ typedef struct variant {
 
 typedef struct suite_build {
     parse_ctx ctx;
+    dm_suite *suite;                  /* owns the problems' data as it is read */
     problem_entry *problems;
     size_t n_problems;
     method_entry *methods;
@@ -492,6 +499,17 @@ static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
     return DM_OK;
 }
 
+/* A path the suite names, taken from the suite file's folder when relative, into
+ * out; false when it does not fit. */
+static bool suite_relative_path(const parse_ctx *c, const char *path, char *out, size_t size)
+{
+    const char *slash = strrchr(c->source, '/');
+    int n = path[0] != '/' && slash != NULL
+                ? snprintf(out, size, "%.*s/%s", (int)(slash - c->source), c->source, path)
+                : snprintf(out, size, "%s%s", path[0] == '/' ? "" : "./", path);
+    return n >= 0 && (size_t)n < size;
+}
+
 /* `problem_library: PATH`: a problem from the user's own compiled code (problem.h,
  * dm_problem_load). A relative path is taken from the suite file's folder. */
 static dm_status load_library(parse_ctx *c, const yaml_node_t *value, problem_entry *e)
@@ -502,13 +520,7 @@ static dm_status load_library(parse_ctx *c, const yaml_node_t *value, problem_en
     dm_status st = get_string(c, value, "problem_library", path, sizeof path);
     if (st != DM_OK)
         return st;
-    const char *slash = strrchr(c->source, '/');
-    int n = path[0] != '/' && slash != NULL
-                ? snprintf(e->library, sizeof e->library, "%.*s/%s", (int)(slash - c->source),
-                           c->source, path)
-                : snprintf(e->library, sizeof e->library, "%s%s", path[0] == '/' ? "" : "./",
-                           path);
-    if (n < 0 || (size_t)n >= sizeof e->library)
+    if (!suite_relative_path(c, path, e->library, sizeof e->library))
         return fail_at(c, value, "problem_library path is too long (at most %zu bytes with "
                        "the suite's folder)", sizeof e->library - 1);
     dm_error lerr = { 0 };
@@ -516,6 +528,9 @@ static dm_status load_library(parse_ctx *c, const yaml_node_t *value, problem_en
         return fail_at(c, value, "%s", lerr.msg);
     return DM_OK;
 }
+
+static bool is_data_key(const char *name);
+static dm_status parse_problem_data(suite_build *b, const yaml_node_t *node, problem_entry *e);
 
 static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
                                      problem_entry *e)
@@ -563,6 +578,8 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
                        "or {problem_library: PATH.so, ...})");
 
     const dm_problem *pr = e->problem;
+    if (pr->needs_data && (st = parse_problem_data(b, node, e)) != DM_OK)
+        return st;
     const char *names[DM_MAX_PARAMS];
     for (int i = 0; i < pr->n_params; i++)
         names[i] = pr->params[i].name;
@@ -572,7 +589,8 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         yaml_node_t *key;
         const char *name;
         get_key(c, p, &key, &name);
-        if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0)
+        if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0 ||
+            (pr->needs_data && is_data_key(name)))
             continue;
         int i = dm_problem_param_index(pr, name);
         if (i < 0) {
@@ -873,8 +891,8 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
                 return fail_at(c, e->node, "run name for this entry is too long (expected "
                                "fewer parameters)");
             }
-            if (dm_instance_init(&x->inst, e->problem, x->n_given, x->keys, x->values,
-                                 c->err) != DM_OK) {
+            if (dm_instance_init_data(&x->inst, e->problem, e->data, x->n_given, x->keys,
+                                      x->values, c->err) != DM_OK) {
                 free(v);
                 return prefix_at(c, e->node);
             }
@@ -898,6 +916,15 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
 static dm_status set_horizon(suite_build *b, const variant *x, dm_run_spec *spec)
 {
     double period = x->inst.period;
+    if (x->entry->problem->no_period) {
+        if (b->horizon_in_periods)
+            return fail_at(&b->ctx, b->horizon_node, "%s has no closed-form period: give the "
+                           "horizon in time (expected horizon: {time: T} in its units)",
+                           x->part);
+        spec->t_end = b->horizon;
+        spec->periods = NAN;
+        return DM_OK;
+    }
     if (b->horizon_in_periods) {
         spec->periods = b->horizon;
         spec->t_end = b->horizon * period;
@@ -936,6 +963,10 @@ static dm_status set_step_and_id(suite_build *b, const variant *x, const method_
         fits = appendf(method_part, sizeof method_part, &used, "%s-h%g", m->id, kv);
         break;
     case DM_SET_BY_STEPS_PER_PERIOD:
+        if (x->entry->problem->no_period)
+            return fail_at(c, at, "run %s.%s: the problem has no closed-form period, so "
+                           "steps_per_period does not apply (expected h: STEP in its units)",
+                           x->part, m->id);
         mc->h = period / kv;
         fits = appendf(method_part, sizeof method_part, &used, "%s-n%g", m->id, kv);
         break;
@@ -958,7 +989,8 @@ static dm_status set_step_and_id(suite_build *b, const variant *x, const method_
 
     if (!m->adaptive) {
         /* h must resolve the orbit; steps_per_period >= 1 already means h <= period. */
-        if (me->step_setting == DM_SET_BY_H && !(mc->h < period))
+        if (me->step_setting == DM_SET_BY_H && !x->entry->problem->no_period &&
+            !(mc->h < period))
             return fail_at(c, at, "run %s: h = %g is not below the period %.17g (expected "
                            "0 < h < period)", spec->id, mc->h, period);
         steps_needed = ceil(spec->t_end / mc->h);
@@ -986,6 +1018,8 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
     bool ok = appendf(cfg, DM_CONFIG_MAX, &cu, "problem=%s", pr->id);
     if (spec->problem_library_hash[0] != '\0') /* what ran, not where it lay */
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " library=%s", spec->problem_library_hash);
+    if (spec->data_hash[0] != '\0') /* the bodies, by the hash of their numbers */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " data=%s", spec->data_hash);
     for (int i = 0; i < pr->n_params; i++)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " %s=%.17g", pr->params[i].name,
                            inst->param[i]);
@@ -1022,6 +1056,9 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     snprintf(spec->problem_library, sizeof spec->problem_library, "%s", x->entry->library);
     snprintf(spec->problem_library_hash, sizeof spec->problem_library_hash, "%s",
              x->entry->library_hash);
+    snprintf(spec->data_source, sizeof spec->data_source, "%s", x->entry->data_source);
+    snprintf(spec->data_hash, sizeof spec->data_hash, "%s", x->entry->data_hash);
+    snprintf(spec->units, sizeof spec->units, "%s", x->entry->units);
     spec->n_given = x->n_given;
     for (size_t k = 0; k < x->n_given; k++) {
         spec->given_keys[k] = x->keys[k];
@@ -1573,6 +1610,7 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
 
     suite_build b;
     memset(&b, 0, sizeof b);
+    b.suite = suite;
     b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .err = err,
                          .text_tagged = scan.text_tagged, .n_text_tagged = scan.n_text_tagged };
     b.output_override = output;
@@ -1692,5 +1730,379 @@ void dm_suite_free(dm_suite *suite)
         free(suite->sweeps[i].runs);
     free(suite->sweeps);
     free(suite->runs);
+    for (size_t i = 0; i < suite->n_problem_data; i++)
+        free(suite->problem_data[i]);
+    free(suite->problem_data);
     memset(suite, 0, sizeof *suite);
+}
+
+/* ---- the data of a problem that needs it: N-body bodies (problems/include/nbody.h) ----
+ *
+ *   bodies: [{name: Sun, mass: 1, position: [x, y, z], velocity: [u, v, w]}, ...]
+ *           (momentum: [..] instead of velocity, converted once to a velocity)
+ *   bodies_file: PATH (a plain CSV file, from the suite's folder when relative, one body
+ *           a line: name, mass, x, y, z, a, b, c; # starts a comment line; a first line
+ *           starting with the word name is a heading) with file_holds: velocities or
+ *           momenta (what a, b, c are)
+ *   units: TEXT (required: the units the numbers and G are in)
+ *   period_of: {body: NAME, around: NAME} (optional: the body whose period is measured)
+ * and the parameter G, which must be given. */
+
+static const char *const data_keys[] = { "bodies", "bodies_file", "file_holds", "units",
+                                         "period_of" };
+enum { D_BODIES, D_FILE, D_HOLDS, D_UNITS, D_PERIOD_OF, D_COUNT };
+
+static bool is_data_key(const char *name)
+{
+    for (int k = 0; k < D_COUNT; k++)
+        if (strcmp(name, data_keys[k]) == 0)
+            return true;
+    return false;
+}
+
+/* [x, y, z]: three finite numbers. */
+static dm_status get_vector3(parse_ctx *c, const yaml_node_t *node, const char *what,
+                             double out[3])
+{
+    if (node->type != YAML_SEQUENCE_NODE ||
+        node->data.sequence.items.top - node->data.sequence.items.start != 3)
+        return fail_at(c, node, "%s must be a list of 3 numbers (expected [x, y, z])", what);
+    for (int k = 0; k < 3; k++) {
+        dm_status st = get_number(c, node_at(c, node->data.sequence.items.start[k]), what,
+                                  &out[k]);
+        if (st != DM_OK)
+            return st;
+    }
+    return DM_OK;
+}
+
+/* A body's mass, its name's length and characters: the checks a suite body and a file
+ * line share. Returns NULL or what is wrong. */
+static const char *body_fault(const char *name, double mass)
+{
+    if (!(mass > 0.0))
+        return "mass must be positive (expected a number > 0)";
+    if (strlen(name) >= DM_NBODY_NAME_MAX)
+        return "name is too long (expected at most 31 characters)";
+    if (has_control(name) || strchr(name, ',') != NULL)
+        return "name holds a comma or a control character (expected a plain name)";
+    return NULL;
+}
+
+/* One entry of `bodies:`. */
+static dm_status parse_body(parse_ctx *c, const yaml_node_t *node, dm_nbody *d, int i)
+{
+    static const char *const keys[] = { "name", "mass", "position", "velocity", "momentum" };
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a body must be a mapping, found %s (expected {name: N, "
+                       "mass: M, position: [x, y, z], velocity: [u, v, w]})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    const yaml_node_t *found[5] = { NULL };
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         st == DM_OK && p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            break;
+        int k = 0;
+        while (k < 5 && strcmp(name, keys[k]) != 0)
+            k++;
+        if (k == 5)
+            return fail_unknown(c, key, "body key", name, keys, 5);
+        found[k] = node_at(c, p->value);
+    }
+    if (st != DM_OK)
+        return st;
+    if (found[1] == NULL || found[2] == NULL || (found[3] == NULL) == (found[4] == NULL))
+        return fail_at(c, node, "a body needs mass, position and one of velocity or momentum "
+                       "(expected {mass: M, position: [x, y, z], velocity: [u, v, w]})");
+    if (found[0] != NULL &&
+        (st = get_string(c, found[0], "body name", d->name[i], DM_NBODY_NAME_MAX)) != DM_OK)
+        return st;
+    double v[3];
+    if ((st = get_number(c, found[1], "body mass", &d->mass[i])) != DM_OK ||
+        (st = get_vector3(c, found[2], "body position", d->position[i])) != DM_OK ||
+        (st = get_vector3(c, found[3] ? found[3] : found[4], found[3] ? "body velocity"
+                                                                      : "body momentum", v)) != DM_OK)
+        return st;
+    const char *fault = body_fault(d->name[i], d->mass[i]);
+    if (fault != NULL)
+        return fail_at(c, fault[0] == 'm' ? found[1] : found[0], "body %d: %s", i + 1, fault);
+    for (int k = 0; k < 3; k++)
+        d->velocity[i][k] = found[3] ? v[k] : v[k] / d->mass[i];
+    return DM_OK;
+}
+
+/* The fields of one CSV line, split at commas and trimmed of blanks (at most `max`);
+ * col[] gets each field's 1-based column. Returns the count. */
+static int split_csv(char *line, char **field, size_t *col, int max)
+{
+    int n = 0;
+    char *at = line;
+    for (;;) {
+        char *end = strchr(at, ',');
+        if (end != NULL)
+            *end = '\0';
+        char *f = at;
+        while (*f == ' ' || *f == '\t')
+            f++;
+        char *tail = f + strlen(f);
+        while (tail > f && (tail[-1] == ' ' || tail[-1] == '\t'))
+            *--tail = '\0';
+        if (n < max) {
+            field[n] = f;
+            col[n] = (size_t)(f - line) + 1;
+        }
+        n++;
+        if (end == NULL)
+            return n;
+        at = end + 1;
+    }
+}
+
+/* One line of a bodies file: name, mass, x, y, z, then velocity or momentum. */
+static dm_status read_csv_line(dm_error *err, const char *path, size_t line_no, char *line,
+                               bool momenta, dm_nbody *d)
+{
+    char *field[8];
+    size_t col[8];
+    int n = split_csv(line, field, col, 8);
+    if (n != 8)
+        return dm_error_set(err, DM_EINPUT, "%s:%zu:1: %d fields (expected 8: name, mass, x, "
+                            "y, z and the three of the %s)", path, line_no, n,
+                            momenta ? "momentum" : "velocity");
+    if (d->n == DM_NBODY_MAX)
+        return dm_error_set(err, DM_EINPUT, "%s:%zu:1: more than %d bodies", path, line_no,
+                            DM_NBODY_MAX);
+    int i = d->n;
+    double x[7];
+    for (int k = 1; k < 8; k++)
+        if (dm_parse_double(field[k], &x[k - 1]) != 0)
+            return dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: '%s' is not a finite number "
+                                "(expected a number such as 1.5e-3)", path, line_no, col[k],
+                                field[k]);
+    snprintf(d->name[i], DM_NBODY_NAME_MAX, "%s", field[0]);
+    const char *fault = body_fault(field[0], x[0]);
+    if (fault != NULL)
+        return dm_error_set(err, DM_EINPUT, "%s:%zu:%zu: %s", path, line_no,
+                            col[fault[0] == 'm' ? 1 : 0], fault);
+    d->mass[i] = x[0];
+    for (int k = 0; k < 3; k++) {
+        d->position[i][k] = x[1 + k];
+        d->velocity[i][k] = momenta ? x[4 + k] / x[0] : x[4 + k];
+    }
+    d->n++;
+    return DM_OK;
+}
+
+/* `bodies_file:` read whole (at most 1 MiB) and line by line. Its errors name the file,
+ * line and column. */
+static dm_status read_bodies_file(parse_ctx *c, const yaml_node_t *at, const char *path,
+                                  bool momenta, dm_nbody *d)
+{
+    dm_error ferr = { 0 };
+    int fd = dm_open_regular(path, "bodies file", DM_SUITE_MAX_BYTES, &ferr);
+    if (fd < 0)
+        return fail_at(c, at, "%s", ferr.msg);
+    char *text = malloc((size_t)DM_SUITE_MAX_BYTES + 1);
+    size_t len = 0;
+    ssize_t got = 0;
+    while (text != NULL && len < (size_t)DM_SUITE_MAX_BYTES &&
+           ((got = read(fd, text + len, (size_t)DM_SUITE_MAX_BYTES - len)) > 0 ||
+            (got < 0 && errno == EINTR)))
+        len += got > 0 ? (size_t)got : 0;
+    close(fd);
+    if (text == NULL)
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory reading %s", path);
+    if (got < 0) {
+        free(text);
+        return fail_at(c, at, "cannot read bodies file %s: %s", path, strerror(errno));
+    }
+    text[len] = '\0';
+    dm_status st = DM_OK;
+    const char *nul = memchr(text, '\0', len);
+    if (nul != NULL) {
+        size_t at_line = 1;
+        for (const char *t = text; t < nul; t++)
+            at_line += *t == '\n';
+        st = dm_error_set(c->err, DM_EINPUT, "%s:%zu:1: a NUL byte (expected a text file)",
+                          path, at_line);
+    }
+    size_t line_no = 0;
+    char *next = text;
+    while (st == DM_OK && next != NULL && *next != '\0') {
+        char *line = next;
+        next = strchr(line, '\n');
+        if (next != NULL)
+            *next++ = '\0';
+        line_no++;
+        size_t l = strlen(line);
+        if (l > 0 && line[l - 1] == '\r')
+            line[l - 1] = '\0';
+        char *first = line + strspn(line, " \t");
+        if (*first == '\0' || *first == '#')
+            continue;
+        if (d->n == 0 && strncmp(first, "name", 4) == 0 && (first[4] == ',' || first[4] == ' '))
+            continue; /* the heading */
+        if (strchr(line, '"') != NULL)
+            st = dm_error_set(c->err, DM_EINPUT, "%s:%zu:%zu: a quote (expected plain "
+                              "fields: quoted fields are not read)", path, line_no,
+                              (size_t)(strchr(line, '"') - line) + 1);
+        else
+            st = read_csv_line(c->err, path, line_no, line, momenta, d);
+    }
+    free(text);
+    return st;
+}
+
+/* The index of the body called `name`, or -1. */
+static int body_named(const dm_nbody *d, const char *name)
+{
+    for (int i = 0; i < d->n; i++)
+        if (strcmp(d->name[i], name) == 0)
+            return i;
+    return -1;
+}
+
+/* `period_of: {body: NAME, around: NAME}`, two different named bodies. */
+static dm_status parse_period_of(parse_ctx *c, const yaml_node_t *node, dm_nbody *d)
+{
+    static const char *const keys[] = { "body", "around" };
+    int *slot[2] = { &d->period_body, &d->period_around };
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "period_of must be a mapping (expected {body: NAME, around: "
+                       "NAME})");
+    dm_status st = check_unique_keys(c, node);
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         st == DM_OK && p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        char body[DM_NBODY_NAME_MAX];
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            break;
+        int k = strcmp(name, "body") == 0 ? 0 : strcmp(name, "around") == 0 ? 1 : -1;
+        if (k < 0)
+            return fail_unknown(c, key, "period_of key", name, keys, 2);
+        const yaml_node_t *value = node_at(c, p->value);
+        if ((st = get_string(c, value, "period_of body", body, sizeof body)) != DM_OK)
+            break;
+        *slot[k] = body_named(d, body);
+        if (*slot[k] < 0)
+            return fail_at(c, value, "period_of names '%s', which no body is called "
+                           "(expected the name of a body)", body);
+    }
+    if (st == DM_OK && (d->period_body < 0 || d->period_around < 0))
+        return fail_at(c, node, "period_of needs body and around (expected {body: NAME, "
+                       "around: NAME})");
+    if (st == DM_OK && d->period_body == d->period_around)
+        return fail_at(c, node, "period_of names one body twice (expected two bodies)");
+    return st;
+}
+
+/* The canonical text of the bodies (every number with %.17g), hashed into e->data_hash. */
+static void hash_bodies(const dm_nbody *d, problem_entry *e)
+{
+    char *text = malloc((size_t)d->n * 256 + 64);
+    if (text == NULL)
+        return; /* the hash stays empty: the configuration then names no bodies */
+    size_t used = 0;
+    for (int i = 0; i < d->n; i++)
+        used += (size_t)sprintf(text + used, "%s %.17g %.17g %.17g %.17g %.17g %.17g %.17g;",
+                                d->name[i], d->mass[i], d->position[i][0], d->position[i][1],
+                                d->position[i][2], d->velocity[i][0], d->velocity[i][1],
+                                d->velocity[i][2]);
+    sprintf(text + used, " period_of=%d,%d", d->period_body, d->period_around);
+    snprintf(e->data_hash, sizeof e->data_hash, "%016" PRIx64, dm_hash_text(text));
+    free(text);
+}
+
+/* The keys of the data, in the entry `node`, into a new dm_nbody owned by the suite. */
+static dm_status read_data_keys(suite_build *b, const yaml_node_t *node, problem_entry *e,
+                                dm_nbody *d, const yaml_node_t **period_of)
+{
+    parse_ctx *c = &b->ctx;
+    const yaml_node_t *value[D_COUNT] = { NULL };
+    bool has_G = false;
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        const char *name = scalar_text(node_at(c, p->key));
+        has_G = has_G || strcmp(name, "G") == 0;
+        for (int k = 0; k < D_COUNT; k++)
+            if (strcmp(name, data_keys[k]) == 0)
+                value[k] = node_at(c, p->value);
+    }
+    dm_status st;
+    if (!has_G || value[D_UNITS] == NULL || (value[D_BODIES] == NULL) == (value[D_FILE] == NULL))
+        return fail_at(c, node, "%s needs G, units and one of bodies or bodies_file (expected "
+                       "{problem: %s, G: VALUE, units: TEXT, bodies: [...]})", e->problem->id,
+                       e->problem->id);
+    if ((value[D_FILE] != NULL) != (value[D_HOLDS] != NULL))
+        return fail_at(c, value[D_FILE] ? value[D_FILE] : value[D_HOLDS],
+                       "file_holds goes with bodies_file (expected both or neither)");
+    if ((st = get_string(c, value[D_UNITS], "units", e->units, sizeof e->units)) != DM_OK)
+        return st;
+    if (value[D_BODIES] != NULL) {
+        const yaml_node_t *list = value[D_BODIES];
+        if (list->type != YAML_SEQUENCE_NODE)
+            return fail_at(c, list, "bodies must be a list (expected - {name: ..., mass: ...})");
+        for (const yaml_node_item_t *it = list->data.sequence.items.start;
+             it < list->data.sequence.items.top; it++) {
+            if (d->n == DM_NBODY_MAX)
+                return fail_at(c, node_at(c, *it), "more than %d bodies", DM_NBODY_MAX);
+            if ((st = parse_body(c, node_at(c, *it), d, d->n)) != DM_OK)
+                return st;
+            d->n++;
+        }
+        snprintf(e->data_source, sizeof e->data_source, "suite");
+    } else {
+        char holds[16], path[1024];
+        if ((st = get_string(c, value[D_HOLDS], "file_holds", holds, sizeof holds)) != DM_OK ||
+            (st = get_string(c, value[D_FILE], "bodies_file", path, sizeof path)) != DM_OK)
+            return st;
+        bool momenta = strcmp(holds, "momenta") == 0;
+        if (!momenta && strcmp(holds, "velocities") != 0)
+            return fail_at(c, value[D_HOLDS], "file_holds '%s' (expected velocities or "
+                           "momenta)", holds);
+        if (!suite_relative_path(c, path, e->data_source, sizeof e->data_source))
+            return fail_at(c, value[D_FILE], "bodies_file path is too long");
+        if ((st = read_bodies_file(c, value[D_FILE], e->data_source, momenta, d)) != DM_OK)
+            return st;
+    }
+    *period_of = value[D_PERIOD_OF];
+    if (d->n < 2)
+        return fail_at(c, value[D_BODIES] ? value[D_BODIES] : value[D_FILE],
+                       "%d bodies (expected 2 to %d)", d->n, DM_NBODY_MAX);
+    return DM_OK;
+}
+
+static dm_status parse_problem_data(suite_build *b, const yaml_node_t *node, problem_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    dm_suite *suite = b->suite;
+    void **grown = realloc(suite->problem_data, (suite->n_problem_data + 1) * sizeof *grown);
+    dm_nbody *d = calloc(1, sizeof *d);
+    if (grown != NULL)
+        suite->problem_data = grown;
+    if (grown == NULL || d == NULL) {
+        free(d);
+        return dm_error_set(c->err, DM_ENOMEM, "out of memory reading the suite");
+    }
+    suite->problem_data[suite->n_problem_data++] = d; /* freed with the suite */
+    d->period_body = d->period_around = -1;
+    const yaml_node_t *period_of = NULL;
+    dm_status st = read_data_keys(b, node, e, d, &period_of);
+    for (int i = 0; st == DM_OK && i < d->n; i++) {
+        d->inverse_mass[i] = 1.0 / d->mass[i];
+        for (int j = 0; j < i; j++)
+            if (d->name[i][0] != '\0' && strcmp(d->name[i], d->name[j]) == 0)
+                st = fail_at(c, node, "two bodies are called '%s' (expected distinct names)",
+                             d->name[i]);
+    }
+    if (st == DM_OK && period_of != NULL)
+        st = parse_period_of(c, period_of, d);
+    if (st == DM_OK) {
+        hash_bodies(d, e);
+        e->data = d;
+    }
+    return st;
 }

@@ -11,6 +11,7 @@ extern const dm_problem dm_problem_pendulum;
 extern const dm_problem dm_problem_double_well;
 extern const dm_problem dm_problem_morse;
 extern const dm_problem dm_problem_kepler;
+extern const dm_problem dm_problem_nbody;
 
 /* A new problem: one file in problems/ and one line here. */
 const dm_problem *const dm_problems[] = {
@@ -19,6 +20,7 @@ const dm_problem *const dm_problems[] = {
     &dm_problem_double_well,
     &dm_problem_morse,
     &dm_problem_kepler,
+    &dm_problem_nbody,
 };
 const size_t dm_problem_count = sizeof dm_problems / sizeof dm_problems[0];
 
@@ -99,9 +101,20 @@ static dm_status check_resolved(const dm_instance *inst, double potential, dm_er
 dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
                            const char *const *keys, const double *values, dm_error *err)
 {
+    return dm_instance_init_data(inst, problem, NULL, n, keys, values, err);
+}
+
+dm_status dm_instance_init_data(dm_instance *inst, const dm_problem *problem,
+                                const void *data, size_t n, const char *const *keys,
+                                const double *values, dm_error *err)
+{
     memset(inst, 0, sizeof *inst);
     inst->problem = problem;
     inst->dof = problem->dof;
+    inst->data = data;
+    if (problem->needs_data && data == NULL)
+        return dm_error_set(err, DM_EINPUT, "%s: this problem needs its data (for N-body, "
+                            "the bodies), which only a suite gives", problem->id);
     for (int i = 0; i < problem->n_params; i++)
         inst->param[i] = problem->params[i].fallback;
 
@@ -169,9 +182,9 @@ dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t 
         what = "potential at the start", value = potential;
     if (what == NULL && !isfinite(inst->energy))
         what = "energy", value = inst->energy;
-    if (what == NULL && !(isfinite(inst->period) && inst->period > 0.0))
+    if (what == NULL && !problem->no_period && !(isfinite(inst->period) && inst->period > 0.0))
         what = "period", value = inst->period;
-    if (what == NULL && !isfinite(inst->first_crossing))
+    if (what == NULL && !problem->no_period && !isfinite(inst->first_crossing))
         what = "first section crossing time", value = inst->first_crossing;
     if (what != NULL)
         return dm_error_set(err, DM_EINPUT,

@@ -1,4 +1,5 @@
 #include "dm_test_util.h"
+#include "nbody.h"
 #include "harness.h"
 
 #include <math.h>
@@ -93,4 +94,22 @@ void dm_test_make_spec(dm_run_spec *spec, const char *problem, size_t n_keys,
     }
     spec->method_config.compensated = compensated != 0;
     spec->method_config.t_stop = spec->t_end;
+}
+
+/* The fixture's bodies (invented): a star and two planets on near-circular orbits. */
+static const dm_nbody test_bodies = {
+    .n = 3,
+    .mass = { 1.0, 1e-3, 3e-4 },
+    .inverse_mass = { 1.0, 1e3, 1.0 / 3e-4 },
+    .position = { { 0, 0, 0 }, { 1.0, 0, 0 }, { 0, 2.0, 0.1 } },
+    .velocity = { { 0, 0, 0 }, { 0, 1.0, 0.05 }, { -0.7, 0, 0 } },
+    .name = { "star", "inner", "outer" },
+    .period_body = 1,
+    .period_around = 0,
+};
+
+int dm_test_instance_defaults(dm_instance *inst, const dm_problem *problem, dm_error *err)
+{
+    const void *data = problem->needs_data ? &test_bodies : NULL;
+    return dm_instance_init_data(inst, problem, data, 0, NULL, NULL, err);
 }

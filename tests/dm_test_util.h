@@ -8,6 +8,8 @@
 #include <stdint.h>
 #include <cmocka.h>
 
+#include "dm_error.h"
+
 /* |a - b| / |b| (or |a - b| when b == 0). */
 double dm_rel_diff(double a, double b);
 
@@ -29,5 +31,13 @@ void dm_test_make_spec(struct dm_run_spec *spec, const char *problem, size_t n_k
                        const char *const *keys, const double *values, const char *method,
                        double steps_per_period, double rtol, double periods, size_t samples,
                        int compensated);
+
+/* An instance of `problem` with its parameters' defaults. A problem that needs data
+ * (needs_data) gets a fixture of ours: for N-body, a made-up star of mass 1 with two
+ * planets (G = 1). */
+struct dm_instance;
+struct dm_problem;
+int dm_test_instance_defaults(struct dm_instance *inst, const struct dm_problem *problem,
+                              dm_error *err);
 
 #endif

@@ -71,19 +71,30 @@ static void every_problem_sets_up_with_its_defaults(void **state)
         const dm_problem *pb = dm_problems[i];
         dm_instance inst;
         dm_error err = { 0 };
-        dm_status st = dm_instance_init(&inst, pb, 0, NULL, NULL, &err);
+        dm_status st = dm_test_instance_defaults(&inst, pb, &err);
         if (st != DM_OK)
             fail_msg("%s with its defaults: %s", pb->id, err.msg);
-        assert_true(isfinite(inst.period) && inst.period > 0.0);
+        if (pb->no_period) { /* NaN, never a made-up number */
+            assert_true(isnan(inst.period) && isnan(inst.first_crossing));
+        } else {
+            assert_true(isfinite(inst.period) && inst.period > 0.0);
+            assert_true(inst.first_crossing > 0.0 && inst.first_crossing <= inst.period);
+        }
+        if (pb->needs_data) { /* without its data the problem is refused */
+            dm_instance bare;
+            assert_int_equal(dm_instance_init(&bare, pb, 0, NULL, NULL, &err), DM_EINPUT);
+        }
         assert_true(inst.regime >= 0 && inst.regime < pb->n_regimes);
-        assert_true(inst.first_crossing > 0.0 && inst.first_crossing <= inst.period);
-        assert_true(inst.section.coord >= 0 && inst.section.coord < pb->dof);
+        assert_true(inst.dof >= 1 && inst.dof <= pb->dof);
+        assert_true(inst.section.coord >= 0 && inst.section.coord < inst.dof);
+        assert_true(!inst.section.relative ||
+                    (inst.section.ref >= 0 && inst.section.ref < inst.dof));
         assert_true(inst.section.wrap >= 0.0);
         assert_close(inst.energy, dm_instance_energy(&inst, inst.q0, inst.p0), 1e-15);
         double grad[DM_MAX_DOF];
         double V = pb->force(&inst, inst.q0, grad);
         assert_true(V == pb->potential(&inst, inst.q0));
-        for (int k = 0; k < pb->dof; k++)
+        for (int k = 0; k < inst.dof; k++)
             assert_true(isfinite(grad[k]));
     }
 }
@@ -107,7 +118,7 @@ static int gradient_disagrees_with_force(const dm_instance *inst)
             pb->exact(inst, inst->period * j / n_points, q, p);
         (void)pb->force(inst, q, from_force);
         pb->gradient(inst, q, alone);
-        if (memcmp(from_force, alone, (size_t)pb->dof * sizeof(double)) != 0)
+        if (memcmp(from_force, alone, (size_t)inst->dof * sizeof(double)) != 0)
             return j;
     }
     return -1;
@@ -120,7 +131,7 @@ static void every_gradient_writes_what_force_writes(void **state)
         const dm_problem *pb = dm_problems[i];
         dm_instance inst;
         dm_error err = { 0 };
-        assert_int_equal(dm_instance_init(&inst, pb, 0, NULL, NULL, &err), DM_OK);
+        assert_int_equal(dm_test_instance_defaults(&inst, pb, &err), DM_OK);
         int j = gradient_disagrees_with_force(&inst);
         if (j >= 0)
             fail_msg("%s: gradient() and force() write different grad V at point %d", pb->id, j);

@@ -55,6 +55,12 @@ typedef struct dm_run_spec {
      * (both empty for a built-in problem) */
     char problem_library[1024];
     char problem_library_hash[DM_HASH_HEX];
+    /* a problem that needs data (N-body): where its data came from (a file, or "suite"),
+     * the hash of its canonical text (also in config) and the units the user stated
+     * (all empty otherwise) */
+    char data_source[1024];
+    char data_hash[DM_HASH_HEX];
+    char units[64];
     const dm_method *method;
     dm_method_config method_config;  /* h (resolved), rtol, atol, compensated, t_stop */
     dm_step_setting step_setting;                    /* how the step or tolerance was given */
@@ -86,6 +92,8 @@ typedef struct dm_suite {
     dm_run_spec *runs;               /* owned */
     size_t n_sweeps;
     dm_sweep *sweeps;                /* owned */
+    size_t n_problem_data;
+    void **problem_data;             /* owned: the data the runs' instances point to */
 } dm_suite;
 
 /* Parses and validates a whole suite before anything runs. Errors are one line,

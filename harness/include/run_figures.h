@@ -80,6 +80,8 @@
       "phase error at the last crossing (radians)")                                        \
     X(max_global_error, REAL, metrics, SA, 0, "", "",                                       \
       "max phase-space distance to the exact solution (NaN when none is known)")           \
+    X(closest_approach, REAL, metrics, SA, 0, "", "",                                      \
+      "smallest distance between two bodies where the method evaluated forces (N-body; NaN otherwise)") \
     X(t_reached, REAL, metrics, A, 0, "", "", "time of the last step taken")               \
     X(wall_seconds, REAL, metrics, SA, 0, "", "", "wall-clock time of the run")            \
     X(ns_per_step, REAL, metrics, SA, 0, "ns/step", "%.1f",                                \

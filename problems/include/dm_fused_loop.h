@@ -52,6 +52,19 @@ dm_fused_component(const double *q, const int N, int coord)
     return v;
 }
 
+/* The coordinate the section watches at q, as the loop sees it: q[coord] for every
+ * problem with a plain section (dm_fused_section_plain); a problem with a relative
+ * section (N-body, dm_section_value) writes its own and calls dm_fused_dispatch. */
+typedef double (*dm_fused_section)(const dm_instance *inst, const double *q, const int N,
+                                   int coord);
+
+static inline __attribute__((always_inline)) double
+dm_fused_section_plain(const dm_instance *inst, const double *q, const int N, int coord)
+{
+    (void)inst;
+    return dm_fused_component(q, N, coord);
+}
+
 /* The loop, for a table shape and a dof given as constants by the call sites below, so
  * the compiler unrolls the stages and the components as a hand-written loop would and
  * inlines the problem's functions passed in as constants. */
@@ -60,7 +73,7 @@ dm_fused_steps(const dm_instance *inst, const dm_fused_table *table, dm_fused_ca
                dm_fused_run *run, uint64_t k_end, const int N, const bool kick_first,
                const int n_kick, const int n_drift, dm_fused_force force,
                dm_fused_velocity velocity, dm_fused_kinetic kinetic,
-               dm_fused_potential potential)
+               dm_fused_potential potential, dm_fused_section section)
 {
     /* q_prev and p_prev are zeroed for gcc's sake only (an event, after which they are
      * read, is set only inside the loop, after a step wrote them). Measured with
@@ -133,7 +146,7 @@ dm_fused_steps(const dm_instance *inst, const dm_fused_table *table, dm_fused_ca
         k++;
 
         dm_step_event ev = dm_monitor_step(&mon, kinetic(inst, p), V,
-                                             dm_fused_component(q, N, mon.coord));
+                                             section(inst, q, N, mon.coord));
         if (ev != DM_STEP_QUIET) {
             event = (int)ev; /* the same numbers as dm_fused_event's (problem.h) */
             break;
@@ -165,13 +178,13 @@ static inline __attribute__((always_inline)) int
 dm_fused_dispatch(const dm_instance *inst, const dm_fused_table *table, dm_fused_cache *cache,
                   dm_fused_run *run, uint64_t k_end, const int N, dm_fused_force force,
                   dm_fused_velocity velocity, dm_fused_kinetic kinetic,
-                  dm_fused_potential potential)
+                  dm_fused_potential potential, dm_fused_section section)
 {
     const bool kf = table->kick_first;
     const int nk = table->n_kick, nd = table->n_drift;
 #define DM_FUSED_SHAPE(KF, NK, ND)                                                        \
     dm_fused_steps(inst, table, cache, run, k_end, N, KF, NK, ND, force, velocity, kinetic, \
-                   potential)
+                   potential, section)
     if (kf && nk == 2 && nd == 1) /* Störmer–Verlet KDK */
         return DM_FUSED_SHAPE(true, 2, 1);
     if (kf && nk == 4 && nd == 3) /* triple jumps of KDK: yoshida4 */
@@ -190,7 +203,7 @@ dm_fused_dispatch(const dm_instance *inst, const dm_fused_table *table, dm_fused
                     dm_fused_cache *cache, dm_fused_run *run, uint64_t k_end)               \
     {                                                                                       \
         return dm_fused_dispatch(inst, table, cache, run, k_end, (DOF), force, velocity,    \
-                                 kinetic, potential);                                       \
+                                 kinetic, potential, dm_fused_section_plain);               \
     }
 
 /* ==== the Runge-Kutta family ====

@@ -50,7 +50,17 @@ typedef struct dm_section {
     int coord;
     double level;
     double wrap;
+    /* relative: the coordinate watched is q[coord] - q[ref] instead of q[coord] (a body's
+     * orbit about another, N-body). Left false by every other problem. */
+    bool relative;
+    int ref;
 } dm_section;
+
+/* The coordinate a section watches, at q. */
+static inline double dm_section_value(const dm_section *s, const double *q)
+{
+    return s->relative ? q[s->coord] - q[s->ref] : q[s->coord];
+}
 
 typedef struct dm_problem dm_problem;
 
@@ -61,8 +71,10 @@ typedef enum dm_invariant_error {
 } dm_invariant_error;
 
 /* One concrete problem: parameters resolved, starting state built, regime and the
- * closed-form period known. Plain data, no allocation; copy it freely. A stepper or a
- * run keeps a pointer to the instance it was made from: the instance must outlive
+ * closed-form period known (or NaN for a problem without one: no_period). Plain data,
+ * no allocation; copy it freely: a copy shares `data`, which is immutable and owned by
+ * whoever built the instance (the suite), so the owner outlives every copy. A stepper
+ * or a run keeps a pointer to the instance it was made from: the instance must outlive
  * them (dm_stepper_destroy first). */
 typedef struct dm_instance {
     const dm_problem *problem;
@@ -72,8 +84,9 @@ typedef struct dm_instance {
     double q0[DM_MAX_DOF], p0[DM_MAX_DOF];
     double energy;              /* H(q0, p0) */
     int regime;                 /* index into problem->regimes */
-    double period;              /* closed-form period of this regime (always finite:
-                                   states with no period are refused by setup) */
+    double period;              /* closed-form period of this regime: finite (states with
+                                   no period are refused by setup), or NaN for a problem
+                                   marked no_period */
     bool has_v_min;             /* the potential has a finite minimum ... */
     double v_min;               /* ... of this value */
     dm_section section;
@@ -81,6 +94,9 @@ typedef struct dm_instance {
                                    in (0, period]; crossing n is at
                                    first_crossing + (n - 1) * period */
     double derived[DM_DERIVED_MAX];     /* constants derived by setup for the problem's own use */
+    /* Immutable per-instance data too large for param/derived (N-body: the bodies),
+     * not owned by the instance; NULL for problems that need none (needs_data false). */
+    const void *data;
 } dm_instance;
 
 /* ---- the fused loop's interface (the loop itself: dm_fused_loop.h) ----
@@ -172,11 +188,21 @@ typedef int (*dm_fused_rk_loop_fn)(const dm_instance *inst, const dm_fused_rk *m
 struct dm_problem {
     const char *id;             /* registry name: "pendulum" (a plain word, unique) */
     const char *name;           /* one-line human description */
-    int dof;                    /* 1 .. DM_MAX_DOF */
+    int dof;                    /* 1 .. DM_MAX_DOF; a problem whose size its data gives
+                                   (N-body) states the most here, and its setup sets
+                                   inst->dof */
     int n_params;               /* 0 .. DM_MAX_PARAMS */
     dm_param params[DM_MAX_PARAMS];
     int n_regimes;              /* 1 .. DM_MAX_REGIMES */
     dm_regime regimes[DM_MAX_REGIMES];
+    /* Optional (false): the problem has no closed-form period. setup leaves period and
+     * first_crossing NaN; runs give their step as h and their horizon in time; the
+     * phase figures are NaN, and the period is measured from the crossings of the
+     * section alone (when setup sets one: level NaN means none). */
+    bool no_period;
+    /* Optional (false): setup needs inst->data (dm_instance_init_data); without it the
+     * instance is refused. */
+    bool needs_data;
 
     /* Called with inst->param and inst->given filled (defaults where not given, ranges
      * already checked). Builds q0, p0, energy, regime, period, v_min, section,
@@ -234,6 +260,12 @@ struct dm_problem {
     dm_invariant_error invariant_errors[DM_MAX_INVARIANTS];
     void (*invariants)(const dm_instance *inst, const double *q, const double *p,
                        double *out);
+
+    /* Optional (N-body): the smallest distance between two bodies at which this thread's
+     * force and gradient evaluations found them since the last call with restart true
+     * (INFINITY when none). The runner restarts it when a run starts and reads it at
+     * every bucket end, so it covers every step whatever the buckets. */
+    double (*closest_approach)(bool restart);
 };
 
 /* ---- problems from the user's own code (library.c) ----
@@ -245,7 +277,8 @@ struct dm_problem {
  * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
  * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
  * fused loop's types change, so an object built against another version is refused. */
-#define DM_PROBLEM_ABI 2u /* 2: DM_MAX_DOF 6 -> 384 */
+#define DM_PROBLEM_ABI 3u /* 2: DM_MAX_DOF 6 -> 384; 3: data, no_period, needs_data,
+                             relative sections, closest_approach */
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 
@@ -285,6 +318,11 @@ const dm_problem *dm_problem_find(const char *id);
  * parameter is given, then calls the problem's setup. */
 dm_status dm_instance_init(dm_instance *inst, const dm_problem *problem, size_t n,
                            const char *const *keys, const double *values, dm_error *err);
+/* The same for a problem that needs data (needs_data): `data` (immutable, owned by the
+ * caller, who keeps it alive as long as any copy of the instance) is set before setup. */
+dm_status dm_instance_init_data(dm_instance *inst, const dm_problem *problem,
+                                const void *data, size_t n, const char *const *keys,
+                                const double *values, dm_error *err);
 
 /* H(q, p). */
 double dm_instance_energy(const dm_instance *inst, const double *q, const double *p);
