@@ -25,6 +25,7 @@
 #include "checkpoint.h"
 #include "dm_build_info.h"
 #include "harness.h"
+#include "nbody.h"
 
 #define DM_FORMAT_NAME "driftmark-results"
 #define DM_SCHEMA_VERSION 2
@@ -331,6 +332,22 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
 
     /* the problem */
     rc |= attr_text(g, "problem", pr->id);
+    if (spec->data_hash[0] != '\0') {
+        /* the problem's data from the suite: its units, source and hash, and for
+         * N-body the bodies and the one whose period is measured */
+        rc |= attr_text(g, "units", spec->units);
+        rc |= attr_text(g, "bodies_source", spec->data_source);
+        rc |= attr_text(g, "bodies_hash", spec->data_hash);
+        const dm_nbody *bodies = dm_nbody_of(&spec->inst, NULL);
+        if (bodies != NULL) {
+            rc |= attr_u64(g, "bodies", (uint64_t)bodies->n);
+            char period_of[2 * DM_NBODY_NAME_MAX + 16] = "";
+            if (bodies->period_body >= 0)
+                snprintf(period_of, sizeof period_of, "%s around %s",
+                         bodies->name[bodies->period_body], bodies->name[bodies->period_around]);
+            rc |= attr_text(g, "period_of", period_of);
+        }
+    }
     if (spec->problem_library[0] != '\0') {
         rc |= attr_text(g, "problem_library", spec->problem_library);
         rc |= attr_text(g, "problem_library_hash", spec->problem_library_hash);
