@@ -1072,6 +1072,11 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->sweep = -1;
     dm_status st = set_horizon(b, x, spec);
+    if (st == DM_OK && me->method->check_problem != NULL) {
+        dm_error why = { 0 };
+        if (me->method->check_problem(me->method, &x->inst, &why) != DM_OK)
+            st = fail_at(&b->ctx, me->node, "%s: %s", x->part, why.msg);
+    }
     if (st == DM_OK)
         st = set_step_and_id(b, x, me, value_index, spec);
     if (st == DM_OK)

@@ -10,6 +10,8 @@ extern const dm_method dm_symeuler_a, dm_symeuler_b, dm_verlet, dm_verlet_dkd;
 extern const dm_method dm_yoshida4, dm_yoshida6, dm_yoshida8, dm_suzuki4, dm_optimized4;
 /* Methods with their own steps. */
 extern const dm_method dm_euler, dm_rk4, dm_midpoint;
+/* Methods for problems of a given structure. */
+extern const dm_method dm_wisdom_holman;
 
 /* Adaptive methods (integrators/cvode.c). */
 extern const dm_method dm_cvode_bdf, dm_cvode_adams;
@@ -25,6 +27,7 @@ const dm_method *const dm_methods[] = {
     &dm_yoshida8,
     &dm_suzuki4,
     &dm_optimized4,
+    &dm_wisdom_holman,
     &dm_midpoint,
     &dm_euler,
     &dm_rk4,

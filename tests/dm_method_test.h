@@ -43,6 +43,15 @@ static inline const dm_method *dm_test_method(const char *id)
     return m;
 }
 
+/* Whether m takes inst (its check_problem, when it has one: wisdom-holman takes N-body
+ * problems only, and is tested on them in tests/test_wisdom_holman.c). The loops over
+ * the registry on other problems pass the methods it refuses over. */
+static inline bool dm_test_method_takes(const dm_method *m, const dm_instance *inst)
+{
+    dm_error err = { 0 };
+    return m->check_problem == NULL || m->check_problem(m, inst, &err) == DM_OK;
+}
+
 static inline dm_stepper *dm_test_stepper(const dm_method *m, const dm_instance *inst,
                                           double h, bool compensated, const dm_point *start)
 {

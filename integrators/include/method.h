@@ -123,8 +123,10 @@ struct dm_stepper {
 };
 
 /* A method. Every field is REQUIRED unless marked optional. Exactly one of two kinds:
- * a splitting method sets `splitting` and leaves create/step/restart/destroy NULL (the
- * engine in splitting.c runs it); any other method sets all four and no `splitting`.
+ * a splitting method given by its table sets `splitting` and leaves
+ * create/step/restart/destroy NULL (the engine in splitting.c runs it); any other
+ * method sets all four and no `splitting` (of the splitting family only when its steps
+ * split a problem's own structure: wisdom-holman, which has check_problem).
  * tests/test_registry.c checks every table of the registry against these rules. */
 struct dm_method {
     const char *id;            /* CLI identifier: "verlet" (a plain word, unique) */
@@ -141,6 +143,11 @@ struct dm_method {
                                   it depends on the run (adaptive and implicit
                                   methods: their dm_counts say what was done) */
     const dm_splitting *splitting;  /* splitting methods only: the coefficient table */
+    /* Optional (NULL: every problem). Whether the method can run this instance (one
+     * that needs the problem's structure, as Wisdom-Holman the N-body masses through
+     * problems/include/nbody.h): DM_OK or DM_EINPUT with a one-line reason. The suite
+     * reader asks it for every run before anything runs; create refuses the same. */
+    dm_status (*check_problem)(const dm_method *m, const dm_instance *inst, dm_error *err);
 
     /* Non-splitting methods. create allocates everything the steps will need; the
      * stepper keeps pointers to `inst` (which must outlive it) but not to `start`. */
