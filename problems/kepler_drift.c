@@ -87,7 +87,8 @@ static int solve(const universal *u, double *s_out, double G[4])
     s = u->dt / u->r0;
     if (!(sign * (s - lo) > 0.0 && sign * (hi - s) > 0.0))
         s = 0.5 * (lo + hi);
-    for (int it = 0; it < 100; it++) {
+    double step_before = fabs(hi - lo), step_last = step_before;
+    for (int it = 0; it < 200; it++) {
         evaluate(u, s, &F, &dF, &ddF, G);
         if (F == 0.0) {
             *s_out = s;
@@ -100,9 +101,15 @@ static int solve(const universal *u, double *s_out, double G[4])
         const double n = 5.0;
         double disc = sqrt(fabs((n - 1.0) * (n - 1.0) * dF * dF - n * (n - 1.0) * F * ddF));
         double next = s - n * F / (dF + (dF >= 0.0 ? disc : -disc));
-        if (!(sign * (next - lo) > 0.0 && sign * (hi - next) > 0.0))
+        /* Bisect when the step leaves the bracket, or when the steps do not halve every
+         * two iterations (a start far up an exponential branch of a hyperbola): the
+         * safeguard of Newton's method in Numerical Recipes' rtsafe, common practice. */
+        if (!(sign * (next - lo) > 0.0 && sign * (hi - next) > 0.0) ||
+            fabs(next - s) > 0.5 * step_before)
             next = 0.5 * (lo + hi);
         double step = fabs(next - s);
+        step_before = step_last;
+        step_last = step;
         s = next;
         if (step <= 2.0 * DBL_EPSILON * fabs(s) || fabs(hi - lo) <= 2.0 * DBL_EPSILON * fabs(s)) {
             evaluate(u, s, &F, &dF, &ddF, G);
