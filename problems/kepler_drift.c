@@ -61,35 +61,29 @@ static void evaluate(const universal *u, double s, double *F, double *dF, double
     *ddF = u->eta0 * G[0] + u->zeta0 * G[1];
 }
 
-/* The root of F, bracketed (F increases) and found by Laguerre-Conway steps (n = 5;
- * B. A. Conway, Celest. Mech. 39 (1986) 199, from memory) that bisect whenever they
- * would leave the bracket. Returns 0 and *s, G at the root, or -1. */
+/* The root of F (which increases), by Laguerre-Conway steps (n = 5; B. A. Conway,
+ * Celest. Mech. 39 (1986) 199, from memory) from the second-order start
+ * s = dt / r0 - eta0 dt^2 / (2 r0^3), inside a bracket that every evaluation narrows:
+ * a step that would leave it, or steps that stop halving (a start far up an exponential
+ * branch of a hyperbola), bisect it instead, or double s while it has no upper end
+ * (the safeguard of Newton's method in Numerical Recipes' rtsafe, common practice).
+ * Returns 0 and *s, G at the root, or -1. */
 static int solve(const universal *u, double *s_out, double G[4])
 {
     const double sign = u->dt >= 0.0 ? 1.0 : -1.0;
-    double s = u->dt / u->r0, F, dF, ddF;
-    double lo = 0.0, hi = s; /* in units of sign: the root lies between 0 and ... */
-    for (int k = 0; k < 200; k++) { /* ... the first hi with sign F(hi) > 0 */
-        evaluate(u, hi, &F, &dF, &ddF, G);
-        if (!isfinite(F))
-            return -1;
-        if (sign * F >= 0.0)
-            break;
-        lo = hi;
-        hi *= 2.0;
-        if (k == 199)
-            return -1;
-    }
-    if (sign * F == 0.0) {
-        *s_out = hi;
-        return 0;
-    }
-    s = u->dt / u->r0;
-    if (!(sign * (s - lo) > 0.0 && sign * (hi - s) > 0.0))
-        s = 0.5 * (lo + hi);
-    double step_before = fabs(hi - lo), step_last = step_before;
-    for (int it = 0; it < 200; it++) {
+    const double n = 5.0;
+    double s = u->dt / u->r0 * (1.0 - 0.5 * u->eta0 * u->dt / (u->r0 * u->r0 * u->r0) * u->r0);
+    if (!(sign * s > 0.0))
+        s = u->dt / u->r0;
+    double lo = 0.0, hi = sign * INFINITY, F, dF, ddF;
+    double step_before = INFINITY, step_last = INFINITY;
+    for (int it = 0; it < 300; it++) {
         evaluate(u, s, &F, &dF, &ddF, G);
+        if (!isfinite(F)) {
+            hi = s; /* beyond the range of doubles: the root lies below */
+            s = 0.5 * (lo + hi);
+            continue;
+        }
         if (F == 0.0) {
             *s_out = s;
             return 0;
@@ -98,15 +92,11 @@ static int solve(const universal *u, double *s_out, double G[4])
             lo = s;
         else
             hi = s;
-        const double n = 5.0;
         double disc = sqrt(fabs((n - 1.0) * (n - 1.0) * dF * dF - n * (n - 1.0) * F * ddF));
         double next = s - n * F / (dF + (dF >= 0.0 ? disc : -disc));
-        /* Bisect when the step leaves the bracket, or when the steps do not halve every
-         * two iterations (a start far up an exponential branch of a hyperbola): the
-         * safeguard of Newton's method in Numerical Recipes' rtsafe, common practice. */
         if (!(sign * (next - lo) > 0.0 && sign * (hi - next) > 0.0) ||
             fabs(next - s) > 0.5 * step_before)
-            next = 0.5 * (lo + hi);
+            next = isfinite(hi) ? 0.5 * (lo + hi) : 2.0 * s;
         double step = fabs(next - s);
         step_before = step_last;
         step_last = step;
