@@ -11,6 +11,7 @@
 #define DM_BENCH_LOOPS_H
 
 #include <stdbool.h>
+#include <stddef.h>
 #include <stdint.h>
 
 #include "problem.h"
@@ -71,6 +72,30 @@ dm_bare_loop dm_bare_midpoint_pendulum, dm_bare_midpoint_pendulum_without_energy
     dm_bare_midpoint_pendulum_folded;
 dm_bare_loop dm_bare_midpoint_kepler, dm_bare_midpoint_kepler_without_energy,
     dm_bare_midpoint_kepler_folded;
+
+/* Störmer–Verlet (kick-drift-kick) on n point masses in 3-D written by hand: the pair
+ * sum over the n (n - 1) / 2 pairs inline, the state in arrays of 3 n (q and p body by
+ * body, as problems/nbody.c stores them), the energy watched after every step
+ * (*worst: the largest |T + V - H0|). The same arithmetic in the same order as nbody.c's
+ * force and the fused loop, so it ends in the same state bit for bit. *potential gets V
+ * at the end. */
+void dm_bare_verlet_nbody(int n, double G, const double *mass, const double *inverse_mass,
+                          double kick0, double drift0, double kick1, double H0,
+                          uint64_t steps, double *q, double *p, double *potential,
+                          double *worst);
+
+/* The N-body rows of `driftmark bench` (bench_nbody.c): force pairs per second of the
+ * hand loop above and of a whole driftmark run, on an invented star with n - 1 light
+ * planets, for n = 6 and n = 64. */
+typedef struct dm_bench_nbody_row {
+    int bodies;
+    uint64_t steps;
+    double hand_pairs_per_second, ours_pairs_per_second;
+    bool energy_agrees;   /* both end with the same energy error, bit for bit */
+} dm_bench_nbody_row;
+#define DM_BENCH_NBODY_ROWS 2
+int dm_bench_nbody(bool quick, dm_bench_nbody_row rows[DM_BENCH_NBODY_ROWS], char *error,
+                   size_t error_size);
 
 /* Not a bare loop but the floor of the harness: the same kick-drift-kick steps on any
  * problem, with the state in local arrays and the problem's force() and velocity()

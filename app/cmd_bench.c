@@ -686,7 +686,10 @@ static void json_case(FILE *f, const char *problem, const char *key, double valu
     json_text(f, "method", method, false);
 }
 
-static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
+static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb);
+
+static void print_json(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
+                       const cvode_result *cv,
                        size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
 {
     fprintf(f, "{\n  \"quick\": %s,\n  \"samples\": %d,\n  \"cases\": [\n", quick ? "true" : "false",
@@ -719,7 +722,9 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         }
         fprintf(f, "}%s\n", i + 1 < N_CASES ? "," : "");
     }
-    fprintf(f, "  ],\n  \"memory\": {\"max_resident_kib_before\": %ld, "
+    fputs("  ],\n", f);
+    print_nbody_json(f, nb);
+    fprintf(f, "  \"memory\": {\"max_resident_kib_before\": %ld, "
                "\"max_resident_kib_after\": %ld},\n  \"cvode\": [\n",
             rss_before, rss_after);
     for (size_t i = 0; i < n_cv; i++) {
@@ -755,8 +760,42 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
     fputs("\n}\n", f);
 }
 
-static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
-                       size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
+/* The N-body rows (bench_nbody.c): force pairs per second. */
+static void print_nbody_text(FILE *f, const dm_bench_nbody_row *nb)
+{
+    fprintf(f, "N-body force sum (an invented star with light planets, verlet): pairs per "
+               "second\n");
+    fprintf(f, "%-10s %10s %11s %11s %6s %5s\n", "bodies", "steps", "hand M/s", "ours M/s",
+            "ratio", "= dE");
+    for (int i = 0; i < DM_BENCH_NBODY_ROWS; i++)
+        fprintf(f, "%-10d %10llu %11.2f %11.2f %6.3f %5s\n", nb[i].bodies,
+                (unsigned long long)nb[i].steps, nb[i].hand_pairs_per_second / 1e6,
+                nb[i].ours_pairs_per_second / 1e6,
+                nb[i].ours_pairs_per_second / nb[i].hand_pairs_per_second,
+                nb[i].energy_agrees ? "yes" : "NO");
+    fprintf(f, "  hand: Stormer-Verlet on the bodies written by hand, the pair sum inline,\n"
+               "  watching the energy after every step; ours: a whole driftmark run; one\n"
+               "  force sum of n (n - 1) / 2 pairs a step\n\n");
+}
+
+static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb)
+{
+    fputs("  \"nbody\": [\n", f);
+    for (int i = 0; i < DM_BENCH_NBODY_ROWS; i++) {
+        fprintf(f, "    {\"bodies\": %d, \"steps\": %llu, ", nb[i].bodies,
+                (unsigned long long)nb[i].steps);
+        json_field(f, "hand_pairs_per_second", nb[i].hand_pairs_per_second, false);
+        json_field(f, "ours_pairs_per_second", nb[i].ours_pairs_per_second, false);
+        json_field(f, "ratio", nb[i].ours_pairs_per_second / nb[i].hand_pairs_per_second, false);
+        fprintf(f, "\"final_energy_error_agrees\": %s}%s\n",
+                nb[i].energy_agrees ? "true" : "false", i + 1 < DM_BENCH_NBODY_ROWS ? "," : "");
+    }
+    fputs("  ],\n", f);
+}
+
+static void print_text(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
+                       const cvode_result *cv, size_t n_cv, const jobs_result *jb,
+                       long rss_before, long rss_after)
 {
     fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
@@ -789,6 +828,7 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
                "  watch no energy); = dE: the hand loop and driftmark end with the same energy\n"
                "  error, bit for bit; hdf5: writing a one-run results file, in %% of the run's\n"
                "  wall time\n\n");
+    print_nbody_text(f, nb);
     fprintf(f, "peak resident memory: %ld KiB before, %ld KiB after\n\n", rss_before, rss_after);
     fprintf(f, "CVODE on %s %s=%g, rtol %g: called directly vs through the adapter\n",
             cvode_bench.problem, cvode_bench.key, cvode_bench.value, CVODE_RTOL);
@@ -854,6 +894,12 @@ int dm_cmd_bench(int argc, char **argv)
             return 1;
         }
     }
+    dm_bench_nbody_row nb[DM_BENCH_NBODY_ROWS];
+    char nb_error[DM_ERROR_MSG_MAX];
+    if (dm_bench_nbody(quick, nb, nb_error, sizeof nb_error) != 0) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, nb_error);
+        return 1;
+    }
     for (size_t i = 0; i < N_CVODE; i++) {
         if (bench_cvode(i, quick, &cv[i], &err) != DM_OK) {
             fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
@@ -867,8 +913,8 @@ int dm_cmd_bench(int argc, char **argv)
         return 1;
     }
     if (json)
-        print_json(stdout, quick, cr, cv, N_CVODE, &jb, rss_before, rss_after);
+        print_json(stdout, quick, cr, nb, cv, N_CVODE, &jb, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, cv, N_CVODE, &jb, rss_before, rss_after);
+        print_text(stdout, quick, cr, nb, cv, N_CVODE, &jb, rss_before, rss_after);
     return 0;
 }
