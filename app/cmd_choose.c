@@ -128,7 +128,10 @@ static void print_closest(const dm_choice *c, size_t n)
                 best = end;
             end++;
         }
-        if (!answered)
+        if (!answered && !isfinite(c[best].closeness))
+            fprintf(stderr, "driftmark: choose: %s: no method ranked: %s\n", c[i].variant,
+                    c[best].why_not);
+        else if (!answered)
             fprintf(stderr, "driftmark: choose: %s: no method meets the target; closest: %s, "
                     "whose best run is %.3g times over it\n", c[i].variant, c[best].method,
                     c[best].closeness);

@@ -44,8 +44,11 @@ static void print_text(void)
     printf("problems\n");
     for (size_t i = 0; i < dm_problem_count; i++) {
         const dm_problem *pr = dm_problems[i];
-        printf("\n  %s - %s (%d degree%s of freedom)\n", pr->id, pr->name, pr->dof,
-               pr->dof == 1 ? "" : "s");
+        if (pr->needs_data) /* its size comes with its data (nbody: 3 per body) */
+            printf("\n  %s - %s (up to %d degrees of freedom)\n", pr->id, pr->name, pr->dof);
+        else
+            printf("\n  %s - %s (%d degree%s of freedom)\n", pr->id, pr->name, pr->dof,
+                   pr->dof == 1 ? "" : "s");
         int wname = 4;
         for (int k = 0; k < pr->n_params; k++) {
             int len = (int)strlen(pr->params[k].name);

@@ -257,6 +257,12 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     c->x = c->cost_per_period = c->seconds_per_period = NAN;
     c->energy_error = c->phase_per_period = c->fit_rms = NAN;
     c->beyond = 1.0;
+    if (!isfinite(g->rows[0]->period_exact)) { /* nbody: costs per period do not exist */
+        c->closeness = NAN;
+        snprintf(c->why_not, sizeof c->why_not, "the problem has no closed-form period, and "
+                 "choose compares costs and horizons in periods");
+        return DM_OK;
+    }
     dm_status st = group_fits(g, c->method, err);
     if (st != DM_OK)
         return st;

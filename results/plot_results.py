@@ -11,7 +11,9 @@ Writes, for each problem variant in the file:
   <variant>-work.png    force evaluations and wall seconds per period against max |dE|
                         and |phase error per period|, with --target-energy X and
                         --target-phase Y the target and the cheapest ok run meeting it;
-and cost.png: force evaluations per period against max |dE|, one panel per variant.
+and cost.png: force evaluations per period against max |dE|, one panel per variant. A
+problem without a closed-form period (nbody) gets the energy plot alone, against time in
+its own units: it has no phase error and no cost per period.
 --format svg (or both) writes SVG. One colour and marker per method everywhere; runs
 that are not ok are drawn with their status, never dropped.
 
@@ -133,6 +135,8 @@ def load_more(path, runs):
             r["force_evals_per_period"] = float(a.get("force_evals_per_period", np.nan))
             r["phase_error_per_period"] = float(a["phase_error_per_period"])
             r["reason"] = text(a["reason"])
+            # a problem without a closed-form period (nbody): time in its own units
+            r["time_unit"] = r["period"] if np.isfinite(r["period"]) else 1.0
             periods = r["t_reached"] / r["period"]
             r["seconds_per_period"] = r["wall_seconds"] / periods if periods > 0 else np.nan
         sweeps = {}
@@ -272,7 +276,7 @@ def plot_energy(variant, runs, out, formats):
     handles = []
     for r in sorted(runs, key=lambda r: (r["method"], r["rank"])):
         st = run_line_style(r)
-        t = r["time"] / r["period"]
+        t = r["time"] / r["time_unit"]
         label = status_label(r)
         if len(t) == 0:
             handles.append(Line2D([], [], color=st["color"], ls="none", marker=st["marker"], mfc="none",
@@ -295,7 +299,7 @@ def plot_energy(variant, runs, out, formats):
         if r["status"] != "ok":
             x, y = t[-1], peak[-1]
             if r["status"] in ("diverged", "failed", "interrupted") and np.isfinite(r["t_reached"]):
-                x = r["t_reached"] / r["period"]
+                x = r["t_reached"] / r["time_unit"]
                 if np.isfinite(r["max_energy_error"]) and r["max_energy_error"] > 0:
                     y = max(r["max_energy_error"], np.nanmax(peak) if np.isfinite(peak).any() else 0)
                 ax.plot([t[-1], x], [peak[-1], y], color=st["color"], ls=":", lw=1, zorder=3)
@@ -307,7 +311,8 @@ def plot_energy(variant, runs, out, formats):
                                              and np.isfinite(r["max_energy_error"]) and r["max_energy_error"] > 0]
     if peaks:
         ax.set_ylim(10 ** (np.floor(np.log10(min(peaks))) - 1), 10 ** (np.ceil(np.log10(max(peaks))) + 0.3))
-    ax.set_xlabel("time / period T")
+    ax.set_xlabel("time / period T" if all(np.isfinite(r["period"]) for r in runs)
+                  else "time (the suite's units: the problem has no closed-form period)")
     ax.set_ylabel("|dE| = |H - H0| / E scale")
     ax.set_title(f"{variant}: energy error", fontsize=10)
     ax.grid(True, which="major", lw=0.3, alpha=0.5)
@@ -580,9 +585,13 @@ def main():
     for variant, rs in groups.items():
         assign_ranks(rs)
         written += plot_energy(variant, rs, os.path.join(outdir, f"{variant}-energy"), formats)
+        if not all(np.isfinite(r["period"]) for r in rs):
+            continue  # no closed-form period (nbody): no phase error, no cost per period
         written += plot_phase(variant, rs, os.path.join(outdir, f"{variant}-phase"), formats)
         written += plot_work(variant, rs, sweeps, targets, os.path.join(outdir, f"{variant}-work"), formats)
-    written += plot_cost(groups, sweeps, targets, os.path.join(outdir, "cost"), formats)
+    periodic = {v: rs for v, rs in groups.items() if all(np.isfinite(r["period"]) for r in rs)}
+    if periodic:
+        written += plot_cost(periodic, sweeps, targets, os.path.join(outdir, "cost"), formats)
     for w in written:
         print(w)
 
