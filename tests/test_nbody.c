@@ -235,21 +235,11 @@ static void splitting_methods_conserve_momentum_and_angular_momentum(void **stat
 static void two_bodies_are_the_kepler_problem(void **state)
 {
     (void)state;
-    const double G = 1.0, m1 = 1.0, m2 = 0.5, a = 1.0, e = 0.6, mu = G * (m1 + m2);
-    const char *keys[] = { "mu", "semi_major_axis", "eccentricity" };
-    const double values[] = { mu, a, e };
-    dm_instance kepler;
+    const double m1 = 1.0, m2 = 0.5;
+    dm_nbody pair;
+    dm_instance two, kepler;
     dm_error err = { 0 };
-    assert_int_equal(dm_instance_init(&kepler, dm_problem_find("kepler"), 3, keys, values, &err),
-                     DM_OK);
-    dm_nbody pair = { .n = 2, .mass = { m1, m2 }, .inverse_mass = { 1.0 / m1, 1.0 / m2 },
-                      .period_body = 1, .period_around = 0 };
-    pair.position[1][0] = kepler.q0[0];
-    pair.velocity[1][1] = kepler.p0[1];
-    dm_instance two;
-    const char *gk[] = { "G" };
-    assert_int_equal(dm_instance_init_data(&two, dm_problem_find("nbody"), &pair, 1, gk, &G,
-                                           &err), DM_OK);
+    two_bodies_and_kepler(m1, m2, 1.0, 0.6, &pair, &two, &kepler);
     assert_close(two.energy, m1 * m2 / (m1 + m2) * kepler.energy, 1e-14);
 
     dm_method_config mc = { .h = kepler.period / 200.0 };

@@ -162,21 +162,11 @@ static void kepler_drift_takes_hyperbolic_and_parabolic_passes(void **state)
 static void two_bodies_are_integrated_exactly(void **state)
 {
     (void)state;
-    const double G = 1.0, m1 = 1.0, m2 = 0.05, mu = G * (m1 + m2);
-    const char *keys[] = { "mu", "semi_major_axis", "eccentricity" };
-    const double values[] = { mu, 1.3, 0.7 };
-    dm_instance kepler;
+    const double m1 = 1.0, m2 = 0.05, mu = m1 + m2; /* G = 1 */
+    dm_nbody pair;
+    dm_instance two, kepler;
     dm_error err = { 0 };
-    assert_int_equal(dm_instance_init(&kepler, dm_problem_find("kepler"), 3, keys, values, &err),
-                     DM_OK);
-    dm_nbody pair = { .n = 2, .mass = { m1, m2 }, .inverse_mass = { 1.0 / m1, 1.0 / m2 },
-                      .period_body = -1, .period_around = -1 };
-    pair.position[1][0] = kepler.q0[0];
-    pair.velocity[1][1] = kepler.p0[1];
-    dm_instance two;
-    const char *gk[] = { "G" };
-    assert_int_equal(dm_instance_init_data(&two, dm_problem_find("nbody"), &pair, 1, gk, &G,
-                                           &err), DM_OK);
+    two_bodies_and_kepler(m1, m2, 1.3, 0.7, &pair, &two, &kepler);
     const dm_method *wh = dm_method_find("wisdom-holman");
     assert_non_null(wh);
     dm_method_config mc = { .h = kepler.period / 3.0 };
