@@ -87,7 +87,11 @@ static void print_text(const dm_instance *inst)
     }
     printf("%-16s%s\n", "regime", pr->regimes[inst->regime].id);
     printf("%-16s%.17g\n", "energy", inst->energy);
-    printf("%-16s%.17g\n", "period", inst->period);
+    if (inst->problem->no_period)
+        printf("%-16s- (the problem has no closed-form period: a run measures it from the "
+               "section crossings)\n", "period");
+    else
+        printf("%-16s%.17g\n", "period", inst->period);
     char why[DM_ERROR_MSG_MAX];
     double tq = period_by_quadrature(inst, why, sizeof why);
     if (isnan(tq))

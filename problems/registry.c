@@ -12,6 +12,7 @@ extern const dm_problem dm_problem_double_well;
 extern const dm_problem dm_problem_morse;
 extern const dm_problem dm_problem_kepler;
 extern const dm_problem dm_problem_nbody;
+extern const dm_problem dm_problem_henon_heiles;
 
 /* A new problem: one file in problems/ and one line here. */
 const dm_problem *const dm_problems[] = {
@@ -21,6 +22,7 @@ const dm_problem *const dm_problems[] = {
     &dm_problem_morse,
     &dm_problem_kepler,
     &dm_problem_nbody,
+    &dm_problem_henon_heiles,
 };
 const size_t dm_problem_count = sizeof dm_problems / sizeof dm_problems[0];
 

@@ -12,9 +12,10 @@ fail=0
 awk -v dir="$tmp" '/^```yaml/{n++; f=1; next} /^```/{f=0} f{print > (dir "/readme" n ".yaml")}' \
   "$here/README.md"
 for s in "$tmp"/readme*.yaml; do
-  # a problem without a period (nbody) takes its horizon in time: 200 of its units
+  # a block whose horizon is in time (a problem without a period: nbody, henon_heiles)
+  # keeps it in time: 200 of its units
   short='{periods: 5}'
-  grep -q "problem: nbody" "$s" && short='{time: 200}'
+  grep -q "^horizon: {time:" "$s" && short='{time: 200}'
   sed -i "s#^output: .*#output: $tmp/readme.h5#; s#^horizon: .*#horizon: $short#" "$s"
 done
 sed "s#^output: .*#output: $tmp/default.h5#; s#^horizon: .*#horizon: {periods: 5}#" \
