@@ -534,6 +534,21 @@ static dm_status load_library(parse_ctx *c, const yaml_node_t *value, problem_en
 }
 
 static bool is_data_key(const char *name);
+
+/* The stem of a data file's name ("outer_solar_system" of ".../outer_solar_system.csv"),
+ * or "bodies" for data given in the suite, for run ids. */
+static const char *data_stem(const char *source)
+{
+    const char *slash = strrchr(source, '/');
+    return strcmp(source, "suite") == 0 ? "bodies" : slash ? slash + 1 : source;
+}
+
+static int data_stem_length(const char *source)
+{
+    const char *stem = data_stem(source);
+    size_t n = strcspn(stem, ".");
+    return (int)(n > 40 ? 40 : n);
+}
 static dm_status parse_problem_data(suite_build *b, const yaml_node_t *node, problem_entry *e);
 
 static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
@@ -883,6 +898,10 @@ static dm_status expand_variants(suite_build *b, variant **out, size_t *n_out)
             x->n_given = (size_t)e->n_given;
             size_t used = 0;
             bool fits = appendf(x->part, sizeof x->part, &used, "%s", e->problem->id);
+            if (e->data_hash[0] != '\0') /* which data: the file's stem, 6 hex of its hash */
+                fits = fits && appendf(x->part, sizeof x->part, &used, "-%.*s-%.6s",
+                                       data_stem_length(e->data_source), data_stem(e->data_source),
+                                       e->data_hash);
             for (int k = 0; k < e->n_given; k++) {
                 x->keys[k] = e->problem->params[e->param[k]].name;
                 x->values[k] = e->values[k]->v[pick[k]];
