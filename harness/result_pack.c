@@ -7,7 +7,8 @@
  *            RULE u8 (0: none, k: dm_energy_scale_rules[k - 1]),
  *            PER_INVARIANT DM_MAX_INVARIANTS doubles
  *   series   u64 n, i32 n_invariants, then per array u8 present + n doubles
- *   crossings u64 n, then number, time, phase_error (n doubles each)
+ *   crossings u64 n, then number, time, phase_error (n doubles each), u32 1 when the
+ *             surface of section follows (section_q, section_p: n doubles each), else 0
  * The same walk over the fields writes, measures and reads the buffer, so the three
  * cannot drift apart.
  */
@@ -137,6 +138,11 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
     put_array(c, x->number, x->n);
     put_array(c, x->time, x->n);
     put_array(c, x->phase_error, x->n);
+    put_u32(c, x->section_q != NULL);
+    if (x->section_q != NULL) {
+        put_array(c, x->section_q, x->n);
+        put_array(c, x->section_p, x->n);
+    }
 
     /* an interrupted run's checkpoint, as the struct's bytes: the ranks of one job run
      * one build on one kind of machine (README, "Running on a cluster"), and the record
@@ -307,9 +313,15 @@ static bool get_crossings(cursor *c, const dm_run_spec *spec, dm_crossings *x, b
     if (!get(c, &n, sizeof n) || n > x->capacity)
         return false;
     x->n = (size_t)n;
-    return get_array(c, x->n, x->capacity, &x->number, nomem) &&
-           get_array(c, x->n, x->capacity, &x->time, nomem) &&
-           get_array(c, x->n, x->capacity, &x->phase_error, nomem);
+    uint32_t points = 0;
+    bool ok = get_array(c, x->n, x->capacity, &x->number, nomem) &&
+              get_array(c, x->n, x->capacity, &x->time, nomem) &&
+              get_array(c, x->n, x->capacity, &x->phase_error, nomem) &&
+              get(c, &points, sizeof points) && points <= 1;
+    if (ok && points == 1)
+        ok = get_array(c, x->n, x->capacity, &x->section_q, nomem) &&
+             get_array(c, x->n, x->capacity, &x->section_p, nomem);
+    return ok;
 }
 
 dm_status dm_result_unpack(const dm_suite *suite, const unsigned char *buf, size_t size,

@@ -459,6 +459,10 @@ static int write_run_series(hid_t g, const dm_problem *pr, const dm_run_result *
     rc |= dataset_double(g, "crossing_number", c->number, c->n);
     rc |= dataset_double(g, "crossing_time", c->time, c->n);
     rc |= dataset_double(g, "phase_error", c->phase_error, c->n);
+    if (c->section_q != NULL) {
+        rc |= dataset_double(g, "section_q", c->section_q, c->n);
+        rc |= dataset_double(g, "section_p", c->section_p, c->n);
+    }
     return rc;
 }
 
@@ -1093,6 +1097,13 @@ static int read_run(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
     c->n = cc;
     rc |= read_doubles(g, "crossing_time", &cc, ccap, &c->time);
     rc |= read_doubles(g, "phase_error", &cc, ccap, &c->phase_error);
+    /* the surface of section: in files written since it exists, for the runs that keep
+     * it (two degrees of freedom); a run read without it keeps none from then on */
+    if (spec->inst.dof == 2 && !spec->inst.section.relative &&
+        H5Lexists(g, "section_q", H5P_DEFAULT) > 0) {
+        rc |= read_doubles(g, "section_q", &cc, ccap, &c->section_q);
+        rc |= read_doubles(g, "section_p", &cc, ccap, &c->section_p);
+    }
     if (rc != 0) {
         dm_run_result_free(r);
         return -1;

@@ -48,18 +48,30 @@ void dm_run_result_free(dm_run_result *result)
     free(result->crossings.number);
     free(result->crossings.time);
     free(result->crossings.phase_error);
+    free(result->crossings.section_q);
+    free(result->crossings.section_p);
     free(result->checkpoint);
     memset(result, 0, sizeof *result);
 }
 
+/* Whether a run keeps the surface of section (dm_crossings.section_q, section_p): two
+ * degrees of freedom and a plain section. */
+static bool keeps_section_points(const dm_instance *inst)
+{
+    return inst->dof == 2 && !inst->section.relative;
+}
+
 /* What allocate() below takes: 4 series, the exact solution's and each invariant's, of
- * `samples` doubles, and 3 crossing arrays of at least 64. Keep the two together. */
+ * `samples` doubles, and 3 crossing arrays (5 with the surface of section) of at least
+ * 64. Keep the two together. */
 double dm_run_memory_bytes(const dm_run_spec *spec)
 {
     const dm_problem *pb = spec->inst.problem;
     double cap = (double)spec->samples;
     double series = 4.0 + (pb->exact != NULL) + (pb->invariants != NULL ? pb->n_invariants : 0);
-    return sizeof(dm_run_result) + sizeof(double) * (series * cap + 3.0 * (cap < 64 ? 64 : cap));
+    double crossing_arrays = keeps_section_points(&spec->inst) ? 5.0 : 3.0;
+    return sizeof(dm_run_result) +
+           sizeof(double) * (series * cap + crossing_arrays * (cap < 64 ? 64 : cap));
 }
 
 static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *err)
@@ -89,6 +101,11 @@ static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *e
     c->time = calloc(c->capacity, sizeof(double));
     c->phase_error = calloc(c->capacity, sizeof(double));
     ok = ok && c->number && c->time && c->phase_error;
+    if (keeps_section_points(&spec->inst)) {
+        c->section_q = calloc(c->capacity, sizeof(double));
+        c->section_p = calloc(c->capacity, sizeof(double));
+        ok = ok && c->section_q && c->section_p;
+    }
     if (!ok)
         return dm_error_set(err, DM_ENOMEM, "out of memory for %zu samples", cap);
     return DM_OK;
@@ -96,7 +113,8 @@ static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *e
 
 /* Keeps every crossing whose number is a multiple of the stride; when the buffer is
  * full, drops every second one and doubles the stride. */
-static void crossings_store(dm_crossings *c, uint64_t number, double t, double phase)
+static void crossings_store(dm_crossings *c, uint64_t number, double t, double phase,
+                            const double point[2])
 {
     if (number % c->stride != 0)
         return;
@@ -109,6 +127,10 @@ static void crossings_store(dm_crossings *c, uint64_t number, double t, double p
             c->number[kept] = c->number[i];
             c->time[kept] = c->time[i];
             c->phase_error[kept] = c->phase_error[i];
+            if (c->section_q != NULL) {
+                c->section_q[kept] = c->section_q[i];
+                c->section_p[kept] = c->section_p[i];
+            }
             kept++;
         }
         c->n = kept;
@@ -119,7 +141,37 @@ static void crossings_store(dm_crossings *c, uint64_t number, double t, double p
     c->number[c->n] = (double)number;
     c->time[c->n] = t;
     c->phase_error[c->n] = phase;
+    if (c->section_q != NULL) {
+        c->section_q[c->n] = point[0];
+        c->section_p[c->n] = point[1];
+    }
     c->n++;
+}
+
+/* Cubic Hermite interpolation of a value y0 -> y1 with slopes d0, d1 (per unit s) at s. */
+static double hermite(double y0, double d0, double y1, double d1, double s)
+{
+    double s2 = s * s, s3 = s2 * s;
+    return (2 * s3 - 3 * s2 + 1) * y0 + (s3 - 2 * s2 + s) * d0 + (-2 * s3 + 3 * s2) * y1 +
+           (s3 - s2) * d1;
+}
+
+/* The surface-of-section point at fraction s of a step of length dt from x0 to x1, of a
+ * problem of two degrees of freedom: the coordinate the section does not watch and its
+ * momentum, each by cubic Hermite interpolation from its values and rates at both ends
+ * (velocity for q, -grad V for p: two gradient evaluations a crossing). */
+static void section_point(const dm_instance *inst, double s, double dt, const double *x0,
+                          const double *x1, double point[2])
+{
+    const dm_problem *pb = inst->problem;
+    int k = 1 - inst->section.coord;
+    double v0[2], v1[2], g0[2], g1[2];
+    pb->velocity(inst, x0 + 2, v0);
+    pb->velocity(inst, x1 + 2, v1);
+    dm_problem_gradient(pb)(inst, x0, g0);
+    dm_problem_gradient(pb)(inst, x1, g1);
+    point[0] = hermite(x0[k], dt * v0[k], x1[k], dt * v1[k], s);
+    point[1] = hermite(x0[2 + k], -dt * g0[k], x1[2 + k], -dt * g1[k], s);
 }
 
 /* Cubic Hermite interpolation of the section's coordinate (q[coord], or q[coord] -
@@ -183,6 +235,9 @@ static void crossing_add(crossing_log *log, double level, double t0, const doubl
                          double t1, const double *x1)
 {
     double tc = locate_crossing(log->inst, level, t0, x0, t1, x1);
+    double point[2] = { NAN, NAN };
+    if (log->store->section_q != NULL)
+        section_point(log->inst, (tc - t0) / (t1 - t0), t1 - t0, x0, x1, point);
     log->count++;
     double T = log->period;
     double phase = NAN;
@@ -193,7 +248,7 @@ static void crossing_add(crossing_log *log, double level, double t0, const doubl
     } else {
         dm_line_fit_add(&log->fit, (double)log->count, tc);
     }
-    crossings_store(log->store, log->count, tc, phase);
+    crossings_store(log->store, log->count, tc, phase, point);
     log->last_phase = phase;
 }
 

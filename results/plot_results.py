@@ -12,8 +12,9 @@ Writes, for each problem variant in the file:
                         and |phase error per period|, with --target-energy X and
                         --target-phase Y the target and the cheapest ok run meeting it;
 and cost.png: force evaluations per period against max |dE|, one panel per variant. A
-problem without a closed-form period (nbody) gets the energy plot alone, against time in
-its own units: it has no phase error and no cost per period.
+problem without a closed-form period (nbody, henon_heiles) gets the energy plot against
+time in its own units (it has no phase error and no cost per period) and, when its runs
+keep one (two degrees of freedom), <variant>-section.png: the surface of section.
 --format svg (or both) writes SVG. One colour and marker per method everywhere; runs
 that are not ok are drawn with their status, never dropped.
 
@@ -117,6 +118,7 @@ def load(path):
                 "dE_max": g["energy_error_max"][()],
                 "crossing_time": g["crossing_time"][()],
                 "phase_error": g["phase_error"][()],
+                "section": (g["section_q"][()], g["section_p"][()]) if "section_q" in g else None,
             })
     return runs
 
@@ -559,6 +561,30 @@ def positive(v):
     return x
 
 
+def plot_section(variant, runs, out, formats):
+    """The surface of section of a problem without a closed-form period (Henon-Heiles):
+    (y, p_y) at each kept crossing of x = 0, one panel per run, each run in its colour."""
+    shown = [r for r in sorted(runs, key=lambda r: (r["method"], r["rank"])) if r["section"] is not None
+             and len(r["section"][0])]
+    if not shown:
+        return []
+    cols = min(3, len(shown))
+    rows = (len(shown) + cols - 1) // cols
+    fig, axes = plt.subplots(rows, cols, figsize=(3.6 * cols, 3.4 * rows), squeeze=False)
+    for ax, r in zip(axes.flat, shown):
+        st = run_line_style(r)
+        ax.plot(r["section"][0], r["section"][1], ls="none", marker=".", ms=1.5, color=st["color"])
+        ax.set_title(status_label(r), fontsize=8)
+        ax.set_xlabel("q (the coordinate the section does not watch)", fontsize=7)
+        ax.set_ylabel("its momentum p", fontsize=7)
+        ax.tick_params(labelsize=7)
+    for ax in list(axes.flat)[len(shown):]:
+        ax.axis("off")
+    fig.suptitle(f"{variant}: surface of section (one point a kept crossing)", fontsize=10)
+    fig.tight_layout()
+    return save(fig, out, formats)
+
+
 def main():
     ap = Arguments(description=__doc__.splitlines()[0])
     ap.add_argument("results")
@@ -586,7 +612,10 @@ def main():
         assign_ranks(rs)
         written += plot_energy(variant, rs, os.path.join(outdir, f"{variant}-energy"), formats)
         if not all(np.isfinite(r["period"]) for r in rs):
-            continue  # no closed-form period (nbody): no phase error, no cost per period
+            # no closed-form period (nbody, henon_heiles): no phase error, no cost per
+            # period; the surface of section where the runs keep one
+            written += plot_section(variant, rs, os.path.join(outdir, f"{variant}-section"), formats)
+            continue
         written += plot_phase(variant, rs, os.path.join(outdir, f"{variant}-phase"), formats)
         written += plot_work(variant, rs, sweeps, targets, os.path.join(outdir, f"{variant}-work"), formats)
     periodic = {v: rs for v, rs in groups.items() if all(np.isfinite(r["period"]) for r in rs)}

@@ -17,8 +17,9 @@ static double held_bytes(const dm_run_result *r)
     size_t arrays = 4 + (r->series.global_error != NULL);
     for (int k = 0; k < DM_MAX_INVARIANTS; k++)
         arrays += r->series.invariant_error[k] != NULL;
+    size_t crossing_arrays = 3 + 2 * (r->crossings.section_q != NULL);
     return (double)(sizeof *r + sizeof(double) * (arrays * r->series.capacity +
-                                                  3 * r->crossings.capacity));
+                                                  crossing_arrays * r->crossings.capacity));
 }
 
 static const char *suite_of(const char *problem, const char *samples, const char *limit)
@@ -56,8 +57,9 @@ static void a_suite_above_the_limit_is_refused(void **state)
     (void)state;
     dm_suite suite;
     dm_error err = { 0 };
-    /* Kepler: 4 series, the exact solution's, 3 invariants' and 3 crossing arrays of
-     * 10^7 doubles, 0.82 GiB: above a limit of 0.5, below the default */
+    /* Kepler: 4 series, the exact solution's, 3 invariants' and 5 crossing arrays (with
+     * the surface of section) of 10^7 doubles, 0.97 GiB: above a limit of 0.5, below the
+     * default */
     const char *text = suite_of("kepler", "10000000", "memory_limit_gib: 0.5\n");
     assert_int_equal(dm_suite_parse(&suite, text, strlen(text), "m.yaml", "/tmp/m.h5", &err),
                      DM_EINPUT);

@@ -152,6 +152,10 @@ typedef struct dm_crossings {
     double *number;                  /* crossing number (1, 2, ...) as double */
     double *time;
     double *phase_error;             /* 2 pi (t_n - t_n,exact) / T_exact */
+    /* The surface of section, for a problem of two degrees of freedom with a plain
+     * section: the other coordinate and its momentum at each kept crossing (Henon-Heiles:
+     * y and p_y at x = 0), interpolated inside the step; NULL otherwise. */
+    double *section_q, *section_p;
 } dm_crossings;
 
 /* What a run measured: a field for every figure of DM_RUN_FIGURES (run_figures.h) whose
