@@ -735,6 +735,7 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         snprintf(result->reason, sizeof result->reason, "%s", err ? err->msg : "create failed");
         dm_error_clear(err);
         m->period_exact = inst->period;
+        m->lyapunov_exponent = NAN;
         free(ck);
         return DM_OK;
     }
@@ -771,6 +772,11 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
     run_buckets(c, first, inside, wall_before, t_start);
     finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
     dm_stepper_destroy(c->stepper);
+    m->lyapunov_exponent = NAN;
+    if (spec->lyapunov && (c->status == DM_RUN_OK || c->status == DM_RUN_SWAMPED)) {
+        dm_error lerr = { 0 };
+        m->lyapunov_exponent = dm_lyapunov_exponent(spec, m->steps, &lerr);
+    }
     return DM_OK;
 }
 

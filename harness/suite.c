@@ -437,6 +437,7 @@ typedef struct suite_build {
     const char *output_override;      /* the command line's -o, or NULL */
     const yaml_node_t *step_budget_node;
     double memory_limit_gib;          /* the runs' series may take this much memory */
+    bool lyapunov;                    /* every run estimates its Lyapunov exponent */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
     struct hsearch_data run_ids;      /* id -> run index + 1, to find twins in O(1) */
@@ -462,9 +463,10 @@ static void build_free(suite_build *b)
  * still accepted; a suite gives one or the other. */
 static const char *const top_keys[] = { "name", "output", "horizon", "buckets",
                                         "energy_limit", "step_budget", "problems",
-                                        "methods", "memory_limit_gib", "samples" };
+                                        "methods", "memory_limit_gib", "samples",
+                                        "lyapunov" };
 enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_BUCKETS, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
-       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_SAMPLES, TOP_COUNT };
+       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_SAMPLES, TOP_LYAPUNOV, TOP_COUNT };
 
 static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
 {
@@ -1064,6 +1066,8 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
                        " compensated=%s t_end=%.17g samples=%zu energy_limit=%.17g",
                        mc->compensated ? "true" : "false", spec->t_end, spec->samples,
                        suite->energy_limit);
+    if (spec->lyapunov)
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " lyapunov=true");
     if (!ok)
         return fail_at(&b->ctx, me->values->node[value_index], "configuration of run %s is too long", spec->id);
     snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, dm_hash_text(spec->config));
@@ -1093,6 +1097,7 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->samples = b->samples;
     spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
+    spec->lyapunov = b->lyapunov;             /* in config too */
     spec->sweep = -1;
     dm_status st = set_horizon(b, x, spec);
     if (st == DM_OK && me->method->check_problem != NULL) {
@@ -1430,6 +1435,9 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
         if (st == DM_OK && !(b->memory_limit_gib <= 1e6))
             st = fail_at(c, value, "memory_limit_gib = %g is out of range (expected a number "
                          "of GiB up to 1e6)", b->memory_limit_gib);
+        break;
+    case TOP_LYAPUNOV:
+        st = get_bool(c, value, "lyapunov", &b->lyapunov);
         break;
     case TOP_PROBLEMS:
         st = parse_list(b, value, true);

@@ -171,6 +171,45 @@ static void surface_of_section_points_lie_on_the_section(void **state)
     dm_suite_free(&s2);
 }
 
+/* The largest Lyapunov exponent (Benettin et al., Meccanica 15 (1980) 9; renormalised
+ * nearby trajectory): from a regular start at E = 1/12 (its surface of section is a
+ * closed curve) it is near 0 and falls with the horizon (like log t / t: nearby regular
+ * orbits part linearly); from a start at E = 0.1666, next to the escape energy where
+ * most of the section is chaotic (Henon and Heiles, from memory), it is clearly
+ * positive and settles as the horizon doubles. Absent unless asked; the buckets do not
+ * enter it. */
+static double exponent(double E, double y, double horizon, int buckets, bool ask)
+{
+    char text[512];
+    snprintf(text, sizeof text, "horizon: {time: %g}\nbuckets: %d\n%sproblems:\n"
+             "  - {problem: henon_heiles, energy: %.17g, start_y: %g}\n"
+             "methods:\n  - {method: yoshida4, h: 0.02}\n", horizon, buckets,
+             ask ? "lyapunov: true\n" : "", E, y);
+    dm_suite s;
+    dm_run_result r = run_suite(text, &s);
+    double l = r.metrics.lyapunov_exponent;
+    dm_run_result_free(&r);
+    dm_suite_free(&s);
+    return l;
+}
+
+static void lyapunov_exponent_tells_regular_from_chaotic(void **state)
+{
+    (void)state;
+    double regular_short = exponent(1.0 / 12.0, 0.1, 2000, 100, true);
+    double regular = exponent(1.0 / 12.0, 0.1, 20000, 100, true);
+    double chaotic_half = exponent(0.1666, -0.1, 10000, 100, true);
+    double chaotic = exponent(0.1666, -0.1, 20000, 100, true);
+    double chaotic_other_buckets = exponent(0.1666, -0.1, 20000, 7, true);
+    print_message("regular: %.3g over 2000, %.3g over 20000; chaotic: %.3g over 10000, %.3g "
+                  "over 20000\n", regular_short, regular, chaotic_half, chaotic);
+    assert_true(regular < 2e-3 && regular < 0.5 * regular_short);
+    assert_true(chaotic > 0.05);
+    assert_true(fabs(chaotic / chaotic_half - 1.0) < 0.3);
+    assert_memory_equal(&chaotic, &chaotic_other_buckets, sizeof chaotic);
+    assert_true(isnan(exponent(1.0 / 12.0, 0.1, 100, 10, false)));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -179,6 +218,7 @@ int main(void)
         cmocka_unit_test(verlet_energy_error_is_of_order_two_on_a_regular_orbit),
         cmocka_unit_test(states_outside_the_bounded_basin_are_refused),
         cmocka_unit_test(surface_of_section_points_lie_on_the_section),
+        cmocka_unit_test(lyapunov_exponent_tells_regular_from_chaotic),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

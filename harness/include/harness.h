@@ -70,6 +70,7 @@ typedef struct dm_run_spec {
     size_t samples;                  /* buckets in the stored series */
     double energy_limit;             /* |dE| above this: diverged (from the suite) */
     uint64_t step_budget;            /* adaptive runs taking more steps fail (0: none) */
+    bool lyapunov;                   /* estimate the largest Lyapunov exponent (lyapunov.c) */
     int sweep;                       /* index into dm_suite.sweeps, or -1 */
 } dm_run_spec;
 
@@ -195,6 +196,11 @@ typedef struct dm_run_result {
  * out of memory (DM_ENOMEM). */
 dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
                  dm_error *err);
+
+/* The largest Lyapunov exponent of the orbit of `spec` over its first `steps` steps, by
+ * a renormalised nearby trajectory (lyapunov.c); NaN for adaptive methods or when a step
+ * fails. */
+double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *err);
 
 /* Continues the run whose interrupted result (with its checkpoint, as dm_run left it or
  * dm_results_read_runs read it back) is *result: fixed-step runs exactly as if never

@@ -82,6 +82,8 @@
       "max phase-space distance to the exact solution (NaN when none is known)")           \
     X(closest_approach, REAL, metrics, SA, 0, "", "",                                      \
       "smallest distance between two bodies where the method evaluated forces (N-body; NaN otherwise)") \
+    X(lyapunov_exponent, REAL, metrics, SA, 0, "", "",                                     \
+      "largest Lyapunov exponent, 1 / time unit (NaN unless the suite asks for it: lyapunov: true)") \
     X(t_reached, REAL, metrics, A, 0, "", "", "time of the last step taken")               \
     X(wall_seconds, REAL, metrics, SA, 0, "", "", "wall-clock time of the run")            \
     X(ns_per_step, REAL, metrics, SA, 0, "ns/step", "%.1f",                                \
