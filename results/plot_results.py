@@ -14,7 +14,8 @@ Writes, for each problem variant in the file:
 and cost.png: force evaluations per period against max |dE|, one panel per variant. A
 problem without a closed-form period (nbody, henon_heiles) gets the energy plot against
 time in its own units (it has no phase error and no cost per period) and, when its runs
-keep one (two degrees of freedom), <variant>-section.png: the surface of section.
+keep one (two degrees of freedom), <variant>-section.png: the surface of section, and
+when it has extra invariants (nbody), <variant>-invariants.png: their errors against time.
 --format svg (or both) writes SVG. One colour and marker per method everywhere; runs
 that are not ok are drawn with their status, never dropped.
 
@@ -119,6 +120,11 @@ def load(path):
                 "crossing_time": g["crossing_time"][()],
                 "phase_error": g["phase_error"][()],
                 "section": (g["section_q"][()], g["section_p"][()]) if "section_q" in g else None,
+                # the extra invariants' error series: every <name>_error dataset that is
+                # not the energy's, the global or the phase error
+                "invariants": {k[:-len("_error")]: g[k][()] for k in g.keys()
+                               if k.endswith("_error") and k not in ("energy_error", "global_error",
+                                                                      "phase_error")},
             })
     return runs
 
@@ -585,6 +591,38 @@ def plot_section(variant, runs, out, formats):
     return save(fig, out, formats)
 
 
+def plot_invariants(variant, runs, out, formats):
+    """The extra invariants' errors against time (log-log), one panel per invariant, of a
+    problem without a closed-form period (nbody: momentum, angular momentum, centre of
+    mass), each run in its colour and line style."""
+    names = sorted({k for r in runs for k in r["invariants"]})
+    if not names:
+        return []
+    fig, axes = plt.subplots(1, len(names), figsize=(4.2 * len(names), 3.8), squeeze=False)
+    handles = []
+    for ax, name in zip(axes.flat, names):
+        for r in sorted(runs, key=lambda r: (r["method"], r["rank"])):
+            series = r["invariants"].get(name)
+            if series is None or len(series) == 0:
+                continue
+            st = run_line_style(r)
+            y = np.abs(series)
+            y = np.where(y > 0, y, np.nan)  # exactly 0: no point on a log axis
+            (line,) = ax.plot(r["time"] / r["time_unit"], y, color=st["color"], ls=st["ls"], lw=1,
+                              label=status_label(r))
+            if name == names[0]:
+                handles.append(line)
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+        ax.set_title(f"{name} error (unit-free)", fontsize=9)
+        ax.set_xlabel("time (the suite's units)", fontsize=8)
+        ax.grid(True, which="major", lw=0.3, alpha=0.5)
+    legend_outside(axes.flat[-1], handles, title="run (method-step)")
+    fig.suptitle(f"{variant}: invariants at bucket ends", fontsize=10)
+    fig.tight_layout()
+    return save(fig, out, formats)
+
+
 def main():
     ap = Arguments(description=__doc__.splitlines()[0])
     ap.add_argument("results")
@@ -615,6 +653,7 @@ def main():
             # no closed-form period (nbody, henon_heiles): no phase error, no cost per
             # period; the surface of section where the runs keep one
             written += plot_section(variant, rs, os.path.join(outdir, f"{variant}-section"), formats)
+            written += plot_invariants(variant, rs, os.path.join(outdir, f"{variant}-invariants"), formats)
             continue
         written += plot_phase(variant, rs, os.path.join(outdir, f"{variant}-phase"), formats)
         written += plot_work(variant, rs, sweeps, targets, os.path.join(outdir, f"{variant}-work"), formats)
