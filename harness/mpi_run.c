@@ -356,6 +356,15 @@ static void on_result(coordinator *c, const MPI_Status *s)
         fail(c, &e, s->MPI_SOURCE);
     } else {
         job->results[i] = r;
+        /* written at once, as a run of this rank's own threads is (pool.c) */
+        if (job->writer != NULL) {
+            if (dm_results_writer_add(job->writer, i, &job->results[i], &e) != DM_OK) {
+                dm_error_prefix(&e, "%s: ", job->suite->runs[i].id);
+                fail(c, &e, 0);
+            } else {
+                dm_run_result_drop_series(&job->results[i]);
+            }
+        }
         dm_queue_mark_done(&c->queue, i);
         job->runs_received++;
         job->bytes_received += (uint64_t)count;
@@ -465,7 +474,8 @@ static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job 
     if (c->owner == NULL || c->assign_req == NULL || c->stop_req == NULL ||
         c->bye_req == NULL || c->assign_buf == NULL || c->finished == NULL) {
         dm_error_set(&e, DM_ENOMEM, "out of memory for the state of %d ranks", w->size);
-    } else if (dm_queue_init(&c->queue, job->suite, job->results, job->stop, job->progress,
+    } else if (dm_queue_init(&c->queue, job->suite, job->results, job->writer, job->stop,
+                             job->progress,
                              &e) == DM_OK) {
         for (size_t i = 0; i < n; i++)
             c->owner[i] = -1;
@@ -547,7 +557,7 @@ static void worker_start(worker *k, dm_mpi_job *job)
         worker_fail(k, &e);
         return;
     }
-    if (dm_queue_init(&k->queue, job->suite, k->results, job->stop, NULL, &e) != DM_OK) {
+    if (dm_queue_init(&k->queue, job->suite, k->results, NULL, job->stop, NULL, &e) != DM_OK) {
         worker_fail(k, &e);
         return;
     }

@@ -116,7 +116,8 @@ static void record_failure(dm_work_queue *q, const dm_error *err)
 }
 
 dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
-                        volatile int *stop, dm_pool_progress progress, dm_error *err)
+                        dm_results_writer *writer, volatile int *stop,
+                        dm_pool_progress progress, dm_error *err)
 {
     memset(q, 0, sizeof *q);
     size_t n = suite->n_runs ? suite->n_runs : 1;
@@ -131,6 +132,7 @@ dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *
     }
     q->suite = suite;
     q->results = results;
+    q->writer = writer;
     q->stop = stop;
     q->progress = progress;
     q->open = true;
@@ -186,6 +188,10 @@ void dm_queue_serve(dm_work_queue *q)
         dm_status st = q->results[i].checkpoint != NULL
                            ? dm_run_resume(spec, &q->results[i], q->stop, &err)
                            : dm_run(spec, &q->results[i], q->stop, &err);
+        /* written at once and its series freed: memory does not grow with the runs */
+        if (st == DM_OK && q->writer != NULL &&
+            (st = dm_results_writer_add(q->writer, i, &q->results[i], &err)) == DM_OK)
+            dm_run_result_drop_series(&q->results[i]);
 
         pthread_mutex_lock(&q->lock);
         if (st != DM_OK) {
@@ -309,12 +315,12 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
 
 /* ---- the pool of `run --jobs` ---- */
 
-dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_t *order,
-                      size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
-                      size_t *done, dm_error *err)
+dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, dm_results_writer *writer,
+                      const size_t *order, size_t n_order, int jobs, volatile int *stop,
+                      dm_pool_progress progress, size_t *done, dm_error *err)
 {
     dm_work_queue q;
-    dm_status st = dm_queue_init(&q, suite, results, stop, progress, err);
+    dm_status st = dm_queue_init(&q, suite, results, writer, stop, progress, err);
     if (st != DM_OK)
         return st;
     dm_queue_add(&q, order, n_order);

@@ -22,6 +22,9 @@
 typedef struct dm_work_queue {
     const dm_suite *suite;
     dm_run_result *results;        /* results[i] of suite->runs[i] */
+    /* where each run finished here goes as soon as it finishes (its series then freed);
+     * NULL: the results keep their series */
+    dm_results_writer *writer;
     volatile int *stop;            /* set from outside: no run starts after it; may be NULL */
     dm_pool_progress progress;     /* NULL: none */
     pthread_mutex_t lock;
@@ -55,9 +58,11 @@ typedef struct dm_queue_state {
     dm_error error;                /* the first failure, when failed */
 } dm_queue_state;
 
-/* An empty, open queue for the runs of `suite`, their results going to `results`. */
+/* An empty, open queue for the runs of `suite`, their results going to `results` and,
+ * when `writer` is not NULL, written to it as they finish (then their series freed). */
 dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
-                        volatile int *stop, dm_pool_progress progress, dm_error *err);
+                        dm_results_writer *writer, volatile int *stop,
+                        dm_pool_progress progress, dm_error *err);
 
 /* Appends runs to hand out (indices into suite->runs; any out of range, or beyond one
  * of each run, are dropped), and wakes the waiting threads. */

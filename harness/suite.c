@@ -1448,19 +1448,25 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
 
     if ((st = expand_runs(b, suite)) != DM_OK)
         return st;
-    /* Every run's series stays in memory until the file is written: refuse up front a
-     * suite that would run out of it part way. */
-    double bytes = 0.0;
+    /* A run's series stay in memory only until the run is written (as it finishes), so
+     * the runs in memory at once are one a core: refuse up front a suite whose largest
+     * runs, that many of them, would run out of it part way. */
+    double largest = 0.0;
     for (size_t i = 0; i < suite->n_runs; i++)
-        bytes += dm_run_memory_bytes(&suite->runs[i]);
-    double gib = bytes / 1073741824.0;
+        largest = fmax(largest, dm_run_memory_bytes(&suite->runs[i]));
+    long cores = sysconf(_SC_NPROCESSORS_ONLN);
+    size_t at_once = cores > 0 ? (size_t)cores : 1;
+    if (at_once > suite->n_runs)
+        at_once = suite->n_runs;
+    double gib = largest * (double)at_once / 1073741824.0;
     if (gib > b->memory_limit_gib) {
         const yaml_node_t *at = value_of[TOP_MEMORY_LIMIT] ? value_of[TOP_MEMORY_LIMIT]
                                 : value_of[TOP_BUCKETS] ? value_of[TOP_BUCKETS]
                                 : value_of[TOP_SAMPLES] ? value_of[TOP_SAMPLES] : root;
-        return fail_at(c, at, "the %zu runs' series would take about %.3g GiB of memory, above "
-                       "memory_limit_gib = %g (expected fewer buckets or runs, or a larger "
-                       "memory_limit_gib)", suite->n_runs, gib, b->memory_limit_gib);
+        return fail_at(c, at, "the series of %zu runs at once (one a core) would take about "
+                       "%.3g GiB of memory, above memory_limit_gib = %g (expected fewer "
+                       "buckets, or a larger memory_limit_gib)", at_once, gib,
+                       b->memory_limit_gib);
     }
     return resolve_output(b, suite, root);
 }

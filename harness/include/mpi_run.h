@@ -5,8 +5,9 @@
  * request, longest first, exactly in the order one process would take them, from the
  * same work queue as the --jobs threads (pool.h). Each rank runs its runs on its own
  * --jobs threads; only its main thread talks MPI (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
- * dm_run_result (result_pack.h), is stored at its index, and rank 0 writes the one
- * results file with dm_results_write: the file is the one a single process writes.
+ * dm_run_result (result_pack.h), is stored at its index and written at once to the one
+ * results file by rank 0's writer (dm_results_writer_add, serialised with rank 0's own
+ * threads' writes): the file is the one a single process writes.
  *
  * Built without MPI (DM_HAVE_MPI undefined) every function here is a stand-in for a
  * job of one process, so the command line has one code path.
@@ -52,6 +53,8 @@ int dm_mpi_share_suite(dm_mpi_world *w, int code, dm_suite *suite);
 typedef struct dm_mpi_job {
     const dm_suite *suite;
     dm_run_result *results;        /* rank 0: one slot per run of the suite */
+    dm_results_writer *writer;     /* rank 0: where each result goes as it arrives (then
+                                      its series freed); NULL: kept in results */
     const size_t *order;           /* rank 0: the runs to do, longest first */
     size_t n_order;
     int jobs;                      /* threads running runs in this rank */
