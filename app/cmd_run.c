@@ -273,8 +273,12 @@ static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_res
     if (tty)
         fputc('\n', stderr);
     fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
-                    "runs came from the other ranks, %llu bytes\n", world->size, jobs,
+                    "runs came from the other ranks, %llu bytes", world->size, jobs,
             job.runs_received, (unsigned long long)job.bytes_received);
+    if (job.checkpoints_sent > 0)
+        fprintf(stderr, "; %zu interrupted runs went to them with their checkpoints",
+                job.checkpoints_sent);
+    fputc('\n', stderr);
     if (!job.failed)
         return 0;
     fprintf(stderr, "driftmark: run: %s\n", job.error.msg);
@@ -376,10 +380,7 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
         /* 2. the runs not kept from --resume, longest first */
         size_t n_order = 0;
         for (size_t i = 0; i < suite->n_runs; i++) {
-            /* The other ranks run from the start: an interrupted run they are handed is
-             * not continued from its checkpoint (the checkpoint stays here). */
-            if (world->size > 1 && results[i].checkpoint != NULL)
-                dm_run_result_free(&results[i]);
+            /* an interrupted run with its checkpoint is continued (on whatever rank) */
             if (results[i].status == DM_RUN_NOT_RUN || results[i].checkpoint != NULL)
                 order[n_order++] = i;
         }

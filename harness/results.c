@@ -572,6 +572,7 @@ struct dm_results_writer {
     char path[1024];
     char tmp[1200];
     hid_t file, runs;
+    unsigned char *written;        /* written[i]: run i's group is in the file */
     bool broken;                   /* a write failed: the file can only be abandoned */
     dm_error error;                /* why */
 };
@@ -611,6 +612,7 @@ static int writer_close(dm_results_writer *w)
 
 static void writer_free(dm_results_writer *w)
 {
+    free(w->written);
     pthread_mutex_destroy(&w->lock);
     free(w);
 }
@@ -625,9 +627,15 @@ dm_status dm_results_writer_open(const char *path, const dm_suite *suite,
         return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
     w->suite = suite;
     w->file = w->runs = -1;
+    w->written = calloc(suite->n_runs ? suite->n_runs : 1, 1);
+    if (w->written == NULL) {
+        free(w);
+        return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+    }
     snprintf(w->path, sizeof w->path, "%s", path);
     if (strlen(path) >= sizeof w->path ||
         dm_results_temp_path(path, (long)getpid(), w->tmp, sizeof w->tmp) != 0) {
+        free(w->written);
         free(w);
         return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name or "
                             "too long", path);
@@ -667,8 +675,13 @@ dm_status dm_results_writer_add(dm_results_writer *w, size_t index, const dm_run
         st = writer_fail(w, err, DM_EIO, "");
     } else if (index < w->suite->n_runs && r->status != DM_RUN_NOT_RUN) {
         errno = 0;
-        if (write_run(w->runs, w->suite, &w->suite->runs[index], r) != 0)
+        if (w->written[index])
+            st = dm_error_set(err, DM_EIO, "cannot write results to '%s': run %s written "
+                              "twice", w->path, w->suite->runs[index].id);
+        else if (write_run(w->runs, w->suite, &w->suite->runs[index], r) != 0)
             st = writer_fail(w, err, DM_EIO, "its group");
+        else
+            w->written[index] = 1;
     }
     pthread_mutex_unlock(&w->lock);
     return st;
@@ -725,6 +738,15 @@ dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *re
     const char *what = "";
     dm_status st = w->broken ? DM_EIO : DM_OK;
     errno = 0;
+    /* runs not written yet (interrupted runs read back that never ran again) as they are */
+    for (size_t i = 0; st == DM_OK && i < w->suite->n_runs; i++) {
+        if (results[i].status == DM_RUN_NOT_RUN || w->written[i])
+            continue;
+        what = "a run's group";
+        if (write_run(w->runs, w->suite, &w->suite->runs[i], &results[i]) != 0)
+            st = DM_EIO;
+        w->written[i] = 1;
+    }
     if (st == DM_OK)
         st = write_last(w->file, w->suite, results, fits, &what);
     if (writer_close(w) != 0 && st == DM_OK) {

@@ -3,7 +3,8 @@
  * Rank 0 reads and validates the suite (or the file being resumed), sends the suite
  * text to every rank, which validates it again, and then hands out run indices on
  * request, longest first, exactly in the order one process would take them, from the
- * same work queue as the --jobs threads (pool.h). Each rank runs its runs on its own
+ * same work queue as the --jobs threads (pool.h); an interrupted run read back by
+ * --resume travels with its series and checkpoint and is continued where it lands. Each rank runs its runs on its own
  * --jobs threads; only its main thread talks MPI (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
  * dm_run_result (result_pack.h), is stored at its index and written at once to the one
  * results file by rank 0's writer (dm_results_writer_add, serialised with rank 0's own
@@ -68,6 +69,8 @@ typedef struct dm_mpi_job {
     dm_error error;
     size_t done;                   /* runs finished, every rank */
     size_t runs_received;          /* rank 0: results that came from other ranks */
+    size_t checkpoints_sent;       /* rank 0: interrupted runs sent to other ranks with
+                                      their checkpoints, to continue there */
     uint64_t bytes_received;       /* rank 0: their packed size */
 } dm_mpi_job;
 
