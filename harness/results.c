@@ -26,7 +26,9 @@
 
 #include "checkpoint.h"
 #include "dm_build_info.h"
+#include "dm_hash.h"
 #include "harness.h"
+#include "run_index.h"
 
 #define DM_FORMAT_NAME "driftmark-results"
 #define DM_SCHEMA_VERSION 2
@@ -1214,6 +1216,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     hdf5_silence();
     hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
     hid_t runs = -1;
+    dm_run_index ids = { 0 };
     long long schema = 0;
     if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 &&
         schema < DM_SCHEMA_VERSION) {
@@ -1231,11 +1234,20 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /runs group", path);
         goto done;
     }
+    /* the suite's runs by id: a file's rows are looked up, not searched for */
+    if (dm_run_index_init(&ids, suite->n_runs) != 0) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    for (size_t i = 0; i < suite->n_runs; i++)
+        dm_run_index_add(&ids, dm_hash_text(suite->runs[i].id), i);
     for (size_t k = 0; k < n; k++) {
         dm_run_status was = dm_run_status_named(rows[k].status);
         if (was == DM_RUN_NOT_RUN)
             continue;
-        for (size_t i = 0; i < suite->n_runs; i++) {
+        size_t probe = 0;
+        uint64_t key = dm_hash_text(rows[k].run_id);
+        for (size_t i; (i = dm_run_index_next(&ids, key, &probe)) != SIZE_MAX;) {
             const dm_run_spec *spec = &suite->runs[i];
             if (strcmp(spec->id, rows[k].run_id) != 0)
                 continue;
@@ -1276,6 +1288,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
         }
     }
 done:
+    dm_run_index_free(&ids);
     if (runs >= 0)
         H5Gclose(runs);
     if (file >= 0)

@@ -28,6 +28,7 @@
 
 #include "dm_hash.h"
 #include "harness.h"
+#include "run_index.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -430,7 +431,7 @@ typedef struct suite_build {
     double memory_limit_gib;          /* the runs' series may take this much memory */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
-    uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
+    dm_run_index run_ids;             /* the runs so far by their id, to find twins fast */
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -444,7 +445,7 @@ static void build_free(suite_build *b)
     free(b->methods);
     free(b->run_nodes);
     free(b->run_variants);
-    free(b->run_id_hashes);
+    dm_run_index_free(&b->run_ids);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -1119,9 +1120,8 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
     suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
     b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
     b->run_variants = calloc(nv * per_variant, sizeof *b->run_variants);
-    b->run_id_hashes = calloc(nv * per_variant, sizeof *b->run_id_hashes);
     if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL ||
-        b->run_variants == NULL || b->run_id_hashes == NULL) {
+        b->run_variants == NULL || dm_run_index_init(&b->run_ids, nv * per_variant) != 0) {
         free(v);
         return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
     }
@@ -1133,12 +1133,12 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                 dm_run_spec *spec = &suite->runs[suite->n_runs];
                 if ((st = make_run(b, suite, &v[i], me, k, spec)) != DM_OK)
                     goto done;
-                /* Twins are looked for among every earlier run (up to 10^4, so 5e7
-                 * pairs): a 64-bit compare first, the text only when the hashes meet. */
+                /* Twins are looked for among every earlier run by the hash of its id
+                 * (up to 10^5 runs), the text compared only when the hashes meet. */
                 uint64_t id_hash = dm_hash_text(spec->id);
-                for (size_t r = 0; r < suite->n_runs; r++) {
-                    if (b->run_id_hashes[r] != id_hash ||
-                        strcmp(suite->runs[r].id, spec->id) != 0)
+                size_t probe = 0;
+                for (size_t r; (r = dm_run_index_next(&b->run_ids, id_hash, &probe)) != SIZE_MAX;) {
+                    if (strcmp(suite->runs[r].id, spec->id) != 0)
                         continue;
                     const yaml_node_t *here, *first_at;
                     twin_nodes(b, r, &v[i], me->values->node[k], &here, &first_at);
@@ -1154,7 +1154,7 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                 }
                 b->run_nodes[suite->n_runs] = me->values->node[k];
                 b->run_variants[suite->n_runs] = &v[i];
-                b->run_id_hashes[suite->n_runs] = id_hash;
+                dm_run_index_add(&b->run_ids, id_hash, suite->n_runs);
                 suite->n_runs++;
             }
             if (me->values->n >= 2) {

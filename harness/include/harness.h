@@ -31,7 +31,7 @@
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
 #define DM_NAME_MAX 128
 #define DM_CONFIG_MAX 1024
-#define DM_SUITE_MAX_RUNS 10000          /* runs one suite may expand to */
+#define DM_SUITE_MAX_RUNS 100000         /* runs one suite may expand to */
 #define DM_SUITE_MAX_BYTES (1 << 20)     /* the longest suite text read (1 MiB) */
 
 /* ---- what one run is ---- */
