@@ -470,6 +470,9 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         dm_suite_free(&suite);
         return code;
     }
+    /* before the file is opened and the suite shared: a signal while they take their
+     * time stops the runs before they start, and is not lost */
+    catch_signals();
     dm_run_result *results = NULL;
     dm_results_writer *writer = NULL;
     char started[32];
@@ -487,7 +490,6 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         }
         return code;
     }
-    catch_signals();
     if (world->rank > 0) {
         dm_mpi_job job = { .suite = &suite, .jobs = o.jobs, .stop = &stop_flag,
                            .stop_signal = &stop_signal };
