@@ -43,7 +43,9 @@ typedef struct dm_work_queue {
     double cost_total, cost_done;  /* estimated work, for the time left */
     double t0;                     /* dm_clock_seconds() at dm_queue_init */
     const char *current;           /* the run handed out last */
-    unsigned char *running;        /* running[i]: run i runs on a thread here */
+    size_t running[DM_POOL_MAX_JOBS]; /* the runs running on a thread here ... */
+    size_t n_running;              /* ... (a list, not a flag a run: 10^5 runs are scanned
+                                      at every start and end otherwise) */
     pthread_t ticker;              /* redraws the progress every second (with progress) */
     bool ticking;
     pthread_t threads[DM_POOL_MAX_JOBS];
