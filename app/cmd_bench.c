@@ -11,9 +11,11 @@
  * (problems/include/dm_fused_loop.h) is there to beat. It also times writing a one-run
  * results file of the harness run against the run's wall time, reads the peak resident
  * memory, and times CVODE called directly (bench_loops.c) against CVODE through our
- * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs
+ * adapter on the same problem and tolerances. Then it runs a small suite of equal runs
  * through the pool of `driftmark run` (pool.c) with one job and with every core, and
- * checks that both give the same results bit for bit.
+ * checks that both give the same results bit for bit. Last, it times a whole `driftmark
+ * run` of many short runs and reads its peak memory (bench_short_runs.c): the fixed cost
+ * of a run, which writing its group of the results file dominates.
  */
 #include <getopt.h>
 #include <math.h>
