@@ -11,9 +11,11 @@
  * (problems/include/dm_fused_loop.h) is there to beat. It also times writing a one-run
  * results file of the harness run against the run's wall time, reads the peak resident
  * memory, and times CVODE called directly (bench_loops.c) against CVODE through our
- * adapter on the same problem and tolerances. Last, it runs a small suite of equal runs
+ * adapter on the same problem and tolerances. Then it runs a small suite of equal runs
  * through the pool of `driftmark run` (pool.c) with one job and with every core, and
- * checks that both give the same results bit for bit.
+ * checks that both give the same results bit for bit. Last, it times a whole `driftmark
+ * run` of many short runs and reads its peak memory (bench_short_runs.c): the fixed cost
+ * of a run, which writing its group of the results file dominates.
  */
 #include <getopt.h>
 #include <math.h>
@@ -25,6 +27,7 @@
 #include <unistd.h>
 
 #include "bench_loops.h"
+#include "bench_short_runs.h"
 #include "cli.h"
 #include "dm_clock.h"
 #include "dm_json.h"
@@ -563,7 +566,7 @@ static dm_status jobs_round(const dm_suite *suite, dm_run_result *results, const
 {
     free_results(results, suite->n_runs);
     double t0 = dm_clock_seconds();
-    dm_status st = dm_run_pool(suite, results, order, suite->n_runs, jobs, NULL, NULL, NULL,
+    dm_status st = dm_run_pool(suite, results, NULL, order, suite->n_runs, jobs, NULL, NULL, NULL,
                                err);
     *seconds = dm_clock_seconds() - t0;
     if (st != DM_OK)
@@ -689,8 +692,8 @@ static void json_case(FILE *f, const char *problem, const char *key, double valu
 static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb);
 
 static void print_json(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
-                       const cvode_result *cv,
-                       size_t n_cv, const jobs_result *jb, long rss_before, long rss_after)
+                       const cvode_result *cv, size_t n_cv, const jobs_result *jb,
+                       const dm_short_runs_result *sr, long rss_before, long rss_after)
 {
     fprintf(f, "{\n  \"quick\": %s,\n  \"samples\": %d,\n  \"cases\": [\n", quick ? "true" : "false",
             BENCH_SAMPLES);
@@ -757,7 +760,13 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const dm_benc
     }
     fputs("},\n  \"jobs_speedup\": ", f);
     dm_json_number(f, jb->one_seconds / jb->all_seconds, "%.6g");
-    fputs("\n}\n", f);
+    fprintf(f, ",\n  \"short_runs\": {\"runs\": %zu, \"steps_per_run\": %llu, \"buckets\": %d, ",
+            sr->runs, (unsigned long long)sr->steps_per_run, sr->buckets);
+    json_field(f, "seconds", sr->seconds, false);
+    json_field(f, "ms_per_run", 1e3 * sr->seconds / (double)sr->runs, false);
+    json_field(f, "peak_mib", sr->peak_mib, false);
+    json_field(f, "file_bytes", (double)sr->file_bytes, true);
+    fputs("}\n}\n", f);
 }
 
 /* The N-body rows (bench_nbody.c): force pairs per second. */
@@ -795,6 +804,7 @@ static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb)
 
 static void print_text(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
                        const cvode_result *cv, size_t n_cv, const jobs_result *jb,
+                       const dm_short_runs_result *sr,
                        long rss_before, long rss_after)
 {
     fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
@@ -849,13 +859,20 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const dm_benc
     fprintf(f, "  --jobs 1 %.3f s, --jobs %d %.3f s: speed-up %.2f; results %s\n", jb->one_seconds,
             jb->jobs, jb->all_seconds, jb->one_seconds / jb->all_seconds,
             jb->identical ? "identical bit for bit" : jb->difference);
+    fprintf(f, "\nmany short runs: `driftmark run` of %zu runs of %llu steps (%d buckets, every "
+               "core), the whole process\n", sr->runs, (unsigned long long)sr->steps_per_run,
+            sr->buckets);
+    fprintf(f, "  %.3f s, %.3f ms a run, peak resident memory %.1f MiB, results file %.1f MiB\n",
+            sr->seconds, 1e3 * sr->seconds / (double)sr->runs, sr->peak_mib,
+            (double)sr->file_bytes / 1048576.0);
 }
 
 static void print_usage(FILE *out)
 {
     fprintf(out, "usage: driftmark bench [--quick] [--json]\n"
                  "  times the harness against hand-written loops, the results file write and\n"
-                 "  the CVODE adapter, and 1 against N jobs on a suite of equal runs; --quick\n"
+                 "  the CVODE adapter, 1 against N jobs on a suite of equal runs, and a whole\n"
+                 "  `driftmark run` of many short runs (time a run, peak memory); --quick\n"
                  "  runs ~0.2 s per measurement instead of ~1.5 s x 3\n");
 }
 
@@ -912,9 +929,14 @@ int dm_cmd_bench(int argc, char **argv)
         fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
         return 1;
     }
+    dm_short_runs_result sr;
+    if (dm_bench_short_runs(quick ? 200 : 1000, BENCH_SAMPLES, &sr, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
+        return 1;
+    }
     if (json)
-        print_json(stdout, quick, cr, nb, cv, N_CVODE, &jb, rss_before, rss_after);
+        print_json(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, nb, cv, N_CVODE, &jb, rss_before, rss_after);
+        print_text(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
     return 0;
 }

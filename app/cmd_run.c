@@ -119,10 +119,13 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
 }
 
 /* Rank 0 (or the one process): loads the suite, refuses to replace a file without
- * --force, and reads back what --resume keeps. Returns 0 with *suite and *results
- * made, or the exit status after printing the one-line error (nothing left made). */
-static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
-                   const char *output, const char *resume, bool force)
+ * --force, opens the results file under its temporary name (*writer), and reads back
+ * what --resume keeps, writing each kept run to it at once. Returns 0 with *suite,
+ * *results and *writer made, or the exit status after printing the one-line error
+ * (nothing left made, no temporary file left). */
+static int prepare(dm_suite *suite, dm_run_result **results, dm_results_writer **writer,
+                   const char *started, const char *path, const char *output,
+                   const char *resume, bool force)
 {
     dm_error err = { 0 };
     dm_status st = load_suite(suite, path, output, resume, &err);
@@ -142,16 +145,20 @@ static int prepare(dm_suite *suite, dm_run_result **results, const char *path,
         dm_suite_free(suite);
         return 1;
     }
+    st = dm_results_writer_open(suite->output, suite, started, writer, &err);
+    size_t kept = 0;
+    if (st == DM_OK && resume != NULL)
+        st = dm_results_read_runs(resume, suite, *results, *writer, &kept, &err);
+    if (st != DM_OK) {
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        dm_results_writer_abort(*writer);
+        *writer = NULL;
+        dm_cli_free_results(*results, suite->n_runs);
+        *results = NULL;
+        dm_suite_free(suite);
+        return st == DM_EINPUT ? 2 : 1;
+    }
     if (resume != NULL) {
-        size_t kept = 0;
-        st = dm_results_read_runs(resume, suite, *results, &kept, &err);
-        if (st != DM_OK) {
-            fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            dm_cli_free_results(*results, suite->n_runs);
-            *results = NULL;
-            dm_suite_free(suite);
-            return st == DM_EINPUT ? 2 : 1;
-        }
         size_t continued = 0;
         for (size_t i = 0; i < suite->n_runs; i++)
             continued += (*results)[i].checkpoint != NULL;
@@ -243,12 +250,12 @@ static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_o
  * rank (mpi_run.c); each result lands at its own index either way. Returns 0, or 1
  * when a run could not be run (reported). */
 static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_result *results,
-                    const size_t *order, size_t n_order, int jobs)
+                    dm_results_writer *writer, const size_t *order, size_t n_order, int jobs)
 {
     bool tty = isatty(STDERR_FILENO);
     if (world->size == 1) {
         dm_error err = { 0 };
-        dm_status st = dm_run_pool(suite, results, order, n_order, jobs, &stop_flag,
+        dm_status st = dm_run_pool(suite, results, writer, order, n_order, jobs, &stop_flag,
                                    tty ? progress : progress_lines, NULL, &err);
         if (tty)
             fputc('\n', stderr);
@@ -258,7 +265,7 @@ static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_res
         return 1;
     }
     /* rank 0 hands the runs out to every rank (its own threads too) in this order */
-    dm_mpi_job job = { .suite = suite, .results = results, .order = order,
+    dm_mpi_job job = { .suite = suite, .results = results, .writer = writer, .order = order,
                        .n_order = n_order, .jobs = jobs, .stop = &stop_flag,
                        .stop_signal = &stop_signal,
                        .progress = tty ? progress : progress_lines };
@@ -266,21 +273,26 @@ static int run_runs(const dm_mpi_world *world, const dm_suite *suite, dm_run_res
     if (tty)
         fputc('\n', stderr);
     fprintf(stderr, "driftmark: run: spread over %d ranks (%d threads at rank 0); %zu "
-                    "runs came from the other ranks, %llu bytes\n", world->size, jobs,
+                    "runs came from the other ranks, %llu bytes", world->size, jobs,
             job.runs_received, (unsigned long long)job.bytes_received);
+    if (job.checkpoints_sent > 0)
+        fprintf(stderr, "; %zu interrupted runs went to them with their checkpoints",
+                job.checkpoints_sent);
+    fputc('\n', stderr);
     if (!job.failed)
         return 0;
     fprintf(stderr, "driftmark: run: %s\n", job.error.msg);
     return 1;
 }
 
-/* Writes every run that ran (whatever stopped the others), prints the summary table,
- * the sweep fits, where the file is, and how to continue after a signal. `fits` and
- * `rows` have room for every sweep and run. Returns the exit status, from `code`, the
- * status so far. */
+/* Completes the file of every run that ran (whatever stopped the others; each is in it
+ * already), prints the summary table, the sweep fits, where the file is, and how to
+ * continue after a signal. `fits` and `rows` have room for every sweep and run. Returns
+ * the exit status, from `code`, the status so far. The writer is finished or abandoned
+ * (a write that failed was reported when it failed). */
 static int write_and_report(const dm_suite *suite, const dm_run_result *results,
-                            dm_sweep_fit *fits, dm_summary_row *rows, const char *started,
-                            double t0, int code)
+                            dm_results_writer *writer, dm_sweep_fit *fits,
+                            dm_summary_row *rows, double t0, int code)
 {
     dm_error err = { 0 };
     for (size_t w = 0; w < suite->n_sweeps; w++)
@@ -293,13 +305,14 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
         if (results[i].status != DM_RUN_NOT_RUN)
             dm_summary_row_fill(&rows[n_rows++], &suite->runs[i], &results[i]);
     bool written = false;
-    if (n_rows > 0) {
-        if (dm_results_write(suite->output, suite, results, fits, started, &err) != DM_OK) {
-            fprintf(stderr, "driftmark: run: %s\n", err.msg);
-            code = 1;
-        } else {
-            written = true;
-        }
+    if (n_rows == 0 || dm_results_writer_failed(writer)) {
+        dm_results_writer_abort(writer);
+        code = n_rows == 0 ? code : 1;
+    } else if (dm_results_writer_finish(writer, results, fits, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: run: %s\n", err.msg);
+        code = 1;
+    } else {
+        written = true;
     }
     dm_table_print(stdout, rows, n_rows, DM_TABLE_TEXT);
     if (suite->n_sweeps > 0) {
@@ -340,10 +353,11 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
     return code;
 }
 
-/* Rank 0 (or the one process), with the suite loaded and checked: runs what `results`
- * does not hold yet, longest first, then writes and reports. Returns the exit status. */
+/* Rank 0 (or the one process), with the suite loaded and checked and the file open:
+ * runs what `results` does not hold yet, longest first, then completes the file and
+ * reports. Returns the exit status. */
 static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_result *results,
-                     int jobs)
+                     dm_results_writer *writer, int jobs)
 {
     /* 1. room for the order of the runs, the sweep fits and the table */
     size_t n = suite->n_runs ? suite->n_runs : 1;
@@ -360,25 +374,21 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
                                .stop_signal = &stop_signal };
             dm_mpi_coordinate(world, &job);
         }
+        dm_results_writer_abort(writer);
         code = 1;
     } else {
         /* 2. the runs not kept from --resume, longest first */
-        char started[32];
-        dm_cli_utc_now(started, sizeof started);
         size_t n_order = 0;
         for (size_t i = 0; i < suite->n_runs; i++) {
-            /* The other ranks run from the start: an interrupted run they are handed is
-             * not continued from its checkpoint (the checkpoint stays here). */
-            if (world->size > 1 && results[i].checkpoint != NULL)
-                dm_run_result_free(&results[i]);
+            /* an interrupted run with its checkpoint is continued (on whatever rank) */
             if (results[i].status == DM_RUN_NOT_RUN || results[i].checkpoint != NULL)
                 order[n_order++] = i;
         }
         dm_run_order_longest_first(suite, order, n_order);
-        /* 3. run them, then write every run that ran and report */
+        /* 3. run them (each written as it finishes), then complete the file and report */
         double t0 = dm_clock_seconds();
-        code = run_runs(world, suite, results, order, n_order, jobs);
-        code = write_and_report(suite, results, fits, rows, started, t0, code);
+        code = run_runs(world, suite, results, writer, order, n_order, jobs);
+        code = write_and_report(suite, results, writer, fits, rows, t0, code);
     }
     free(order);
     if (fits != NULL)
@@ -460,20 +470,26 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         dm_suite_free(&suite);
         return code;
     }
+    /* before the file is opened and the suite shared: a signal while they take their
+     * time stops the runs before they start, and is not lost */
+    catch_signals();
     dm_run_result *results = NULL;
-    code = world->rank == 0 ? prepare(&suite, &results, o.suite_path, o.output, o.resume,
-                                      o.force)
+    dm_results_writer *writer = NULL;
+    char started[32];
+    dm_cli_utc_now(started, sizeof started);
+    code = world->rank == 0 ? prepare(&suite, &results, &writer, started, o.suite_path,
+                                      o.output, o.resume, o.force)
                             : 0;
     /* every rank learns rank 0's verdict; the others validate the same suite text */
     code = dm_mpi_share_suite(world, code, &suite);
     if (code != 0) {
+        dm_results_writer_abort(writer);
         if (results != NULL) {
             dm_cli_free_results(results, suite.n_runs);
             dm_suite_free(&suite);
         }
         return code;
     }
-    catch_signals();
     if (world->rank > 0) {
         dm_mpi_job job = { .suite = &suite, .jobs = o.jobs, .stop = &stop_flag,
                            .stop_signal = &stop_signal };
@@ -482,7 +498,7 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
          * status every rank takes */
         code = job.failed ? 1 : 0;
     } else {
-        code = run_suite(world, &suite, results, o.jobs);
+        code = run_suite(world, &suite, results, writer, o.jobs);
         dm_cli_free_results(results, suite.n_runs);
     }
     dm_suite_free(&suite);

@@ -8,6 +8,8 @@
  *
  * Messages (MPI_COMM_WORLD, only the main thread of a rank sends or receives):
  *   worker -> 0   REQUEST  int: threads of the worker that wait for a run
+ *   0 -> worker   RESUME   bytes: an interrupted run handed out next, packed with its
+ *                          series so far and its checkpoint (result_pack.h), to continue
  *   0 -> worker   ASSIGN   uint64[]: run indices; none means "nothing more to run"
  *   worker -> 0   RESULT   bytes: one packed dm_run_result
  *   worker -> 0   FAILED   text: a run could not be run (out of memory, ...)
@@ -30,6 +32,7 @@
 #include "mpi_run.h"
 
 #include <fcntl.h>
+#include <limits.h>
 #include <sched.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -107,7 +110,7 @@ int dm_mpi_end(dm_mpi_world *w, int code) { return code; }
 
 enum {
     TAG_REQUEST = 101, TAG_ASSIGN, TAG_RESULT, TAG_FAILED, TAG_STOPPED, TAG_FINISHED,
-    TAG_STOP, TAG_BYE
+    TAG_STOP, TAG_BYE, TAG_RESUME
 };
 
 /* Runs one ASSIGN carries at most: a rank with more waiting threads asks again. */
@@ -302,6 +305,11 @@ typedef struct coordinator {
     bool *finished;                /* the rank said FINISHED */
     int n_finished;
     bool stop_sent;
+    /* the interrupted runs sent with their checkpoints (RESUME), each buffer kept until
+     * its send completed; room for every run of the order that has a checkpoint */
+    MPI_Request *resume_req;
+    unsigned char **resume_buf;
+    size_t n_resume, resume_capacity;
 } coordinator;
 
 /* A failure of the job; one at another rank is named after it. */
@@ -312,8 +320,40 @@ static void fail(coordinator *c, dm_error *e, int rank)
     dm_queue_fail(&c->queue, e);
 }
 
+/* RESUME: run i, interrupted and read back with its checkpoint, goes to rank src with
+ * its series so far and its checkpoint, to be continued there. Rank 0 keeps its copy
+ * until the run comes back (it is written as it was if it never does: the job
+ * stopped first). */
+static void send_checkpoint(coordinator *c, int src, size_t i)
+{
+    dm_mpi_job *job = c->job;
+    unsigned char *buf = NULL;
+    size_t size = 0;
+    dm_error e = { 0 };
+    if (c->n_resume >= c->resume_capacity) {
+        dm_error_set(&e, DM_EIO, "no room to send run %s with its checkpoint",
+                     job->suite->runs[i].id);
+        fail(c, &e, 0);
+        return;
+    }
+    if (dm_result_pack(job->suite, i, &job->results[i], &buf, &size, &e) != DM_OK ||
+        size > (size_t)INT_MAX) {
+        if (e.code == DM_OK)
+            dm_error_set(&e, DM_EIO, "run %s with its checkpoint is too large to send "
+                         "(%zu bytes)", job->suite->runs[i].id, size);
+        free(buf);
+        fail(c, &e, 0);
+        return;
+    }
+    c->resume_buf[c->n_resume] = buf;
+    MPI_Isend(buf, (int)size, MPI_BYTE, src, TAG_RESUME, MPI_COMM_WORLD,
+              &c->resume_req[c->n_resume]);
+    c->n_resume++;
+    job->checkpoints_sent++;
+}
+
 /* REQUEST: up to the runs asked for (at most MAX_ASK), none once the job stops or
- * failed, in one ASSIGN. */
+ * failed, in one ASSIGN, after the RESUME of each interrupted one. */
 static void on_request(coordinator *c, int src)
 {
     int k = 0;
@@ -324,6 +364,8 @@ static void on_request(coordinator *c, int src)
     for (size_t j = 0; j < n; j++) {
         c->owner[runs[j]] = src;
         c->assign_buf[src][j] = runs[j];
+        if (c->job->results[runs[j]].checkpoint != NULL)
+            send_checkpoint(c, src, runs[j]);
     }
     MPI_Isend(c->assign_buf[src], (int)n, MPI_UINT64_T, src, TAG_ASSIGN, MPI_COMM_WORLD,
               &c->assign_req[src]);
@@ -349,13 +391,24 @@ static void on_result(coordinator *c, const MPI_Status *s)
     dm_run_result r;
     if (dm_result_unpack(job->suite, buf, (size_t)count, &i, &r, &e) != DM_OK) {
         fail(c, &e, s->MPI_SOURCE);
-    } else if (c->owner[i] != s->MPI_SOURCE || job->results[i].status != DM_RUN_NOT_RUN) {
+    } else if (c->owner[i] != s->MPI_SOURCE ||
+               (job->results[i].status != DM_RUN_NOT_RUN && job->results[i].checkpoint == NULL)) {
         dm_run_result_free(&r);
         dm_error_set(&e, DM_EIO, "sent a result of run %s it was not given",
                      job->suite->runs[i].id);
         fail(c, &e, s->MPI_SOURCE);
     } else {
+        dm_run_result_free(&job->results[i]); /* the copy of a run continued there */
         job->results[i] = r;
+        /* written at once, as a run of this rank's own threads is (pool.c) */
+        if (job->writer != NULL) {
+            if (dm_results_writer_add(job->writer, i, &job->results[i], &e) != DM_OK) {
+                dm_error_prefix(&e, "%s: ", job->suite->runs[i].id);
+                fail(c, &e, 0);
+            } else {
+                dm_run_result_drop_series(&job->results[i]);
+            }
+        }
         dm_queue_mark_done(&c->queue, i);
         job->runs_received++;
         job->bytes_received += (uint64_t)count;
@@ -440,6 +493,12 @@ static void forward_stop(coordinator *c)
 
 static void coordinator_free(coordinator *c)
 {
+    for (size_t j = 0; j < c->n_resume; j++) {
+        wait_gently(&c->resume_req[j]);
+        free(c->resume_buf[j]);
+    }
+    free(c->resume_req);
+    free(c->resume_buf);
     free(c->owner);
     free(c->assign_req);
     free(c->stop_req);
@@ -461,11 +520,17 @@ static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job 
     c->bye_req = malloc(size * sizeof *c->bye_req);
     c->assign_buf = malloc(size * sizeof *c->assign_buf);
     c->finished = calloc(size, sizeof *c->finished);
+    for (size_t j = 0; j < job->n_order; j++)
+        c->resume_capacity += job->results[job->order[j]].checkpoint != NULL;
+    c->resume_req = malloc((c->resume_capacity + 1) * sizeof *c->resume_req);
+    c->resume_buf = malloc((c->resume_capacity + 1) * sizeof *c->resume_buf);
     dm_error e = { 0 };
     if (c->owner == NULL || c->assign_req == NULL || c->stop_req == NULL ||
-        c->bye_req == NULL || c->assign_buf == NULL || c->finished == NULL) {
+        c->bye_req == NULL || c->assign_buf == NULL || c->finished == NULL ||
+        c->resume_req == NULL || c->resume_buf == NULL) {
         dm_error_set(&e, DM_ENOMEM, "out of memory for the state of %d ranks", w->size);
-    } else if (dm_queue_init(&c->queue, job->suite, job->results, job->stop, job->progress,
+    } else if (dm_queue_init(&c->queue, job->suite, job->results, job->writer, job->stop,
+                             job->progress,
                              &e) == DM_OK) {
         for (size_t i = 0; i < n; i++)
             c->owner[i] = -1;
@@ -547,7 +612,7 @@ static void worker_start(worker *k, dm_mpi_job *job)
         worker_fail(k, &e);
         return;
     }
-    if (dm_queue_init(&k->queue, job->suite, k->results, job->stop, NULL, &e) != DM_OK) {
+    if (dm_queue_init(&k->queue, job->suite, k->results, NULL, job->stop, NULL, &e) != DM_OK) {
         worker_fail(k, &e);
         return;
     }
@@ -629,6 +694,37 @@ static void on_assign(worker *k, const MPI_Status *s)
         dm_queue_close(&k->queue);
 }
 
+/* RESUME: an interrupted run with its series and checkpoint, continued by this rank's
+ * threads (pool.c) when its ASSIGN, which follows, adds it to the queue. */
+static void on_resume(worker *k, const MPI_Status *s)
+{
+    int count = 0;
+    MPI_Get_count(s, MPI_BYTE, &count);
+    unsigned char *buf = count > 0 ? malloc((size_t)count) : NULL;
+    dm_error e = { 0 };
+    if (buf == NULL) {
+        receive_and_drop(s);
+        dm_error_set(&e, DM_ENOMEM, "out of memory receiving a checkpoint of %d bytes", count);
+        worker_fail(k, &e);
+        return;
+    }
+    MPI_Recv(buf, count, MPI_BYTE, 0, TAG_RESUME, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+    size_t i = 0;
+    dm_run_result r;
+    if (dm_result_unpack(k->job->suite, buf, (size_t)count, &i, &r, &e) != DM_OK) {
+        worker_fail(k, &e);
+    } else if (k->results == NULL || k->results[i].status != DM_RUN_NOT_RUN ||
+               r.checkpoint == NULL) {
+        dm_run_result_free(&r);
+        dm_error_set(&e, DM_EIO, "was sent run %s to continue, without a checkpoint or twice",
+                     k->job->suite->runs[i].id);
+        worker_fail(k, &e);
+    } else {
+        k->results[i] = r;
+    }
+    free(buf);
+}
+
 /* Takes every message of rank 0 already here; true when there was one. */
 static bool receive(worker *k)
 {
@@ -639,6 +735,8 @@ static bool receive(worker *k)
         busy = true;
         if (s.MPI_TAG == TAG_ASSIGN) {
             on_assign(k, &s);
+        } else if (s.MPI_TAG == TAG_RESUME) {
+            on_resume(k, &s);
         } else if (s.MPI_TAG == TAG_STOP) {
             MPI_Recv(NULL, 0, MPI_BYTE, 0, TAG_STOP, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
             *k->job->stop = 1;

@@ -64,16 +64,18 @@ static void show_progress(dm_work_queue *q, const char *current)
         return;
     double total = q->cost_total > 0.0 ? q->cost_total : 1.0, done = q->cost_done;
     char line[DM_RUN_ID_MAX + 64] = "";
-    for (size_t i = 0; i < q->suite->n_runs; i++) {
-        if (!q->running[i])
-            continue;
+    size_t first = SIZE_MAX; /* the line names the running run of the smallest index */
+    for (size_t j = 0; j < q->n_running; j++) {
+        size_t i = q->running[j];
         const dm_run_result *r = &q->results[i];
         double f = (double)__atomic_load_n(&r->live_fraction, __ATOMIC_RELAXED) / 4294967296.0;
         done += f * dm_run_estimated_cost(&q->suite->runs[i]);
-        if (current == NULL && line[0] == '\0')
+        if (current == NULL && i < first) {
+            first = i;
             snprintf(line, sizeof line, "%s %.0f%% (%llu steps)", q->suite->runs[i].id,
                      100.0 * f,
                      (unsigned long long)__atomic_load_n(&r->live_steps, __ATOMIC_RELAXED));
+        }
     }
     if (current == NULL)
         current = line[0] ? line : q->current ? q->current : "";
@@ -97,11 +99,21 @@ static void *ticker_thread(void *arg)
     return NULL;
 }
 
+/* Run i no longer runs here (under the lock; a run of another rank never did). */
+static void running_remove(dm_work_queue *q, size_t i)
+{
+    for (size_t j = 0; j < q->n_running; j++)
+        if (q->running[j] == i) {
+            q->running[j] = q->running[--q->n_running];
+            return;
+        }
+}
+
 /* Counts run i done (under the lock); the progress names it. */
 static void count_done(dm_work_queue *q, size_t i)
 {
     q->done++;
-    q->running[i] = 0;
+    running_remove(q, i);
     q->cost_done += dm_run_estimated_cost(&q->suite->runs[i]);
     show_progress(q, q->suite->runs[i].id);
 }
@@ -116,21 +128,21 @@ static void record_failure(dm_work_queue *q, const dm_error *err)
 }
 
 dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
-                        volatile int *stop, dm_pool_progress progress, dm_error *err)
+                        dm_results_writer *writer, volatile int *stop,
+                        dm_pool_progress progress, dm_error *err)
 {
     memset(q, 0, sizeof *q);
     size_t n = suite->n_runs ? suite->n_runs : 1;
     q->order = malloc(n * sizeof *q->order);
     q->finished = malloc(n * sizeof *q->finished);
-    q->running = calloc(n, sizeof *q->running);
-    if (q->order == NULL || q->finished == NULL || q->running == NULL) {
+    if (q->order == NULL || q->finished == NULL) {
         free(q->order);
         free(q->finished);
-        free(q->running);
         return dm_error_set(err, DM_ENOMEM, "out of memory for the run queue of %zu runs", n);
     }
     q->suite = suite;
     q->results = results;
+    q->writer = writer;
     q->stop = stop;
     q->progress = progress;
     q->open = true;
@@ -177,7 +189,7 @@ void dm_queue_serve(dm_work_queue *q)
         size_t i = q->order[q->next++];
         const dm_run_spec *spec = &q->suite->runs[i];
         q->current = spec->id;
-        q->running[i] = 1;
+        q->running[q->n_running++] = i; /* at most one a thread */
         show_progress(q, spec->id);
         pthread_mutex_unlock(&q->lock);
 
@@ -186,10 +198,14 @@ void dm_queue_serve(dm_work_queue *q)
         dm_status st = q->results[i].checkpoint != NULL
                            ? dm_run_resume(spec, &q->results[i], q->stop, &err)
                            : dm_run(spec, &q->results[i], q->stop, &err);
+        /* written at once and its series freed: memory does not grow with the runs */
+        if (st == DM_OK && q->writer != NULL &&
+            (st = dm_results_writer_add(q->writer, i, &q->results[i], &err)) == DM_OK)
+            dm_run_result_drop_series(&q->results[i]);
 
         pthread_mutex_lock(&q->lock);
         if (st != DM_OK) {
-            q->running[i] = 0;
+            running_remove(q, i);
             dm_error_prefix(&err, "%s: ", spec->id);
             record_failure(q, &err);
             break;
@@ -297,9 +313,7 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
     pthread_cond_destroy(&q->wake);
     free(q->order);
     free(q->finished);
-    free(q->running);
     q->order = q->finished = NULL;
-    q->running = NULL;
     if (!q->failed)
         return DM_OK;
     if (err != NULL)
@@ -309,12 +323,12 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
 
 /* ---- the pool of `run --jobs` ---- */
 
-dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_t *order,
-                      size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
-                      size_t *done, dm_error *err)
+dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, dm_results_writer *writer,
+                      const size_t *order, size_t n_order, int jobs, volatile int *stop,
+                      dm_pool_progress progress, size_t *done, dm_error *err)
 {
     dm_work_queue q;
-    dm_status st = dm_queue_init(&q, suite, results, stop, progress, err);
+    dm_status st = dm_queue_init(&q, suite, results, writer, stop, progress, err);
     if (st != DM_OK)
         return st;
     dm_queue_add(&q, order, n_order);

@@ -22,6 +22,9 @@
 typedef struct dm_work_queue {
     const dm_suite *suite;
     dm_run_result *results;        /* results[i] of suite->runs[i] */
+    /* where each run finished here goes as soon as it finishes (its series then freed);
+     * NULL: the results keep their series */
+    dm_results_writer *writer;
     volatile int *stop;            /* set from outside: no run starts after it; may be NULL */
     dm_pool_progress progress;     /* NULL: none */
     pthread_mutex_t lock;
@@ -40,7 +43,9 @@ typedef struct dm_work_queue {
     double cost_total, cost_done;  /* estimated work, for the time left */
     double t0;                     /* dm_clock_seconds() at dm_queue_init */
     const char *current;           /* the run handed out last */
-    unsigned char *running;        /* running[i]: run i runs on a thread here */
+    size_t running[DM_POOL_MAX_JOBS]; /* the runs running on a thread here ... */
+    size_t n_running;              /* ... (a list, not a flag a run: 10^5 runs are scanned
+                                      at every start and end otherwise) */
     pthread_t ticker;              /* redraws the progress every second (with progress) */
     bool ticking;
     pthread_t threads[DM_POOL_MAX_JOBS];
@@ -55,9 +60,11 @@ typedef struct dm_queue_state {
     dm_error error;                /* the first failure, when failed */
 } dm_queue_state;
 
-/* An empty, open queue for the runs of `suite`, their results going to `results`. */
+/* An empty, open queue for the runs of `suite`, their results going to `results` and,
+ * when `writer` is not NULL, written to it as they finish (then their series freed). */
 dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
-                        volatile int *stop, dm_pool_progress progress, dm_error *err);
+                        dm_results_writer *writer, volatile int *stop,
+                        dm_pool_progress progress, dm_error *err);
 
 /* Appends runs to hand out (indices into suite->runs; any out of range, or beyond one
  * of each run, are dropped), and wakes the waiting threads. */

@@ -3,13 +3,15 @@
  * The layout is our file contract, documented in results/README.md; change both
  * together and raise DM_SCHEMA_VERSION when a reader would be misled.
  *
- * The file is written under a temporary name in the target's own directory and renamed
- * into place only after HDF5 closed it without error, so a crash, a full disk or a
- * file-size limit never leaves a half-written file under the final name.
+ * The file is written under a temporary name in the target's own directory, each run's
+ * group as the run finishes (the writer below), and renamed into place only after HDF5
+ * closed it without error and it was synced, so a crash, a full disk or a file-size
+ * limit never leaves a half-written file under the final name.
  */
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
+#include <pthread.h>
 #include <stdarg.h>
 #include <stdbool.h>
 #include <stddef.h>
@@ -24,8 +26,10 @@
 
 #include "checkpoint.h"
 #include "dm_build_info.h"
+#include "dm_hash.h"
 #include "harness.h"
 #include "nbody.h"
+#include "run_index.h"
 
 #define DM_FORMAT_NAME "driftmark-results"
 #define DM_SCHEMA_VERSION 2
@@ -37,8 +41,28 @@
  * prints "HDF5: infinite loop closing library" and a line of codes after a damaged file
  * failed to open. (The setting is per thread in a thread-safe HDF5: every thread that
  * opens a file calls this first.) */
+/* A results file whose writing failed (a full disk, a file-size limit) may stay half
+ * closed inside HDF5 1.10, and its own clean-up at exit then crashes on it. So HDF5
+ * does not clean up by itself (H5dont_atexit, before its first call); we close it at
+ * exit unless a file was left so. */
+static bool hdf5_left_broken;
+static pthread_once_t hdf5_once = PTHREAD_ONCE_INIT;
+
+static void hdf5_end(void)
+{
+    if (!__atomic_load_n(&hdf5_left_broken, __ATOMIC_RELAXED))
+        H5close();
+}
+
+static void hdf5_start(void)
+{
+    H5dont_atexit();
+    atexit(hdf5_end);
+}
+
 static void hdf5_silence(void)
 {
+    pthread_once(&hdf5_once, hdf5_start);
     H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
 }
 
@@ -558,14 +582,139 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     return rc;
 }
 
-static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_result *results,
-                           const dm_sweep_fit *fits, const char *start_time_utc,
-                           const char **what)
-{
-    *what = "root attributes";
-    if (write_root(file, suite, start_time_utc) != 0)
-        return DM_EIO;
+/* ---- the writer: the file written run by run ---- */
 
+/* The file under its temporary name, open while the runs run. Each run's group is
+ * written as the run finishes (dm_results_writer_add), from whichever thread finished
+ * it: the lock keeps every HDF5 call of the writer on one thread at a time. /summary,
+ * the root's n_runs_written and /sweeps need every run, so they are written last, by
+ * dm_results_writer_finish, which closes the file, syncs it and renames it into place. */
+struct dm_results_writer {
+    pthread_mutex_t lock;
+    const dm_suite *suite;
+    char path[1024];
+    char tmp[1200];
+    hid_t file, runs;
+    unsigned char *written;        /* written[i]: run i's group is in the file */
+    bool broken;                   /* a write failed: the file can only be abandoned */
+    dm_error error;                /* why */
+};
+
+/* Records the first failure of the writer (under its lock) and returns its code. */
+static dm_status writer_fail(dm_results_writer *w, dm_error *err, dm_status code,
+                             const char *what)
+{
+    int e = errno; /* set to 0 before the HDF5 calls that failed */
+    if (!w->broken) {
+        w->broken = true;
+        if (code == DM_ENOMEM)
+            dm_error_set(&w->error, DM_ENOMEM, "out of memory writing results to '%s'",
+                         w->path);
+        else
+            dm_error_set(&w->error, code, "cannot write results to '%s': writing %s failed%s%s",
+                         w->path, what, e != 0 ? ": " : "", e != 0 ? strerror(e) : "");
+    }
+    if (err != NULL)
+        *err = w->error;
+    return w->error.code;
+}
+
+/* Closes what is open of the file (a failure to close is a failure to write). */
+static int writer_close(dm_results_writer *w)
+{
+    if (w->broken)
+        __atomic_store_n(&hdf5_left_broken, true, __ATOMIC_RELAXED);
+    int rc = 0;
+    if (w->runs >= 0 && H5Gclose(w->runs) < 0)
+        rc = -1;
+    if (w->file >= 0 && H5Fclose(w->file) < 0)
+        rc = -1;
+    w->runs = w->file = -1;
+    return rc;
+}
+
+static void writer_free(dm_results_writer *w)
+{
+    free(w->written);
+    pthread_mutex_destroy(&w->lock);
+    free(w);
+}
+
+dm_status dm_results_writer_open(const char *path, const dm_suite *suite,
+                                 const char *start_time_utc, dm_results_writer **out,
+                                 dm_error *err)
+{
+    *out = NULL;
+    dm_results_writer *w = calloc(1, sizeof *w);
+    if (w == NULL)
+        return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+    w->suite = suite;
+    w->file = w->runs = -1;
+    w->written = calloc(suite->n_runs ? suite->n_runs : 1, 1);
+    if (w->written == NULL) {
+        free(w);
+        return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
+    }
+    snprintf(w->path, sizeof w->path, "%s", path);
+    if (strlen(path) >= sizeof w->path ||
+        dm_results_temp_path(path, (long)getpid(), w->tmp, sizeof w->tmp) != 0) {
+        free(w->written);
+        free(w);
+        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name or "
+                            "too long", path);
+    }
+    pthread_mutex_init(&w->lock, NULL);
+    hdf5_silence();
+    hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
+    errno = 0; /* what the system said, if HDF5 fails */
+    if (fapl >= 0 && H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) >= 0)
+        w->file = H5Fcreate(w->tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl);
+    if (fapl >= 0)
+        H5Pclose(fapl);
+    if (w->file < 0) {
+        int e = errno;
+        dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", w->tmp,
+                     e != 0 ? strerror(e) : "HDF5 refused it");
+        unlink(w->tmp);
+        writer_free(w);
+        return DM_EIO;
+    }
+    if (write_root(w->file, suite, start_time_utc) != 0 ||
+        (w->runs = H5Gcreate2(w->file, "runs", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT)) < 0) {
+        dm_status st = writer_fail(w, err, DM_EIO, "the root attributes");
+        dm_results_writer_abort(w);
+        return st;
+    }
+    *out = w;
+    return DM_OK;
+}
+
+dm_status dm_results_writer_add(dm_results_writer *w, size_t index, const dm_run_result *r,
+                                dm_error *err)
+{
+    pthread_mutex_lock(&w->lock);
+    hdf5_silence(); /* per thread in a thread-safe HDF5 */
+    dm_status st = DM_OK;
+    if (w->broken) {
+        st = writer_fail(w, err, DM_EIO, "");
+    } else if (index < w->suite->n_runs && r->status != DM_RUN_NOT_RUN) {
+        errno = 0;
+        if (w->written[index])
+            st = dm_error_set(err, DM_EIO, "cannot write results to '%s': run %s written "
+                              "twice", w->path, w->suite->runs[index].id);
+        else if (write_run(w->runs, w->suite, &w->suite->runs[index], r) != 0)
+            st = writer_fail(w, err, DM_EIO, "its group");
+        else
+            w->written[index] = 1;
+    }
+    pthread_mutex_unlock(&w->lock);
+    return st;
+}
+
+/* /summary, n_runs_written and /sweeps, from every run's figures. */
+static dm_status write_last(hid_t file, const dm_suite *suite, const dm_run_result *results,
+                            const dm_sweep_fit *fits, const char **what)
+{
     /* Runs that never started (DM_RUN_NOT_RUN) are left out everywhere. */
     *what = "/summary";
     dm_summary_row *rows = calloc(suite->n_runs ? suite->n_runs : 1, sizeof *rows);
@@ -581,16 +730,6 @@ static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_resul
     if (rc != 0)
         return DM_EIO;
 
-    *what = "/runs";
-    hid_t runs = H5Gcreate2(file, "runs", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
-    if (runs < 0)
-        return DM_EIO;
-    for (size_t i = 0; i < suite->n_runs && rc == 0; i++)
-        if (results[i].status != DM_RUN_NOT_RUN)
-            rc = write_run(runs, suite, &suite->runs[i], &results[i]);
-    if (H5Gclose(runs) < 0 || rc != 0)
-        return DM_EIO;
-
     *what = "/sweeps";
     hid_t sweeps = H5Gcreate2(file, "sweeps", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
     if (sweeps < 0)
@@ -602,96 +741,79 @@ static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_resul
     return DM_OK;
 }
 
-/* The file built in memory (HDF5's core driver, no backing store) and handed back as
- * one malloc'd image: HDF5 never meets a failing disk, whose errors (a full disk, a
- * size limit) leave HDF5 1.10 with a half-closed file that crashes it at exit. */
-static dm_status build_image(const char *path, const char *tmp, const dm_suite *suite,
-                             const dm_run_result *results, const dm_sweep_fit *fits,
-                             const char *start_time_utc, void **image, size_t *image_size,
-                             dm_error *err)
+/* The closed file synced to the disk, so that the rename below never publishes a file
+ * whose bytes are not there yet. */
+static int sync_file(const char *path)
 {
-    hdf5_silence();
-    hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
-    if (fapl < 0 || H5Pset_fapl_core(fapl, (size_t)1 << 20, 0) < 0 ||
-        H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) < 0) {
-        if (fapl >= 0)
-            H5Pclose(fapl);
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused an "
-                            "in-memory file", path);
-    }
-    hid_t file = H5Fcreate(tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl);
-    H5Pclose(fapl);
-    if (file < 0) {
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': HDF5 refused to "
-                            "create it", path);
-    }
-    const char *what = "";
-    dm_status st = write_all(file, suite, results, fits, start_time_utc, &what);
-    void *bytes = NULL;
-    ssize_t size = -1;
-    if (st == DM_OK && H5Fflush(file, H5F_SCOPE_GLOBAL) >= 0)
-        size = H5Fget_file_image(file, NULL, 0);
-    if (st == DM_OK && size > 0 && (bytes = malloc((size_t)size)) != NULL &&
-        H5Fget_file_image(file, bytes, (size_t)size) != size) {
-        free(bytes);
-        bytes = NULL;
-    }
-    if (st == DM_OK && bytes == NULL) {
-        st = size > 0 ? DM_ENOMEM : DM_EIO;
-        what = "the file image";
-    }
-    H5Fclose(file);
-    if (st == DM_ENOMEM)
-        return dm_error_set(err, DM_ENOMEM, "out of memory writing results to '%s'", path);
-    if (st != DM_OK)
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': building %s failed",
-                            path, what);
-    *image = bytes;
-    *image_size = (size_t)size;
-    return DM_OK;
+    int fd = open(path, O_RDONLY | O_CLOEXEC);
+    if (fd < 0)
+        return -1;
+    int rc = fsync(fd);
+    if (close(fd) != 0)
+        rc = -1;
+    return rc;
 }
 
-/* The image written to `tmp`, synced, and renamed over `path`: a results file is
- * complete or absent. */
-static dm_status write_image(const char *path, const char *tmp, const void *image,
-                             size_t size, dm_error *err)
+dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *results,
+                                   const dm_sweep_fit *fits, dm_error *err)
 {
-    int fd = open(tmp, O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
-    if (fd < 0) {
-        int e = errno;
-        return dm_error_set(err, DM_EIO, "cannot create results file '%s': %s", tmp,
-                            strerror(e));
-    }
-    const char *bytes = image;
-    size_t left = size;
-    int write_errno = 0;
-    while (left > 0) {
-        ssize_t n = write(fd, bytes, left);
-        if (n < 0 && errno == EINTR)
+    pthread_mutex_lock(&w->lock);
+    hdf5_silence();
+    const char *what = "";
+    dm_status st = w->broken ? DM_EIO : DM_OK;
+    errno = 0;
+    /* runs not written yet (interrupted runs read back that never ran again) as they are */
+    for (size_t i = 0; st == DM_OK && i < w->suite->n_runs; i++) {
+        if (results[i].status == DM_RUN_NOT_RUN || w->written[i])
             continue;
-        if (n <= 0) {
-            write_errno = n < 0 ? errno : EIO;
-            break;
-        }
-        bytes += n;
-        left -= (size_t)n;
+        what = "a run's group";
+        if (write_run(w->runs, w->suite, &w->suite->runs[i], &results[i]) != 0)
+            st = DM_EIO;
+        w->written[i] = 1;
     }
-    if (write_errno == 0 && fsync(fd) != 0)
-        write_errno = errno;
-    if (close(fd) != 0 && write_errno == 0)
-        write_errno = errno;
-    if (write_errno != 0) {
-        unlink(tmp);
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': %s (%zu bytes)", path,
-                            strerror(write_errno), size);
+    if (st == DM_OK)
+        st = write_last(w->file, w->suite, results, fits, &what);
+    if (writer_close(w) != 0 && st == DM_OK) {
+        __atomic_store_n(&hdf5_left_broken, true, __ATOMIC_RELAXED);
+        st = DM_EIO;
+        what = "the file's last blocks";
     }
-    if (rename(tmp, path) != 0) {
+    if (st == DM_OK && sync_file(w->tmp) != 0) {
+        st = DM_EIO;
+        what = "the file to the disk";
+    }
+    if (st != DM_OK) {
+        writer_fail(w, err, st, what);
+    } else if (rename(w->tmp, w->path) != 0) {
         int e = errno;
-        unlink(tmp);
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': rename from '%s' "
-                            "failed: %s", path, tmp, strerror(e));
+        st = dm_error_set(err, DM_EIO, "cannot write results to '%s': rename from '%s' "
+                          "failed: %s", w->path, w->tmp, strerror(e));
     }
-    return DM_OK;
+    if (st != DM_OK)
+        unlink(w->tmp);
+    pthread_mutex_unlock(&w->lock);
+    writer_free(w);
+    return st;
+}
+
+bool dm_results_writer_failed(dm_results_writer *w)
+{
+    pthread_mutex_lock(&w->lock);
+    bool broken = w->broken;
+    pthread_mutex_unlock(&w->lock);
+    return broken;
+}
+
+void dm_results_writer_abort(dm_results_writer *w)
+{
+    if (w == NULL)
+        return;
+    pthread_mutex_lock(&w->lock);
+    hdf5_silence();
+    writer_close(w);
+    unlink(w->tmp);
+    pthread_mutex_unlock(&w->lock);
+    writer_free(w);
 }
 
 int dm_results_temp_path(const char *path, long pid, char *buf, size_t size)
@@ -711,18 +833,15 @@ dm_status dm_results_write(const char *path, const dm_suite *suite,
                            const dm_run_result *results, const dm_sweep_fit *fits,
                            const char *start_time_utc, dm_error *err)
 {
-    char tmp[1200];
-    if (dm_results_temp_path(path, (long)getpid(), tmp, sizeof tmp) != 0)
-        return dm_error_set(err, DM_EIO, "cannot write results to '%s': not a file name or "
-                            "too long", path);
-    void *image = NULL;
-    size_t size = 0;
-    dm_status st = build_image(path, tmp, suite, results, fits, start_time_utc, &image, &size,
-                               err);
-    if (st == DM_OK)
-        st = write_image(path, tmp, image, size, err);
-    free(image);
-    return st;
+    dm_results_writer *w = NULL;
+    dm_status st = dm_results_writer_open(path, suite, start_time_utc, &w, err);
+    for (size_t i = 0; st == DM_OK && i < suite->n_runs; i++)
+        st = dm_results_writer_add(w, i, &results[i], err);
+    if (st != DM_OK) {
+        dm_results_writer_abort(w);
+        return st;
+    }
+    return dm_results_writer_finish(w, results, fits, err);
 }
 
 /* ---- reading /summary back ---- */
@@ -1114,7 +1233,8 @@ static int read_run(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
 }
 
 dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
-                               dm_run_result *results, size_t *kept, dm_error *err)
+                               dm_run_result *results, dm_results_writer *writer,
+                               size_t *kept, dm_error *err)
 {
     *kept = 0;
     dm_summary_row *rows = NULL;
@@ -1125,6 +1245,7 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     hdf5_silence();
     hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
     hid_t runs = -1;
+    dm_run_index ids = { 0 };
     long long schema = 0;
     if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 &&
         schema < DM_SCHEMA_VERSION) {
@@ -1142,11 +1263,20 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /runs group", path);
         goto done;
     }
+    /* the suite's runs by id: a file's rows are looked up, not searched for */
+    if (dm_run_index_init(&ids, suite->n_runs) != 0) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    for (size_t i = 0; i < suite->n_runs; i++)
+        dm_run_index_add(&ids, dm_hash_text(suite->runs[i].id), i);
     for (size_t k = 0; k < n; k++) {
         dm_run_status was = dm_run_status_named(rows[k].status);
         if (was == DM_RUN_NOT_RUN)
             continue;
-        for (size_t i = 0; i < suite->n_runs; i++) {
+        size_t probe = 0;
+        uint64_t key = dm_hash_text(rows[k].run_id);
+        for (size_t i; (i = dm_run_index_next(&ids, key, &probe)) != SIZE_MAX;) {
             const dm_run_spec *spec = &suite->runs[i];
             if (strcmp(spec->id, rows[k].run_id) != 0)
                 continue;
@@ -1174,12 +1304,20 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
                                   spec->id);
                 goto done;
             }
-            if (was != DM_RUN_INTERRUPTED)
+            if (was != DM_RUN_INTERRUPTED) {
                 (*kept)++;
+                if (writer != NULL) {
+                    st = dm_results_writer_add(writer, i, &results[i], err);
+                    if (st != DM_OK)
+                        goto done;
+                    dm_run_result_drop_series(&results[i]);
+                }
+            }
             break;
         }
     }
 done:
+    dm_run_index_free(&ids);
     if (runs >= 0)
         H5Gclose(runs);
     if (file >= 0)

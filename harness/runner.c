@@ -34,7 +34,7 @@ const char *dm_run_status_name(dm_run_status status)
     return "unknown";
 }
 
-void dm_run_result_free(dm_run_result *result)
+void dm_run_result_drop_series(dm_run_result *result)
 {
     if (result == NULL)
         return;
@@ -51,6 +51,20 @@ void dm_run_result_free(dm_run_result *result)
     free(result->crossings.section_q);
     free(result->crossings.section_p);
     free(result->checkpoint);
+    /* the counts of crossings seen and their stride are figures: they stay */
+    uint64_t total = result->crossings.total, stride = result->crossings.stride;
+    memset(&result->series, 0, sizeof result->series);
+    memset(&result->crossings, 0, sizeof result->crossings);
+    result->crossings.total = total;
+    result->crossings.stride = stride;
+    result->checkpoint = NULL;
+}
+
+void dm_run_result_free(dm_run_result *result)
+{
+    if (result == NULL)
+        return;
+    dm_run_result_drop_series(result);
     memset(result, 0, sizeof *result);
 }
 

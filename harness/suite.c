@@ -11,14 +11,12 @@
  *   for each problem variant, for each method entry, for each step or tolerance value
  * in file order. A (variant, method entry) pair with two or more step or tolerance values is a sweep.
  */
-#define _GNU_SOURCE /* hsearch_r: glibc's reentrant hash table, for the runs' ids */
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <signal.h>
 #include <inttypes.h>
 #include <math.h>
-#include <search.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -31,6 +29,7 @@
 #include "dm_hash.h"
 #include "harness.h"
 #include "nbody.h"
+#include "run_index.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -440,8 +439,7 @@ typedef struct suite_build {
     bool lyapunov;                    /* every run estimates its Lyapunov exponent */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
-    struct hsearch_data run_ids;      /* id -> run index + 1, to find twins in O(1) */
-    bool run_ids_made;
+    dm_run_index run_ids;             /* the runs so far by their id, to find twins fast */
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -455,8 +453,7 @@ static void build_free(suite_build *b)
     free(b->methods);
     free(b->run_nodes);
     free(b->run_variants);
-    if (b->run_ids_made)
-        hdestroy_r(&b->run_ids);
+    dm_run_index_free(&b->run_ids);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -1189,10 +1186,8 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
     suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
     b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
     b->run_variants = calloc(nv * per_variant, sizeof *b->run_variants);
-    /* a table twice the runs keeps glibc's probe chains short */
-    b->run_ids_made = hcreate_r(2 * nv * per_variant + 16, &b->run_ids) != 0;
     if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL ||
-        b->run_variants == NULL || !b->run_ids_made) {
+        b->run_variants == NULL || dm_run_index_init(&b->run_ids, nv * per_variant) != 0) {
         free(v);
         return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
     }
@@ -1204,11 +1199,13 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                 dm_run_spec *spec = &suite->runs[suite->n_runs];
                 if ((st = make_run(b, suite, &v[i], me, k, spec)) != DM_OK)
                     goto done;
-                /* a twin: an earlier run of the same id */
-                ENTRY key = { .key = spec->id, .data = (void *)(uintptr_t)(suite->n_runs + 1) };
-                ENTRY *found = NULL;
-                if (hsearch_r(key, FIND, &found, &b->run_ids) != 0 && found != NULL) {
-                    size_t r = (size_t)(uintptr_t)found->data - 1;
+                /* Twins are looked for among every earlier run by the hash of its id
+                 * (up to 10^5 runs), the text compared only when the hashes meet. */
+                uint64_t id_hash = dm_hash_text(spec->id);
+                size_t probe = 0;
+                for (size_t r; (r = dm_run_index_next(&b->run_ids, id_hash, &probe)) != SIZE_MAX;) {
+                    if (strcmp(suite->runs[r].id, spec->id) != 0)
+                        continue;
                     const yaml_node_t *here, *first_at;
                     twin_nodes(b, r, &v[i], me->values->node[k], &here, &first_at);
                     if (strcmp(suite->runs[r].config, spec->config) == 0)
@@ -1221,12 +1218,9 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                                      "significant digits)", spec->id, node_line(first_at));
                     goto done;
                 }
-                if (hsearch_r(key, ENTER, &found, &b->run_ids) == 0) {
-                    st = dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
-                    goto done;
-                }
                 b->run_nodes[suite->n_runs] = me->values->node[k];
                 b->run_variants[suite->n_runs] = &v[i];
+                dm_run_index_add(&b->run_ids, id_hash, suite->n_runs);
                 suite->n_runs++;
             }
             if (me->values->n >= 2) {
@@ -1523,19 +1517,25 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
 
     if ((st = expand_runs(b, suite)) != DM_OK)
         return st;
-    /* Every run's series stays in memory until the file is written: refuse up front a
-     * suite that would run out of it part way. */
-    double bytes = 0.0;
+    /* A run's series stay in memory only until the run is written (as it finishes), so
+     * the runs in memory at once are one a core: refuse up front a suite whose largest
+     * runs, that many of them, would run out of it part way. */
+    double largest = 0.0;
     for (size_t i = 0; i < suite->n_runs; i++)
-        bytes += dm_run_memory_bytes(&suite->runs[i]);
-    double gib = bytes / 1073741824.0;
+        largest = fmax(largest, dm_run_memory_bytes(&suite->runs[i]));
+    long cores = sysconf(_SC_NPROCESSORS_ONLN);
+    size_t at_once = cores > 0 ? (size_t)cores : 1;
+    if (at_once > suite->n_runs)
+        at_once = suite->n_runs;
+    double gib = largest * (double)at_once / 1073741824.0;
     if (gib > b->memory_limit_gib) {
         const yaml_node_t *at = value_of[TOP_MEMORY_LIMIT] ? value_of[TOP_MEMORY_LIMIT]
                                 : value_of[TOP_BUCKETS] ? value_of[TOP_BUCKETS]
                                 : value_of[TOP_SAMPLES] ? value_of[TOP_SAMPLES] : root;
-        return fail_at(c, at, "the %zu runs' series would take about %.3g GiB of memory, above "
-                       "memory_limit_gib = %g (expected fewer buckets or runs, or a larger "
-                       "memory_limit_gib)", suite->n_runs, gib, b->memory_limit_gib);
+        return fail_at(c, at, "the series of %zu runs at once (one a core) would take about "
+                       "%.3g GiB of memory, above memory_limit_gib = %g (expected fewer "
+                       "buckets, or a larger memory_limit_gib)", at_once, gib,
+                       b->memory_limit_gib);
     }
     return resolve_output(b, suite, root);
 }

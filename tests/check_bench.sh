@@ -1,9 +1,9 @@
 #!/bin/bash
 # check_bench.sh DRIFTMARK — `driftmark bench --quick --json` runs, prints JSON that
-# parses, has every field the report promises for the eight cases, the CVODE rows and
-# the 1-vs-N-jobs row, the hand-written loops end with the harness's energy error bit
-# for bit (both do the same arithmetic), and 1 and N jobs give the same results bit for
-# bit. Not a timing test: no speed is asserted.
+# parses, has every field the report promises for the eight cases, the CVODE rows, the
+# 1-vs-N-jobs row and the many-short-runs row, the hand-written loops end with the
+# harness's energy error bit for bit (both do the same arithmetic), and 1 and N jobs
+# give the same results bit for bit. Not a timing test: no speed is asserted.
 set -u
 exe=${1:?usage: check_bench.sh DRIFTMARK}
 out=$(mktemp)
@@ -99,6 +99,12 @@ if need(jobs, "results_identical", "jobs") is not True:
 speedup = need(report, "jobs_speedup", "top")
 if speedup != jobs.get("speedup"):
     problems.append(f"top: jobs_speedup = {speedup!r} is not jobs.speedup = {jobs.get('speedup')!r}")
+
+# many short runs: a whole `driftmark run` of them was timed and its peak memory read
+short = need(report, "short_runs", "top") or {}
+for key in ("runs", "steps_per_run", "buckets", "seconds", "ms_per_run", "peak_mib",
+            "file_bytes"):
+    positive(short, key, "short_runs")
 
 if problems:
     print("FAIL:\n  " + "\n  ".join(problems), file=sys.stderr)

@@ -151,10 +151,10 @@ def main():
         def many_rows(f):
             rows = f["summary"][()]
             del f["summary"]
-            f.create_dataset("summary", data=np.resize(rows, 20001), compression="gzip")
-            replace_attr(f, "n_runs_written", np.uint64(20001))
+            f.create_dataset("summary", data=np.resize(rows, 100001), compression="gzip")
+            replace_attr(f, "n_runs_written", np.uint64(100001))
         hostile(base, "many-rows.h5", many_rows)
-        refused(tmp, ["show", "many-rows.h5"], "show 20001 rows", "at most 10000")
+        refused(tmp, ["show", "many-rows.h5"], "show 100001 rows", "at most 100000")
 
         # not regular files: refused at once, not read or waited on
         os.mkfifo(os.path.join(tmp, "fifo.h5"))

@@ -85,7 +85,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     dm_run_result *results = calloc(suite.n_runs, sizeof *results);
     if (results != NULL) {
         size_t kept = 0;
-        st = dm_results_read_runs(path, &suite, results, &kept, &err);
+        st = dm_results_read_runs(path, &suite, results, NULL, &kept, &err);
         if (st != DM_OK)
             check_refusal(st, &err);
         else if (kept > suite.n_runs)

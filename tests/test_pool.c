@@ -100,12 +100,12 @@ static void pool_results_do_not_depend_on_the_jobs(void **state)
     memset(many, 0, sizeof many);
     dm_error err = { 0 };
     size_t done = 0;
-    assert_int_equal(dm_run_pool(&suite, one, order, N_RUNS, 1, NULL, NULL, &done, &err),
+    assert_int_equal(dm_run_pool(&suite, one, NULL, order, N_RUNS, 1, NULL, NULL, &done, &err),
                      DM_OK);
     assert_int_equal(done, N_RUNS);
 
     seen_calls = seen_wrong = 0;
-    assert_int_equal(dm_run_pool(&suite, many, order, N_RUNS, 4, NULL, record_progress,
+    assert_int_equal(dm_run_pool(&suite, many, NULL, order, N_RUNS, 4, NULL, record_progress,
                                  &done, &err),
                      DM_OK);
     assert_int_equal(done, N_RUNS);
@@ -144,11 +144,11 @@ static void queue_fed_in_batches_runs_each_run_once(void **state)
     memset(results, 0, sizeof results);
     memset(reference, 0, sizeof reference);
     dm_error err = { 0 };
-    assert_int_equal(dm_run_pool(&suite, reference, order, N_RUNS, 1, NULL, NULL, NULL, &err),
+    assert_int_equal(dm_run_pool(&suite, reference, NULL, order, N_RUNS, 1, NULL, NULL, NULL, &err),
                      DM_OK);
 
     dm_work_queue q;
-    assert_int_equal(dm_queue_init(&q, &suite, results, NULL, NULL, &err), DM_OK);
+    assert_int_equal(dm_queue_init(&q, &suite, results, NULL, NULL, NULL, &err), DM_OK);
     assert_int_equal(dm_queue_start(&q, 3), 3);
     dm_queue_state st;
     size_t finished[N_RUNS], n_finished = 0;
@@ -203,7 +203,7 @@ static void take_in_order_and_none_after_a_failure(void **state)
     memset(results, 0, sizeof results);
     dm_work_queue q;
     dm_error err = { 0 };
-    assert_int_equal(dm_queue_init(&q, &suite, results, NULL, NULL, &err), DM_OK);
+    assert_int_equal(dm_queue_init(&q, &suite, results, NULL, NULL, NULL, &err), DM_OK);
     dm_queue_add(&q, order, N_RUNS);
     dm_queue_close(&q);
     size_t got[N_RUNS];
@@ -242,13 +242,13 @@ static void a_stop_starts_no_run(void **state)
     volatile int stop = 1;
     dm_error err = { 0 };
     size_t done = 99;
-    assert_int_equal(dm_run_pool(&suite, results, order, N_RUNS, 3, &stop, NULL, &done, &err),
+    assert_int_equal(dm_run_pool(&suite, results, NULL, order, N_RUNS, 3, &stop, NULL, &done, &err),
                      DM_OK);
     assert_int_equal(done, 0);
     for (size_t i = 0; i < N_RUNS; i++)
         assert_int_equal(results[i].status, DM_RUN_NOT_RUN);
     dm_work_queue q;
-    assert_int_equal(dm_queue_init(&q, &suite, results, &stop, NULL, &err), DM_OK);
+    assert_int_equal(dm_queue_init(&q, &suite, results, NULL, &stop, NULL, &err), DM_OK);
     dm_queue_add(&q, order, N_RUNS);
     size_t got[N_RUNS];
     assert_int_equal(dm_queue_take(&q, N_RUNS, got), 0);

@@ -3,7 +3,8 @@
  * that `show` refuses files that are not ours in one line.
  *
  * The run results are built by hand (small series with known values): this tests the
- * writer and the file contract, not the runner. */
+ * writer and the file contract, not the runner; the file written run by run, in any
+ * order, is the file written at once. */
 #include "dm_test_util.h"
 
 #include <dirent.h>
@@ -215,6 +216,17 @@ static void write_text_file(const char *path, const char *text)
     assert_non_null(f);
     fputs(text, f);
     fclose(f);
+}
+
+/* The older file under the target name, as write_text_file left it. */
+static void assert_previous_results_at(const char *path)
+{
+    FILE *f = fopen(path, "r");
+    assert_non_null(f);
+    char line[64] = "";
+    assert_non_null(fgets(line, sizeof line, f));
+    fclose(f);
+    assert_string_equal(line, "previous results\n");
 }
 
 /* ---- tests ---- */
@@ -482,12 +494,7 @@ static void failed_write_at_file_size_limit_leaves_old_file_and_no_temp(void **s
     assert_true(WIFEXITED(status));
     assert_int_equal(WEXITSTATUS(status), 0);
     assert_int_equal(entries_in(dir), 1); /* only the old file: no temporary left */
-    FILE *f = fopen(path, "r");
-    assert_non_null(f);
-    char line[64] = "";
-    assert_non_null(fgets(line, sizeof line, f));
-    fclose(f);
-    assert_string_equal(line, "previous results\n");
+    assert_previous_results_at(path);
 }
 
 static void successful_write_replaces_the_old_file_and_leaves_no_temp(void **state)
@@ -501,6 +508,93 @@ static void successful_write_replaces_the_old_file_and_leaves_no_temp(void **sta
     write_fixture(path, &fx);
     assert_int_equal(entries_in(dir), 1);
     assert_true(H5Fis_hdf5(path) > 0);
+    free_fixture(&fx);
+}
+
+/* Every group, dataset (its type, shape and bytes) and attribute of two files, by h5py. */
+static const char h5py_same_files[] =
+    "import sys, h5py, numpy as np\n"
+    "def same(a, b):\n"
+    "    if isinstance(a, str) or isinstance(b, str): return a == b\n"
+    "    a, b = np.asarray(a), np.asarray(b)\n"
+    "    return a.dtype == b.dtype and a.tobytes() == b.tobytes()\n"
+    "fa, fb = h5py.File(sys.argv[1], 'r'), h5py.File(sys.argv[2], 'r')\n"
+    "na, nb = [], []\n"
+    "fa.visit(na.append); fb.visit(nb.append)\n"
+    "assert na == nb, (na, nb)\n"
+    "for name in [''] + na:\n"
+    "    oa, ob = (fa[name], fb[name]) if name else (fa, fb)\n"
+    "    assert sorted(oa.attrs) == sorted(ob.attrs), name\n"
+    "    for k in oa.attrs: assert same(oa.attrs[k], ob.attrs[k]), (name, k)\n"
+    "    if isinstance(oa, h5py.Dataset):\n"
+    "        assert oa.dtype == ob.dtype and oa.shape == ob.shape, name\n"
+    "        assert oa[()].tobytes() == ob[()].tobytes(), name\n"
+    "assert len(na) > 10\n"
+    "print('same-ok')\n";
+
+/* The file written run by run as runs finish, in another order, each run's series freed
+ * once written (as `run` does), holds what the file written at once holds; a run never
+ * handed to the writer (an interrupted run read back that did not run again before a
+ * stop) is written by finish as it is. */
+static void runs_written_as_they_finish_in_any_order_give_the_same_file(void **state)
+{
+    char once[128], streamed[128], script[128];
+    snprintf(once, sizeof once, "%s/at-once.h5", workdir);
+    snprintf(streamed, sizeof streamed, "%s/streamed.h5", workdir);
+    snprintf(script, sizeof script, "%s/same.py", workdir);
+    fixture a = { 0 }, b = { 0 };
+    write_fixture(once, &a);
+    build_suite(&b, once); /* the same suite text, written elsewhere */
+    build_results(&b, 0);
+    dm_error err = { 0 };
+    dm_results_writer *w = NULL;
+    assert_int_equal(dm_results_writer_open(streamed, &b.suite, START_TIME, &w, &err), DM_OK);
+    for (size_t k = b.suite.n_runs; k-- > 0;) {
+        if (k == 2)
+            continue; /* left to finish */
+        assert_int_equal(dm_results_writer_add(w, k, &b.results[k], &err), DM_OK);
+        dm_run_result_drop_series(&b.results[k]);
+        assert_null(b.results[k].series.time);
+    }
+    assert_false(dm_results_writer_failed(w));
+    /* a run is written once: the second time is an error, and not a broken file */
+    assert_int_equal(dm_results_writer_add(w, 0, &b.results[0], &err), DM_EIO);
+    assert_non_null(strstr(err.msg, "written twice"));
+    assert_false(dm_results_writer_failed(w));
+    assert_int_equal(dm_results_writer_finish(w, b.results, b.fits, &err), DM_OK);
+    write_text_file(script, h5py_same_files);
+    char cmd[512], out[1024], errs[8192];
+    snprintf(cmd, sizeof cmd, PYTHON " '%s' '%s' '%s'", script, once, streamed);
+    int rc = dm_run_capture(cmd, out, sizeof out, errs, sizeof errs);
+    if (rc != 0 || strstr(out, "same-ok") == NULL) {
+        print_error("the streamed file differs (%d):\n%s\n%s\n", rc, out, errs);
+        fail();
+    }
+    free_fixture(&a);
+    free_fixture(&b);
+}
+
+/* A writer abandoned part way (the command failed) removes its temporary file: nothing
+ * new appears and an older file under the name stays as it was. */
+static void an_abandoned_writer_leaves_nothing_behind(void **state)
+{
+    char dir[128], path[160];
+    snprintf(dir, sizeof dir, "%s/abandoned", workdir);
+    assert_int_equal(mkdir(dir, 0755), 0);
+    snprintf(path, sizeof path, "%s/study.h5", dir);
+    write_text_file(path, "previous results\n");
+    fixture fx = { 0 };
+    build_suite(&fx, path);
+    build_results(&fx, 0);
+    dm_error err = { 0 };
+    dm_results_writer *w = NULL;
+    assert_int_equal(dm_results_writer_open(path, &fx.suite, START_TIME, &w, &err), DM_OK);
+    assert_int_equal(entries_in(dir), 2); /* the old file and the temporary one */
+    assert_int_equal(dm_results_writer_add(w, 0, &fx.results[0], &err), DM_OK);
+    assert_int_equal(dm_results_writer_add(w, 1, &fx.results[1], &err), DM_OK);
+    dm_results_writer_abort(w);
+    assert_int_equal(entries_in(dir), 1);
+    assert_previous_results_at(path);
     free_fixture(&fx);
 }
 
@@ -702,7 +796,7 @@ static void a_real_figure_an_older_file_lacks_reads_as_nan(void **state)
     dm_run_result *back = calloc(fx.suite.n_runs, sizeof *back);
     assert_non_null(back);
     size_t kept = 0;
-    if (dm_results_read_runs(path, &fx.suite, back, &kept, &e) != DM_OK)
+    if (dm_results_read_runs(path, &fx.suite, back, NULL, &kept, &e) != DM_OK)
         fail_msg("%s", e.msg);
     assert_int_equal(kept, fx.suite.n_runs);
     for (size_t i = 0; i < fx.suite.n_runs; i++) {
@@ -723,6 +817,8 @@ int main(void)
         cmocka_unit_test(failed_write_into_missing_directory_leaves_nothing),
         cmocka_unit_test(failed_write_at_file_size_limit_leaves_old_file_and_no_temp),
         cmocka_unit_test(successful_write_replaces_the_old_file_and_leaves_no_temp),
+        cmocka_unit_test(runs_written_as_they_finish_in_any_order_give_the_same_file),
+        cmocka_unit_test(an_abandoned_writer_leaves_nothing_behind),
         cmocka_unit_test(show_refuses_non_hdf5_foreign_newer_and_truncated_files_in_one_line),
         cmocka_unit_test(show_rejects_bad_options_in_one_line),
         cmocka_unit_test(show_prints_table_csv_and_json_of_a_results_file),

@@ -676,6 +676,45 @@ static void duplicate_runs_are_refused(void **state)
                  SRC ":5:5: ", "is given twice (first at line 4;");
 }
 
+/* A suite of `omegas` x `amplitudes` harmonic oscillators under one method. */
+static char *grid_suite(int omegas, int amplitudes)
+{
+    size_t size = 64 * (size_t)(omegas + amplitudes) + 512;
+    char *text = malloc(size);
+    assert_non_null(text);
+    int w = snprintf(text, size, "horizon: {periods: 10}\nsamples: 8\nproblems:\n"
+                                 "  - {problem: harmonic, omega: [");
+    for (int i = 0; i < omegas; i++)
+        w += snprintf(text + w, size - (size_t)w, "%s%d", i ? ", " : "", 1 + i);
+    w += snprintf(text + w, size - (size_t)w, "], amplitude: [");
+    for (int i = 0; i < amplitudes; i++)
+        w += snprintf(text + w, size - (size_t)w, "%s%d", i ? ", " : "", 1 + i);
+    snprintf(text + w, size - (size_t)w,
+             "]}\nmethods:\n  - {method: %s, steps_per_period: 16}\n", splitting_method->id);
+    return text;
+}
+
+/* 10^5 runs (a suite of many short runs: streamed to the file, their memory flat) are
+ * read, every id checked against every other; one variant more is refused. */
+static void a_suite_may_have_100000_runs_and_no_more(void **state)
+{
+    dm_suite suite;
+    dm_error err = { 0 };
+    char *text = grid_suite(1000, 100);
+    assert_int_equal(dm_suite_parse(&suite, text, strlen(text), SRC, "/tmp/dm-grid.h5", &err),
+                     DM_OK);
+    assert_int_equal(suite.n_runs, DM_SUITE_MAX_RUNS);
+    assert_string_not_equal(suite.runs[0].id, suite.runs[DM_SUITE_MAX_RUNS - 1].id);
+    dm_suite_free(&suite);
+    free(text);
+    text = grid_suite(1000, 101);
+    assert_int_equal(dm_suite_parse(&suite, text, strlen(text), SRC, "/tmp/dm-grid.h5", &err),
+                     DM_EINPUT);
+    assert_non_null(strstr(err.msg, "100000"));
+    assert_null(strchr(err.msg, '\n'));
+    free(text);
+}
+
 static void output_directory_must_exist(void **state)
 {
     expect_error("horizon: {periods: 10}\noutput: /nonexistent-dm-dir/x.h5\n" PROB METH,
@@ -716,6 +755,7 @@ int main(void)
         cmocka_unit_test(bad_ranges_are_refused),
         cmocka_unit_test(horizon_samples_and_budget_limits_are_enforced),
         cmocka_unit_test(duplicate_runs_are_refused),
+        cmocka_unit_test(a_suite_may_have_100000_runs_and_no_more),
         cmocka_unit_test(output_directory_must_exist),
     };
     return cmocka_run_group_tests(tests, find_methods, NULL);

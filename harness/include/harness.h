@@ -31,7 +31,7 @@
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
 #define DM_NAME_MAX 128
 #define DM_CONFIG_MAX 1024
-#define DM_SUITE_MAX_RUNS 10000          /* runs one suite may expand to */
+#define DM_SUITE_MAX_RUNS 100000         /* runs one suite may expand to */
 #define DM_SUITE_MAX_BYTES (1 << 20)     /* the longest suite text read (1 MiB) */
 
 /* ---- what one run is ---- */
@@ -210,6 +210,9 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
 dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
                         const volatile int *stop, dm_error *err);
 void dm_run_result_free(dm_run_result *result);
+/* Frees a result's series, crossings and checkpoint once they are written, keeping its
+ * status and figures (all that /summary, the sweep fits and the table need). */
+void dm_run_result_drop_series(dm_run_result *result);
 
 /* The memory a run's result takes (its series and crossing buffers), in bytes: the
  * suite reader refuses suites whose runs would take more than memory_limit_gib. */
@@ -236,13 +239,16 @@ typedef void (*dm_pool_progress)(size_t done, size_t total, double work,
 
 /* Runs suite->runs[order[0..n_order)] on `jobs` threads (the calling thread is one),
  * each result stored at its own index in results[], so the results are the same
- * whatever the number of jobs. `stop` (may be NULL) ends the runs at their next
- * bucket (they end interrupted) and starts no new one. When a run cannot be run
- * (dm_run fails), no new run starts and its error, prefixed with the run id, is
- * returned. `progress` may be NULL; *done (may be NULL) gets the runs finished. */
-dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, const size_t *order,
-                      size_t n_order, int jobs, volatile int *stop, dm_pool_progress progress,
-                      size_t *done, dm_error *err);
+ * whatever the number of jobs. With a `writer` (may be NULL) each run is written to it
+ * as soon as it finishes, and its series freed. `stop` (may be NULL) ends the runs at
+ * their next bucket (they end interrupted) and starts no new one. When a run cannot be
+ * run (dm_run fails) or written, no new run starts and its error, prefixed with the
+ * run id, is returned. `progress` may be NULL; *done (may be NULL) gets the runs
+ * finished. */
+typedef struct dm_results_writer dm_results_writer;
+dm_status dm_run_pool(const dm_suite *suite, dm_run_result *results, dm_results_writer *writer,
+                      const size_t *order, size_t n_order, int jobs, volatile int *stop,
+                      dm_pool_progress progress, size_t *done, dm_error *err);
 
 /* How fast the energy error grows, as an exponent p of t (results/README.md has the
  * exact definition): the growth of the centre of the dE band (its min and max over a
@@ -357,8 +363,28 @@ int dm_fit_use_name_known(const char *name);
 
 /* ---- the results file (results.c) ---- */
 
-/* Writes the whole results file: to a temporary file beside `path`, renamed into
- * place at the end, so a failure never leaves a half-written file under that name. */
+/* The results file, written run by run as the runs finish (results/README.md, "How the
+ * file is written"): under a temporary name beside `path`, renamed into place by
+ * dm_results_writer_finish only once complete, so a failure never leaves a half-written
+ * file under that name. open creates the temporary file and writes the root's
+ * attributes; add writes one run's group (any thread may call it: the writer's calls
+ * are serialised), after which the caller may free the run's series (dm_run_result_
+ * drop_series); finish writes /summary and /sweeps from every run's figures (the
+ * series are not needed), closes, syncs and renames, and frees the writer, as abort
+ * does after removing the temporary file. A writer that failed once refuses every
+ * later add and finish with the first error. */
+dm_status dm_results_writer_open(const char *path, const dm_suite *suite,
+                                 const char *start_time_utc, dm_results_writer **w,
+                                 dm_error *err);
+dm_status dm_results_writer_add(dm_results_writer *w, size_t index,
+                                const dm_run_result *result, dm_error *err);
+dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *results,
+                                   const dm_sweep_fit *fits, dm_error *err);
+void dm_results_writer_abort(dm_results_writer *w);
+/* True once a write of the writer failed (its error was returned then). */
+bool dm_results_writer_failed(dm_results_writer *w);
+
+/* The whole file at once from results[] (open, add every run, finish). */
 dm_status dm_results_write(const char *path, const dm_suite *suite,
                            const dm_run_result *results, const dm_sweep_fit *fits,
                            const char *start_time_utc, dm_error *err);
@@ -370,12 +396,14 @@ int dm_results_temp_path(const char *path, long pid, char *buf, size_t size);
 
 /* For --resume: reads back every run of the file at `path` whose id and configuration
  * hash match a run of `suite` and that completed (ok, diverged or failed), into
- * results[i] (which must be zeroed: DM_RUN_NOT_RUN); *kept counts them. An interrupted
- * run with a checkpoint is read too, status interrupted with result->checkpoint set,
- * for dm_run_resume to continue (not counted in *kept); one without is left to run
- * again. */
+ * results[i] (which must be zeroed: DM_RUN_NOT_RUN); *kept counts them. With a
+ * `writer` (may be NULL) each is written to it as it is read and its series freed, so
+ * memory does not grow with the runs kept. An interrupted run with a checkpoint is read
+ * too, status interrupted with result->checkpoint set, for dm_run_resume to continue
+ * (not counted in *kept, not written); one without is left to run again. */
 dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
-                               dm_run_result *results, size_t *kept, dm_error *err);
+                               dm_run_result *results, dm_results_writer *writer,
+                               size_t *kept, dm_error *err);
 
 /* Every sweep of the file at `path` (its /sweeps groups), in the order of the runs
  * of /summary, into a new array (free with dm_sweep_summaries_free). A file that is not

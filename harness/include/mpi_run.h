@@ -3,10 +3,12 @@
  * Rank 0 reads and validates the suite (or the file being resumed), sends the suite
  * text to every rank, which validates it again, and then hands out run indices on
  * request, longest first, exactly in the order one process would take them, from the
- * same work queue as the --jobs threads (pool.h). Each rank runs its runs on its own
+ * same work queue as the --jobs threads (pool.h); an interrupted run read back by
+ * --resume travels with its series and checkpoint and is continued where it lands. Each rank runs its runs on its own
  * --jobs threads; only its main thread talks MPI (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
- * dm_run_result (result_pack.h), is stored at its index, and rank 0 writes the one
- * results file with dm_results_write: the file is the one a single process writes.
+ * dm_run_result (result_pack.h), is stored at its index and written at once to the one
+ * results file by rank 0's writer (dm_results_writer_add, serialised with rank 0's own
+ * threads' writes): the file is the one a single process writes.
  *
  * Built without MPI (DM_HAVE_MPI undefined) every function here is a stand-in for a
  * job of one process, so the command line has one code path.
@@ -52,6 +54,8 @@ int dm_mpi_share_suite(dm_mpi_world *w, int code, dm_suite *suite);
 typedef struct dm_mpi_job {
     const dm_suite *suite;
     dm_run_result *results;        /* rank 0: one slot per run of the suite */
+    dm_results_writer *writer;     /* rank 0: where each result goes as it arrives (then
+                                      its series freed); NULL: kept in results */
     const size_t *order;           /* rank 0: the runs to do, longest first */
     size_t n_order;
     int jobs;                      /* threads running runs in this rank */
@@ -65,6 +69,8 @@ typedef struct dm_mpi_job {
     dm_error error;
     size_t done;                   /* runs finished, every rank */
     size_t runs_received;          /* rank 0: results that came from other ranks */
+    size_t checkpoints_sent;       /* rank 0: interrupted runs sent to other ranks with
+                                      their checkpoints, to continue there */
     uint64_t bytes_received;       /* rank 0: their packed size */
 } dm_mpi_job;
 
