@@ -277,14 +277,31 @@ section_value(const dm_instance *inst, const double *q, const int N, int coord)
     return dm_section_value(&inst->section, q);
 }
 
-/* The fused loop with the pair sum inline; the body count is known only at run time,
- * so the components are loops, as in a hand-written N-body loop. */
+/* The fused loop with the pair sum inline. Up to 8 bodies the degrees of freedom are a
+ * constant of their own copy of the loop (the state's copies unrolled, as for the
+ * one-body problems); above, they are known only at run time and the components are
+ * loops, as in a hand-written N-body loop. */
+#define NBODY_FUSED(DOF)                                                                   \
+    case DOF:                                                                              \
+        return dm_fused_dispatch(inst, table, cache, run, k_end, DOF, force, velocity,     \
+                                 kinetic, potential, section_value);
 static int fused_loop(const dm_instance *inst, const dm_fused_table *table,
                       dm_fused_cache *cache, dm_fused_run *run, uint64_t k_end)
 {
-    return dm_fused_dispatch(inst, table, cache, run, k_end, inst->dof, force, velocity,
-                             kinetic, potential, section_value);
+    switch (inst->dof) {
+        NBODY_FUSED(6)
+        NBODY_FUSED(9)
+        NBODY_FUSED(12)
+        NBODY_FUSED(15)
+        NBODY_FUSED(18)
+        NBODY_FUSED(21)
+        NBODY_FUSED(24)
+    default:
+        return dm_fused_dispatch(inst, table, cache, run, k_end, inst->dof, force, velocity,
+                                 kinetic, potential, section_value);
+    }
 }
+#undef NBODY_FUSED
 
 const dm_problem dm_problem_nbody = {
     .id = "nbody",

@@ -228,6 +228,71 @@ static void splitting_methods_conserve_momentum_and_angular_momentum(void **stat
     free_all(&suite, r);
 }
 
+/* The N-body fused loop (problems/nbody.c: a copy with the degrees of freedom constant
+ * up to 8 bodies, a run-time count above) and the per-step path give the same run bit
+ * for bit: every series, the crossings and the closest approach, for 6 bodies (a
+ * constant) and for 12 (the outer solar system twice, the second copy far away). */
+/* The outer solar system and a copy of it 1000 AU away: 12 bodies, above the fused
+ * loop's constant sizes. */
+static char *twelve_bodies_suite(const dm_nbody *d)
+{
+    char *text = malloc(8192);
+    assert_non_null(text);
+    size_t used = (size_t)snprintf(text, 8192, "output: " OUT "\nhorizon: {time: 3e4}\n"
+                                   "buckets: 50\nproblems:\n  - problem: nbody\n"
+                                   "    G: 2.95912208286e-4\n    units: AU, days, solar "
+                                   "masses\n    period_of: {body: Jupiter, around: Sun}\n"
+                                   "    bodies:\n");
+    for (int copy = 0; copy < 2; copy++)
+        for (int i = 0; i < d->n; i++)
+            used += (size_t)snprintf(text + used, 8192 - used,
+                                     "      - {name: %s%s, mass: %.17g, position: [%.17g, "
+                                     "%.17g, %.17g], velocity: [%.17g, %.17g, %.17g]}\n",
+                                     d->name[i], copy ? "-far" : "", d->mass[i],
+                                     d->position[i][0] + 1000.0 * copy, d->position[i][1],
+                                     d->position[i][2], d->velocity[i][0], d->velocity[i][1],
+                                     d->velocity[i][2]);
+    snprintf(text + used, 8192 - used, "methods:\n  - {method: yoshida4, h: 10}\n");
+    return text;
+}
+
+static void fused_loop_and_per_step_path_agree_bit_for_bit(void **state)
+{
+    (void)state;
+    dm_suite outer;
+    char *six = outer_suite(3e4, 50, "  - {method: yoshida4, h: 10}\n");
+    parse_ok(six, &outer);
+    char *twelve = twelve_bodies_suite(dm_nbody_of(&outer.runs[0].inst, NULL));
+    const char *texts[2] = { six, twelve };
+    for (int k = 0; k < 2; k++) {
+        dm_suite suite;
+        parse_ok(texts[k], &suite);
+        assert_int_equal(suite.runs[0].inst.dof, 18 * (k + 1));
+        dm_run_spec plain = suite.runs[0];
+        plain.method_config.plain_steps = true;
+        dm_run_result a, b;
+        dm_error err = { 0 };
+        assert_int_equal(dm_run(&suite.runs[0], &a, NULL, &err), DM_OK);
+        assert_int_equal(dm_run(&plain, &b, NULL, &err), DM_OK);
+        assert_int_equal(a.series.n, b.series.n);
+        assert_memory_equal(a.series.energy_error_max, b.series.energy_error_max,
+                            a.series.n * sizeof(double));
+        assert_memory_equal(a.series.invariant_error[1], b.series.invariant_error[1],
+                            a.series.n * sizeof(double));
+        assert_true(a.crossings.total >= 6);
+        assert_int_equal(a.crossings.total, b.crossings.total);
+        assert_memory_equal(a.crossings.time, b.crossings.time, a.crossings.n * sizeof(double));
+        assert_memory_equal(&a.metrics.closest_approach, &b.metrics.closest_approach,
+                            sizeof(double));
+        dm_run_result_free(&a);
+        dm_run_result_free(&b);
+        dm_suite_free(&suite);
+    }
+    dm_suite_free(&outer);
+    free(six);
+    free(twelve);
+}
+
 /* Two bodies are the Kepler problem in relative coordinates, mu = G (m1 + m2): Verlet
  * on the barycentric pair and Verlet on the built-in Kepler problem are the same map in
  * exact arithmetic, so after 10^4 steps their relative states agree to rounding, and
@@ -396,6 +461,7 @@ int main(void)
         cmocka_unit_test(verlet_energy_error_is_bounded_and_of_order_two),
         cmocka_unit_test(jupiter_period_is_measured_whatever_the_buckets_and_units),
         cmocka_unit_test(splitting_methods_conserve_momentum_and_angular_momentum),
+        cmocka_unit_test(fused_loop_and_per_step_path_agree_bit_for_bit),
         cmocka_unit_test(two_bodies_are_the_kepler_problem),
         cmocka_unit_test(bad_bodies_are_refused_in_one_line),
         cmocka_unit_test(a_file_of_momenta_gives_the_bodies_of_velocities),
