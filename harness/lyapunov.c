@@ -17,15 +17,28 @@
 #include "harness.h"
 
 #define RENORM_STEPS 10
-/* d0 relative to |x0| (the size of the starting state; 1 when it is 0): far above the
- * rounding of the state (1e-16 relative) and far below any size of the orbit. */
-#define D0_RELATIVE 1e-9
+/* The separation, unit-free (below): far above the rounding of the state (1e-16
+ * relative) and far below any size of the orbit. */
+#define D0 1e-9
 
-static double distance(const double *x, const double *y, int n)
+/* The distance of x and y in phase space with positions in units of |q0| and momenta in
+ * units of |p0| (each 1 when it is 0), so that it, the start of the shadow and the
+ * exponent times the time unit do not depend on the units of the problem. */
+static double distance(const double *x, const double *y, int dof, const double scale[2])
+{
+    double s = 0.0;
+    for (int i = 0; i < 2 * dof; i++) {
+        double d = (y[i] - x[i]) / scale[i >= dof];
+        s += d * d;
+    }
+    return sqrt(s);
+}
+
+static double norm(const double *v, int n)
 {
     double s = 0.0;
     for (int i = 0; i < n; i++)
-        s += (y[i] - x[i]) * (y[i] - x[i]);
+        s += v[i] * v[i];
     return sqrt(s);
 }
 
@@ -34,17 +47,15 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
     const dm_instance *inst = &spec->inst;
     if (spec->method->adaptive || steps == 0)
         return NAN;
-    const int n = 2 * inst->dof;
+    const int dof = inst->dof, n = 2 * dof;
     double x[2][2 * DM_MAX_DOF], y[2][2 * DM_MAX_DOF];
-    memcpy(x[0], inst->q0, sizeof(double) * (size_t)inst->dof);
-    memcpy(x[0] + inst->dof, inst->p0, sizeof(double) * (size_t)inst->dof);
-    double size = 0.0;
-    for (int i = 0; i < n; i++)
-        size += x[0][i] * x[0][i];
-    size = sqrt(size);
-    const double d0 = D0_RELATIVE * (size > 0.0 ? size : 1.0);
+    memcpy(x[0], inst->q0, sizeof(double) * (size_t)dof);
+    memcpy(x[0] + dof, inst->p0, sizeof(double) * (size_t)dof);
+    double scale[2] = { norm(inst->q0, dof), norm(inst->p0, dof) };
+    for (int k = 0; k < 2; k++)
+        scale[k] = scale[k] > 0.0 ? scale[k] : 1.0;
     for (int i = 0; i < n; i++) /* along the diagonal: every component moved */
-        y[0][i] = x[0][i] + d0 / sqrt((double)n);
+        y[0][i] = x[0][i] + D0 * scale[i >= dof] / sqrt((double)n);
     dm_point px[2] = { { 0.0, x[0], NAN }, { 0.0, x[1], NAN } };
     dm_point py[2] = { { 0.0, y[0], NAN }, { 0.0, y[1], NAN } };
     dm_method_config mc = spec->method_config;
@@ -60,12 +71,12 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
         cur = 1 - cur;
         if (k % RENORM_STEPS != 0 && k != steps)
             continue;
-        double d = distance(x[cur], y[cur], n);
+        double d = distance(x[cur], y[cur], dof, scale);
         if (!(d > 0.0) || !isfinite(d))
             break;
-        sum += log(d / d0);
+        sum += log(d / D0);
         for (int i = 0; i < n; i++)
-            y[cur][i] = x[cur][i] + (y[cur][i] - x[cur][i]) * (d0 / d);
+            y[cur][i] = x[cur][i] + (y[cur][i] - x[cur][i]) * (D0 / d);
         /* the shadow moved: its caches (the force at its old position) are stale */
         dm_stepper_restart(sy, &py[cur]);
         if (k == steps)

@@ -142,11 +142,20 @@ static void verlet_energy_error_is_bounded_and_of_order_two(void **state)
  * 1 % of 4332.6 days (its sidereal period, a fact of the trade, from memory); the
  * figure does not depend on the buckets (bit for bit) nor on the units: the same system
  * in years (G in AU^3 / (solar mass year^2), velocities in AU / year) gives the same
- * period to rounding. */
+ * period to rounding, and the same Lyapunov exponent per unit of time. */
 static void jupiter_period_is_measured_whatever_the_buckets_and_units(void **state)
 {
     (void)state;
     char *coarse = outer_suite(1e5, 16, "  - {method: verlet, h: 10}\n");
+    /* the Lyapunov exponent too (harness/lyapunov.c: its distance is unit-free) */
+    char *with_key = malloc(strlen(coarse) + 32);
+    assert_non_null(with_key);
+    char *buckets = strstr(coarse, "buckets:");
+    assert_non_null(buckets);
+    snprintf(with_key, strlen(coarse) + 32, "%.*slyapunov: true\n%s", (int)(buckets - coarse),
+             coarse, buckets);
+    free(coarse);
+    coarse = with_key;
     char *fine = outer_suite(1e5, 2000, "  - {method: verlet, h: 10}\n");
     dm_suite s1, s2;
     dm_run_result *r1 = run_all(coarse, &s1), *r2 = run_all(fine, &s2);
@@ -162,7 +171,7 @@ static void jupiter_period_is_measured_whatever_the_buckets_and_units(void **sta
     const double Y = 365.25;
     char years[8192];
     snprintf(years, sizeof years,
-             "output: " OUT "\nhorizon: {time: %.17g}\nbuckets: 100\nproblems:\n"
+             "output: " OUT "\nhorizon: {time: %.17g}\nbuckets: 100\nlyapunov: true\nproblems:\n"
              "  - problem: nbody\n    G: %.17g\n    units: AU, years, solar masses\n"
              "    period_of: {body: Jupiter, around: Sun}\n    bodies:\n",
              1e5 / Y, 2.95912208286e-4 * Y * Y);
@@ -185,6 +194,12 @@ static void jupiter_period_is_measured_whatever_the_buckets_and_units(void **sta
                   r3[0].metrics.period_measured * Y);
     assert_close(r3[0].metrics.period_measured * Y, P, 1e-9);
     assert_close(r3[0].metrics.max_energy_error, r1[0].metrics.max_energy_error, 1e-6);
+    /* a regular orbit over 23 of Jupiter's periods: about log t / t, the same per day */
+    print_message("Lyapunov exponent: %.6g per day, %.6g per year / 365.25\n",
+                  r1[0].metrics.lyapunov_exponent, r3[0].metrics.lyapunov_exponent / Y);
+    assert_true(r1[0].metrics.lyapunov_exponent > 0.0 && r1[0].metrics.lyapunov_exponent < 1e-3);
+    /* to the rounding of a separation of 1e-9 (1e-7 of it at each of 1000 measurements) */
+    assert_close(r3[0].metrics.lyapunov_exponent / Y, r1[0].metrics.lyapunov_exponent, 1e-5);
     free(coarse);
     free(fine);
     free_all(&s1, r1);
