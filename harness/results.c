@@ -361,6 +361,10 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
     rc |= attr_bool(g, "method_symplectic", m->symplectic);
     rc |= attr_bool(g, "method_symmetric", m->symmetric);
     rc |= attr_bool(g, "method_adaptive", m->adaptive);
+    if (m->user != NULL) { /* a table typed in the suite: the run alone reproduces it */
+        rc |= attr_text(g, "method_table", m->user->text);
+        rc |= attr_int(g, "method_order_found", m->user->findings.order_found);
+    }
     rc |= attr_double(g, "h", adaptive ? NAN : spec->method_config.h);
     rc |= attr_double(g, "rtol", adaptive ? spec->method_config.rtol : NAN);
     rc |= attr_double(g, "atol", adaptive ? spec->method_config.atol : NAN);
@@ -537,6 +541,56 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     return rc;
 }
 
+/* /tables/<name>: a table typed in the suite, in full (results/README.md). */
+static int write_table(hid_t tables, const dm_user_table *t)
+{
+    const dm_table_input *in = &t->input;
+    const dm_table_findings *f = &t->findings;
+    hid_t g = H5Gcreate2(tables, in->name, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0)
+        return -1;
+    int rc = attr_text(g, "form", dm_table_form_name(in->form));
+    rc |= attr_text(g, "text", t->text);
+    rc |= attr_text(g, "reference", in->reference);
+    rc |= attr_int(g, "claimed_order", in->claimed_order);
+    rc |= attr_int(g, "order_found", f->order_found);
+    rc |= attr_text(g, "order_basis", f->order_basis);
+    rc |= attr_bool(g, "experimental", in->experimental);
+    rc |= attr_bool(g, "symmetric", f->symmetric);
+    if (in->form == DM_TABLE_RUNGE_KUTTA) {
+        const dm_rk_tableau *tab = &t->tableau;
+        double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+        for (int i = 0; i < tab->stages; i++)
+            for (int j = 0; j < tab->stages; j++)
+                a[i * tab->stages + j] = tab->a[i][j];
+        rc |= attr_int(g, "stages", tab->stages);
+        rc |= dataset_double(g, "a", a, (size_t)(tab->stages * tab->stages));
+        rc |= dataset_double(g, "b", tab->b, (size_t)tab->stages);
+        rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
+                             (size_t)f->conditions_checked_to);
+    } else {
+        rc |= attr_bool(g, "kick_first", t->splitting.kick_first);
+        rc |= dataset_double(g, "kick", t->kick, (size_t)t->splitting.n_kick);
+        rc |= dataset_double(g, "drift", t->drift, (size_t)t->splitting.n_drift);
+        for (int k = 0; k < 2; k++) {
+            const dm_measured_order *o = &f->measured[k];
+            const char *pr = dm_table_check_problems[k];
+            char name[96];
+            snprintf(name, sizeof name, "measured_order_%s", pr);
+            rc |= attr_double(g, name, o->order);
+            snprintf(name, sizeof name, "error_constant_%s", pr);
+            rc |= attr_double(g, name, o->error_constant);
+            snprintf(name, sizeof name, "steps_per_period_%s", pr);
+            rc |= dataset_double(g, name, o->steps_per_period, (size_t)o->levels);
+            snprintf(name, sizeof name, "errors_%s", pr);
+            rc |= dataset_double(g, name, o->errors, (size_t)o->levels);
+        }
+    }
+    if (H5Gclose(g) < 0)
+        rc = -1;
+    return rc;
+}
+
 static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_result *results,
                            const dm_sweep_fit *fits, const char *start_time_utc,
                            const char **what)
@@ -577,6 +631,17 @@ static dm_status write_all(hid_t file, const dm_suite *suite, const dm_run_resul
     for (size_t i = 0; i < suite->n_sweeps && rc == 0; i++)
         rc = write_sweep(sweeps, suite, &suite->sweeps[i], results, fits ? &fits[i] : NULL);
     if (H5Gclose(sweeps) < 0 || rc != 0)
+        return DM_EIO;
+
+    if (suite->n_tables == 0)
+        return DM_OK;
+    *what = "/tables";
+    hid_t tables = H5Gcreate2(file, "tables", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (tables < 0)
+        return DM_EIO;
+    for (size_t i = 0; i < suite->n_tables && rc == 0; i++)
+        rc = write_table(tables, suite->tables[i]);
+    if (H5Gclose(tables) < 0 || rc != 0)
         return DM_EIO;
     return DM_OK;
 }

@@ -28,6 +28,7 @@
 
 #include "dm_hash.h"
 #include "harness.h"
+#include "suite_read.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -42,17 +43,7 @@
 
 /* ---- locations and errors ---- */
 
-typedef struct parse_ctx {
-    yaml_document_t *doc;
-    const char *source;
-    dm_error *err;
-    /* where scalars tagged explicitly as something other than a number (!!str ...)
-     * start: the document API gives every scalar a tag, so only the events tell */
-    size_t *text_tagged;
-    size_t n_text_tagged;
-} parse_ctx;
-
-static size_t node_line(const yaml_node_t *node)
+size_t node_line(const yaml_node_t *node)
 {
     return node->start_mark.line + 1;
 }
@@ -62,10 +53,7 @@ static size_t node_column(const yaml_node_t *node)
     return node->start_mark.column + 1;
 }
 
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
-    __attribute__((format(printf, 3, 4)));
-
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
+dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
 {
     /* Messages quote what the user wrote, and a YAML text may hold any character (a
      * quoted "a\nb", a block scalar): dm_error_set keeps the message one line. */
@@ -87,12 +75,12 @@ static dm_status prefix_at(parse_ctx *c, const yaml_node_t *node)
     return DM_EINPUT;
 }
 
-static yaml_node_t *node_at(parse_ctx *c, int index)
+yaml_node_t *node_at(parse_ctx *c, int index)
 {
     return yaml_document_get_node(c->doc, index);
 }
 
-static const char *node_kind(const yaml_node_t *node)
+const char *node_kind(const yaml_node_t *node)
 {
     switch (node->type) {
     case YAML_SCALAR_NODE: return "a scalar";
@@ -102,12 +90,12 @@ static const char *node_kind(const yaml_node_t *node)
     }
 }
 
-static const char *scalar_text(const yaml_node_t *node)
+const char *scalar_text(const yaml_node_t *node)
 {
     return (const char *)node->data.scalar.value;
 }
 
-static bool scalar_is_quoted(const yaml_node_t *node)
+bool scalar_is_quoted(const yaml_node_t *node)
 {
     return node->data.scalar.style == YAML_SINGLE_QUOTED_SCALAR_STYLE ||
            node->data.scalar.style == YAML_DOUBLE_QUOTED_SCALAR_STYLE;
@@ -126,7 +114,7 @@ static void join_names(const char *const *names, size_t n, char *buf, size_t siz
     }
 }
 
-static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
                               const char *word, const char *const *names, size_t n)
 {
     const char *hint = dm_suggest(word, names, n);
@@ -139,7 +127,7 @@ static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char 
 
 /* ---- scalar readers ---- */
 
-static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
+dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
                          const char **name)
 {
     *key = node_at(c, pair->key);
@@ -151,7 +139,7 @@ static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t
 }
 
 /* A mapping must not give a key twice (libyaml accepts it; YAML forbids it). */
-static dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
+dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
 {
     for (const yaml_node_pair_t *a = map->data.mapping.pairs.start;
          a < map->data.mapping.pairs.top; a++) {
@@ -176,7 +164,7 @@ static bool tagged_as_text(const parse_ctx *c, const yaml_node_t *node)
     return false;
 }
 
-static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
                             double *out)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -204,7 +192,7 @@ static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *w
     return DM_OK;
 }
 
-static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
                               double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -215,7 +203,7 @@ static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char 
     return DM_OK;
 }
 
-static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
                            double lo, double hi, double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -227,7 +215,7 @@ static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *wh
     return DM_OK;
 }
 
-static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
+dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
 {
     if (node->type == YAML_SCALAR_NODE && !scalar_is_quoted(node)) {
         if (strcmp(scalar_text(node), "true") == 0) {
@@ -245,7 +233,7 @@ static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *wha
                    scalar_text(node));
 }
 
-static dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
                             char *buf, size_t size)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -431,6 +419,8 @@ typedef struct suite_build {
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
     uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
+    dm_user_table **tables;           /* the tables typed in the suite (to dm_suite) */
+    size_t n_tables;
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -445,6 +435,9 @@ static void build_free(suite_build *b)
     free(b->run_nodes);
     free(b->run_variants);
     free(b->run_id_hashes);
+    for (size_t i = 0; i < b->n_tables; i++)
+        free(b->tables[i]);
+    free(b->tables);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -618,12 +611,14 @@ static const char *step_setting_key(dm_step_setting setting)
 }
 
 static const char *const method_keys[] = { "method", "h", "steps_per_period", "rtol",
-                                           "atol", "compensated" };
+                                           "atol", "compensated", "table" };
 enum { N_METHOD_KEYS = sizeof method_keys / sizeof method_keys[0] };
 
-/* Every key of the entry is known; `method:` names a known method. */
-static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry *e)
+/* Every key of the entry is known; `method:` names a known method, or `table:` gives
+ * the user's own (suite_table.c). */
+static dm_status find_method(suite_build *b, const yaml_node_t *node, method_entry *e)
 {
+    parse_ctx *c = &b->ctx;
     dm_status st;
     const yaml_node_pair_t *start = node->data.mapping.pairs.start;
     const yaml_node_pair_t *top = node->data.mapping.pairs.top;
@@ -637,9 +632,17 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
             k++;
         if (k == N_METHOD_KEYS)
             return fail_unknown(c, key, "method key", name, method_keys, N_METHOD_KEYS);
-        if (k != 0)
+        if (k != 0 && k != N_METHOD_KEYS - 1)
             continue;
+        if (e->method != NULL)
+            return fail_at(c, key, "give either method or table, not both");
         const yaml_node_t *value = node_at(c, p->value);
+        if (k == N_METHOD_KEYS - 1) {
+            st = dm_suite_read_table(c, value, &b->tables, &b->n_tables, &e->method);
+            if (st != DM_OK)
+                return st;
+            continue;
+        }
         char id[DM_NAME_MAX];
         if ((st = get_string(c, value, "method", id, sizeof id)) != DM_OK)
             return st;
@@ -653,7 +656,8 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
         }
     }
     if (e->method == NULL)
-        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
+        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...} "
+                       "or {table: {...}, ...})");
     return DM_OK;
 }
 
@@ -671,7 +675,7 @@ static dm_status parse_method_options(parse_ctx *c, const yaml_node_t *node, met
         yaml_node_t *key = node_at(c, p->key);
         const char *name = scalar_text(key);
         const yaml_node_t *value = node_at(c, p->value);
-        if (strcmp(name, "method") == 0)
+        if (strcmp(name, "method") == 0 || strcmp(name, "table") == 0)
             continue;
         if (strcmp(name, "compensated") == 0) {
             if ((st = get_bool(c, value, "compensated", &e->compensated)) != DM_OK)
@@ -763,7 +767,7 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
     const yaml_node_t *setting_value = NULL;
     dm_status st = check_unique_keys(c, node);
     if (st == DM_OK)
-        st = find_method(c, node, e);
+        st = find_method(b, node, e);
     if (st == DM_OK)
         st = parse_method_options(c, node, e, &setting_value);
     if (st == DM_OK)
@@ -998,6 +1002,9 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
             first = false;
         }
     ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " method=%s", m->id);
+    if (m->user != NULL) /* the table itself, by the hash of its suite form */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " table=%016" PRIx64,
+                           dm_hash_text(m->user->text));
     if (m->adaptive)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " rtol=%.17g atol=%.17g", mc->rtol,
                            mc->atol);
@@ -1307,7 +1314,7 @@ static dm_status check_no_nul(parse_ctx *c)
 
 /* Names become file names and table cells: a newline or an escape byte in one is
  * always a mistake. */
-static bool has_control(const char *s)
+bool has_control(const char *s)
 {
     for (const unsigned char *u = (const unsigned char *)s; *u; u++)
         if (*u < 0x20 || *u == 0x7f)
@@ -1581,6 +1588,12 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     b.step_budget = DM_DEFAULT_STEP_BUDGET;
     b.memory_limit_gib = DM_DEFAULT_MEMORY_LIMIT_GIB;
     dm_status st = parse_document(&b, suite);
+    if (st == DM_OK) { /* the runs' methods live in the tables: the suite keeps them */
+        suite->tables = b.tables;
+        suite->n_tables = b.n_tables;
+        b.tables = NULL;
+        b.n_tables = 0;
+    }
 
     /* One suite per file: a second document is almost surely a mistake. */
     if (st == DM_OK) {
@@ -1692,5 +1705,8 @@ void dm_suite_free(dm_suite *suite)
         free(suite->sweeps[i].runs);
     free(suite->sweeps);
     free(suite->runs);
+    for (size_t i = 0; i < suite->n_tables; i++)
+        free(suite->tables[i]);
+    free(suite->tables);
     memset(suite, 0, sizeof *suite);
 }

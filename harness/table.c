@@ -29,6 +29,7 @@ void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
         snprintf(row->regime, sizeof row->regime, "%s", inst->problem->regimes[inst->regime].id);
     snprintf(row->method, sizeof row->method, "%s", m->id);
     row->order = m->order;
+    row->order_found = m->user != NULL ? m->user->findings.order_found : NAN;
     row->h = m->adaptive ? NAN : spec->method_config.h;
     row->rtol = m->adaptive ? spec->method_config.rtol : NAN;
     /* what it measured (DM_RUN_FIGURES) */

@@ -27,9 +27,10 @@ static void restart_at(rk_stepper *s, const dm_point *at)
     dm_step_clock_start(&s->clock, at->t);
 }
 
-static dm_stepper *rk_create(const dm_rk_tableau *tab, const dm_method *m,
-                             const dm_instance *inst, const dm_method_config *config,
-                             const dm_point *start, dm_error *err)
+/* Every explicit tableau, built-in or typed in a suite, is the method's own. */
+static dm_stepper *rk_create(const dm_method *m, const dm_instance *inst,
+                             const dm_method_config *config, const dm_point *start,
+                             dm_error *err)
 {
     rk_stepper *s = calloc(1, sizeof *s);
     if (s == NULL) {
@@ -40,23 +41,9 @@ static dm_stepper *rk_create(const dm_rk_tableau *tab, const dm_method *m,
     s->base.inst = inst;
     s->base.dof = inst->dof;
     s->base.config = *config;
-    s->tableau = tab;
+    s->tableau = m->tableau;
     restart_at(s, start);
     return &s->base;
-}
-
-static dm_stepper *euler_create(const dm_method *m, const dm_instance *inst,
-                                const dm_method_config *config, const dm_point *start,
-                                dm_error *err)
-{
-    return rk_create(&dm_rk_euler_tableau, m, inst, config, start, err);
-}
-
-static dm_stepper *rk4_create(const dm_method *m, const dm_instance *inst,
-                              const dm_method_config *config, const dm_point *start,
-                              dm_error *err)
-{
-    return rk_create(&dm_rk4_tableau, m, inst, config, start, err);
 }
 
 /* The step arithmetic is dm_rk_explicit_step (dm_fused_loop.h), the fused loop's own. */
@@ -142,7 +129,8 @@ const dm_method dm_euler = {
     .symplectic = false,
     .symmetric = false,
     .force_evals_per_step = 1,
-    .create = euler_create,
+    .tableau = &dm_rk_euler_tableau,
+    .create = rk_create,
     .step = rk_step,
     .run_fused = rk_run_fused,
     .restart = rk_restart,
@@ -161,7 +149,8 @@ const dm_method dm_rk4 = {
     .symplectic = false,
     .symmetric = false,
     .force_evals_per_step = 4,
-    .create = rk4_create,
+    .tableau = &dm_rk4_tableau,
+    .create = rk_create,
     .step = rk_step,
     .run_fused = rk_run_fused,
     .restart = rk_restart,

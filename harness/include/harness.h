@@ -26,6 +26,7 @@
 #include "method.h"
 #include "problem.h"
 #include "run_figures.h"
+#include "user_table.h"
 
 #define DM_RUN_ID_MAX 160
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
@@ -86,6 +87,10 @@ typedef struct dm_suite {
     dm_run_spec *runs;               /* owned */
     size_t n_sweeps;
     dm_sweep *sweeps;                /* owned */
+    /* the methods typed as tables in the suite (user_table.h), in the order first
+     * given; the runs' methods point into them (owned) */
+    size_t n_tables;
+    struct dm_user_table **tables;
 } dm_suite;
 
 /* Parses and validates a whole suite before anything runs. Errors are one line,

@@ -261,7 +261,8 @@ dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
     }
 }
 
-/* The same for a tableau known at run time: S made a constant by a switch. */
+/* The same for a tableau known at run time: S made a constant by a switch up to 4
+ * stages; longer tables (typed in a suite) loop over their stages. */
 static inline __attribute__((always_inline)) void
 dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double h,
                         const double *y0, double *y1, const int N, dm_gradient_fn gradient,
@@ -271,7 +272,8 @@ dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double 
     case 1: dm_rk_explicit_step(inst, t, h, y0, y1, N, 1, gradient, velocity); break;
     case 2: dm_rk_explicit_step(inst, t, h, y0, y1, N, 2, gradient, velocity); break;
     case 3: dm_rk_explicit_step(inst, t, h, y0, y1, N, 3, gradient, velocity); break;
-    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
+    case 4: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
+    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, t->stages, gradient, velocity); break;
     }
 }
 

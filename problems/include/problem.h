@@ -135,7 +135,7 @@ typedef int (*dm_fused_loop_fn)(const dm_instance *inst, const dm_fused_table *t
  * rule (integrators/midpoint.c). The step arithmetic is written once, in
  * dm_fused_loop.h (dm_rk_explicit_step, dm_midpoint_step), and the per-step paths of
  * rk.c and midpoint.c call the same functions. */
-#define DM_RK_MAX_STAGES 4
+#define DM_RK_MAX_STAGES 16
 
 /* An explicit Butcher tableau: a strictly lower triangular, b the weights. */
 typedef struct dm_rk_tableau {
@@ -245,7 +245,7 @@ struct dm_problem {
  * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
  * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
  * fused loop's types change, so an object built against another version is refused. */
-#define DM_PROBLEM_ABI 1u
+#define DM_PROBLEM_ABI 2u
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 
