@@ -1481,3 +1481,128 @@ done:
     free(rows);
     return st;
 }
+
+/* ---- the tables (for `show`) ---- */
+
+typedef struct table_names {
+    char (*name)[DM_TABLE_NAME_MAX];
+    size_t n, capacity;
+} table_names;
+
+static herr_t collect_table_name(hid_t g, const char *name, const H5L_info_t *info, void *data)
+{
+    (void)g;
+    (void)info;
+    table_names *s = data;
+    if (s->n >= s->capacity || strlen(name) >= DM_TABLE_NAME_MAX)
+        return -1;
+    memcpy(s->name[s->n++], name, strlen(name) + 1);
+    return 0;
+}
+
+/* A text attribute, control characters escaped, cut to fit. */
+static int read_shown_text(hid_t g, const char *name, char *out, size_t size)
+{
+    char raw[256];
+    if (read_text_attr(g, name, raw, sizeof raw) != 0)
+        return -1;
+    dm_escape_controls(raw, out, size);
+    return 0;
+}
+
+/* One /tables/<name> group into t. Returns NULL, or what is wrong with it. */
+static const char *read_table(hid_t g, dm_table_summary *t)
+{
+    long long claimed, found, experimental, symmetric;
+    if (read_shown_text(g, "form", t->form, sizeof t->form) != 0)
+        return "its form attribute is not a text";
+    if (read_shown_text(g, "order_basis", t->basis, sizeof t->basis) != 0)
+        return "its order_basis attribute is not a text";
+    if (read_int_attr(g, "claimed_order", &claimed) != 0 ||
+        read_int_attr(g, "order_found", &found) != 0 || claimed < 1 ||
+        claimed > DM_ORDER_MAX || found < 0 || found > DM_ORDER_MAX)
+        return "its claimed_order and order_found are not whole numbers up to 8";
+    if (read_int_attr(g, "experimental", &experimental) != 0 ||
+        read_int_attr(g, "symmetric", &symmetric) != 0)
+        return "its experimental and symmetric attributes are not 0 or 1";
+    t->claimed_order = (int)claimed;
+    t->order_found = (int)found;
+    t->experimental = experimental != 0;
+    t->symmetric = symmetric != 0;
+    for (int k = 0; k < 2; k++) {
+        char name[96];
+        t->measured[k] = t->constant[k] = NAN;
+        snprintf(name, sizeof name, "measured_order_%s", dm_table_check_problems[k]);
+        if (H5Aexists(g, name) > 0 && read_double_attr(g, name, &t->measured[k]) != 0)
+            return "a measured order is not one number";
+        snprintf(name, sizeof name, "error_constant_%s", dm_table_check_problems[k]);
+        if (H5Aexists(g, name) > 0 && read_double_attr(g, name, &t->constant[k]) != 0)
+            return "an error constant is not one number";
+    }
+    return NULL;
+}
+
+dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, size_t *n,
+                                 dm_error *err)
+{
+    *tables = NULL;
+    *n = 0;
+    hdf5_silence();
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    if (file < 0)
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated",
+                            path);
+    dm_status st = DM_OK;
+    hid_t group = -1;
+    table_names names = { 0 };
+    dm_table_summary *out = NULL;
+    H5G_info_t info;
+    if (H5Lexists(file, "tables", H5P_DEFAULT) <= 0)
+        goto done; /* no tables */
+    group = H5Gopen2(file, "tables", H5P_DEFAULT);
+    if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /tables is not a group of at most "
+                          "%d tables", path, DM_SUITE_MAX_RUNS);
+        goto done;
+    }
+    names.capacity = (size_t)info.nlinks;
+    names.name = calloc(names.capacity ? names.capacity : 1, sizeof *names.name);
+    out = calloc(names.capacity ? names.capacity : 1, sizeof *out);
+    hsize_t at = 0;
+    if (names.name == NULL || out == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    if (H5Literate(group, H5_INDEX_NAME, H5_ITER_INC, &at, collect_table_name, &names) < 0) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /tables holds a name longer than "
+                          "a table's", path);
+        goto done;
+    }
+    for (size_t i = 0; i < names.n && st == DM_OK; i++) {
+        dm_table_summary *t = &out[i];
+        dm_escape_controls(names.name[i], t->name, sizeof t->name);
+        H5O_info_t oi;
+        hid_t g = -1;
+        if (H5Oget_info_by_name(group, names.name[i], &oi, H5P_DEFAULT) >= 0 &&
+            oi.type == H5O_TYPE_GROUP)
+            g = H5Gopen2(group, names.name[i], H5P_DEFAULT);
+        const char *why = g >= 0 ? read_table(g, t) : "it is not a group";
+        if (g >= 0)
+            H5Gclose(g);
+        if (why != NULL)
+            st = dm_error_set(err, DM_EINPUT, "cannot read %s: table %s: %s", path, t->name,
+                              why);
+    }
+done:
+    free(names.name);
+    if (group >= 0)
+        H5Gclose(group);
+    H5Fclose(file);
+    if (st == DM_OK) {
+        *tables = out;
+        *n = names.n;
+    } else {
+        free(out);
+    }
+    return st;
+}

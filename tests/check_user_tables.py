@@ -180,6 +180,20 @@ def main():
             typed = run_suite("listed-" + method, line)
             compare_files(run_suite("listed-builtin-" + method, "method: " + method), typed,
                           method, "my-" + method)
+        # an experimental table below its claim runs, and run and show print both orders
+        bent = ("{name: bent4, order: 4, experimental: true, kick: %s, drift: %s}"
+                % (numbers([X1 / 2, (X1 + X0) / 2 - 0.005, (X0 + X1) / 2 + 0.005, X1 / 2]),
+                   numbers([X1, X0, X1])))
+        out = run_suite("experimental", "table: " + bent)
+        shown = run(EXE, ["show", out])
+        line = [x for x in shown.stdout.splitlines() if x.startswith("bent4 ")]
+        check(shown.returncode == 0 and len(line) == 1 and line[0].split()[2:4] == ["4", "1"]
+              and "below its claim" in line[0],
+              f"show does not print the claimed order 4 and the found 1: {shown.stdout!r}")
+        with h5py.File(out, "r") as f:
+            rows = f["summary"][()]
+            check(all(r["order"] == 4 and r["order_found"] == 1 for r in rows),
+                  "/summary does not hold both orders of the experimental table")
     finish("check_user_tables")
 
 
