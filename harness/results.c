@@ -569,9 +569,22 @@ static int write_table(hid_t tables, const dm_user_table *t)
         rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
                              (size_t)f->conditions_checked_to);
     } else {
-        rc |= attr_bool(g, "kick_first", t->splitting.kick_first);
-        rc |= dataset_double(g, "kick", t->kick, (size_t)t->splitting.n_kick);
-        rc |= dataset_double(g, "drift", t->drift, (size_t)t->splitting.n_drift);
+        if (in->form == DM_TABLE_NYSTROM) {
+            const dm_rkn_tableau *n = &t->nystrom;
+            double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+            for (int i = 0; i < n->stages; i++)
+                for (int j = 0; j < n->stages; j++)
+                    a[i * n->stages + j] = n->abar[i][j];
+            rc |= attr_int(g, "stages", n->stages);
+            rc |= dataset_double(g, "abar", a, (size_t)(n->stages * n->stages));
+            rc |= dataset_double(g, "bbar", n->bbar, (size_t)n->stages);
+            rc |= dataset_double(g, "b", n->b, (size_t)n->stages);
+            rc |= dataset_double(g, "c", n->c, (size_t)n->stages);
+        } else {
+            rc |= attr_bool(g, "kick_first", t->splitting.kick_first);
+            rc |= dataset_double(g, "kick", t->kick, (size_t)t->splitting.n_kick);
+            rc |= dataset_double(g, "drift", t->drift, (size_t)t->splitting.n_drift);
+        }
         for (int k = 0; k < 2; k++) {
             const dm_measured_order *o = &f->measured[k];
             const char *pr = dm_table_check_problems[k];

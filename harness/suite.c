@@ -1041,6 +1041,10 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->sweep = -1;
+    if (me->method->nystrom != NULL && !dm_velocity_is_linear(&x->inst))
+        return fail_at(&b->ctx, me->node, "%s is a Runge-Kutta-Nystrom table, for a kinetic "
+                       "energy quadratic in p; %s's grad T is not linear in p (expected a "
+                       "splitting or Runge-Kutta table for it)", me->method->id, x->part);
     dm_status st = set_horizon(b, x, spec);
     if (st == DM_OK)
         st = set_step_and_id(b, x, me, value_index, spec);

@@ -3,6 +3,8 @@
  *   - table: {name: NAME, order: P, kick: [...], drift: [...]}        a splitting
  *     table: {name: NAME, order: P, compose: verlet, weights: [...]}  a composition
  *     table: {name: NAME, order: P, a: [[], [...], ...], b: [...]}    a Butcher tableau
+ *     table: {name: NAME, order: P, abar: [[], ...], bbar: [...], b: [...], c: [...]}
+ *                                                          a Runge-Kutta-Nystrom table
  *
  * with `first: kick|drift` when the kick and drift lists are of equal length, `mirror:
  * true` when kick/drift or weights are the first half of a symmetric table (up to and
@@ -21,9 +23,10 @@
 
 static const char *const table_keys[] = { "name", "order", "reference", "experimental",
                                           "mirror", "first", "kick", "drift",
-                                          "compose", "weights", "a", "b", "c" };
+                                          "compose", "weights", "a", "b", "c",
+                                          "abar", "bbar" };
 enum { K_NAME, K_ORDER, K_REFERENCE, K_EXPERIMENTAL, K_MIRROR, K_FIRST, K_KICK, K_DRIFT,
-       K_COMPOSE, K_WEIGHTS, K_A, K_B, K_C, N_TABLE_KEYS };
+       K_COMPOSE, K_WEIGHTS, K_A, K_B, K_C, K_ABAR, K_BBAR, N_TABLE_KEYS };
 
 /* A list of at most `max` numbers (at least one). */
 static dm_status get_coefficients(parse_ctx *c, const yaml_node_t *node, const char *what,
@@ -46,18 +49,19 @@ static dm_status get_coefficients(parse_ctx *c, const yaml_node_t *node, const c
     return DM_OK;
 }
 
-/* a: the rows of a strictly lower triangular matrix, row i with i entries (the first
- * row empty) or with all `stages` entries, zero from the diagonal on. */
-static dm_status get_matrix(parse_ctx *c, const yaml_node_t *node, dm_table_input *in)
+/* a (or abar): the rows of a strictly lower triangular matrix, row i with i entries
+ * (the first row empty) or with all `stages` entries, zero from the diagonal on. */
+static dm_status get_matrix(parse_ctx *c, const yaml_node_t *node, const char *what,
+                            dm_table_input *in)
 {
     if (node->type != YAML_SEQUENCE_NODE)
-        return fail_at(c, node, "a must be a list of rows, found %s (expected [[], [a21], "
-                       "[a31, a32], ...])", node_kind(node));
+        return fail_at(c, node, "%s must be a list of rows, found %s (expected [[], [a21], "
+                       "[a31, a32], ...])", what, node_kind(node));
     const yaml_node_item_t *start = node->data.sequence.items.start;
     int rows = (int)(node->data.sequence.items.top - start);
     if (rows != in->stages)
-        return fail_at(c, node, "a has %d rows and b %d weights (expected one row per "
-                       "stage)", rows, in->stages);
+        return fail_at(c, node, "%s has %d rows and b %d weights (expected one row per "
+                       "stage)", what, rows, in->stages);
     for (int i = 0; i < rows; i++) {
         const yaml_node_t *row = node_at(c, start[i]);
         double v[DM_RK_MAX_STAGES];
@@ -66,13 +70,13 @@ static dm_status get_matrix(parse_ctx *c, const yaml_node_t *node, dm_table_inpu
         if (st != DM_OK)
             return st;
         if (n != i && n != rows)
-            return fail_at(c, row, "row %d of a has %d entries (expected %d, the entries "
-                           "left of the diagonal, or all %d)", i + 1, n, i, rows);
+            return fail_at(c, row, "row %d of %s has %d entries (expected %d, the entries "
+                           "left of the diagonal, or all %d)", i + 1, what, n, i, rows);
         for (int j = i; j < n; j++)
             if (v[j] != 0.0)
-                return fail_at(c, row, "a%d%d = %.17g is on or above the diagonal (expected "
-                               "an explicit table: zeros from the diagonal on)", i + 1, j + 1,
-                               v[j]);
+                return fail_at(c, row, "%s%d%d = %.17g is on or above the diagonal "
+                               "(expected an explicit table: zeros from the diagonal on)",
+                               what, i + 1, j + 1, v[j]);
         for (int j = 0; j < i; j++)
             in->a[i][j] = v[j];
     }
@@ -154,7 +158,7 @@ static dm_status read_value(parse_ctx *c, int k, const yaml_node_t *v, dm_table_
         return get_coefficients(c, v, "weights", DM_TABLE_MAX_COEFFICIENTS, in->weights,
                                 &in->n_weights);
     case K_B: return get_coefficients(c, v, "b", DM_RK_MAX_STAGES, in->b, &in->stages);
-    default: return DM_OK; /* a and c are read once b gave the stages */
+    default: return DM_OK; /* a, abar, bbar and c are read once b gave the stages */
     }
 }
 
@@ -164,23 +168,28 @@ static dm_status find_form(parse_ctx *c, const yaml_node_t *node, const yaml_nod
 {
     bool splitting = at[K_KICK] || at[K_DRIFT] || at[K_FIRST];
     bool composition = at[K_COMPOSE] || at[K_WEIGHTS];
-    bool runge_kutta = at[K_A] || at[K_B] || at[K_C];
-    if (splitting + composition + runge_kutta != 1)
+    bool nystrom = at[K_ABAR] || at[K_BBAR];
+    bool runge_kutta = at[K_A] || ((at[K_B] || at[K_C]) && !nystrom);
+    if (splitting + composition + runge_kutta + nystrom != 1)
         return fail_at(c, node, "a table gives %s (expected kick and drift, compose and "
-                       "weights, or a and b)", splitting + composition + runge_kutta
+                       "weights, a and b, or abar, bbar, b and c)",
+                       splitting + composition + runge_kutta + nystrom
                            ? "the keys of two forms" : "no coefficients");
-    static const struct { int key; int needs; } need[] = {
+    const struct { int key; int needs; } need[] = {
         { K_KICK, K_DRIFT }, { K_DRIFT, K_KICK }, { K_FIRST, K_KICK },
-        { K_COMPOSE, K_WEIGHTS }, { K_WEIGHTS, K_COMPOSE }, { K_A, K_B }, { K_B, K_A },
-        { K_C, K_A },
+        { K_COMPOSE, K_WEIGHTS }, { K_WEIGHTS, K_COMPOSE }, { K_A, K_B },
+        { K_ABAR, K_BBAR }, { K_BBAR, K_ABAR }, { K_ABAR, K_B }, { K_ABAR, K_C },
+        { K_B, nystrom ? K_ABAR : K_A }, { K_C, nystrom ? K_ABAR : K_A },
     };
     for (size_t i = 0; i < sizeof need / sizeof need[0]; i++)
         if (at[need[i].key] && !at[need[i].needs])
             return fail_at(c, at[need[i].key], "%s without %s (expected both)",
                            table_keys[need[i].key], table_keys[need[i].needs]);
-    in->form = splitting ? DM_TABLE_SPLITTING
-               : composition ? DM_TABLE_COMPOSITION : DM_TABLE_RUNGE_KUTTA;
-    if (runge_kutta && at[K_MIRROR])
+    in->form = splitting     ? DM_TABLE_SPLITTING
+               : composition ? DM_TABLE_COMPOSITION
+               : nystrom     ? DM_TABLE_NYSTROM
+                             : DM_TABLE_RUNGE_KUTTA;
+    if ((runge_kutta || nystrom) && at[K_MIRROR])
         return fail_at(c, at[K_MIRROR], "mirror applies to kick/drift and weights only "
                        "(expected the whole Butcher tableau)");
     if (!at[K_NAME] || !at[K_ORDER])
@@ -218,8 +227,17 @@ static dm_status read_input(parse_ctx *c, const yaml_node_t *node, const yaml_no
     }
     if ((st = find_form(c, node, at, in)) != DM_OK)
         return st;
-    if (at[K_A] && (st = get_matrix(c, at[K_A], in)) != DM_OK)
+    if (at[K_A] && (st = get_matrix(c, at[K_A], "a", in)) != DM_OK)
         return st;
+    if (at[K_ABAR] && (st = get_matrix(c, at[K_ABAR], "abar", in)) != DM_OK)
+        return st;
+    int n_bbar;
+    if (at[K_BBAR] && (st = get_coefficients(c, at[K_BBAR], "bbar", DM_RK_MAX_STAGES,
+                                             in->bbar, &n_bbar)) != DM_OK)
+        return st;
+    if (at[K_BBAR] && n_bbar != in->stages)
+        return fail_at(c, at[K_BBAR], "bbar has %d weights and b %d (expected one per "
+                       "stage)", n_bbar, in->stages);
     if (at[K_C]) {
         int n;
         if ((st = get_coefficients(c, at[K_C], "c", DM_RK_MAX_STAGES, in->c, &n)) != DM_OK)
@@ -262,6 +280,7 @@ static const yaml_node_t *list_node(const yaml_node_t **at, dm_table_list which,
     case DM_LIST_A: return at[K_A];
     case DM_LIST_B: return at[K_B];
     case DM_LIST_C: return at[K_C];
+    case DM_LIST_BBAR: return at[K_BBAR];
     case DM_LIST_NONE: break;
     }
     return node;

@@ -16,6 +16,7 @@ const char *dm_table_form_name(dm_table_form form)
     case DM_TABLE_SPLITTING: return "splitting";
     case DM_TABLE_COMPOSITION: return "composition";
     case DM_TABLE_RUNGE_KUTTA: return "runge-kutta";
+    case DM_TABLE_NYSTROM: return "nystrom";
     }
     return "unknown";
 }
@@ -179,18 +180,69 @@ static dm_status build_runge_kutta(dm_user_table *t, const dm_table_input *in,
     return DM_OK;
 }
 
+/* A Nystrom table: b sums to 1 and bbar to 1/2 (q1 = q0 + h v0 + h^2/2 f + ...), c
+ * given. */
+static dm_status build_nystrom(dm_user_table *t, const dm_table_input *in,
+                               dm_table_list *which, dm_error *err)
+{
+    int s = in->stages;
+    double sum, twice[DM_RK_MAX_STAGES];
+    if (!sums_to_one(in->b, s, &sum))
+        return shape_error(which, DM_LIST_B, err, "the weights b sum to %.17g (expected 1: "
+                           "a consistent table)", sum);
+    for (int i = 0; i < s; i++)
+        twice[i] = 2.0 * in->bbar[i];
+    if (!sums_to_one(twice, s, &sum))
+        return shape_error(which, DM_LIST_BBAR, err, "the weights bbar sum to %.17g "
+                           "(expected 1/2: a consistent table)", sum / 2);
+    dm_rkn_tableau *n = &t->nystrom;
+    memset(n, 0, sizeof *n);
+    n->stages = s;
+    for (int i = 0; i < s; i++) {
+        for (int j = 0; j < i; j++)
+            n->abar[i][j] = in->a[i][j];
+        n->b[i] = in->b[i];
+        n->bbar[i] = in->bbar[i];
+        n->c[i] = in->c[i];
+    }
+    return DM_OK;
+}
+
+bool dm_velocity_is_linear(const dm_instance *inst)
+{
+    int d = inst->dof;
+    double p1[DM_MAX_DOF] = { 0 }, p2[DM_MAX_DOF] = { 0 }, p3[DM_MAX_DOF] = { 0 };
+    double v1[DM_MAX_DOF], v2[DM_MAX_DOF], v3[DM_MAX_DOF];
+    for (int i = 0; i < d; i++) {
+        p1[i] = 0.75 + 0.5 * i;
+        p2[i] = -1.25 + 0.375 * i;
+        p3[i] = p1[i] + p2[i];
+    }
+    inst->problem->velocity(inst, p1, v1);
+    inst->problem->velocity(inst, p2, v2);
+    inst->problem->velocity(inst, p3, v3);
+    for (int i = 0; i < d; i++) {
+        double size = fabs(v1[i]) + fabs(v2[i]) + fabs(v3[i]);
+        if (!(fabs(v3[i] - v1[i] - v2[i]) <= 1e-12 * size))
+            return false;
+    }
+    return true;
+}
+
 /* The method the table becomes: a splitting in the engine, a Butcher tableau in rk.c
  * (the functions of the built-in rk4, which read the tableau from the method). */
 static void make_method(dm_user_table *t)
 {
     const dm_table_input *in = &t->input;
     dm_method *m = &t->method;
-    if (in->form == DM_TABLE_RUNGE_KUTTA) {
+    if (in->form == DM_TABLE_RUNGE_KUTTA || in->form == DM_TABLE_NYSTROM) {
         *m = *dm_method_find("rk4");
-        m->tableau = &t->tableau;
+        bool nystrom = in->form == DM_TABLE_NYSTROM;
+        m->tableau = nystrom ? NULL : &t->tableau;
+        m->nystrom = nystrom ? &t->nystrom : NULL;
         m->splitting = NULL;
         m->force_evals_per_step = in->stages;
-        m->symplectic = false;
+        m->symplectic = false; /* not established for a table typed in */
     } else {
         memset(m, 0, sizeof *m);
         m->family = DM_FAMILY_SPLITTING;
@@ -203,6 +255,7 @@ static void make_method(dm_user_table *t)
     m->id = in->name;
     m->name = in->form == DM_TABLE_SPLITTING    ? "splitting table from the suite"
               : in->form == DM_TABLE_COMPOSITION ? "composition from the suite"
+              : in->form == DM_TABLE_NYSTROM     ? "Runge-Kutta-Nystrom table from the suite"
                                                  : "Runge-Kutta tableau from the suite";
     m->reference = in->reference;
     m->order = in->claimed_order;
@@ -220,10 +273,11 @@ dm_status dm_user_table_build(dm_user_table *t, const dm_table_input *in,
     case DM_TABLE_SPLITTING: st = build_splitting(t, in, which, err); break;
     case DM_TABLE_COMPOSITION: st = build_composition(t, in, which, err); break;
     case DM_TABLE_RUNGE_KUTTA: st = build_runge_kutta(t, in, which, err); break;
+    case DM_TABLE_NYSTROM: st = build_nystrom(t, in, which, err); break;
     }
     if (st != DM_OK)
         return st;
-    if (in->form != DM_TABLE_RUNGE_KUTTA) {
+    if (in->form == DM_TABLE_SPLITTING || in->form == DM_TABLE_COMPOSITION) {
         double sum;
         if (!sums_to_one(t->kick, t->splitting.n_kick, &sum))
             return shape_error(which, in->form == DM_TABLE_COMPOSITION ? DM_LIST_WEIGHTS
@@ -289,10 +343,46 @@ static dm_status check_by_conditions(dm_user_table *t)
 /* The convergence test on the harmonic oscillator (its defaults) and on the pendulum
  * at amplitude 1 (a nonlinear force): the order found is the smaller of the two,
  * rounded; 0 when either is not measured. */
+/* Symmetric when a step back undoes a step forward, Phi(-h) Phi(h) y = y, to 1e-13 of y:
+ * the definition (Hairer, Lubich, Wanner, ch. V), tried on the pendulum at amplitude 1
+ * and h = T/16; for tables whose symmetry has no simple test on the coefficients. */
+static dm_status steps_back_and_forth(const dm_method *m, bool *symmetric, dm_error *err)
+{
+    const char *keys[] = { "amplitude" };
+    const double values[] = { 1.0 };
+    dm_instance inst;
+    dm_status st = dm_instance_init(&inst, dm_problem_find("pendulum"), 1, keys, values, err);
+    if (st != DM_OK)
+        return st;
+    double x[3][2] = { { inst.q0[0], inst.p0[0] } };
+    dm_point a = { .x = x[0], .potential = NAN }, b = { .x = x[1], .potential = NAN };
+    dm_point c = { .x = x[2], .potential = NAN };
+    double h = inst.period / 16;
+    dm_method_config config = { .h = h, .t_stop = h, .plain_steps = true };
+    dm_stepper *s = dm_stepper_create(m, &inst, &config, &a, err);
+    if (s == NULL)
+        return err->code;
+    st = dm_stepper_step(s, &a, &b);
+    if (st == DM_OK)
+        st = dm_stepper_set_step(s, -h, &b);
+    if (st == DM_OK)
+        st = dm_stepper_step(s, &b, &c);
+    dm_stepper_destroy(s);
+    double back = hypot(x[2][0] - x[0][0], x[2][1] - x[0][1]);
+    *symmetric = st == DM_OK && back <= 1e-13 * hypot(x[0][0], x[0][1]);
+    return DM_OK;
+}
+
 static dm_status check_by_measuring(dm_user_table *t, dm_error *err)
 {
     dm_table_findings *f = &t->findings;
-    f->symmetric = dm_splitting_is_symmetric(&t->splitting);
+    if (t->input.form == DM_TABLE_NYSTROM) {
+        dm_status st = steps_back_and_forth(&t->method, &f->symmetric, err);
+        if (st != DM_OK)
+            return st;
+    } else {
+        f->symmetric = dm_splitting_is_symmetric(&t->splitting);
+    }
     f->order_basis = "measured";
     double lowest = INFINITY;
     for (int k = 0; k < 2; k++) {
@@ -375,9 +465,9 @@ static void put_head(text_buf *b, const char *name, int order)
     put(b, "{name: %s, order: %d", name, order);
 }
 
-static void put_runge_kutta(text_buf *b, const dm_rk_tableau *t)
+static void put_runge_kutta(text_buf *b, const dm_rk_tableau *t, const char *key)
 {
-    put(b, ", a: [");
+    put(b, ", %s: [", key);
     for (int i = 0; i < t->stages; i++) {
         put(b, "%s[", i ? ", " : "");
         for (int j = 0; j < i; j++)
@@ -409,11 +499,14 @@ int dm_table_input_text(const dm_table_input *in, char *buf, size_t size)
         put(&b, ", compose: %s", in->base->id);
         put_list(&b, "weights", in->weights, in->n_weights);
         break;
-    case DM_TABLE_RUNGE_KUTTA: {
+    case DM_TABLE_RUNGE_KUTTA:
+    case DM_TABLE_NYSTROM: {
         dm_rk_tableau t = { .stages = in->stages };
         memcpy(t.a, in->a, sizeof t.a);
         memcpy(t.b, in->b, sizeof t.b);
-        put_runge_kutta(&b, &t);
+        put_runge_kutta(&b, &t, in->form == DM_TABLE_NYSTROM ? "abar" : "a");
+        if (in->form == DM_TABLE_NYSTROM)
+            put_list(&b, "bbar", in->bbar, in->stages);
         if (in->c_given)
             put_list(&b, "c", in->c, in->stages);
         break;
@@ -435,7 +528,7 @@ int dm_method_table_text(const dm_method *m, const char *name, char *buf, size_t
         put_list(&b, "drift", s->drift, s->n_drift);
     } else if (m->tableau != NULL) {
         put_head(&b, name, m->order);
-        put_runge_kutta(&b, m->tableau);
+        put_runge_kutta(&b, m->tableau, "a");
     } else {
         return -1;
     }

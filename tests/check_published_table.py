@@ -18,6 +18,8 @@ nonlinear problem (the pendulum, exact flow by mpmath's Taylor-series ODE solver
 falls as h^5 (order 4), and that a coefficient moved by 1e-3 breaks it. Then
 driftmark, given the table in its first-half form with the claim order 4 (not
 experimental), accepts it, finds it symmetric and measures order 4, and runs it.
+The same for a Runge-Kutta-Nystrom table given as such: Nystrom's classical fourth-order
+method (abar, bbar, b, c), verified with mpmath first, then measured by driftmark.
 
 Usage: check_published_table.py DRIFTMARK"""
 import math
@@ -70,6 +72,73 @@ def local_order(ops):
         qe, pe = exact(h)
         errors.append(mpmath.sqrt((q - qe) ** 2 + (p - pe) ** 2))
     return float(mpmath.log(errors[0] / errors[1], 2)) - 1
+
+
+# Nystrom's fourth-order method for q'' = f(q) (E. J. Nystrom 1925; Hairer, Norsett,
+# Wanner, Solving ODEs I, section II.14, from memory of the book), checked the same way.
+NYSTROM = {"c": ["0", "0.5", "0.5", "1"], "abar": [[], ["0.125"], ["0.125", "0"], ["0", "0", "0.5"]],
+           "bbar": ["1/6", "1/6", "1/6", "0"], "b": ["1/6", "1/3", "1/3", "1/6"]}
+
+
+def nystrom_step(t, q, p, h):
+    """One step of a Nystrom table on the pendulum q'' = -sin q (unit mass: g = f)."""
+    mp = lambda x: mpmath.mpf(mpmath.fraction(*map(int, x.split("/"))) if "/" in x else x)  # noqa: E731
+    f = []
+    for i in range(4):
+        Q = q + mp(t["c"][i]) * h * p + h * h * sum(mp(a) * fj for a, fj in zip(t["abar"][i], f))
+        f.append(-mpmath.sin(Q))
+    return (q + h * p + h * h * sum(mp(b) * fi for b, fi in zip(t["bbar"], f)),
+            p + h * sum(mp(b) * fi for b, fi in zip(t["b"], f)))
+
+
+def local_order_of(step_fn):
+    """As local_order, from h = 1/80 to 1/160 (the Nystrom table is slower to settle)."""
+    mpmath.mp.dps = 40
+    q0, p0 = mpmath.mpf(1), mpmath.mpf("0.3")
+    exact = mpmath.odefun(lambda t, y: [y[1], -mpmath.sin(y[0])], 0, [q0, p0])
+    errors = []
+    for h in (mpmath.mpf(1) / 80, mpmath.mpf(1) / 160):
+        q, p = step_fn(q0, p0, h)
+        qe, pe = exact(h)
+        errors.append(mpmath.sqrt((q - qe) ** 2 + (p - pe) ** 2))
+    return float(mpmath.log(errors[0] / errors[1], 2)) - 1
+
+
+def check_nystrom(tmp):
+    order = local_order_of(lambda q, p, h: nystrom_step(NYSTROM, q, p, h))
+    print(f"mpmath: local order of Nystrom's table {order:.3f}")
+    check(abs(order - 4) < 0.1, f"Nystrom's table has local order {order:.3f}, not 4")
+    moved = dict(NYSTROM, abar=[[], ["0.126"], ["0.125", "0"], ["0", "0", "0.5"]])
+    order_moved = local_order_of(lambda q, p, h: nystrom_step(moved, q, p, h))
+    print(f"mpmath: with abar21 moved by 1e-3: {order_moved:.3f}")
+    check(order_moved < 3.5, f"a moved coefficient still gives order {order_moved:.3f}")
+
+    def row(xs):
+        return "[" + ", ".join(repr(float(mpmath.mpf(mpmath.fraction(*map(int, x.split("/"))))
+                                          if "/" in x else x)) for x in xs) + "]"
+    text = ("{name: ny4, order: 4, abar: [%s], bbar: %s, b: %s, c: %s}"
+            % (", ".join(row(r) for r in NYSTROM["abar"]), row(NYSTROM["bbar"]),
+               row(NYSTROM["b"]), row(NYSTROM["c"])))
+    out, path = os.path.join(tmp, "ny.h5"), os.path.join(tmp, "ny.yaml")
+    with open(path, "w") as f:
+        f.write(f"""name: nystrom
+output: {out}
+horizon: {{periods: 50}}
+buckets: 20
+problems:
+  - {{problem: kepler, eccentricity: 0.3}}
+methods:
+  - table: {text}
+    steps_per_period: [128, 256]
+""")
+    r = run(EXE, ["run", path])
+    check(r.returncode == 0, f"nystrom: exit {r.returncode}: {r.stderr.strip()}")
+    with h5py.File(out, "r") as f:
+        g = f["tables/ny4"]
+        check(int(g.attrs["order_found"]) == 4 and g.attrs["order_basis"] == "measured",
+              f"Nystrom's table: order found {g.attrs['order_found']}")
+        print(f"driftmark: Nystrom's table measured "
+              f"{g.attrs['measured_order_harmonic']:.3f}, {g.attrs['measured_order_pendulum']:.3f}")
 
 
 def main():
@@ -129,6 +198,7 @@ methods:
             check(all((r["order_found"] == 4) == (r["method"] == b"bm4rkn") for r in rows)
                   and all(math.isnan(r["order_found"]) for r in rows if r["method"] != b"bm4rkn"),
                   "order_found is not 4 for the table's runs and NaN for yoshida4's")
+        check_nystrom(tmp)
     finish("check_published_table")
 
 

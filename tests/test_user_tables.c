@@ -231,6 +231,16 @@ static void bad_tables_are_refused_where_they_are_wrong(void **state)
                  "h: 0.1}\n", SRC ":6:65: ", "c2 = 0.90000000000000002 is not the sum 1");
     expect_error("  - {table: {name: x, order: 1, mirror: true, a: [[]], b: [1]}, h: 0.1}\n",
                  SRC ":6:41: ", "mirror applies to kick/drift and weights only");
+    /* Runge-Kutta-Nystrom tables */
+    expect_error("  - {table: {name: x, order: 1, abar: [[]], bbar: [0.5], b: [1]}, h: 0.1}\n",
+                 SRC ":6:39: ", "abar without c");
+    expect_error("  - {table: {name: x, order: 1, abar: [[]], bbar: [0.4], b: [1], c: [0]}, "
+                 "h: 0.1}\n", SRC ":6:51: ", "the weights bbar sum to 0.40000000000000002 "
+                 "(expected 1/2");
+    expect_error("  - {table: {name: x, order: 1, abar: [[]], bbar: [0.25, 0.25], b: [1], "
+                 "c: [0]}, h: 0.1}\n", SRC ":6:51: ", "bbar has 2 weights and b 1");
+    expect_error("  - {table: {name: x, order: 1, a: [[]], bbar: [0.5], b: [1]}, h: 0.1}\n",
+                 SRC ":6:13: ", "the keys of two forms");
     /* one name, two tables */
     expect_error("  - {table: {name: x, order: 2, compose: verlet, weights: [1]}, h: 0.1}\n"
                  "  - {table: {name: x, order: 2, compose: verlet-dkd, weights: [1]}, h: 0.1}\n",
@@ -258,6 +268,103 @@ static void the_stored_text_reads_back_as_the_same_table(void **state)
     dm_suite_free(&b);
 }
 
+/* Nystrom's fourth-order method for q'' = f(q) (E. J. Nystrom, Acta Soc. Sci. Fennicae 50
+ * (1925); Hairer, Norsett, Wanner, Solving ODEs I, section II.14, from memory of the book;
+ * tests/check_published_table.py shows its order 4 with mpmath). */
+#define NYSTROM4 "abar: [[], [0.125], [0.125, 0], [0, 0, 0.5]], bbar: [0.16666666666666667, " \
+                 "0.16666666666666667, 0.16666666666666667, 0], b: [0.16666666666666667, " \
+                 "0.33333333333333333, 0.33333333333333333, 0.16666666666666667], " \
+                 "c: [0, 0.5, 0.5, 1]"
+
+/* Two RK4 steps of h/2 written as one 8-stage tableau (derived here, not published: the
+ * first four stages are RK4's at h/2, the last four start from its result): order 4 by
+ * its conditions, and longer than any shipped table, so the fused loop runs it through
+ * its general shape; and Nystrom's method, measured order 4, not symmetric. The fused
+ * loop and the per-step path give the same runs bit for bit, on one and on two degrees
+ * of freedom, with the forces and velocities each counts. */
+static void a_long_tableau_runs_alike_in_the_fused_loop_and_step_by_step(void **state)
+{
+    (void)state;
+    const char *suite_text =
+        "horizon: {periods: 20}\noutput: /tmp/dm-test-user-tables.h5\nbuckets: 16\n"
+        "problems:\n  - {problem: pendulum, amplitude: 2.5}\n"
+        "  - {problem: kepler, eccentricity: 0.5}\nmethods:\n"
+        "  - {table: {name: rk4x2, order: 4, b: [0.083333333333333333, 0.16666666666666667,"
+        " 0.16666666666666667, 0.083333333333333333, 0.083333333333333333,"
+        " 0.16666666666666667, 0.16666666666666667, 0.083333333333333333],"
+        " a: [[], [0.25], [0, 0.25], [0, 0, 0.5],"
+        " [0.083333333333333333, 0.16666666666666667, 0.16666666666666667, 0.083333333333333333],"
+        " [0.083333333333333333, 0.16666666666666667, 0.16666666666666667, 0.083333333333333333,"
+        " 0.25],"
+        " [0.083333333333333333, 0.16666666666666667, 0.16666666666666667, 0.083333333333333333,"
+        " 0, 0.25],"
+        " [0.083333333333333333, 0.16666666666666667, 0.16666666666666667, 0.083333333333333333,"
+        " 0, 0, 0.5]]}, steps_per_period: 64}\n"
+        "  - {table: {name: ny4, order: 4, " NYSTROM4 "}, steps_per_period: 64}\n";
+    dm_suite suite;
+    dm_error err;
+    if (dm_suite_parse(&suite, suite_text, strlen(suite_text), SRC, NULL, &err) != DM_OK) {
+        print_error("%s\n", err.msg);
+        fail();
+    }
+    assert_int_equal(suite.tables[0]->findings.order_found, 4);
+    assert_int_equal(suite.tables[0]->method.tableau->stages, 8);
+    assert_int_equal(suite.tables[1]->findings.order_found, 4);
+    assert_int_equal(suite.tables[1]->method.nystrom->stages, 4);
+    assert_false(suite.tables[1]->findings.symmetric);
+    for (size_t i = 0; i < suite.n_runs; i++) {
+        dm_run_spec spec = suite.runs[i];
+        dm_run_result fused, plain;
+        assert_int_equal(dm_run(&spec, &fused, NULL, &err), DM_OK);
+        spec.method_config.plain_steps = true;
+        assert_int_equal(dm_run(&spec, &plain, NULL, &err), DM_OK);
+        print_message("%s: %s, %llu steps, max |dE| %.3e\n", spec.id,
+                      dm_run_status_name(fused.status),
+                      (unsigned long long)fused.metrics.steps, fused.metrics.max_energy_error);
+        assert_int_equal(fused.status, DM_RUN_OK);
+        assert_int_equal(plain.status, DM_RUN_OK);
+        bool nystrom = spec.method->nystrom != NULL;
+        uint64_t stages = nystrom ? 4 : 8;
+        assert_true(fused.metrics.counts.force_evals == stages * fused.metrics.steps);
+        assert_true(fused.metrics.counts.velocity_evals ==
+                    (stages + nystrom) * fused.metrics.steps);
+        assert_true(fused.metrics.counts.velocity_evals == plain.metrics.counts.velocity_evals);
+        assert_true(fused.metrics.counts.force_evals == plain.metrics.counts.force_evals);
+        assert_int_equal(fused.series.n, plain.series.n);
+        size_t bytes = fused.series.n * sizeof(double);
+        assert_memory_equal(fused.series.energy_error, plain.series.energy_error, bytes);
+        assert_memory_equal(fused.series.energy_error_max, plain.series.energy_error_max, bytes);
+        assert_memory_equal(fused.series.global_error, plain.series.global_error, bytes);
+        dm_run_result_free(&fused);
+        dm_run_result_free(&plain);
+    }
+    dm_suite_free(&suite);
+}
+
+/* A Nystrom table needs grad T linear in p: true for the built-in problems, false for a
+ * relativistic kinetic energy T = sqrt(1 + p^2) (grad T = p / sqrt(1 + p^2)), for which
+ * the suite refuses such a table (suite.c, make_run). */
+static void relativistic_velocity(const dm_instance *inst, const double *p, double *v)
+{
+    (void)inst;
+    v[0] = p[0] / sqrt(1 + p[0] * p[0]);
+}
+
+static void a_nystrom_table_needs_a_linear_velocity(void **state)
+{
+    (void)state;
+    for (size_t i = 0; i < dm_problem_count; i++) {
+        dm_instance inst;
+        dm_error err;
+        assert_int_equal(dm_instance_init(&inst, dm_problems[i], 0, NULL, NULL, &err), DM_OK);
+        assert_true(dm_velocity_is_linear(&inst));
+    }
+    dm_problem relativistic = { .id = "relativistic", .dof = 1,
+                                .velocity = relativistic_velocity };
+    dm_instance inst = { .problem = &relativistic, .dof = 1 };
+    assert_false(dm_velocity_is_linear(&inst));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -266,6 +373,8 @@ int main(void)
         cmocka_unit_test(a_wrong_coefficient_gives_order_1_not_4),
         cmocka_unit_test(bad_tables_are_refused_where_they_are_wrong),
         cmocka_unit_test(the_stored_text_reads_back_as_the_same_table),
+        cmocka_unit_test(a_long_tableau_runs_alike_in_the_fused_loop_and_step_by_step),
+        cmocka_unit_test(a_nystrom_table_needs_a_linear_velocity),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

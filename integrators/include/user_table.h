@@ -36,7 +36,8 @@
 typedef enum dm_table_form {
     DM_TABLE_SPLITTING,       /* kick and drift coefficients */
     DM_TABLE_COMPOSITION,     /* weights of a base method */
-    DM_TABLE_RUNGE_KUTTA      /* an explicit Butcher tableau */
+    DM_TABLE_RUNGE_KUTTA,     /* an explicit Butcher tableau */
+    DM_TABLE_NYSTROM          /* an explicit Runge-Kutta-Nystrom table */
 } dm_table_form;
 
 const char *dm_table_form_name(dm_table_form form);
@@ -44,7 +45,7 @@ const char *dm_table_form_name(dm_table_form form);
 /* Which list of the input a consistency or shape error is about. */
 typedef enum dm_table_list {
     DM_LIST_NONE, DM_LIST_KICK, DM_LIST_DRIFT, DM_LIST_WEIGHTS, DM_LIST_A, DM_LIST_B,
-    DM_LIST_C
+    DM_LIST_C, DM_LIST_BBAR
 } dm_table_list;
 
 /* What the user typed. */
@@ -63,10 +64,11 @@ typedef struct dm_table_input {
     int n_weights;
     double weights[DM_TABLE_MAX_COEFFICIENTS];
     int stages;               /* Runge-Kutta: a is stages x stages, strictly lower */
-    double a[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES];
+    double a[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES];  /* (Nystrom: abar) */
     double b[DM_RK_MAX_STAGES];
-    bool c_given;
+    bool c_given;             /* (always, for a Nystrom table) */
     double c[DM_RK_MAX_STAGES];
+    double bbar[DM_RK_MAX_STAGES];                 /* Nystrom: the position weights */
 } dm_table_input;
 
 /* What dm_user_table_check established. */
@@ -93,6 +95,7 @@ typedef struct dm_user_table {
     dm_splitting splitting;
     double kick[DM_TABLE_MAX_OPS], drift[DM_TABLE_MAX_OPS];
     dm_rk_tableau tableau;
+    dm_rkn_tableau nystrom;
     dm_table_findings findings;
     char text[DM_TABLE_TEXT_MAX];   /* the table in suite form, coefficients %.17g */
 } dm_user_table;
@@ -107,6 +110,10 @@ dm_status dm_user_table_build(dm_user_table *t, const dm_table_input *in,
 /* Symmetry, the order found and its basis, the error constants (t->findings). Fails
  * only when a check cannot run (out of memory, a problem that does not set up). */
 dm_status dm_user_table_check(dm_user_table *t, dm_error *err);
+
+/* Whether grad T of the problem is linear in p, as a Nystrom table needs: checked at two
+ * momenta and their sum (to a relative 1e-12). */
+bool dm_velocity_is_linear(const dm_instance *inst);
 
 /* Whether the claimed order is reached. */
 bool dm_user_table_reaches_claim(const dm_user_table *t);
