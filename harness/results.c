@@ -1370,9 +1370,11 @@ static const char *read_sweep(hid_t g, dm_sweep_summary *s)
     return why;
 }
 
+/* The names of a group's members (sweeps, tables), each shorter than `width`. */
 typedef struct sweep_names {
     char (*name)[DM_RUN_ID_MAX];
     size_t n, capacity;
+    size_t width;                    /* 0: DM_RUN_ID_MAX */
 } sweep_names;
 
 static herr_t collect_sweep_name(hid_t g, const char *name, const H5L_info_t *info, void *data)
@@ -1380,7 +1382,7 @@ static herr_t collect_sweep_name(hid_t g, const char *name, const H5L_info_t *in
     (void)g;
     (void)info;
     sweep_names *s = data;
-    if (s->n >= s->capacity || strlen(name) >= DM_RUN_ID_MAX)
+    if (s->n >= s->capacity || strlen(name) >= (s->width ? s->width : DM_RUN_ID_MAX))
         return -1;
     memcpy(s->name[s->n++], name, strlen(name) + 1);
     return 0;
@@ -1497,22 +1499,6 @@ done:
 
 /* ---- the tables (for `show`) ---- */
 
-typedef struct table_names {
-    char (*name)[DM_TABLE_NAME_MAX];
-    size_t n, capacity;
-} table_names;
-
-static herr_t collect_table_name(hid_t g, const char *name, const H5L_info_t *info, void *data)
-{
-    (void)g;
-    (void)info;
-    table_names *s = data;
-    if (s->n >= s->capacity || strlen(name) >= DM_TABLE_NAME_MAX)
-        return -1;
-    memcpy(s->name[s->n++], name, strlen(name) + 1);
-    return 0;
-}
-
 /* A text attribute, control characters escaped, cut to fit. */
 static int read_shown_text(hid_t g, const char *name, char *out, size_t size)
 {
@@ -1567,7 +1553,7 @@ dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, si
                             path);
     dm_status st = DM_OK;
     hid_t group = -1;
-    table_names names = { 0 };
+    sweep_names names = { .width = DM_TABLE_NAME_MAX };
     dm_table_summary *out = NULL;
     H5G_info_t info;
     if (H5Lexists(file, "tables", H5P_DEFAULT) <= 0)
@@ -1586,7 +1572,7 @@ dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, si
         st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
         goto done;
     }
-    if (H5Literate(group, H5_INDEX_NAME, H5_ITER_INC, &at, collect_table_name, &names) < 0) {
+    if (H5Literate(group, H5_INDEX_NAME, H5_ITER_INC, &at, collect_sweep_name, &names) < 0) {
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: /tables holds a name longer than "
                           "a table's", path);
         goto done;

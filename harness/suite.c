@@ -138,6 +138,20 @@ dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
     return DM_OK;
 }
 
+dm_status get_known_key(parse_ctx *c, const yaml_node_pair_t *pair, const char *what,
+                        const char *const *names, int n, yaml_node_t **key, int *k)
+{
+    const char *name;
+    dm_status st = get_key(c, pair, key, &name);
+    if (st != DM_OK)
+        return st;
+    for (*k = 0; *k < n && strcmp(name, names[*k]) != 0; (*k)++)
+        ;
+    if (*k == n)
+        return fail_unknown(c, *key, what, name, names, (size_t)n);
+    return DM_OK;
+}
+
 /* A mapping must not give a key twice (libyaml accepts it; YAML forbids it). */
 dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
 {
@@ -1424,14 +1438,9 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     for (const yaml_node_pair_t *p = root->data.mapping.pairs.start;
          p < root->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
-        const char *name;
-        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+        int k;
+        if ((st = get_known_key(c, p, "key", top_keys, TOP_COUNT, &key, &k)) != DM_OK)
             return st;
-        int k = 0;
-        while (k < TOP_COUNT && strcmp(name, top_keys[k]) != 0)
-            k++;
-        if (k == TOP_COUNT)
-            return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
         value_of[k] = node_at(c, p->value);
         if ((k == TOP_BUCKETS && value_of[TOP_SAMPLES] != NULL) ||
             (k == TOP_SAMPLES && value_of[TOP_BUCKETS] != NULL))

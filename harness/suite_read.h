@@ -32,6 +32,10 @@ dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
                        const char *word, const char *const *names, size_t n);
 dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
                   const char **name);
+/* The key of `pair`, one of names[0..n) (its index in *k), else an error naming it as
+ * an unknown `what`, with a hint. */
+dm_status get_known_key(parse_ctx *c, const yaml_node_pair_t *pair, const char *what,
+                        const char *const *names, int n, yaml_node_t **key, int *k);
 /* A mapping must not give a key twice. */
 dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map);
 /* A finite number, untagged and unquoted. */

@@ -21,6 +21,8 @@
 #include "suite_read.h"
 #include "user_table.h"
 
+#define DM_SUITE_MAX_TABLES 64   /* tables one suite may type (each is checked up front) */
+
 static const char *const table_keys[] = { "name", "order", "reference", "experimental",
                                           "mirror", "first", "kick", "drift",
                                           "compose", "weights", "a", "b", "c",
@@ -213,14 +215,10 @@ static dm_status read_input(parse_ctx *c, const yaml_node_t *node, const yaml_no
     for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
          p < node->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
-        const char *name;
-        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+        int k;
+        if ((st = get_known_key(c, p, "table key", table_keys, N_TABLE_KEYS, &key, &k)) !=
+            DM_OK)
             return st;
-        int k = 0;
-        while (k < N_TABLE_KEYS && strcmp(name, table_keys[k]) != 0)
-            k++;
-        if (k == N_TABLE_KEYS)
-            return fail_unknown(c, key, "table key", name, table_keys, N_TABLE_KEYS);
         at[k] = node_at(c, p->value);
         if ((st = read_value(c, k, at[k], in)) != DM_OK)
             return st;
@@ -314,6 +312,11 @@ dm_status dm_suite_read_table(parse_ctx *c, const yaml_node_t *node,
                            "(expected one table per name)", in.name);
         *method = &(*tables)[i]->method;
         return DM_OK;
+    }
+    if (*n_tables == DM_SUITE_MAX_TABLES) {
+        free(t);
+        return fail_at(c, node, "more than %d tables in one suite (expected fewer: each is "
+                       "checked by a convergence test before the runs)", DM_SUITE_MAX_TABLES);
     }
     dm_user_table **grown = realloc(*tables, (*n_tables + 1) * sizeof *grown);
     if (grown == NULL) {

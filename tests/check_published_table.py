@@ -62,16 +62,8 @@ def step(ops, q, p, h):
 
 
 def local_order(ops):
-    """The slope of log(one-step error) against log h, minus 1, from h = 1/20 to 1/40."""
-    mpmath.mp.dps = 40
-    q0, p0 = mpmath.mpf(1), mpmath.mpf("0.3")
-    exact = mpmath.odefun(lambda t, y: [y[1], -mpmath.sin(y[0])], 0, [q0, p0])
-    errors = []
-    for h in (mpmath.mpf(1) / 20, mpmath.mpf(1) / 40):
-        q, p = step(ops, q0, p0, h)
-        qe, pe = exact(h)
-        errors.append(mpmath.sqrt((q - qe) ** 2 + (p - pe) ** 2))
-    return float(mpmath.log(errors[0] / errors[1], 2)) - 1
+    """The slope of log(one-step error) against log h, minus 1 (local_order_of)."""
+    return local_order_of(lambda q, p, h: step(ops, q, p, h))
 
 
 # Nystrom's fourth-order method for q'' = f(q) (E. J. Nystrom 1925; Hairer, Norsett,
@@ -92,7 +84,8 @@ def nystrom_step(t, q, p, h):
 
 
 def local_order_of(step_fn):
-    """As local_order, from h = 1/80 to 1/160 (the Nystrom table is slower to settle)."""
+    """The slope of log(one-step error) of step_fn against log h, minus 1, from h = 1/80
+    to 1/160, on the pendulum from q = 1, p = 0.3 at 40 digits."""
     mpmath.mp.dps = 40
     q0, p0 = mpmath.mpf(1), mpmath.mpf("0.3")
     exact = mpmath.odefun(lambda t, y: [y[1], -mpmath.sin(y[0])], 0, [q0, p0])

@@ -28,8 +28,9 @@
 
 static dm_status parse(const char *entry, dm_suite *suite, dm_error *err)
 {
-    char text[4096];
-    snprintf(text, sizeof text, HEAD "%s", entry);
+    static char text[16384];
+    int w = snprintf(text, sizeof text, HEAD "%s", entry);
+    assert_true(w > 0 && (size_t)w < sizeof text);
     return dm_suite_parse(suite, text, strlen(text), SRC, NULL, err);
 }
 
@@ -241,6 +242,15 @@ static void bad_tables_are_refused_where_they_are_wrong(void **state)
                  "c: [0]}, h: 0.1}\n", SRC ":6:51: ", "bbar has 2 weights and b 1");
     expect_error("  - {table: {name: x, order: 1, a: [[]], bbar: [0.5], b: [1]}, h: 0.1}\n",
                  SRC ":6:13: ", "the keys of two forms");
+    /* at most 64 tables */
+    char *many_tables = malloc(65 * 128 + 1);
+    assert_non_null(many_tables);
+    many_tables[0] = '\0';
+    for (int i = 0; i < 65; i++)
+        sprintf(many_tables + strlen(many_tables),
+                "  - {table: {name: t%d, order: 1, compose: verlet, weights: [1]}, h: 0.1}\n", i);
+    expect_error(many_tables, SRC ":70:13: ", "more than 64 tables in one suite");
+    free(many_tables);
     /* one name, two tables */
     expect_error("  - {table: {name: x, order: 2, compose: verlet, weights: [1]}, h: 0.1}\n"
                  "  - {table: {name: x, order: 2, compose: verlet-dkd, weights: [1]}, h: 0.1}\n",
