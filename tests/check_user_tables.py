@@ -11,8 +11,11 @@ method, and /tables stores each table in full.
 Usage: check_user_tables.py DRIFTMARK"""
 import math
 import os
+import signal
+import subprocess
 import sys
 import tempfile
+import time
 
 import h5py
 import numpy
@@ -128,7 +131,10 @@ def compare_files(builtin, typed, old_id, new_id):
               "/summary run ids differ beyond the method's name")
         for top in ("runs", "sweeps"):
             compare_group(a[top], b[top], "/" + top, NAMING_RUN | WALL, rename)
-        note("tables" not in a and "tables" in b, "/tables only in the typed file")
+        if "tables" in a:  # both typed: the tables are the same too
+            compare_group(a["tables"], b["tables"], "/tables", set(), rename)
+        else:
+            note("tables" in b, "/tables only in the typed file")
         return b["tables"][new_id].attrs["text"] if "tables" in b else ""
 
 
@@ -194,7 +200,38 @@ def main():
             rows = f["summary"][()]
             check(all(r["order"] == 4 and r["order_found"] == 1 for r in rows),
                   "/summary does not hold both orders of the experimental table")
+        check_resume(tmp)
     finish("check_user_tables")
+
+
+def check_resume(tmp):
+    """A run of a typed table stopped part way and continued with --resume (the suite
+    text read back from the file makes the same table) ends as the run never stopped."""
+    path, out = os.path.join(tmp, "long.yaml"), os.path.join(tmp, "long.h5")
+    with open(path, "w") as f:
+        f.write(f"""name: long
+output: {out}
+horizon: {{periods: 400000}}
+buckets: 64
+problems:
+  - {{problem: pendulum, amplitude: 2.0}}
+methods:
+  - table: {YOSHIDA_FORMS["composition"]}
+    steps_per_period: 32
+""")
+    p = subprocess.Popen([EXE, "run", path], stdout=subprocess.DEVNULL,
+                         stderr=subprocess.DEVNULL)
+    time.sleep(0.8)
+    p.send_signal(signal.SIGUSR1)
+    check(p.wait() == 138, "the stopped run did not exit 138")
+    with h5py.File(out, "r") as f:
+        check(f["summary"][0]["status"] == b"interrupted", "the run was not interrupted")
+    r = run(EXE, ["run", "--resume", out])
+    check(r.returncode == 0, f"--resume: exit {r.returncode}: {r.stderr.strip()}")
+    whole = os.path.join(tmp, "long-whole.h5")
+    r = run(EXE, ["run", path, "-o", whole])
+    check(r.returncode == 0, f"the whole run: exit {r.returncode}: {r.stderr.strip()}")
+    compare_files(whole, out, "jump4", "jump4")
 
 
 if __name__ == "__main__":
