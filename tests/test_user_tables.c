@@ -157,7 +157,8 @@ static void a_wrong_coefficient_gives_order_1_not_4(void **state)
     dm_suite_free(&suite);
 }
 
-/* Every class of bad table, each refused in one line at the node it is about. */
+/* Every class of bad table, each refused in one line at the node it is about: the entry,
+ * the numbers, the forms and lengths, consistency. */
 static void bad_tables_are_refused_where_they_are_wrong(void **state)
 {
     (void)state;
@@ -219,6 +220,13 @@ static void bad_tables_are_refused_where_they_are_wrong(void **state)
                  SRC ":6:42: ", "unknown symmetric splitting to compose 'symeuler-a'");
     expect_error("  - {table: {name: x, order: 4, mirror: true, compose: verlet, weights: "
                  "[0.5, 0.5]}, h: 0.1}\n", SRC ":6:73: ", "the weights sum to 1.5");
+    assert_int_equal(mismatches, 0);
+}
+
+/* The same for the Runge-Kutta forms, the count of tables and names. */
+static void bad_runge_kutta_tables_are_refused_where_they_are_wrong(void **state)
+{
+    (void)state;
     /* Butcher tableaux */
     expect_error("  - {table: {name: x, order: 1, a: [[], [1]], b: [1]}, h: 0.1}\n",
                  SRC ":6:36: ", "a has 2 rows and b 1 weights");
@@ -382,6 +390,7 @@ int main(void)
         cmocka_unit_test(rk4_typed_meets_the_conditions_to_order_4),
         cmocka_unit_test(a_wrong_coefficient_gives_order_1_not_4),
         cmocka_unit_test(bad_tables_are_refused_where_they_are_wrong),
+        cmocka_unit_test(bad_runge_kutta_tables_are_refused_where_they_are_wrong),
         cmocka_unit_test(the_stored_text_reads_back_as_the_same_table),
         cmocka_unit_test(a_long_tableau_runs_alike_in_the_fused_loop_and_step_by_step),
         cmocka_unit_test(a_nystrom_table_needs_a_linear_velocity),
