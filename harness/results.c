@@ -580,6 +580,8 @@ static int write_table(hid_t tables, const dm_user_table *t)
             rc |= dataset_double(g, "bbar", n->bbar, (size_t)n->stages);
             rc |= dataset_double(g, "b", n->b, (size_t)n->stages);
             rc |= dataset_double(g, "c", n->c, (size_t)n->stages);
+            rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
+                                 (size_t)f->conditions_checked_to);
         } else {
             rc |= attr_bool(g, "kick_first", t->splitting.kick_first);
             rc |= dataset_double(g, "kick", t->kick, (size_t)t->splitting.n_kick);

@@ -255,7 +255,7 @@ static dm_status check_claim(parse_ctx *c, const yaml_node_t *at, const dm_user_
     if (dm_user_table_reaches_claim(t) || t->input.experimental)
         return DM_OK;
     const dm_table_findings *f = &t->findings;
-    if (t->input.form == DM_TABLE_RUNGE_KUTTA)
+    if (f->conditions_checked_to > 0)
         return fail_at(c, at, "table %s claims order %d but meets the order conditions to "
                        "order %d only (largest residual at order %d: %.3g; expected the "
                        "claimed order, or experimental: true)", t->input.name,

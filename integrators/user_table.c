@@ -403,10 +403,36 @@ static dm_status check_by_measuring(dm_user_table *t, dm_error *err)
     return DM_OK;
 }
 
+/* A Nystrom table: measured as a splitting is (its symmetry and error constants), and
+ * its order from the Nystrom order conditions, up to the claimed order + 1. */
+static dm_status check_nystrom(dm_user_table *t, dm_error *err)
+{
+    dm_status st = check_by_measuring(t, err);
+    if (st != DM_OK)
+        return st;
+    const dm_rkn_tableau *n = &t->nystrom;
+    int s = n->stages;
+    double abar[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES] = { 0 };
+    for (int i = 0; i < s; i++)
+        for (int j = 0; j < s; j++)
+            abar[i * s + j] = n->abar[i][j];
+    dm_order_report r;
+    int upto = t->input.claimed_order + 1;
+    dm_rkn_order(abar, n->bbar, n->b, n->c, s, upto > DM_ORDER_MAX ? DM_ORDER_MAX : upto,
+                 DM_TABLE_CONDITION_TOLERANCE, &r);
+    dm_table_findings *f = &t->findings;
+    f->order_found = r.order;
+    f->order_basis = "order conditions";
+    f->conditions_checked_to = r.checked_to;
+    memcpy(f->condition_residual, r.worst, sizeof f->condition_residual);
+    return DM_OK;
+}
+
 dm_status dm_user_table_check(dm_user_table *t, dm_error *err)
 {
     dm_status st = t->input.form == DM_TABLE_RUNGE_KUTTA ? check_by_conditions(t)
-                                                         : check_by_measuring(t, err);
+                   : t->input.form == DM_TABLE_NYSTROM    ? check_nystrom(t, err)
+                                                          : check_by_measuring(t, err);
     t->method.symmetric = t->findings.symmetric;
     return st;
 }
