@@ -25,6 +25,17 @@
 #include "dm_monitor.h"
 #include "problem.h"
 
+/* gcc's -Wmaybe-uninitialized, silenced where a value is provably written before use
+ * but gcc cannot see it (clang has no such warning). */
+#if defined(__GNUC__) && !defined(__clang__)
+#define DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN                                              \
+    _Pragma("GCC diagnostic push") _Pragma("GCC diagnostic ignored \"-Wmaybe-uninitialized\"")
+#define DM_SILENCE_MAYBE_UNINITIALIZED_END _Pragma("GCC diagnostic pop")
+#else
+#define DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
+#define DM_SILENCE_MAYBE_UNINITIALIZED_END
+#endif
+
 typedef double (*dm_fused_force)(const dm_instance *inst, const double *q, double *grad);
 typedef double (*dm_fused_potential)(const dm_instance *inst, const double *q);
 typedef double (*dm_fused_kinetic)(const dm_instance *inst, const double *p);
@@ -51,11 +62,10 @@ dm_fused_steps(const dm_instance *inst, const dm_fused_table *table, dm_fused_ca
                dm_fused_velocity velocity, dm_fused_kinetic kinetic,
                dm_fused_potential potential)
 {
-    /* q_prev and p_prev are read only after a step wrote them (an event is only set
-     * inside the loop), which gcc cannot always see; initialising them costs
-     * instructions in the loop (measured), so the warning is silenced for them. */
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+    /* q_prev and p_prev are zeroed for gcc's sake only (an event, after which they are
+     * read, is set only inside the loop, after a step wrote them). Measured with
+     * callgrind, the zeroing (once a call) leaves a faster loop than leaving them
+     * unset with the warning silenced. */
     double q[DM_MAX_DOF], p[DM_MAX_DOF], g[DM_MAX_DOF], v[DM_MAX_DOF];
     double q_prev[DM_MAX_DOF] = { 0 }, p_prev[DM_MAX_DOF] = { 0 };
     for (int i = 0; i < N; i++) {
@@ -148,7 +158,6 @@ dm_fused_steps(const dm_instance *inst, const dm_fused_table *table, dm_fused_ca
     run->monitor = mon;
     run->k = k;
     return event;
-#pragma GCC diagnostic pop
 }
 
 /* The common table shapes get their own copy of the loop with the shape constant. */
@@ -232,8 +241,7 @@ dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
     /* y[0 .. 2N) is written before every use; with a dof known only at run time (the
      * per-step path) gcc cannot see it. Zeroing y for its sake would cost 2 DM_MAX_DOF
      * stores a step, so the warning is silenced here instead. */
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
     double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF];
 #pragma GCC unroll 4
     for (int i = 0; i < S; i++) {
@@ -268,7 +276,7 @@ dm_rk_explicit_step(const dm_instance *inst, const dm_rk_tableau *t, double h,
         }
         y1[c] = any ? y0[c] + h * sum : y0[c];
     }
-#pragma GCC diagnostic pop
+DM_SILENCE_MAYBE_UNINITIALIZED_END
 }
 
 /* The same for a tableau known at run time: S made a constant by a switch up to 4
@@ -299,8 +307,7 @@ dm_rkn_step(const dm_instance *inst, const dm_rkn_tableau *t, double h, const do
             double *y1, const int N, const int S, dm_gradient_fn gradient,
             dm_fused_velocity velocity)
 {
-#pragma GCC diagnostic push
-#pragma GCC diagnostic ignored "-Wmaybe-uninitialized"
+    DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
     double f[DM_RK_MAX_STAGES][DM_MAX_DOF], g[DM_RK_MAX_STAGES][DM_MAX_DOF];
     double v0[DM_MAX_DOF], Q[DM_MAX_DOF];
     const double h2 = h * h;
@@ -326,7 +333,7 @@ dm_rkn_step(const dm_instance *inst, const dm_rkn_tableau *t, double h, const do
         y1[N + c] = y0[N + c] + h * sum_b;
         y1[c] = y0[c] + h * v0[c] + h2 * sum_bbar;
     }
-#pragma GCC diagnostic pop
+    DM_SILENCE_MAYBE_UNINITIALIZED_END
 }
 
 /* Updates below this many ulps of |k| count as converged. */
