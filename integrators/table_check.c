@@ -111,8 +111,16 @@ dm_status dm_measure_order(const dm_method *method, const dm_instance *inst,
         out->steps_per_period[k] = (double)n;
         out->levels = k + 1;
         if (k > 0 && out->errors[k - 1] <= DM_MEASURE_COARSE &&
-            out->errors[k] >= DM_MEASURE_FLOOR && out->errors[k] > 0.0)
+            out->errors[k] >= DM_MEASURE_FLOOR && out->errors[k] > 0.0) {
+            /* two usable pairs in a row that agree: the order has settled */
+            bool settled = out->used == k - 1 &&
+                           fabs(log2(out->errors[k - 2] / out->errors[k - 1]) -
+                                log2(out->errors[k - 1] / out->errors[k])) <
+                               DM_MEASURE_SETTLED;
             out->used = k;
+            if (settled)
+                break;
+        }
         if (out->errors[k] < DM_MEASURE_FLOOR)
             break;
     }

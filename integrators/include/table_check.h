@@ -16,7 +16,8 @@
  * 2006, ch. V). */
 bool dm_splitting_is_symmetric(const dm_splitting *table);
 
-/* The convergence test: one period at n = 8, 16, 32, ... steps a period. */
+/* The convergence test: one period at n = 8, 16, 32, ... steps a period, until the
+ * order settles or the error reaches the floor. */
 #define DM_MEASURE_LEVELS 12
 /* A pair of neighbouring steps gives the order when the coarser error is at most
  * DM_MEASURE_COARSE (past the coarse-step regime) and the finer one at least
@@ -24,9 +25,13 @@ bool dm_splitting_is_symmetric(const dm_splitting *table);
  * own thresholds. */
 #define DM_MEASURE_COARSE 1e-2
 #define DM_MEASURE_FLOOR 1e-12
+/* The halving stops once two usable pairs in a row give orders this close (our own
+ * threshold: the order has settled, and finer steps would only cost time). */
+#define DM_MEASURE_SETTLED 0.02
 
 typedef struct dm_measured_order {
-    /* log2(e(h) / e(h/2)) at the finest usable pair of steps; NaN when none is usable */
+    /* log2(e(h) / e(h/2)) at the finest usable pair of steps run (the first that agrees
+     * with the pair before it, or the last above the floor); NaN when none is usable */
     double order;
     /* e(h/2) / (h / (2 T))^p at that pair, p the order rounded to a whole number: the
      * leading error constant, unit-free (e is unit-free, h / T too) and, once the
@@ -42,7 +47,8 @@ typedef struct dm_measured_order {
 } dm_measured_order;
 
 /* Runs `method` on `inst` (which must have an exact solution) over one period at
- * n = 8, 16, ... steps a period (stopping below the floor) and measures its order. */
+ * n = 8, 16, ... steps a period (stopping once the order settles, or below the floor)
+ * and measures its order. */
 dm_status dm_measure_order(const dm_method *method, const dm_instance *inst,
                            dm_measured_order *out, dm_error *err);
 
