@@ -103,8 +103,13 @@ dm_status dm_measure_order(const dm_method *method, const dm_instance *inst,
                             "against", inst->problem->id);
     double q_scale, p_scale;
     orbit_scales(inst, &q_scale, &p_scale);
+    double work = 0.0, per_step = method->force_evals_per_step > 0
+                                      ? method->force_evals_per_step : 1;
     for (int k = 0; k < DM_MEASURE_LEVELS; k++) {
         long n = 8L << k;
+        work += per_step * (double)n;
+        if (work > DM_MEASURE_WORK)
+            break;
         dm_status st = period_error(method, inst, n, q_scale, p_scale, &out->errors[k], err);
         if (st != DM_OK)
             return st;

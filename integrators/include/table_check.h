@@ -28,6 +28,9 @@ bool dm_splitting_is_symmetric(const dm_splitting *table);
 /* The halving stops once two usable pairs in a row give orders this close (our own
  * threshold: the order has settled, and finer steps would only cost time). */
 #define DM_MEASURE_SETTLED 0.02
+/* ... or once its force evaluations would pass this many (a table of many stages gets
+ * fewer halvings, so reading a suite stays quick whatever its tables). */
+#define DM_MEASURE_WORK (1 << 20)
 
 typedef struct dm_measured_order {
     /* log2(e(h) / e(h/2)) at the finest usable pair of steps run (the first that agrees
