@@ -541,6 +541,17 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     return rc;
 }
 
+/* An s x s block of a table's matrix as a row-major dataset. */
+static int dataset_matrix(hid_t g, const char *name,
+                          const double m[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES], int s)
+{
+    double flat[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+    for (int i = 0; i < s; i++)
+        for (int j = 0; j < s; j++)
+            flat[i * s + j] = m[i][j];
+    return dataset_double(g, name, flat, (size_t)(s * s));
+}
+
 /* /tables/<name>: a table typed in the suite, in full (results/README.md). */
 static int write_table(hid_t tables, const dm_user_table *t)
 {
@@ -559,24 +570,16 @@ static int write_table(hid_t tables, const dm_user_table *t)
     rc |= attr_bool(g, "symmetric", f->symmetric);
     if (in->form == DM_TABLE_RUNGE_KUTTA) {
         const dm_rk_tableau *tab = &t->tableau;
-        double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
-        for (int i = 0; i < tab->stages; i++)
-            for (int j = 0; j < tab->stages; j++)
-                a[i * tab->stages + j] = tab->a[i][j];
         rc |= attr_int(g, "stages", tab->stages);
-        rc |= dataset_double(g, "a", a, (size_t)(tab->stages * tab->stages));
+        rc |= dataset_matrix(g, "a", tab->a, tab->stages);
         rc |= dataset_double(g, "b", tab->b, (size_t)tab->stages);
         rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
                              (size_t)f->conditions_checked_to);
     } else {
         if (in->form == DM_TABLE_NYSTROM) {
             const dm_rkn_tableau *n = &t->nystrom;
-            double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
-            for (int i = 0; i < n->stages; i++)
-                for (int j = 0; j < n->stages; j++)
-                    a[i * n->stages + j] = n->abar[i][j];
             rc |= attr_int(g, "stages", n->stages);
-            rc |= dataset_double(g, "abar", a, (size_t)(n->stages * n->stages));
+            rc |= dataset_matrix(g, "abar", n->abar, n->stages);
             rc |= dataset_double(g, "bbar", n->bbar, (size_t)n->stages);
             rc |= dataset_double(g, "b", n->b, (size_t)n->stages);
             rc |= dataset_double(g, "c", n->c, (size_t)n->stages);

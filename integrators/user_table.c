@@ -316,23 +316,39 @@ static bool runge_kutta_is_symmetric(const dm_rk_tableau *t)
     return true;
 }
 
+/* An s x s block of a table's matrix, row-major (as the order conditions read it). */
+static void flatten(const double m[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES], int s, double *out)
+{
+    for (int i = 0; i < s; i++)
+        for (int j = 0; j < s; j++)
+            out[i * s + j] = m[i][j];
+}
+
+/* The conditions are checked to the claimed order + 1. */
+static int conditions_upto(const dm_user_table *t)
+{
+    int upto = t->input.claimed_order + 1;
+    return upto > DM_ORDER_MAX ? DM_ORDER_MAX : upto;
+}
+
+/* The conditions' report as the table's findings. */
+static void set_conditions(dm_table_findings *f, const dm_order_report *r)
+{
+    f->order_found = r->order;
+    f->order_basis = "order conditions";
+    f->conditions_checked_to = r->checked_to;
+    memcpy(f->condition_residual, r->worst, sizeof f->condition_residual);
+}
+
 static dm_status check_by_conditions(dm_user_table *t)
 {
     const dm_rk_tableau *tab = &t->tableau;
-    int s = tab->stages;
-    double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES] = { 0 };
-    for (int i = 0; i < s; i++)
-        for (int j = 0; j < s; j++)
-            a[i * s + j] = tab->a[i][j];
+    double a[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+    flatten(tab->a, tab->stages, a);
     dm_order_report r;
-    int upto = t->input.claimed_order + 1;
-    dm_rk_order(a, tab->b, s, upto > DM_ORDER_MAX ? DM_ORDER_MAX : upto,
-                DM_TABLE_CONDITION_TOLERANCE, &r);
+    dm_rk_order(a, tab->b, tab->stages, conditions_upto(t), DM_TABLE_CONDITION_TOLERANCE, &r);
     dm_table_findings *f = &t->findings;
-    f->order_found = r.order;
-    f->order_basis = "order conditions";
-    f->conditions_checked_to = r.checked_to;
-    memcpy(f->condition_residual, r.worst, sizeof f->condition_residual);
+    set_conditions(f, &r);
     f->symmetric = runge_kutta_is_symmetric(tab);
     for (int k = 0; k < 2; k++)
         f->measured[k] = (dm_measured_order){ .order = NAN, .error_constant = NAN,
@@ -411,20 +427,12 @@ static dm_status check_nystrom(dm_user_table *t, dm_error *err)
     if (st != DM_OK)
         return st;
     const dm_rkn_tableau *n = &t->nystrom;
-    int s = n->stages;
-    double abar[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES] = { 0 };
-    for (int i = 0; i < s; i++)
-        for (int j = 0; j < s; j++)
-            abar[i * s + j] = n->abar[i][j];
+    double abar[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+    flatten(n->abar, n->stages, abar);
     dm_order_report r;
-    int upto = t->input.claimed_order + 1;
-    dm_rkn_order(abar, n->bbar, n->b, n->c, s, upto > DM_ORDER_MAX ? DM_ORDER_MAX : upto,
+    dm_rkn_order(abar, n->bbar, n->b, n->c, n->stages, conditions_upto(t),
                  DM_TABLE_CONDITION_TOLERANCE, &r);
-    dm_table_findings *f = &t->findings;
-    f->order_found = r.order;
-    f->order_basis = "order conditions";
-    f->conditions_checked_to = r.checked_to;
-    memcpy(f->condition_residual, r.worst, sizeof f->condition_residual);
+    set_conditions(&t->findings, &r);
     return DM_OK;
 }
 
