@@ -29,6 +29,7 @@
 #include "dm_hash.h"
 #include "harness.h"
 #include "run_index.h"
+#include "suite_read.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -43,17 +44,7 @@
 
 /* ---- locations and errors ---- */
 
-typedef struct parse_ctx {
-    yaml_document_t *doc;
-    const char *source;
-    dm_error *err;
-    /* where scalars tagged explicitly as something other than a number (!!str ...)
-     * start: the document API gives every scalar a tag, so only the events tell */
-    size_t *text_tagged;
-    size_t n_text_tagged;
-} parse_ctx;
-
-static size_t node_line(const yaml_node_t *node)
+size_t node_line(const yaml_node_t *node)
 {
     return node->start_mark.line + 1;
 }
@@ -63,10 +54,7 @@ static size_t node_column(const yaml_node_t *node)
     return node->start_mark.column + 1;
 }
 
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
-    __attribute__((format(printf, 3, 4)));
-
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
+dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
 {
     /* Messages quote what the user wrote, and a YAML text may hold any character (a
      * quoted "a\nb", a block scalar): dm_error_set keeps the message one line. */
@@ -88,12 +76,12 @@ static dm_status prefix_at(parse_ctx *c, const yaml_node_t *node)
     return DM_EINPUT;
 }
 
-static yaml_node_t *node_at(parse_ctx *c, int index)
+yaml_node_t *node_at(parse_ctx *c, int index)
 {
     return yaml_document_get_node(c->doc, index);
 }
 
-static const char *node_kind(const yaml_node_t *node)
+const char *node_kind(const yaml_node_t *node)
 {
     switch (node->type) {
     case YAML_SCALAR_NODE: return "a scalar";
@@ -103,12 +91,12 @@ static const char *node_kind(const yaml_node_t *node)
     }
 }
 
-static const char *scalar_text(const yaml_node_t *node)
+const char *scalar_text(const yaml_node_t *node)
 {
     return (const char *)node->data.scalar.value;
 }
 
-static bool scalar_is_quoted(const yaml_node_t *node)
+bool scalar_is_quoted(const yaml_node_t *node)
 {
     return node->data.scalar.style == YAML_SINGLE_QUOTED_SCALAR_STYLE ||
            node->data.scalar.style == YAML_DOUBLE_QUOTED_SCALAR_STYLE;
@@ -127,7 +115,7 @@ static void join_names(const char *const *names, size_t n, char *buf, size_t siz
     }
 }
 
-static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
                               const char *word, const char *const *names, size_t n)
 {
     const char *hint = dm_suggest(word, names, n);
@@ -140,7 +128,7 @@ static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char 
 
 /* ---- scalar readers ---- */
 
-static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
+dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
                          const char **name)
 {
     *key = node_at(c, pair->key);
@@ -151,8 +139,22 @@ static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t
     return DM_OK;
 }
 
+dm_status get_known_key(parse_ctx *c, const yaml_node_pair_t *pair, const char *what,
+                        const char *const *names, int n, yaml_node_t **key, int *k)
+{
+    const char *name;
+    dm_status st = get_key(c, pair, key, &name);
+    if (st != DM_OK)
+        return st;
+    for (*k = 0; *k < n && strcmp(name, names[*k]) != 0; (*k)++)
+        ;
+    if (*k == n)
+        return fail_unknown(c, *key, what, name, names, (size_t)n);
+    return DM_OK;
+}
+
 /* A mapping must not give a key twice (libyaml accepts it; YAML forbids it). */
-static dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
+dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
 {
     for (const yaml_node_pair_t *a = map->data.mapping.pairs.start;
          a < map->data.mapping.pairs.top; a++) {
@@ -177,7 +179,7 @@ static bool tagged_as_text(const parse_ctx *c, const yaml_node_t *node)
     return false;
 }
 
-static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
                             double *out)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -205,7 +207,7 @@ static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *w
     return DM_OK;
 }
 
-static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
                               double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -216,7 +218,7 @@ static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char 
     return DM_OK;
 }
 
-static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
                            double lo, double hi, double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -228,7 +230,7 @@ static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *wh
     return DM_OK;
 }
 
-static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
+dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
 {
     if (node->type == YAML_SCALAR_NODE && !scalar_is_quoted(node)) {
         if (strcmp(scalar_text(node), "true") == 0) {
@@ -246,7 +248,7 @@ static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *wha
                    scalar_text(node));
 }
 
-static dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
                             char *buf, size_t size)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -432,6 +434,8 @@ typedef struct suite_build {
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
     dm_run_index run_ids;             /* the runs so far by their id, to find twins fast */
+    dm_user_table **tables;           /* the tables typed in the suite (to dm_suite) */
+    size_t n_tables;
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -446,6 +450,9 @@ static void build_free(suite_build *b)
     free(b->run_nodes);
     free(b->run_variants);
     dm_run_index_free(&b->run_ids);
+    for (size_t i = 0; i < b->n_tables; i++)
+        free(b->tables[i]);
+    free(b->tables);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -619,12 +626,14 @@ static const char *step_setting_key(dm_step_setting setting)
 }
 
 static const char *const method_keys[] = { "method", "h", "steps_per_period", "rtol",
-                                           "atol", "compensated" };
+                                           "atol", "compensated", "table" };
 enum { N_METHOD_KEYS = sizeof method_keys / sizeof method_keys[0] };
 
-/* Every key of the entry is known; `method:` names a known method. */
-static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry *e)
+/* Every key of the entry is known; `method:` names a known method, or `table:` gives
+ * the user's own (suite_table.c). */
+static dm_status find_method(suite_build *b, const yaml_node_t *node, method_entry *e)
 {
+    parse_ctx *c = &b->ctx;
     dm_status st;
     const yaml_node_pair_t *start = node->data.mapping.pairs.start;
     const yaml_node_pair_t *top = node->data.mapping.pairs.top;
@@ -638,9 +647,17 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
             k++;
         if (k == N_METHOD_KEYS)
             return fail_unknown(c, key, "method key", name, method_keys, N_METHOD_KEYS);
-        if (k != 0)
+        if (k != 0 && k != N_METHOD_KEYS - 1)
             continue;
+        if (e->method != NULL)
+            return fail_at(c, key, "give either method or table, not both");
         const yaml_node_t *value = node_at(c, p->value);
+        if (k == N_METHOD_KEYS - 1) {
+            st = dm_suite_read_table(c, value, &b->tables, &b->n_tables, &e->method);
+            if (st != DM_OK)
+                return st;
+            continue;
+        }
         char id[DM_NAME_MAX];
         if ((st = get_string(c, value, "method", id, sizeof id)) != DM_OK)
             return st;
@@ -654,7 +671,8 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
         }
     }
     if (e->method == NULL)
-        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
+        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...} "
+                       "or {table: {...}, ...})");
     return DM_OK;
 }
 
@@ -672,7 +690,7 @@ static dm_status parse_method_options(parse_ctx *c, const yaml_node_t *node, met
         yaml_node_t *key = node_at(c, p->key);
         const char *name = scalar_text(key);
         const yaml_node_t *value = node_at(c, p->value);
-        if (strcmp(name, "method") == 0)
+        if (strcmp(name, "method") == 0 || strcmp(name, "table") == 0)
             continue;
         if (strcmp(name, "compensated") == 0) {
             if ((st = get_bool(c, value, "compensated", &e->compensated)) != DM_OK)
@@ -764,7 +782,7 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
     const yaml_node_t *setting_value = NULL;
     dm_status st = check_unique_keys(c, node);
     if (st == DM_OK)
-        st = find_method(c, node, e);
+        st = find_method(b, node, e);
     if (st == DM_OK)
         st = parse_method_options(c, node, e, &setting_value);
     if (st == DM_OK)
@@ -999,6 +1017,9 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
             first = false;
         }
     ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " method=%s", m->id);
+    if (m->user != NULL) /* the table itself, by the hash of its suite form */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " table=%016" PRIx64,
+                           dm_hash_text(m->user->text));
     if (m->adaptive)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " rtol=%.17g atol=%.17g", mc->rtol,
                            mc->atol);
@@ -1035,6 +1056,10 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->sweep = -1;
+    if (me->method->nystrom != NULL && !dm_velocity_is_linear(&x->inst))
+        return fail_at(&b->ctx, me->node, "%s is a Runge-Kutta-Nystrom table, for a kinetic "
+                       "energy quadratic in p; %s's grad T is not linear in p (expected a "
+                       "splitting or Runge-Kutta table for it)", me->method->id, x->part);
     dm_status st = set_horizon(b, x, spec);
     if (st == DM_OK)
         st = set_step_and_id(b, x, me, value_index, spec);
@@ -1307,7 +1332,7 @@ static dm_status check_no_nul(parse_ctx *c)
 
 /* Names become file names and table cells: a newline or an escape byte in one is
  * always a mistake. */
-static bool has_control(const char *s)
+bool has_control(const char *s)
 {
     for (const unsigned char *u = (const unsigned char *)s; *u; u++)
         if (*u < 0x20 || *u == 0x7f)
@@ -1413,14 +1438,9 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     for (const yaml_node_pair_t *p = root->data.mapping.pairs.start;
          p < root->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
-        const char *name;
-        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+        int k;
+        if ((st = get_known_key(c, p, "key", top_keys, TOP_COUNT, &key, &k)) != DM_OK)
             return st;
-        int k = 0;
-        while (k < TOP_COUNT && strcmp(name, top_keys[k]) != 0)
-            k++;
-        if (k == TOP_COUNT)
-            return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
         value_of[k] = node_at(c, p->value);
         if ((k == TOP_BUCKETS && value_of[TOP_SAMPLES] != NULL) ||
             (k == TOP_SAMPLES && value_of[TOP_BUCKETS] != NULL))
@@ -1587,6 +1607,12 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     b.step_budget = DM_DEFAULT_STEP_BUDGET;
     b.memory_limit_gib = DM_DEFAULT_MEMORY_LIMIT_GIB;
     dm_status st = parse_document(&b, suite);
+    if (st == DM_OK) { /* the runs' methods live in the tables: the suite keeps them */
+        suite->tables = b.tables;
+        suite->n_tables = b.n_tables;
+        b.tables = NULL;
+        b.n_tables = 0;
+    }
 
     /* One suite per file: a second document is almost surely a mistake. */
     if (st == DM_OK) {
@@ -1698,5 +1724,8 @@ void dm_suite_free(dm_suite *suite)
         free(suite->sweeps[i].runs);
     free(suite->sweeps);
     free(suite->runs);
+    for (size_t i = 0; i < suite->n_tables; i++)
+        free(suite->tables[i]);
+    free(suite->tables);
     memset(suite, 0, sizeof *suite);
 }
