@@ -243,6 +243,15 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
     }
 }
 
+/* The integrand of the orbit between the turning points qm < qp. */
+static integrand orbit_integrand(dm_potential_fn V, void *data, double E, double qm, double qp)
+{
+    double d = 0.5 * (qp - qm);
+    return (integrand){ .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
+                        .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
+                        .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
+}
+
 dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, double q0,
                           double reach, const char *what, dm_orbit *orbit, dm_error *err)
 {
@@ -293,9 +302,7 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "%.2g, below 1e-3): its period cannot be integrated to 3e-10 in "
                             "double precision", what, E, flat_m < flat_p ? qm : qp,
                             fmin(flat_m, flat_p));
-    integrand in = { .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
-                     .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
-                     .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
+    integrand in = orbit_integrand(V, data, E, qm, qp);
     double rel = NAN;
     double integral = adapt(&in, 0.0, M_PI, &rel);
     if (in.bad)
@@ -311,4 +318,19 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "converge (relative error %.2g): too close to a separatrix",
                             what, E, rel);
     return DM_OK;
+}
+
+double dm_orbit_time(dm_potential_fn V, void *data, double m, double E, const dm_orbit *orbit,
+                     double x)
+{
+    double qm = orbit->q_minus, qp = orbit->q_plus;
+    if (!(x > qm))
+        return 0.0;
+    if (!(x < qp))
+        return 0.5 * orbit->period;
+    integrand in = orbit_integrand(V, data, E, qm, qp);
+    /* x = c - d cos(phi) */
+    double phi = acos(fmax(-1.0, fmin(1.0, (in.c - x) / in.d)));
+    double rel = NAN;
+    return sqrt(0.5 * m) * adapt(&in, 0.0, phi, &rel);
 }
