@@ -655,12 +655,8 @@ static dm_status get_formula_settings(parse_ctx *c, const yaml_node_t *const *at
         st = get_per_coordinate(c, at[FK_MASSES], "masses", s->dof, true, s->masses);
     if (st == DM_OK && at[FK_Q0] != NULL)
         st = get_per_coordinate(c, at[FK_Q0], "q0", s->dof, false, s->q0);
-    if (st == DM_OK && at[FK_P0] != NULL) {
-        if (s->energy_start)
-            return fail_at(c, at[FK_P0], "give either p0 or energy, not both (with energy the "
-                           "start is at rest)");
+    if (st == DM_OK && at[FK_P0] != NULL)
         st = get_per_coordinate(c, at[FK_P0], "p0", s->dof, false, s->p0);
-    }
     s->side = 1;
     if (st == DM_OK && at[FK_SIDE] != NULL) {
         const char *w = at[FK_SIDE]->type == YAML_SCALAR_NODE ? scalar_text(at[FK_SIDE]) : "";
@@ -703,20 +699,56 @@ static dm_status get_formula_names(parse_ctx *c, const yaml_node_t *const *at,
     return DM_OK;
 }
 
-/* The formula problem of an entry whose `potential` key is `value`. */
+/* Whether an entry gives more than one coordinate (a list of two or more names). */
+static bool several_coordinates(parse_ctx *c, const yaml_node_t *node)
+{
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        const yaml_node_t *key = node_at(c, p->key), *v = node_at(c, p->value);
+        if (key->type == YAML_SCALAR_NODE && strcmp(scalar_text(key), "coordinates") == 0)
+            return v->type == YAML_SEQUENCE_NODE &&
+                   v->data.sequence.items.top - v->data.sequence.items.start > 1;
+    }
+    return false;
+}
+
+/* The start's parameters (q0, p0 with one coordinate; energy) go after the formulas'. */
+static void start_parameters_last(dm_formula_spec *s)
+{
+    static const char *const start[] = { "q0", "p0", "energy" };
+    for (int k = 0; k < 3; k++)
+        for (int j = 0; j < s->n_params - 1; j++) {
+            if (strcmp(s->param_names[j], start[k]) != 0)
+                continue;
+            const char *n = s->param_names[j];
+            double v = s->param_defaults[j];
+            memmove(&s->param_names[j], &s->param_names[j + 1],
+                    (size_t)(s->n_params - 1 - j) * sizeof s->param_names[0]);
+            memmove(&s->param_defaults[j], &s->param_defaults[j + 1],
+                    (size_t)(s->n_params - 1 - j) * sizeof s->param_defaults[0]);
+            s->param_names[s->n_params - 1] = n;
+            s->param_defaults[s->n_params - 1] = v;
+            break;
+        }
+}
+
+/* The formula problem of an entry with a `potential` key. With one coordinate, q0 and
+ * p0 are parameters (swept as any); with more, lists. */
 static dm_status make_formula(parse_ctx *c, const yaml_node_t *node, problem_entry *e)
 {
     const yaml_node_t *at[FK_COUNT] = { NULL };
     dm_formula_spec s = { .id = "formula" };
     value_list first;
-    int energy_at = -1;
+    bool one = !several_coordinates(c, node);
     for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
          p < node->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
         const char *name;
         get_key(c, p, &key, &name);
         int k = formula_key(name);
-        if (k >= 0) {
+        if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0)
+            continue; /* refused by the caller */
+        if (k >= 0 && !(one && (k == FK_Q0 || k == FK_P0))) {
             at[k] = node_at(c, p->value);
             continue;
         }
@@ -725,22 +757,11 @@ static dm_status make_formula(parse_ctx *c, const yaml_node_t *node, problem_ent
         dm_status st = get_values(c, node_at(c, p->value), name, false, false, &first);
         if (st != DM_OK)
             return st;
-        if (strcmp(name, "energy") == 0)
-            energy_at = s.n_params;
+        s.energy_start = s.energy_start || strcmp(name, "energy") == 0;
         s.param_names[s.n_params] = name;
         s.param_defaults[s.n_params++] = first.v[0];
     }
-    if (energy_at >= 0) { /* the start's energy goes last */
-        const char *n = s.param_names[energy_at];
-        double v = s.param_defaults[energy_at];
-        for (int j = energy_at; j + 1 < s.n_params; j++) {
-            s.param_names[j] = s.param_names[j + 1];
-            s.param_defaults[j] = s.param_defaults[j + 1];
-        }
-        s.param_names[s.n_params - 1] = n;
-        s.param_defaults[s.n_params - 1] = v;
-        s.energy_start = true;
-    }
+    start_parameters_last(&s);
     char texts[2][DM_FORMULA_TEXT_MAX];
     char id[DM_FORMULA_ID_MAX], momenta[DM_MAX_DOF][DM_NAME_MAX];
     dm_status st = get_string(c, at[FK_POTENTIAL], "potential", texts[0], sizeof texts[0]);
@@ -835,7 +856,8 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         const char *name;
         get_key(c, p, &key, &name);
         if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0 ||
-            (e->formula && formula_key(name) >= 0))
+            (e->formula && formula_key(name) >= 0 &&
+             dm_problem_param_index(e->problem, name) < 0))
             continue;
         int i = dm_problem_param_index(pr, name);
         if (i < 0) {

@@ -179,7 +179,7 @@ static dm_status setup_orbit(dm_instance *inst, const formula_problem *F, dm_orb
                              dm_error *err)
 {
     double m = F->masses[0], E = inst->energy;
-    double reach = 1e8 * fmax(1.0, fabs(inst->q0[0]));
+    double reach = 1e4 * fmax(1.0, fabs(inst->q0[0]));
     dm_status st = dm_orbit_period(orbit_potential, inst, m, E, inst->q0[0], reach, F->id,
                                    orbit, err);
     if (st != DM_OK)
@@ -205,8 +205,9 @@ static dm_status start_from_energy(dm_instance *inst, const formula_problem *F, 
 {
     double E = inst->param[F->energy_param];
     dm_orbit orbit;
-    dm_status st = dm_orbit_period(orbit_potential, inst, F->masses[0], E, F->q0[0],
-                                   1e8 * fmax(1.0, fabs(F->q0[0])), F->id, &orbit, err);
+    double well = inst->q0[0];
+    dm_status st = dm_orbit_period(orbit_potential, inst, F->masses[0], E, well,
+                                   1e4 * fmax(1.0, fabs(well)), F->id, &orbit, err);
     if (st != DM_OK)
         return st;
     inst->q0[0] = F->side > 0 ? orbit.q_plus : orbit.q_minus;
@@ -221,6 +222,10 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         inst->q0[i] = F->q0[i];
         inst->p0[i] = F->p0[i];
     }
+    if (F->q0_param >= 0)
+        inst->q0[0] = inst->param[F->q0_param];
+    if (F->p0_param >= 0)
+        inst->p0[0] = inst->param[F->p0_param];
     if (F->energy_param >= 0) {
         dm_status st = start_from_energy(inst, F, err);
         if (st != DM_OK)
@@ -228,8 +233,9 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     }
     double V0 = inst->problem->potential(inst, inst->q0);
     if (!isfinite(V0))
-        return dm_error_set(err, DM_EINPUT, "%s: V = %g at the start (expected a finite "
-                            "potential where the run starts)", F->id, V0);
+        return dm_error_set(err, DM_EINPUT, "%s: V is not finite at the start (V = %g; "
+                            "expected a finite potential where the run starts)", F->id,
+                            fabs(V0));
     inst->energy = inst->problem->kinetic(inst, inst->p0) + V0;
     inst->regime = 0;
     if (F->period_given > 0.0) {
@@ -446,11 +452,11 @@ static void fill_table(formula_problem *F, const dm_formula_spec *s)
                                    INFINITY, 0, "a parameter of the formulas" };
     }
     t->n_params = s->n_params;
-    if (F->energy_param >= 0)
-        t->params[F->energy_param] = (dm_param){ "energy", 0.0, -INFINITY, INFINITY, 0,
-                                                 "total energy: the start at rest on the "
-                                                 "side given of the well around q0" };
-    t->n_params = F->n_user_params + (F->energy_param >= 0);
+    for (int j = F->n_user_params; j < s->n_params; j++)
+        t->params[j].meaning = j == F->energy_param ? "total energy: the start at rest on the "
+                                                      "side given of the well around q0"
+                               : j == F->q0_param ? "starting position"
+                                                  : "starting momentum";
     t->n_regimes = 1;
     t->regimes[0] = (dm_regime){ "orbit", "the orbit started (one regime: no separatrix is "
                                           "known to driftmark)" };
@@ -477,8 +483,8 @@ static dm_status read_spec(formula_problem *F, const dm_formula_spec *s, dm_form
     if (st != DM_OK)
         return st;
     where->formula = -1;
-    for (int j = 0; j < s->n_params; j++)
-        if (!used[j] && strcmp(s->param_names[j], "energy") != 0)
+    for (int j = 0; j < F->n_user_params; j++)
+        if (!used[j])
             return dm_error_set(err, DM_EINPUT, "parameter '%s' appears in no formula",
                                 s->param_names[j]);
     return name_slots(F, s, err);
@@ -498,12 +504,20 @@ dm_status dm_formula_create(const dm_formula_spec *s, const dm_problem **problem
         return dm_error_set(err, DM_ENOMEM, "out of memory reading a formula");
     pthread_mutex_init(&F->lock, NULL);
     F->dof = s->dof;
+    /* the start's parameters, after the formulas' (formula.h) */
     F->energy_param = find_name("energy", s->param_names, s->n_params);
-    F->n_user_params = s->n_params;
-    if (F->energy_param >= 0 && F->energy_param != s->n_params - 1)
-        return dm_error_set(err, DM_EINPUT, "internal: energy must be the last parameter");
-    if (F->energy_param >= 0)
-        F->n_user_params--;
+    F->q0_param = s->dof == 1 ? find_name("q0", s->param_names, s->n_params) : -1;
+    F->p0_param = s->dof == 1 ? find_name("p0", s->param_names, s->n_params) : -1;
+    F->n_user_params = s->n_params - (F->energy_param >= 0) - (F->q0_param >= 0) -
+                       (F->p0_param >= 0);
+    if ((F->energy_param >= 0 && F->energy_param < F->n_user_params) ||
+        (F->q0_param >= 0 && F->q0_param < F->n_user_params) ||
+        (F->p0_param >= 0 && F->p0_param < F->n_user_params))
+        return dm_error_set(err, DM_EINPUT, "the start's parameters (q0, p0, energy) must come "
+                            "after the formulas'");
+    if (F->energy_param >= 0 && F->p0_param >= 0)
+        return dm_error_set(err, DM_EINPUT, "give either p0 or energy, not both (with energy "
+                            "the start is at rest)");
     F->side = s->side;
     F->has_kinetic = s->kinetic != NULL;
     F->section_given = s->section_given;

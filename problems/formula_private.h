@@ -15,7 +15,8 @@ typedef struct formula_problem {
     char param_names[DM_MAX_PARAMS][DM_FORMULA_NAME_MAX];
     int dof;
     int n_user_params;                /* the formulas' parameters: table params 0.. */
-    int energy_param;                 /* the "energy" parameter's index, or -1 */
+    int energy_param;                 /* the start's parameters' indices, or -1: energy, */
+    int q0_param, p0_param;           /* q0 and p0 (one coordinate) */
     int side;
     double q0[DM_MAX_DOF], p0[DM_MAX_DOF], masses[DM_MAX_DOF];
     bool has_kinetic;

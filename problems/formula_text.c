@@ -287,7 +287,29 @@ static node *read_paren(const char **s, int depth)
     if (x == NULL)
         return NULL;
     (*s)++; /* '(' */
-    if (**s == '-') {
+    if (**s == '-' && (isdigit((unsigned char)(*s)[1]) || (*s)[1] == '.')) {
+        /* a negative number, printed in brackets ("(-2)") or, when it is -0, not
+         * ("(-0*(q^2))": libmatheval brackets a number below 0, and -0 is not) */
+        char *end;
+        x->a = calloc(1, sizeof *x->a);
+        if (x->a == NULL) {
+            free(x);
+            return NULL;
+        }
+        x->a->kind = 'n';
+        x->a->value = strtod(*s, &end);
+        *s = end;
+        if (**s == ')') {
+            node *number = x->a;
+            free(x);
+            (*s)++;
+            return number;
+        }
+        if (**s != '\0' && strchr("+-*/^", **s) != NULL) {
+            x->kind = *(*s)++;
+            x->b = read_node(s, depth + 1);
+        }
+    } else if (**s == '-') {
         (*s)++;
         x->kind = '~';
         x->a = read_node(s, depth + 1);

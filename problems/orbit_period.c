@@ -205,7 +205,7 @@ static double zone_between(dm_potential_fn V, void *data, double E, double a, do
 static bool turning_point(dm_potential_fn V, void *data, double E, double q0, double dir,
                           double reach, double *at, bool *not_finite)
 {
-    double inside = q0, f_inside = E - V(data, q0);
+    double inside = q0, f_inside = E - V(data, q0), widest = fmax(f_inside, 0.0);
     double step = 1e-6 * fmax(1.0, fabs(q0));
     const double smallest = 1e-13 * fmax(1.0, fabs(q0));
     for (;;) {
@@ -216,7 +216,15 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
             return false;
         }
         double fq = E - v;
-        double outside = fq < 0.0 ? q : zone_between(V, data, E, inside, f_inside, q, fq);
+        /* E - V within rounding of 0 where V is flat (its slope over the way come, against
+         * the widest E - V seen, below the 1e-3 dm_orbit_period refuses) is a maximum of
+         * V at the orbit's energy, a separatrix, or next to one: the orbit is taken to
+         * end there, and refused below, rather than followed over the top and the next
+         * tops out to `reach` */
+        double slope = (fq - f_inside) / step; /* along the direction of travel */
+        bool touching = fq < 0.0 || (fq <= 64.0 * DBL_EPSILON * (fabs(E) + fabs(v)) &&
+                                     fabs(slope) * fabs(q - q0) < 1e-3 * widest);
+        double outside = touching ? q : zone_between(V, data, E, inside, f_inside, q, fq);
         if (!isnan(outside)) { /* V = +inf (a wall) counts as outside */
             double a = inside, b = outside;
             for (int it = 0; it < 1100; it++) {
@@ -231,9 +239,9 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
             *at = a;
             return true;
         }
-        double slope = (fq - f_inside) / step; /* along the direction of travel */
         inside = q;
         f_inside = fq;
+        widest = fmax(widest, fq);
         if (fabs(q - q0) > reach)
             return false;
         double next = 2.0 * step;
