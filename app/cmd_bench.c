@@ -55,23 +55,26 @@ typedef struct bench_case {
     const char *force_param;   /* the problem's force constant, the loops' k */
     dm_bare_loop *bare;        /* the hand-written loop of this method and problem */
     dm_bare_loop *bare_without_potential; /* the same never evaluating V; NULL: none */
+    dm_bare_loop *bare_folded; /* the same with k = 1 written in (used when k is 1) */
 } bench_case;
 
 static const bench_case cases[] = {
     { "pendulum", "amplitude", 2.5, "verlet", 96, "g_over_l", dm_bare_verlet_pendulum,
-      dm_bare_verlet_pendulum_sin_only },
+      dm_bare_verlet_pendulum_sin_only, dm_bare_verlet_pendulum_folded },
     { "pendulum", "amplitude", 2.5, "yoshida4", 32, "g_over_l", dm_bare_yoshida4_pendulum,
-      dm_bare_yoshida4_pendulum_sin_only },
-    { "kepler", "eccentricity", 0.6, "verlet", 256, "mu", dm_bare_verlet_kepler, NULL },
-    { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL },
+      dm_bare_yoshida4_pendulum_sin_only, dm_bare_yoshida4_pendulum_folded },
+    { "kepler", "eccentricity", 0.6, "verlet", 256, "mu", dm_bare_verlet_kepler, NULL,
+      dm_bare_verlet_kepler_folded },
+    { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL,
+      dm_bare_yoshida4_kepler_folded },
     { "pendulum", "amplitude", 2.5, "rk4", 96, "g_over_l", dm_bare_rk4_pendulum,
-      dm_bare_rk4_pendulum_without_energy },
+      dm_bare_rk4_pendulum_without_energy, dm_bare_rk4_pendulum_folded },
     { "kepler", "eccentricity", 0.6, "rk4", 256, "mu", dm_bare_rk4_kepler,
-      dm_bare_rk4_kepler_without_energy },
+      dm_bare_rk4_kepler_without_energy, dm_bare_rk4_kepler_folded },
     { "pendulum", "amplitude", 2.5, "midpoint", 96, "g_over_l", dm_bare_midpoint_pendulum,
-      dm_bare_midpoint_pendulum_without_energy },
+      dm_bare_midpoint_pendulum_without_energy, dm_bare_midpoint_pendulum_folded },
     { "kepler", "eccentricity", 0.6, "midpoint", 256, "mu", dm_bare_midpoint_kepler,
-      dm_bare_midpoint_kepler_without_energy },
+      dm_bare_midpoint_kepler_without_energy, dm_bare_midpoint_kepler_folded },
 };
 #define N_CASES (sizeof cases / sizeof cases[0])
 
@@ -79,6 +82,7 @@ typedef struct case_result {
     uint64_t steps;
     double bare_seconds;          /* fastest round */
     double bare_without_potential_seconds; /* a loop that never evaluates V; NaN: none */
+    double bare_folded_seconds;   /* the loop with k = 1 written in; NaN when k is not 1 */
     double through_problem_seconds; /* the loop calling the problem's functions */
     double harness_seconds;       /* fastest round, dm_run as a whole */
     bool energy_agrees;           /* bare and harness end with the same dE, bit for bit */
@@ -161,6 +165,7 @@ static dm_status bare_setup_init(bare_setup *b, const bench_case *c, const dm_ru
 typedef enum bare_kind {
     BARE,                     /* the hand-written loop */
     BARE_WITHOUT_POTENTIAL,   /* the same never evaluating V (when the case has one) */
+    BARE_FOLDED,              /* the same with k = 1 written in (when k is 1) */
     THROUGH_PROBLEM           /* the same steps calling the problem's functions */
 } bare_kind;
 
@@ -175,6 +180,8 @@ static double run_bare(const bare_setup *b, bare_kind kind, uint64_t steps, dm_b
         dm_bare_through_problem(inst, &b->bc, steps, &s);
     else if (kind == BARE_WITHOUT_POTENTIAL)
         b->c->bare_without_potential(b->k, &b->bc, steps, &s);
+    else if (kind == BARE_FOLDED)
+        b->c->bare_folded(b->k, &b->bc, steps, &s);
     else
         b->c->bare(b->k, &b->bc, steps, &s);
     double wall = dm_clock_seconds() - t0;
@@ -255,6 +262,8 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
     /* 2. rounds of the harness and each loop, keeping each one's fastest */
     out->bare_seconds = out->harness_seconds = INFINITY;
     out->bare_without_potential_seconds = c->bare_without_potential ? INFINITY : NAN;
+    const bool fold = b.k == 1.0; /* the folded loop computes the same only then */
+    out->bare_folded_seconds = fold ? INFINITY : NAN;
     out->through_problem_seconds = spec.method->splitting != NULL ? INFINITY : NAN;
     dm_run_result result;
     memset(&result, 0, sizeof result);
@@ -292,6 +301,18 @@ static dm_status bench_case_run(const bench_case *c, bool quick, case_result *ou
             out->through_problem_seconds =
                 fmin(out->through_problem_seconds,
                      run_bare(&b, THROUGH_PROBLEM, out->steps, NULL));
+        if (fold) {
+            dm_bare_state folded_end;
+            out->bare_folded_seconds = fmin(out->bare_folded_seconds,
+                                            run_bare(&b, BARE_FOLDED, out->steps, &folded_end));
+            /* the same arithmetic, so the same state */
+            if (memcmp(&folded_end.potential, &end.potential, sizeof(double)) != 0 ||
+                memcmp(folded_end.p, end.p, sizeof end.p) != 0) {
+                dm_run_result_free(&result);
+                return dm_error_set(err, DM_ENUMERIC, "bench: %s: the loop with k = 1 written "
+                                    "in ends elsewhere than the loop reading k", spec.id);
+            }
+        }
         if (c->bare_without_potential != NULL)
             out->bare_without_potential_seconds =
                 fmin(out->bare_without_potential_seconds,
@@ -685,6 +706,8 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
                    (double)r->steps / r->through_problem_seconds, false);
         json_field(f, "bare_without_potential_steps_per_second",
                    (double)r->steps / r->bare_without_potential_seconds, false);
+        json_field(f, "bare_folded_steps_per_second",
+                   (double)r->steps / r->bare_folded_seconds, false);
         fprintf(f, "\n     \"final_energy_error_agrees\": %s, ", r->energy_agrees ? "true" : "false");
         json_field(f, "final_energy_error", r->harness_energy_error, false);
         json_field(f, "hdf5_write_seconds", r->hdf5_seconds, false);
@@ -736,8 +759,8 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
 {
     fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
-    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
-            "ours M/s", "ratio", "table M/s", "no-V M/s", "= dE", "hdf5 %");
+    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
+            "ours M/s", "ratio", "k=1 M/s", "table M/s", "no-V M/s", "= dE", "hdf5 %");
     for (size_t i = 0; i < N_CASES; i++) {
         const bench_case *c = &cases[i];
         const case_result *r = &cr[i];
@@ -745,16 +768,20 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
         snprintf(name, sizeof name, "%s %s=%g %s", c->problem, c->key, c->value, c->method);
         double bare = (double)r->steps / r->bare_seconds;
         double harness = (double)r->steps / r->harness_seconds;
-        fprintf(f, "%-32s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %5s %7.3f\n", name,
+        fprintf(f, "%-32s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %9.2f %5s %7.3f\n", name,
                 (unsigned long long)r->steps, bare / 1e6, harness / 1e6, harness / bare,
+                (double)r->steps / r->bare_folded_seconds / 1e6,
                 (double)r->steps / r->through_problem_seconds / 1e6,
                 (double)r->steps / r->bare_without_potential_seconds / 1e6, r->energy_agrees ? "yes" : "NO",
                 100.0 * r->hdf5_share);
         if (r->hdf5_note[0])
             fprintf(f, "  %s\n", r->hdf5_note);
     }
-    fprintf(f, "  hand: the hand-written loop, steps per second; ours: a whole driftmark run\n"
-               "  with every monitor on; ratio: ours / hand; table: the hand loop calling the\n"
+    fprintf(f, "  hand: the hand-written loop, steps per second, watching the energy after\n"
+               "  every step (the largest |H - H0|) as driftmark does; ours: a whole driftmark run\n"
+               "  with every monitor on; ratio: ours / hand; k=1: the hand loop with the\n"
+               "  problem's constant (g, mu) written in as 1 rather than read at run time, as\n"
+               "  driftmark reads it (the cost of a run-time parameter); table: the hand loop calling the\n"
                "  problem's force() and velocity() through its table (splitting methods: the best\n"
                "  the per-step path can do; the fused loop avoids it); no-V: the hand loop never\n"
                "  evaluating V (the pendulum's splitting loops evaluate sin only; RK4 and midpoint\n"

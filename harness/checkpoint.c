@@ -13,8 +13,8 @@
 #define HEADER_WORDS 12
 /* header, t, V, wall, x, monitor (5), max |dE|, two fits (5 each), last phase,
  * invariants, then the stepper's words */
-#define FIXED_WORDS (HEADER_WORDS + 3 + 2 * DM_MAX_DOF + 5 + 1 + 5 + 1 + 5 + DM_MAX_INVARIANTS)
-#define RECORD_MAX (FIXED_WORDS + DM_STEPPER_RECORD_MAX)
+#define FIXED_WORDS(DOF) (HEADER_WORDS + 3 + 2 * (DOF) + 5 + 1 + 5 + 1 + 5 + DM_MAX_INVARIANTS)
+#define RECORD_MAX (FIXED_WORDS(DM_MAX_DOF) + DM_STEPPER_RECORD_MAX)
 
 typedef struct cursor {
     uint64_t *w;
@@ -76,14 +76,14 @@ static size_t transfer(dm_checkpoint *ck, uint64_t *w, bool save, bool header_on
     flag(&c, &ck->monitor.armed);
     word(&c, &ck->n_stepper);
     word(&c, &reserved);
-    if (!save && version != DM_CHECKPOINT_VERSION)
+    if (!save && (version != DM_CHECKPOINT_VERSION || ck->dof < 1 || ck->dof > DM_MAX_DOF))
         return 0;
     if (header_only)
         return c.i;
     real(&c, &ck->t);
     real(&c, &ck->potential);
     real(&c, &ck->wall_seconds);
-    for (int j = 0; j < 2 * DM_MAX_DOF; j++)
+    for (uint64_t j = 0; j < 2 * ck->dof; j++)
         real(&c, &ck->x[j]);
     real(&c, &ck->monitor.level);
     real(&c, &ck->monitor.bucket_min);
@@ -106,7 +106,7 @@ int dm_checkpoint_write(hid_t group, const dm_checkpoint *ck)
     uint64_t words[RECORD_MAX];
     dm_checkpoint copy = *ck;
     hsize_t n = transfer(&copy, words, true, false);
-    if (n != FIXED_WORDS + ck->n_stepper)
+    if (n != FIXED_WORDS(ck->dof) + ck->n_stepper)
         return -1; /* the layout and FIXED_WORDS disagree: a bug, caught by the tests */
     hid_t space = H5Screate_simple(1, &n, NULL);
     hid_t d = space >= 0 ? H5Dcreate2(group, "checkpoint", H5T_STD_U64LE, space, H5P_DEFAULT,
@@ -133,7 +133,7 @@ static bool fits_run(const dm_checkpoint *ck, size_t n_words, const dm_run_spec 
            ck->series_n == r->series.n && ck->series_n <= ck->bucket &&
            ck->crossings_n == r->crossings.n && ck->crossing_stride >= 1 &&
            ck->crossings_n <= ck->crossing_count && ck->n_stepper <= DM_STEPPER_RECORD_MAX &&
-           n_words == FIXED_WORDS + ck->n_stepper && n_words > header;
+           n_words == FIXED_WORDS(ck->dof) + ck->n_stepper && n_words > header;
 }
 
 int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result *r,
@@ -168,7 +168,12 @@ int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result
     dm_checkpoint *ck = calloc(1, sizeof *ck);
     if (ck == NULL)
         return -1;
-    /* the header first: it says how many stepper words follow */
+    /* the header first: it says how many stepper words follow. A record of an older
+     * layout is no checkpoint: the run starts again, as in a file from before them. */
+    if (words[0] != DM_CHECKPOINT_VERSION) {
+        free(ck);
+        return 1;
+    }
     if (transfer(ck, words, false, true) == 0 || !fits_run(ck, (size_t)count, spec, r)) {
         free(ck);
         return -1;

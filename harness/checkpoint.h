@@ -17,7 +17,7 @@
 #include "dm_monitor.h"
 #include "harness.h"
 
-#define DM_CHECKPOINT_VERSION 1
+#define DM_CHECKPOINT_VERSION 2 /* 2: the state takes 2 dof words (1: 2 * 6) */
 
 typedef struct dm_checkpoint {
     uint64_t dof;

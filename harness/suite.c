@@ -11,12 +11,14 @@
  *   for each problem variant, for each method entry, for each step or tolerance value
  * in file order. A (variant, method entry) pair with two or more step or tolerance values is a sweep.
  */
+#define _GNU_SOURCE /* hsearch_r: glibc's reentrant hash table, for the runs' ids */
 #include <dirent.h>
 #include <errno.h>
 #include <fcntl.h>
 #include <signal.h>
 #include <inttypes.h>
 #include <math.h>
+#include <search.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -432,7 +434,8 @@ typedef struct suite_build {
     double memory_limit_gib;          /* the runs' series may take this much memory */
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
-    uint64_t *run_id_hashes;          /* per run: FNV-1a of its id, to find twins fast */
+    struct hsearch_data run_ids;      /* id -> run index + 1, to find twins in O(1) */
+    bool run_ids_made;
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -446,7 +449,8 @@ static void build_free(suite_build *b)
     free(b->methods);
     free(b->run_nodes);
     free(b->run_variants);
-    free(b->run_id_hashes);
+    if (b->run_ids_made)
+        hdestroy_r(&b->run_ids);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -1407,9 +1411,10 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
     suite->sweeps = calloc(nv * sweeps_per_variant + 1, sizeof *suite->sweeps);
     b->run_nodes = calloc(nv * per_variant, sizeof *b->run_nodes);
     b->run_variants = calloc(nv * per_variant, sizeof *b->run_variants);
-    b->run_id_hashes = calloc(nv * per_variant, sizeof *b->run_id_hashes);
+    /* a table twice the runs keeps glibc's probe chains short */
+    b->run_ids_made = hcreate_r(2 * nv * per_variant + 16, &b->run_ids) != 0;
     if (suite->runs == NULL || suite->sweeps == NULL || b->run_nodes == NULL ||
-        b->run_variants == NULL || b->run_id_hashes == NULL) {
+        b->run_variants == NULL || !b->run_ids_made) {
         free(v);
         return dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
     }
@@ -1421,13 +1426,11 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                 dm_run_spec *spec = &suite->runs[suite->n_runs];
                 if ((st = make_run(b, suite, &v[i], me, k, spec)) != DM_OK)
                     goto done;
-                /* Twins are looked for among every earlier run (up to 10^4, so 5e7
-                 * pairs): a 64-bit compare first, the text only when the hashes meet. */
-                uint64_t id_hash = dm_hash_text(spec->id);
-                for (size_t r = 0; r < suite->n_runs; r++) {
-                    if (b->run_id_hashes[r] != id_hash ||
-                        strcmp(suite->runs[r].id, spec->id) != 0)
-                        continue;
+                /* a twin: an earlier run of the same id */
+                ENTRY key = { .key = spec->id, .data = (void *)(uintptr_t)(suite->n_runs + 1) };
+                ENTRY *found = NULL;
+                if (hsearch_r(key, FIND, &found, &b->run_ids) != 0 && found != NULL) {
+                    size_t r = (size_t)(uintptr_t)found->data - 1;
                     const yaml_node_t *here, *first_at;
                     twin_nodes(b, r, &v[i], me->values->node[k], &here, &first_at);
                     if (strcmp(suite->runs[r].config, spec->config) == 0)
@@ -1440,9 +1443,12 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                                      "significant digits)", spec->id, node_line(first_at));
                     goto done;
                 }
+                if (hsearch_r(key, ENTER, &found, &b->run_ids) == 0) {
+                    st = dm_error_set(c->err, DM_ENOMEM, "out of memory expanding the suite");
+                    goto done;
+                }
                 b->run_nodes[suite->n_runs] = me->values->node[k];
                 b->run_variants[suite->n_runs] = &v[i];
-                b->run_id_hashes[suite->n_runs] = id_hash;
                 suite->n_runs++;
             }
             if (me->values->n >= 2) {

@@ -103,15 +103,21 @@ int dm_cvode_jacobian(const dm_instance *inst, const double *x, double *jac)
 {
     const int dof = inst->dof, n = 2 * dof;
     const double *p = x + dof;
-    double hess[DM_MAX_DOF * DM_MAX_DOF];
     double p_shift[DM_MAX_DOF], v_plus[DM_MAX_DOF], v_minus[DM_MAX_DOF];
 #define DM_J(i, j) jac[(size_t)(j) * (size_t)n + (size_t)(i)]
-    for (int k = 0; k < n * n; k++)
+    /* Hess V (dof x dof, row-major) is written into the last dof^2 words of jac, which
+     * lie in its right half (the last 2 dof^2), before it is moved into the lower left
+     * block (the first 2 dof^2 words): no scratch of dof^2 on the stack. */
+    const size_t nn = (size_t)n * (size_t)n, dd = (size_t)dof * (size_t)dof;
+    double *hess = jac + (nn - dd);
+    for (size_t k = 0; k < nn; k++)
         jac[k] = 0.0;
     inst->problem->hessian(inst, x, hess);
     for (int i = 0; i < dof; i++)
         for (int j = 0; j < dof; j++)
             DM_J(dof + i, j) = -hess[i * dof + j];
+    for (size_t k = 0; k < dd; k++)
+        hess[k] = 0.0;
 
     const double cbrt_eps = 6.0554544523933395e-06; /* cbrt(2^-52) */
     for (int j = 0; j < dof; j++)

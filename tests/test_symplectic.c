@@ -20,7 +20,7 @@ static double symplecticity_defect(const dm_method *m, const dm_instance *inst, 
                                    const double *x0)
 {
     int dof = inst->dof, n = 2 * dof;
-    double jac[2 * DM_MAX_DOF][2 * DM_MAX_DOF];
+    static double jac[2 * DM_MAX_DOF][2 * DM_MAX_DOF]; /* 4.7 MB: not on the stack */
     for (int j = 0; j < n; j++) {
         double xp[2 * DM_MAX_DOF], xm[2 * DM_MAX_DOF], yp[2 * DM_MAX_DOF], ym[2 * DM_MAX_DOF];
         memcpy(xp, x0, (size_t)n * sizeof *xp);

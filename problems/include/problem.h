@@ -15,7 +15,7 @@
 #include "dm_error.h"
 #include "dm_monitor.h"
 
-#define DM_MAX_DOF 6      /* degrees of freedom of the largest problem we hold */
+#define DM_MAX_DOF 384    /* degrees of freedom of the largest problem we hold (128 bodies in 3-D) */
 #define DM_MAX_PARAMS 8   /* user-facing parameters of one problem */
 #define DM_MAX_REGIMES 4
 #define DM_MAX_INVARIANTS 4
@@ -245,7 +245,7 @@ struct dm_problem {
  * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
  * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
  * fused loop's types change, so an object built against another version is refused. */
-#define DM_PROBLEM_ABI 1u
+#define DM_PROBLEM_ABI 2u /* 2: DM_MAX_DOF 6 -> 384 */
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 
