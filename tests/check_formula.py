@@ -145,6 +145,40 @@ methods:
     check(abs(orders["galaxy.yoshida4"] - 4) < 0.3, f"Henon-Heiles yoshida4 order {orders}")
     f.close()
 
+    # ---- 64 coordinates: a chain of unit masses and springs, fixed at both ends, started
+    # in its lowest normal mode (q_j = 0, p_j = sin(j pi / 65)): the mode's period
+    # T = 2 pi / w, w = 2 sin(pi / 130) (common practice), and Verlet's numerical
+    # frequency on a linear system, w~ = (2 / h) arcsin(w h / 2) (Hairer, Lubich, Wanner,
+    # Geometric Numerical Integration, 2006, ch. I, from memory), so its measured period
+    # error is w / w~ - 1 ----
+    N = 64
+    coords = [f"x{j}" for j in range(1, N + 1)]
+    terms = [f"{coords[0]}^2/2"] + [f"({coords[j]} - {coords[j - 1]})^2/2" for j in range(1, N)]
+    terms.append(f"{coords[-1]}^2/2")
+    w = 2 * np.sin(np.pi / (2 * (N + 1)))
+    h = 0.05
+    p0 = [np.sin(j * np.pi / (N + 1)) for j in range(1, N + 1)]
+    p, out = run_suite(tmp, "chain", f"""horizon: {{periods: 20}}
+buckets: 16
+problems:
+  - potential: "{' + '.join(terms)}"
+    coordinates: [{', '.join(coords)}]
+    q0: [{', '.join(['0'] * N)}]
+    p0: [{', '.join(repr(x) for x in p0)}]
+    period: {2 * np.pi / w!r}
+    name: chain
+methods:
+  - {{method: verlet, h: {h}}}
+""")
+    with h5py.File(out) as f:
+        g = f["runs"]["chain.verlet-h0.05"]
+        expected = w / ((2 / h) * np.arcsin(w * h / 2)) - 1
+        got = g.attrs["period_rel_error"]
+        print(f"chain of {N}: period error {got:.6g}, Verlet's on the mode {expected:.6g}; "
+              f"max |dE| {g.attrs['max_energy_error']:.3g}")
+        check(abs(got - expected) < 1e-3 * abs(expected), f"chain period error {got} against {expected}")
+        check(g.attrs["formula_code"] == "compiled", "chain compiled")
+
     # ---- the evaluator: forced (no compiler) and after a failed compile ----
     pend = """horizon: {time: 300}
 buckets: 32
