@@ -490,6 +490,26 @@ static dm_status read_spec(formula_problem *F, const dm_formula_spec *s, dm_form
     return name_slots(F, s, err);
 }
 
+/* A problem refused before it was made: everything it holds. */
+static void formula_free(formula_problem *F)
+{
+    void *e[2 + 2 * DM_MAX_DOF] = { F->V, F->T };
+    for (int i = 0; i < F->dof; i++)
+        e[2 + i] = F->dV[i], e[2 + DM_MAX_DOF + i] = F->dT[i];
+    for (size_t i = 0; i < sizeof e / sizeof e[0]; i++)
+        if (e[i] != NULL)
+            evaluator_destroy(e[i]);
+    for (int i = 0; i < F->n_names; i++)
+        free(F->names[i]);
+    free(F->potential_text);
+    free(F->kinetic_text);
+    pthread_mutex_destroy(&F->lock);
+    free(F);
+}
+
+static dm_status make_problem(formula_problem *F, const dm_formula_spec *s,
+                              dm_formula_where *where, dm_error *err);
+
 dm_status dm_formula_create(const dm_formula_spec *s, const dm_problem **problem,
                             dm_formula_where *where, dm_error *err)
 {
@@ -503,6 +523,18 @@ dm_status dm_formula_create(const dm_formula_spec *s, const dm_problem **problem
     if (F == NULL)
         return dm_error_set(err, DM_ENOMEM, "out of memory reading a formula");
     pthread_mutex_init(&F->lock, NULL);
+    if ((st = make_problem(F, s, where, err)) != DM_OK) {
+        formula_free(F);
+        return st;
+    }
+    made[n_made++] = F;
+    *problem = &F->table;
+    return DM_OK;
+}
+
+static dm_status make_problem(formula_problem *F, const dm_formula_spec *s,
+                              dm_formula_where *where, dm_error *err)
+{
     F->dof = s->dof;
     /* the start's parameters, after the formulas' (formula.h) */
     F->energy_param = find_name("energy", s->param_names, s->n_params);
@@ -533,8 +565,8 @@ dm_status dm_formula_create(const dm_formula_spec *s, const dm_problem **problem
     F->kinetic_text = s->kinetic ? strdup(s->kinetic) : NULL;
     if (F->potential_text == NULL || (s->kinetic && F->kinetic_text == NULL))
         return dm_error_set(err, DM_ENOMEM, "out of memory reading a formula");
-    /* F is kept even when refused: a refused suite ends the command */
-    if ((st = read_spec(F, s, where, err)) != DM_OK)
+    dm_status st = read_spec(F, s, where, err);
+    if (st != DM_OK)
         return st;
     fill_table(F, s);
     describe(F, s);
@@ -544,7 +576,5 @@ dm_status dm_formula_create(const dm_formula_spec *s, const dm_problem **problem
     if (dm_formula_compile(F, &why) != DM_OK)
         fprintf(stderr, "driftmark: warning: formula problem %s is evaluated by libmatheval, "
                         "not compiled (%s): runs will be slower\n", F->id, why.msg);
-    made[n_made++] = F;
-    *problem = &F->table;
     return DM_OK;
 }

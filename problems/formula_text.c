@@ -155,12 +155,14 @@ dm_status dm_formula_scan_text(const char *s, double *constants, int *n_constant
         return dm_error_set(err, DM_ENOMEM, "out of memory reading a formula");
     size_t used = 0, i = 0;
     int depth = 0;
+    bool any = false;                /* a character other than a blank */
     size_t open_at[256];
     dm_status st = DM_OK;
     *column = 0;
     while (i < len && st == DM_OK) {
         unsigned char ch = (unsigned char)s[i];
         size_t start = i;
+        any = any || !isspace(ch);
         if (isspace(ch)) {
             out->text[used++] = ' ';
             i++;
@@ -202,7 +204,7 @@ dm_status dm_formula_scan_text(const char *s, double *constants, int *n_constant
         *column = (int)open_at[depth - 1] + 1;
         st = dm_error_set(err, DM_EINPUT, "'(' is never closed");
     }
-    if (st == DM_OK && used == 0) {
+    if (st == DM_OK && !any) {
         *column = 1;
         st = dm_error_set(err, DM_EINPUT, "the formula is empty");
     }
@@ -338,7 +340,11 @@ static node *read_node(const char **s, int depth)
     if (x == NULL)
         return NULL;
     const char *p = *s;
-    if (isdigit((unsigned char)*p) || *p == '.') {
+    size_t digits = 0;
+    while (isdigit((unsigned char)p[digits]))
+        digits++;
+    /* a number; libmatheval's constants 2_sqrtpi, 1_pi ... are names */
+    if ((digits > 0 || *p == '.') && p[digits] != '_') {
         char *end;
         x->kind = 'n';
         x->value = strtod(p, &end);
