@@ -44,29 +44,37 @@ static void load_values(formula_problem *F, const dm_instance *inst, const doubl
         F->values[formula_param_slot(F, j)] = inst->param[j];
 }
 
-static double evaluate(formula_problem *F, void *e)
-{
-    return evaluator_evaluate(e, F->n_names, F->names, F->values);
-}
-
-static double ev_potential(const dm_instance *inst, const double *q)
+/* One evaluator at x (q or p, whose names start at slot0), under the lock. */
+static double evaluate_one(const dm_instance *inst, const double *x, int slot0, void *e)
 {
     formula_problem *F = of(inst);
     pthread_mutex_lock(&F->lock);
-    load_values(F, inst, q, 0);
-    double v = evaluate(F, F->V);
+    load_values(F, inst, x, slot0);
+    double v = evaluator_evaluate(e, F->n_names, F->names, F->values);
     pthread_mutex_unlock(&F->lock);
     return v;
 }
 
-static void ev_gradient(const dm_instance *inst, const double *q, double *grad)
+/* One evaluator per coordinate at x, into out. */
+static void evaluate_each(const dm_instance *inst, const double *x, int slot0, void *const *e,
+                          double *out)
 {
     formula_problem *F = of(inst);
     pthread_mutex_lock(&F->lock);
-    load_values(F, inst, q, 0);
+    load_values(F, inst, x, slot0);
     for (int i = 0; i < F->dof; i++)
-        grad[i] = evaluate(F, F->dV[i]);
+        out[i] = evaluator_evaluate(e[i], F->n_names, F->names, F->values);
     pthread_mutex_unlock(&F->lock);
+}
+
+static double ev_potential(const dm_instance *inst, const double *q)
+{
+    return evaluate_one(inst, q, 0, of(inst)->V);
+}
+
+static void ev_gradient(const dm_instance *inst, const double *q, double *grad)
+{
+    evaluate_each(inst, q, 0, of(inst)->dV, grad);
 }
 
 static double ev_force(const dm_instance *inst, const double *q, double *grad)
@@ -96,22 +104,12 @@ static void mass_velocity(const dm_instance *inst, const double *p, double *v)
 
 static double ev_kinetic(const dm_instance *inst, const double *p)
 {
-    formula_problem *F = of(inst);
-    pthread_mutex_lock(&F->lock);
-    load_values(F, inst, p, formula_momentum_slot(F, 0));
-    double v = evaluate(F, F->T);
-    pthread_mutex_unlock(&F->lock);
-    return v;
+    return evaluate_one(inst, p, formula_momentum_slot(of(inst), 0), of(inst)->T);
 }
 
 static void ev_velocity(const dm_instance *inst, const double *p, double *v)
 {
-    formula_problem *F = of(inst);
-    pthread_mutex_lock(&F->lock);
-    load_values(F, inst, p, formula_momentum_slot(F, 0));
-    for (int i = 0; i < F->dof; i++)
-        v[i] = evaluate(F, F->dT[i]);
-    pthread_mutex_unlock(&F->lock);
+    evaluate_each(inst, p, formula_momentum_slot(of(inst), 0), of(inst)->dT, v);
 }
 
 /* ---- setup: the start, the period, the section ---- */
