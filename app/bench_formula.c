@@ -16,15 +16,23 @@
 
 #define STEPS_PER_PERIOD 96   /* the default suite's, as the bench's pendulum cases */
 
-/* The temporary folder and the files the compile left in it. */
-static void remove_folder(const char *dir)
+/* The temporary folder and what the compile left in it (the cache, dir/driftmark). */
+static void remove_folder(const char *dir, bool inner);
+
+static void remove_folder(const char *dir, bool inner)
 {
+    if (!inner) {
+        char cache[1200];
+        snprintf(cache, sizeof cache, "%s/driftmark", dir);
+        remove_folder(cache, true);
+    }
     DIR *d = opendir(dir);
     struct dirent *e;
     while (d != NULL && (e = readdir(d)) != NULL) {
         char path[1200];
         snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
-        if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0 && unlink(path) != 0)
+        if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0 &&
+            strcmp(e->d_name, "driftmark") != 0 && unlink(path) != 0)
             fprintf(stderr, "driftmark: bench: could not remove %s\n", path);
     }
     if (d != NULL)
@@ -109,6 +117,6 @@ dm_status dm_bench_formula_run(bool quick, dm_bench_formula *out, dm_error *err)
     dm_run_result_free(&c);
     dm_suite_free(&compiled);
     dm_suite_free(&evaluated);
-    remove_folder(dir);
+    remove_folder(dir, false);
     return st;
 }
