@@ -777,6 +777,10 @@ static dm_status make_formula(parse_ctx *c, const yaml_node_t *node, problem_ent
     if (st == DM_OK && at[FK_NAME] != NULL) {
         st = get_string(c, at[FK_NAME], "name", id, sizeof id);
         s.id = id;
+        if (st == DM_OK && strspn(id, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                       "0123456789_") != strlen(id))
+            return fail_at(c, at[FK_NAME], "name '%s' is not a plain word (expected letters, "
+                           "digits and '_': it names the runs)", id);
     }
     if (st == DM_OK)
         st = get_formula_names(c, at, &s, momenta);

@@ -179,6 +179,25 @@ methods:
         check(abs(got - expected) < 1e-3 * abs(expected), f"chain period error {got} against {expected}")
         check(g.attrs["formula_code"] == "compiled", "chain compiled")
 
+    # ---- a kinetic formula: T = p^2/2 with V = q^2/2 is the harmonic oscillator, started
+    # on its section (q = 0 going up) so the crossings come at multiples of its period 2 pi:
+    # Verlet's period error is w / w~ - 1 as above (w = 1) ----
+    p, out = run_suite(tmp, "spring", """horizon: {periods: 50}
+buckets: 16
+problems:
+  - {potential: "q^2/2", kinetic: "p^2/2", q0: 0, p0: 1, period: 6.283185307179586,
+     name: spring}
+methods:
+  - {method: verlet, h: 0.05}
+""")
+    with h5py.File(out) as f:
+        g = f["runs"]["spring-q00-p01.verlet-h0.05"]
+        expected = 1 / ((2 / 0.05) * np.arcsin(0.05 / 2)) - 1
+        got = g.attrs["period_rel_error"]
+        print(f"kinetic formula: period error {got:.6g}, Verlet's {expected:.6g}")
+        check(abs(got - expected) < 1e-3 * abs(expected), f"spring period error {got} against {expected}")
+        check(g.attrs["formula_kinetic"] == "p^2/2", "formula_kinetic recorded")
+
     # ---- the evaluator: forced (no compiler) and after a failed compile ----
     pend = """horizon: {time: 300}
 buckets: 32
@@ -223,6 +242,19 @@ methods:
         ('{potential: "q^2", q0: 1, section: {level: 5}}', "not crossed"),
         ('{potential: "q^2", section: {level: 0, direction: down}}', "only up"),
         ('{potential: "q^2", problem: pendulum}', "give one of"),
+        ('{potential: "q^2", kinetic: "p^2/2", masses: 2, period: 1}', "either masses or a kinetic"),
+        ('{potential: "q^2", momenta: [p]}', "momenta name the variables of a kinetic"),
+        ('{potential: "q^2", side: left}', "side goes with energy"),
+        ('{potential: "q^2", energy: 1, side: up}', "expected left or right"),
+        ('{potential: "q^2", energy: 1, p0: 1}', "either p0 or energy"),
+        ('{potential: "x^2 + y^2", coordinates: [x, y], q0: [1], period: 1}', "lists 1 numbers"),
+        ('{potential: "sin^2", coordinates: [sin]}', "coordinate name 'sin' is taken"),
+        ('{potential: "x^2", coordinates: [x, x], period: 1}', "given twice"),
+        ('{potential: "x^2 + y^2", coordinates: [x, y]}', "a period is needed"),
+        ('{potential: "q^2", period: 3}', "period is computed"),
+        ('{potential: "q^2", masses: -1}', "not a positive number"),
+        ('{potential: "q^2", name: "a/b"}', "name 'a/b'"),
+        ('{potential: "q^2", section: {coordinate: y, level: 0}}', "not a coordinate"),
     ]
     for i, (entry, words) in enumerate(bad):
         name = f"bad{i}"
