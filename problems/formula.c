@@ -415,13 +415,13 @@ static void describe(formula_problem *F, const dm_formula_spec *s)
         h = dm_hash_bytes(h, F->kinetic_text, strlen(F->kinetic_text));
     char buf[160];
     for (int i = 0; i < F->dof; i++) {
-        cu += (size_t)snprintf(info->coordinates + cu, cu < sizeof info->coordinates
-                               ? sizeof info->coordinates - cu : 0, "%s%s", i ? " " : "",
-                               s->coordinates[i]);
-        if (F->kinetic_text == NULL)
-            mu += (size_t)snprintf(info->masses + mu, mu < sizeof info->masses
-                                   ? sizeof info->masses - mu : 0, "%s%.17g", i ? " " : "",
-                                   F->masses[i]);
+        /* cut to fit (the hash below takes every name and mass) */
+        if (cu < sizeof info->coordinates)
+            cu += (size_t)snprintf(info->coordinates + cu, sizeof info->coordinates - cu,
+                                   "%s%s", i ? " " : "", s->coordinates[i]);
+        if (F->kinetic_text == NULL && mu < sizeof info->masses)
+            mu += (size_t)snprintf(info->masses + mu, sizeof info->masses - mu, "%s%.17g",
+                                   i ? " " : "", F->masses[i]);
         snprintf(buf, sizeof buf, " %s %s %a %a %a", s->coordinates[i],
                  s->kinetic ? s->momenta[i] : "", F->masses[i], F->q0[i], F->p0[i]);
         h = dm_hash_bytes(h, buf, strlen(buf));

@@ -320,7 +320,7 @@ static dm_status run_compiler(const char *cc, const char *fl, const char *src, c
     posix_spawn_file_actions_addopen(&fa, 1, log, O_WRONLY | O_CREAT | O_TRUNC, 0600);
     posix_spawn_file_actions_adddup2(&fa, 1, 2);
     pid_t pid;
-    int rc = posix_spawn(&pid, cc, &fa, NULL, argv, environ);
+    int rc = posix_spawnp(&pid, cc, &fa, NULL, argv, environ); /* a bare name: PATH */
     posix_spawn_file_actions_destroy(&fa);
     if (rc != 0)
         return dm_error_set(err, DM_EIO, "no compiler at %s: %s", cc, strerror(rc));
