@@ -800,19 +800,11 @@ static dm_status make_formula(parse_ctx *c, const yaml_node_t *node, problem_ent
     return fail_at(c, node, "formula problem %s: %s", s.id, ferr.msg);
 }
 
-static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
-                                     problem_entry *e)
+/* Which problem an entry names, wherever its key stands: a built-in one, a shared
+ * object of the user's (problem_library) or formulas (potential). */
+static dm_status find_entry_problem(parse_ctx *c, const yaml_node_t *node, problem_entry *e)
 {
-    parse_ctx *c = &b->ctx;
-    memset(e, 0, sizeof *e);
-    e->node = node;
-    if (node->type != YAML_MAPPING_NODE)
-        return fail_at(c, node, "a problems entry must be a mapping, found %s (expected "
-                       "{problem: NAME, parameter: value, ...})", node_kind(node));
-    dm_status st = check_unique_keys(c, node);
-    if (st != DM_OK)
-        return st;
-    /* First find which problem, wherever its key stands, then read its parameters. */
+    dm_status st;
     for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
          p < node->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
@@ -849,6 +841,24 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
             return fail_unknown(c, value, "problem", id, names, n);
         }
     }
+    return DM_OK;
+}
+
+static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
+                                     problem_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    memset(e, 0, sizeof *e);
+    e->node = node;
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a problems entry must be a mapping, found %s (expected "
+                       "{problem: NAME, parameter: value, ...})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    if (st != DM_OK)
+        return st;
+    /* First find which problem, wherever its key stands, then read its parameters. */
+    if ((st = find_entry_problem(c, node, e)) != DM_OK)
+        return st;
     if (e->problem == NULL)
         return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...}, "
                        "{problem_library: PATH.so, ...} or {potential: FORMULA, ...})");
