@@ -229,36 +229,54 @@ static bool parses(const char *text)
     return true;
 }
 
+/* Whether some completion of the first k characters of formula parses: they as they
+ * are, or with an operand, or an operator and an operand, appended, every open bracket
+ * closed. buf holds 2 strlen(formula) + 16 characters. */
+static bool good_prefix(const char *formula, size_t k, char *buf, size_t size)
+{
+    static const char *const tails[] = { "", "1", "*1" };
+    int depth = 0;
+    for (size_t i = 0; i < k; i++)
+        depth += formula[i] == '(' ? 1 : formula[i] == ')' ? -1 : 0;
+    if (depth < 0)
+        return false;
+    for (size_t t = 0; t < 3; t++) {
+        int n = snprintf(buf, size, "%.*s%s", (int)k, formula, tails[t]);
+        for (int d = 0; d < depth && n + 1 < (int)size; d++)
+            buf[n++] = ')';
+        buf[n] = '\0';
+        if (parses(buf))
+            return true;
+    }
+    return false;
+}
+
 int dm_formula_error_column(const char *formula)
 {
-    /* A prefix is good when some completion of it parses: the prefix itself, or it with
-     * an operand or an operator and an operand appended, every open bracket closed. */
-    static const char *const tails[] = { "", "1", "*1" };
-    size_t len = strlen(formula);
-    char *buf = malloc(2 * len + 16);
+    /* A prefix that no completion parses stays so when it grows (a completion of the
+     * longer one completes the shorter), so the shortest is found by bisection: a few
+     * dozen parses however long the formula. */
+    size_t len = strlen(formula), size = 2 * len + 16;
+    char *buf = malloc(size);
     if (buf == NULL)
         return 1;
-    int depth = 0, column = (int)len;
-    for (size_t k = 1; k <= len; k++) {
-        char ch = formula[k - 1];
-        depth += ch == '(' ? 1 : ch == ')' ? -1 : 0;
-        if (isspace((unsigned char)ch))
-            continue;
-        bool good = false;
-        for (size_t t = 0; t < 3 && !good; t++) {
-            int n = snprintf(buf, 2 * len + 16, "%.*s%s", (int)k, formula, tails[t]);
-            for (int d = 0; d < depth && n < (int)(2 * len + 15); d++)
-                buf[n++] = ')';
-            buf[n] = '\0';
-            good = depth >= 0 && parses(buf);
-        }
-        if (!good) {
-            column = (int)k;
-            break;
-        }
+    size_t lo = 0, hi = len; /* prefix lo is good; the answer lies in (lo, hi] */
+    if (good_prefix(formula, len, buf, size)) {
+        free(buf);
+        return (int)len; /* it ends too soon */
+    }
+    while (hi - lo > 1) {
+        size_t mid = lo + (hi - lo) / 2;
+        if (good_prefix(formula, mid, buf, size))
+            lo = mid;
+        else
+            hi = mid;
     }
     free(buf);
-    return column;
+    /* the column of the character that made it bad; a blank there means the next one */
+    while (hi < len && isspace((unsigned char)formula[hi - 1]))
+        hi++;
+    return (int)hi;
 }
 
 /* ---- the rewrite of libmatheval's output ----
