@@ -26,6 +26,7 @@
 #include <sys/resource.h>
 #include <unistd.h>
 
+#include "bench_formula.h"
 #include "bench_loops.h"
 #include "bench_short_runs.h"
 #include "cli.h"
@@ -729,6 +730,7 @@ static void json_case(FILE *f, const char *problem, const char *key, double valu
 
 static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
                        size_t n_cv, const jobs_result *jb, const dm_short_runs_result *sr,
+                       const dm_bench_formula *fm,
                        long rss_before, long rss_after)
 {
     fprintf(f, "{\n  \"quick\": %s,\n  \"samples\": %d,\n  \"cases\": [\n", quick ? "true" : "false",
@@ -792,6 +794,15 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
         fputs(", ", f);
         json_text(f, "difference", jb->difference, true);
     }
+    fputs("},\n  \"formula\": {", f);
+    json_text(f, "potential", "-cos(q)", false);
+    fprintf(f, "\"builtin_steps\": %llu, \"steps\": %llu, \"evaluated_steps\": %llu,\n   ",
+            (unsigned long long)fm->builtin_steps, (unsigned long long)fm->steps,
+            (unsigned long long)fm->evaluated_steps);
+    json_field(f, "builtin_seconds", fm->builtin_seconds, false);
+    json_field(f, "compiled_seconds", fm->compiled_seconds, false);
+    json_field(f, "evaluated_seconds", fm->evaluated_seconds, false);
+    json_field(f, "compile_seconds", fm->compile_seconds, true);
     fputs("},\n  \"jobs_speedup\": ", f);
     dm_json_number(f, jb->one_seconds / jb->all_seconds, "%.6g");
     fprintf(f, ",\n  \"short_runs\": {\"runs\": %zu, \"steps_per_run\": %llu, \"buckets\": %d, ",
@@ -803,8 +814,22 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const cvode_r
     fputs("}\n}\n", f);
 }
 
+static void print_formula_text(FILE *f, const dm_bench_formula *fm)
+{
+    double builtin = (double)fm->builtin_steps / fm->builtin_seconds;
+    double compiled = (double)fm->steps / fm->compiled_seconds;
+    double evaluated = (double)fm->evaluated_steps / fm->evaluated_seconds;
+    fprintf(f, "\nthe pendulum written in the suite as V = -cos(q) (amplitude 2.5, verlet, 96 steps "
+               "a period, whole runs):\n"
+               "  built-in %.2f M/s, compiled %.2f M/s (%.3f of the built-in), evaluated by "
+               "libmatheval %.3f M/s (%.1f times slower than compiled); compile %.2f s\n",
+            builtin / 1e6, compiled / 1e6, compiled / builtin, evaluated / 1e6,
+            compiled / evaluated, fm->compile_seconds);
+}
+
 static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_result *cv,
                        size_t n_cv, const jobs_result *jb, const dm_short_runs_result *sr,
+                       const dm_bench_formula *fm,
                        long rss_before, long rss_after)
 {
     fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
@@ -850,6 +875,7 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const cvode_r
                 r->method, r->periods, r->direct_steps, r->adapter_steps, direct / 1e6,
                 adapter / 1e6, 100.0 * (direct / adapter - 1.0));
     }
+    print_formula_text(f, fm);
     fprintf(f, "\n1 vs N jobs: %zu equal runs (%s %s %.1f to %.1f, %s, %d steps a period, %g "
                "periods, %llu steps each) through the pool of `run`\n",
             jb->runs, jobs_bench.problem, jobs_bench.key, jobs_bench.values[0],
@@ -927,9 +953,14 @@ int dm_cmd_bench(int argc, char **argv)
         fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
         return 1;
     }
+    dm_bench_formula fm;
+    if (dm_bench_formula_run(quick, &fm, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
+        return 1;
+    }
     if (json)
-        print_json(stdout, quick, cr, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
+        print_json(stdout, quick, cr, cv, N_CVODE, &jb, &sr, &fm, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
+        print_text(stdout, quick, cr, cv, N_CVODE, &jb, &sr, &fm, rss_before, rss_after);
     return 0;
 }

@@ -27,6 +27,7 @@
 #include "checkpoint.h"
 #include "dm_build_info.h"
 #include "dm_hash.h"
+#include "formula.h"
 #include "harness.h"
 #include "run_index.h"
 
@@ -358,6 +359,20 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
     if (spec->problem_library[0] != '\0') {
         rc |= attr_text(g, "problem_library", spec->problem_library);
         rc |= attr_text(g, "problem_library_hash", spec->problem_library_hash);
+    }
+    const dm_formula_info *formula = dm_formula_info_of(pr);
+    if (formula != NULL) {
+        rc |= attr_text(g, "formula_potential", formula->potential);
+        rc |= attr_text(g, "formula_kinetic", formula->kinetic);
+        rc |= attr_text(g, "formula_coordinates", formula->coordinates);
+        rc |= attr_text(g, "formula_masses", formula->masses);
+        rc |= attr_text(g, "formula_hash", formula->hash);
+        rc |= attr_text(g, "formula_code", formula->code == DM_FORMULA_COMPILED ? "compiled"
+                                                                                : "evaluated");
+        rc |= attr_text(g, "formula_compiler", formula->compiler);
+        rc |= attr_text(g, "formula_flags", formula->flags);
+        rc |= attr_text(g, "formula_object", formula->object);
+        rc |= attr_double(g, "formula_compile_seconds", formula->compile_seconds);
     }
     char given[512] = "";
     size_t used = 0;
