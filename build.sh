@@ -11,7 +11,7 @@ cd "$(dirname "$0")"
 # references (GSL, h5py, mpmath) and the plot script needs (matplotlib); OpenMPI for
 # the optional MPI build of `run` (found by CMake when installed).
 packages=(build-essential cmake pkg-config git
-          libsundials-dev libhdf5-dev libyaml-dev
+          libsundials-dev libhdf5-dev libyaml-dev libmatheval-dev
           libcmocka-dev libgsl-dev python3 python3-h5py python3-mpmath python3-numpy
           python3-matplotlib libopenmpi-dev openmpi-bin)
 

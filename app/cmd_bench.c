@@ -26,6 +26,7 @@
 #include <sys/resource.h>
 #include <unistd.h>
 
+#include "bench_formula.h"
 #include "bench_loops.h"
 #include "bench_short_runs.h"
 #include "cli.h"
@@ -59,25 +60,33 @@ typedef struct bench_case {
     dm_bare_loop *bare;        /* the hand-written loop of this method and problem */
     dm_bare_loop *bare_without_potential; /* the same never evaluating V; NULL: none */
     dm_bare_loop *bare_folded; /* the same with k = 1 written in (used when k is 1) */
+    /* Optional: the built-in method's table typed in a suite under this name (as `list
+     * --table` prints it) is what runs, to show that a table from a suite runs at the
+     * built-in table's speed; NULL: the built-in method itself */
+    const char *typed_as;
 } bench_case;
 
 static const bench_case cases[] = {
     { "pendulum", "amplitude", 2.5, "verlet", 96, "g_over_l", dm_bare_verlet_pendulum,
-      dm_bare_verlet_pendulum_sin_only, dm_bare_verlet_pendulum_folded },
+      dm_bare_verlet_pendulum_sin_only, dm_bare_verlet_pendulum_folded, NULL },
     { "pendulum", "amplitude", 2.5, "yoshida4", 32, "g_over_l", dm_bare_yoshida4_pendulum,
-      dm_bare_yoshida4_pendulum_sin_only, dm_bare_yoshida4_pendulum_folded },
+      dm_bare_yoshida4_pendulum_sin_only, dm_bare_yoshida4_pendulum_folded, NULL },
+    { "pendulum", "amplitude", 2.5, "yoshida4", 32, "g_over_l", dm_bare_yoshida4_pendulum,
+      dm_bare_yoshida4_pendulum_sin_only, dm_bare_yoshida4_pendulum_folded, "yoshida4-typed" },
     { "kepler", "eccentricity", 0.6, "verlet", 256, "mu", dm_bare_verlet_kepler, NULL,
-      dm_bare_verlet_kepler_folded },
+      dm_bare_verlet_kepler_folded, NULL },
     { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL,
-      dm_bare_yoshida4_kepler_folded },
+      dm_bare_yoshida4_kepler_folded, NULL },
+    { "kepler", "eccentricity", 0.6, "yoshida4", 256, "mu", dm_bare_yoshida4_kepler, NULL,
+      dm_bare_yoshida4_kepler_folded, "yoshida4-typed" },
     { "pendulum", "amplitude", 2.5, "rk4", 96, "g_over_l", dm_bare_rk4_pendulum,
-      dm_bare_rk4_pendulum_without_energy, dm_bare_rk4_pendulum_folded },
+      dm_bare_rk4_pendulum_without_energy, dm_bare_rk4_pendulum_folded, NULL },
     { "kepler", "eccentricity", 0.6, "rk4", 256, "mu", dm_bare_rk4_kepler,
-      dm_bare_rk4_kepler_without_energy, dm_bare_rk4_kepler_folded },
+      dm_bare_rk4_kepler_without_energy, dm_bare_rk4_kepler_folded, NULL },
     { "pendulum", "amplitude", 2.5, "midpoint", 96, "g_over_l", dm_bare_midpoint_pendulum,
-      dm_bare_midpoint_pendulum_without_energy, dm_bare_midpoint_pendulum_folded },
+      dm_bare_midpoint_pendulum_without_energy, dm_bare_midpoint_pendulum_folded, NULL },
     { "kepler", "eccentricity", 0.6, "midpoint", 256, "mu", dm_bare_midpoint_kepler,
-      dm_bare_midpoint_kepler_without_energy, dm_bare_midpoint_kepler_folded },
+      dm_bare_midpoint_kepler_without_energy, dm_bare_midpoint_kepler_folded, NULL },
 };
 #define N_CASES (sizeof cases / sizeof cases[0])
 
@@ -95,12 +104,43 @@ typedef struct case_result {
     char hdf5_note[DM_ERROR_MSG_MAX + 64];
 } case_result;
 
+/* The row's name for the method: the built-in's id or the typed table's name. */
+static const char *case_method(const bench_case *c)
+{
+    return c->typed_as != NULL ? c->typed_as : c->method;
+}
+
+/* The built-in method `id`'s table typed in a suite under the name `name`, read by the
+ * suite reader as any user's table is (checked, and run by the same engine and fused
+ * loop); the suite is kept for the process's life. NULL with *err set on failure. */
+static const dm_method *typed_method(const char *id, const char *name, dm_error *err)
+{
+    static dm_suite suite;
+    for (size_t i = 0; i < suite.n_tables; i++)
+        if (strcmp(suite.tables[i]->method.id, name) == 0)
+            return &suite.tables[i]->method;
+    char table[DM_TABLE_TEXT_MAX], text[DM_TABLE_TEXT_MAX + 256];
+    const dm_method *m = dm_method_find(id);
+    if (suite.n_tables > 0 || m == NULL || dm_method_table_text(m, name, table, sizeof table) < 0) {
+        dm_error_set(err, DM_EINPUT, "bench: %s cannot be typed as a table", id);
+        return NULL;
+    }
+    snprintf(text, sizeof text, "horizon: {periods: 1}\noutput: /tmp/driftmark-bench.h5\n"
+             "problems: [{problem: harmonic}]\nmethods:\n  - {table: %s, h: 0.1}\n", table);
+    if (dm_suite_parse(&suite, text, strlen(text), "(bench)", NULL, err) != DM_OK)
+        return NULL;
+    return &suite.tables[0]->method;
+}
+
 /* A run spec built by hand, the way the suite reader builds one. */
 static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t steps, dm_error *err)
 {
     memset(spec, 0, sizeof *spec);
     const dm_problem *pb = dm_problem_find(c->problem);
-    spec->method = dm_method_find(c->method);
+    spec->method = c->typed_as != NULL ? typed_method(c->method, c->typed_as, err)
+                                       : dm_method_find(c->method);
+    if (spec->method == NULL && c->typed_as != NULL)
+        return err->code;
     if (pb == NULL || spec->method == NULL || spec->method->adaptive)
         return dm_error_set(err, DM_EINPUT, "bench: case %s/%s is not available", c->problem,
                             c->method);
@@ -110,7 +150,7 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
     if (st != DM_OK)
         return st;
     snprintf(spec->id, sizeof spec->id, "bench.%s-%s%g.%s-n%g", c->problem, c->key, c->value,
-             c->method, c->steps_per_period);
+             case_method(c), c->steps_per_period);
     double T = spec->inst.period;
     double h = T / c->steps_per_period;
     spec->step_setting = DM_SET_BY_STEPS_PER_PERIOD;
@@ -125,7 +165,7 @@ static dm_status make_spec(dm_run_spec *spec, const bench_case *c, uint64_t step
     spec->energy_limit = 1.0;
     spec->sweep = -1;
     snprintf(spec->config, sizeof spec->config, "problem=%s %s=%.17g method=%s h=%.17g steps=%llu",
-             c->problem, c->key, c->value, c->method, h, (unsigned long long)steps);
+             c->problem, c->key, c->value, case_method(c), h, (unsigned long long)steps);
     return DM_OK;
 }
 
@@ -693,7 +733,8 @@ static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb);
 
 static void print_json(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
                        const cvode_result *cv, size_t n_cv, const jobs_result *jb,
-                       const dm_short_runs_result *sr, long rss_before, long rss_after)
+                       const dm_short_runs_result *sr, const dm_bench_formula *fm,
+                       long rss_before, long rss_after)
 {
     fprintf(f, "{\n  \"quick\": %s,\n  \"samples\": %d,\n  \"cases\": [\n", quick ? "true" : "false",
             BENCH_SAMPLES);
@@ -703,7 +744,7 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const dm_benc
         double bare = (double)r->steps / r->bare_seconds;
         double harness = (double)r->steps / r->harness_seconds;
         fputs("    {", f);
-        json_case(f, c->problem, c->key, c->value, c->method);
+        json_case(f, c->problem, c->key, c->value, case_method(c));
         fprintf(f, "\"steps_per_period\": %g, \"steps\": %llu,\n     ", c->steps_per_period,
                 (unsigned long long)r->steps);
         json_field(f, "bare_steps_per_second", bare, false);
@@ -758,6 +799,15 @@ static void print_json(FILE *f, bool quick, const case_result *cr, const dm_benc
         fputs(", ", f);
         json_text(f, "difference", jb->difference, true);
     }
+    fputs("},\n  \"formula\": {", f);
+    json_text(f, "potential", "-cos(q)", false);
+    fprintf(f, "\"builtin_steps\": %llu, \"steps\": %llu, \"evaluated_steps\": %llu,\n   ",
+            (unsigned long long)fm->builtin_steps, (unsigned long long)fm->steps,
+            (unsigned long long)fm->evaluated_steps);
+    json_field(f, "builtin_seconds", fm->builtin_seconds, false);
+    json_field(f, "compiled_seconds", fm->compiled_seconds, false);
+    json_field(f, "evaluated_seconds", fm->evaluated_seconds, false);
+    json_field(f, "compile_seconds", fm->compile_seconds, true);
     fputs("},\n  \"jobs_speedup\": ", f);
     dm_json_number(f, jb->one_seconds / jb->all_seconds, "%.6g");
     fprintf(f, ",\n  \"short_runs\": {\"runs\": %zu, \"steps_per_run\": %llu, \"buckets\": %d, ",
@@ -802,23 +852,36 @@ static void print_nbody_json(FILE *f, const dm_bench_nbody_row *nb)
     fputs("  ],\n", f);
 }
 
+static void print_formula_text(FILE *f, const dm_bench_formula *fm)
+{
+    double builtin = (double)fm->builtin_steps / fm->builtin_seconds;
+    double compiled = (double)fm->steps / fm->compiled_seconds;
+    double evaluated = (double)fm->evaluated_steps / fm->evaluated_seconds;
+    fprintf(f, "\nthe pendulum written in the suite as V = -cos(q) (amplitude 2.5, verlet, 96 steps "
+               "a period, whole runs):\n"
+               "  built-in %.2f M/s, compiled %.2f M/s (%.3f of the built-in), evaluated by "
+               "libmatheval %.3f M/s (%.1f times slower than compiled); compile %.2f s\n",
+            builtin / 1e6, compiled / 1e6, compiled / builtin, evaluated / 1e6,
+            compiled / evaluated, fm->compile_seconds);
+}
+
 static void print_text(FILE *f, bool quick, const case_result *cr, const dm_bench_nbody_row *nb,
                        const cvode_result *cv, size_t n_cv, const jobs_result *jb,
-                       const dm_short_runs_result *sr,
+                       const dm_short_runs_result *sr, const dm_bench_formula *fm,
                        long rss_before, long rss_after)
 {
     fprintf(f, "harness (every monitor on, %d buckets) against a hand-written loop, %s runs\n\n",
             BENCH_SAMPLES, quick ? "quick" : "full");
-    fprintf(f, "%-32s %10s %9s %9s %6s %9s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
+    fprintf(f, "%-39s %10s %9s %9s %6s %9s %9s %9s %5s %7s\n", "case", "steps", "hand M/s",
             "ours M/s", "ratio", "k=1 M/s", "table M/s", "no-V M/s", "= dE", "hdf5 %");
     for (size_t i = 0; i < N_CASES; i++) {
         const bench_case *c = &cases[i];
         const case_result *r = &cr[i];
         char name[64];
-        snprintf(name, sizeof name, "%s %s=%g %s", c->problem, c->key, c->value, c->method);
+        snprintf(name, sizeof name, "%s %s=%g %s", c->problem, c->key, c->value, case_method(c));
         double bare = (double)r->steps / r->bare_seconds;
         double harness = (double)r->steps / r->harness_seconds;
-        fprintf(f, "%-32s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %9.2f %5s %7.3f\n", name,
+        fprintf(f, "%-39s %10llu %9.2f %9.2f %6.3f %9.2f %9.2f %9.2f %5s %7.3f\n", name,
                 (unsigned long long)r->steps, bare / 1e6, harness / 1e6, harness / bare,
                 (double)r->steps / r->bare_folded_seconds / 1e6,
                 (double)r->steps / r->through_problem_seconds / 1e6,
@@ -851,6 +914,7 @@ static void print_text(FILE *f, bool quick, const case_result *cr, const dm_benc
                 r->method, r->periods, r->direct_steps, r->adapter_steps, direct / 1e6,
                 adapter / 1e6, 100.0 * (direct / adapter - 1.0));
     }
+    print_formula_text(f, fm);
     fprintf(f, "\n1 vs N jobs: %zu equal runs (%s %s %.1f to %.1f, %s, %d steps a period, %g "
                "periods, %llu steps each) through the pool of `run`\n",
             jb->runs, jobs_bench.problem, jobs_bench.key, jobs_bench.values[0],
@@ -934,9 +998,14 @@ int dm_cmd_bench(int argc, char **argv)
         fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
         return 1;
     }
+    dm_bench_formula fm;
+    if (dm_bench_formula_run(quick, &fm, &err) != DM_OK) {
+        fprintf(stderr, "driftmark: %s: %s\n", CMD, err.msg);
+        return 1;
+    }
     if (json)
-        print_json(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
+        print_json(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, &fm, rss_before, rss_after);
     else
-        print_text(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, rss_before, rss_after);
+        print_text(stdout, quick, cr, nb, cv, N_CVODE, &jb, &sr, &fm, rss_before, rss_after);
     return 0;
 }

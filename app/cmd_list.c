@@ -1,5 +1,6 @@
 /* cmd_list.c — `driftmark list [--json]`: every problem with its parameters and regimes,
- * and every method of the integrators' registry. */
+ * and every method of the integrators' registry; `list --table METHOD`: a built-in
+ * method's coefficients in the suite's form. */
 #include <getopt.h>
 #include <stdbool.h>
 #include <stdio.h>
@@ -11,6 +12,7 @@
 #include "dm_number_text.h"
 #include "method.h"
 #include "problem.h"
+#include "user_table.h"
 
 #define CMD "list"
 
@@ -174,18 +176,58 @@ static void print_json(void)
     printf("]}\n");
 }
 
+/* `list --table METHOD`: a built-in table in the suite's form, a methods entry to copy
+ * and change (under the name my-METHOD, which is no built-in's). */
+static int print_table(const char *id)
+{
+    const dm_method *m = dm_method_find(id);
+    if (m == NULL)
+        return dm_cli_usage_error(CMD, "unknown method '%s' (expected a method of "
+                                  "driftmark list)", id);
+    char name[DM_TABLE_NAME_MAX], text[DM_TABLE_TEXT_MAX];
+    snprintf(name, sizeof name, "my-%.*s", DM_TABLE_NAME_MAX - 4, m->id);
+    if (dm_method_table_text(m, name, text, sizeof text) < 0)
+        return dm_cli_usage_error(CMD, "%s has no coefficient table (expected a splitting "
+                                  "or an explicit Runge-Kutta method)", id);
+    printf("- table: %s\n  steps_per_period: 64\n", text);
+    return 0;
+}
+
+static const char usage[] =
+    "usage: driftmark list [--json] [--table METHOD]\n"
+    "  every problem with its parameters and regimes, and every method;\n"
+    "  --table METHOD prints a built-in method's coefficients as a suite's methods entry\n";
+
 int dm_cmd_list(int argc, char **argv)
 {
-    bool json;
-    int code = dm_cli_json_option(CMD, argc, argv,
-                                  "usage: driftmark list [--json]\n"
-                                  "  every problem with its parameters and regimes, and every "
-                                  "method\n", &json);
-    if (code >= 0)
-        return code;
+    static const struct option options[] = {
+        { "json", no_argument, NULL, 'j' },
+        { "table", required_argument, NULL, 't' },
+        { "help", no_argument, NULL, 'h' },
+        { NULL, 0, NULL, 0 },
+    };
+    bool json = false;
+    const char *table = NULL;
+    opterr = 0; /* our own one-line messages */
+    optind = 1;
+    int c;
+    while ((c = getopt_long(argc, argv, "h", options, NULL)) != -1) {
+        switch (c) {
+        case 'j': json = true; break;
+        case 't': table = optarg; break;
+        case 'h': fputs(usage, stdout); return 0;
+        default:
+            if (optopt == 't')
+                return dm_cli_usage_error(CMD, "--table needs a method (try --help)");
+            return dm_cli_usage_error(CMD, "unknown option '%s' (try --help)",
+                                      argv[optind - 1]);
+        }
+    }
     if (optind < argc)
-        return dm_cli_usage_error(CMD, "unexpected argument '%s' (list takes only --json)",
-                                  argv[optind]);
+        return dm_cli_usage_error(CMD, "unexpected argument '%s' (list takes only --json "
+                                  "and --table METHOD)", argv[optind]);
+    if (table != NULL)
+        return print_table(table);
     if (json)
         print_json();
     else

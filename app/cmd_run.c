@@ -337,6 +337,17 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
         }
         dm_sweep_summaries_free(table, n_table);
     }
+    if (suite->n_tables > 0) {
+        /* the tables typed in the suite: claimed and found orders, as `show` prints them */
+        dm_table_summary *tables = calloc(suite->n_tables, sizeof *tables);
+        for (size_t i = 0; tables != NULL && i < suite->n_tables; i++)
+            dm_table_summary_fill(&tables[i], suite->tables[i]);
+        if (tables != NULL) {
+            fputc('\n', stdout);
+            dm_tables_print(stdout, tables, suite->n_tables);
+        }
+        free(tables);
+    }
     if (written)
         printf("\nresults: %s (%zu of %zu runs, %.1f s)\n", suite->output, n_rows,
                suite->n_runs, dm_clock_seconds() - t0);

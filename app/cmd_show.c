@@ -77,6 +77,13 @@ int dm_cmd_show(int argc, char **argv)
         free(rows);
         return dm_cli_usage_error("show", "%s", err.msg);
     }
+    dm_table_summary *tables = NULL;
+    size_t n_tables = 0;
+    if (dm_results_read_tables(path, &tables, &n_tables, &err) != DM_OK) {
+        free(rows);
+        dm_sweep_summaries_free(sweeps, n_sweeps);
+        return dm_cli_usage_error("show", "%s", err.msg);
+    }
     if (sweeps_only) {
         dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
     } else {
@@ -86,7 +93,12 @@ int dm_cmd_show(int argc, char **argv)
             fputc('\n', stdout);
             dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
         }
+        if (format == DM_TABLE_TEXT && n_tables > 0) {
+            fputc('\n', stdout);
+            dm_tables_print(stdout, tables, n_tables);
+        }
     }
+    free(tables);
     dm_sweep_summaries_free(sweeps, n_sweeps);
     free(rows);
     return 0;

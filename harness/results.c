@@ -27,6 +27,7 @@
 #include "checkpoint.h"
 #include "dm_build_info.h"
 #include "dm_hash.h"
+#include "formula.h"
 #include "harness.h"
 #include "nbody.h"
 #include "run_index.h"
@@ -376,6 +377,20 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
         rc |= attr_text(g, "problem_library", spec->problem_library);
         rc |= attr_text(g, "problem_library_hash", spec->problem_library_hash);
     }
+    const dm_formula_info *formula = dm_formula_info_of(pr);
+    if (formula != NULL) {
+        rc |= attr_text(g, "formula_potential", formula->potential);
+        rc |= attr_text(g, "formula_kinetic", formula->kinetic);
+        rc |= attr_text(g, "formula_coordinates", formula->coordinates);
+        rc |= attr_text(g, "formula_masses", formula->masses);
+        rc |= attr_text(g, "formula_hash", formula->hash);
+        rc |= attr_text(g, "formula_code", formula->code == DM_FORMULA_COMPILED ? "compiled"
+                                                                                : "evaluated");
+        rc |= attr_text(g, "formula_compiler", formula->compiler);
+        rc |= attr_text(g, "formula_flags", formula->flags);
+        rc |= attr_text(g, "formula_object", formula->object);
+        rc |= attr_double(g, "formula_compile_seconds", formula->compile_seconds);
+    }
     char given[512] = "";
     size_t used = 0;
     for (int i = 0; i < pr->n_params; i++) {
@@ -402,6 +417,10 @@ static int write_run_description(hid_t g, const dm_suite *suite, const dm_run_sp
     rc |= attr_bool(g, "method_symplectic", m->symplectic);
     rc |= attr_bool(g, "method_symmetric", m->symmetric);
     rc |= attr_bool(g, "method_adaptive", m->adaptive);
+    if (m->user != NULL) { /* a table typed in the suite: the run alone reproduces it */
+        rc |= attr_text(g, "method_table", m->user->text);
+        rc |= attr_int(g, "method_order_found", m->user->findings.order_found);
+    }
     rc |= attr_double(g, "h", adaptive ? NAN : spec->method_config.h);
     rc |= attr_double(g, "rtol", adaptive ? spec->method_config.rtol : NAN);
     rc |= attr_double(g, "atol", adaptive ? spec->method_config.atol : NAN);
@@ -582,6 +601,74 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     return rc;
 }
 
+/* An s x s block of a table's matrix as a row-major dataset. */
+static int dataset_matrix(hid_t g, const char *name,
+                          const double m[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES], int s)
+{
+    double flat[DM_RK_MAX_STAGES * DM_RK_MAX_STAGES];
+    for (int i = 0; i < s; i++)
+        for (int j = 0; j < s; j++)
+            flat[i * s + j] = m[i][j];
+    return dataset_double(g, name, flat, (size_t)(s * s));
+}
+
+/* /tables/<name>: a table typed in the suite, in full (results/README.md). */
+static int write_table(hid_t tables, const dm_user_table *t)
+{
+    const dm_table_input *in = &t->input;
+    const dm_table_findings *f = &t->findings;
+    hid_t g = H5Gcreate2(tables, in->name, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (g < 0)
+        return -1;
+    int rc = attr_text(g, "form", dm_table_form_name(in->form));
+    rc |= attr_text(g, "text", t->text);
+    rc |= attr_text(g, "reference", in->reference);
+    rc |= attr_int(g, "claimed_order", in->claimed_order);
+    rc |= attr_int(g, "order_found", f->order_found);
+    rc |= attr_text(g, "order_basis", f->order_basis);
+    rc |= attr_bool(g, "experimental", in->experimental);
+    rc |= attr_bool(g, "symmetric", f->symmetric);
+    if (in->form == DM_TABLE_RUNGE_KUTTA) {
+        const dm_rk_tableau *tab = &t->tableau;
+        rc |= attr_int(g, "stages", tab->stages);
+        rc |= dataset_matrix(g, "a", tab->a, tab->stages);
+        rc |= dataset_double(g, "b", tab->b, (size_t)tab->stages);
+        rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
+                             (size_t)f->conditions_checked_to);
+    } else {
+        if (in->form == DM_TABLE_NYSTROM) {
+            const dm_rkn_tableau *n = &t->nystrom;
+            rc |= attr_int(g, "stages", n->stages);
+            rc |= dataset_matrix(g, "abar", n->abar, n->stages);
+            rc |= dataset_double(g, "bbar", n->bbar, (size_t)n->stages);
+            rc |= dataset_double(g, "b", n->b, (size_t)n->stages);
+            rc |= dataset_double(g, "c", n->c, (size_t)n->stages);
+            rc |= dataset_double(g, "condition_residual", f->condition_residual + 1,
+                                 (size_t)f->conditions_checked_to);
+        } else {
+            rc |= attr_bool(g, "kick_first", t->splitting.kick_first);
+            rc |= dataset_double(g, "kick", t->kick, (size_t)t->splitting.n_kick);
+            rc |= dataset_double(g, "drift", t->drift, (size_t)t->splitting.n_drift);
+        }
+        for (int k = 0; k < 2; k++) {
+            const dm_measured_order *o = &f->measured[k];
+            const char *pr = dm_table_check_problems[k];
+            char name[96];
+            snprintf(name, sizeof name, "measured_order_%s", pr);
+            rc |= attr_double(g, name, o->order);
+            snprintf(name, sizeof name, "error_constant_%s", pr);
+            rc |= attr_double(g, name, o->error_constant);
+            snprintf(name, sizeof name, "steps_per_period_%s", pr);
+            rc |= dataset_double(g, name, o->steps_per_period, (size_t)o->levels);
+            snprintf(name, sizeof name, "errors_%s", pr);
+            rc |= dataset_double(g, name, o->errors, (size_t)o->levels);
+        }
+    }
+    if (H5Gclose(g) < 0)
+        rc = -1;
+    return rc;
+}
+
 /* ---- the writer: the file written run by run ---- */
 
 /* The file under its temporary name, open while the runs run. Each run's group is
@@ -737,6 +824,17 @@ static dm_status write_last(hid_t file, const dm_suite *suite, const dm_run_resu
     for (size_t i = 0; i < suite->n_sweeps && rc == 0; i++)
         rc = write_sweep(sweeps, suite, &suite->sweeps[i], results, fits ? &fits[i] : NULL);
     if (H5Gclose(sweeps) < 0 || rc != 0)
+        return DM_EIO;
+
+    if (suite->n_tables == 0)
+        return DM_OK;
+    *what = "/tables";
+    hid_t tables = H5Gcreate2(file, "tables", H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+    if (tables < 0)
+        return DM_EIO;
+    for (size_t i = 0; i < suite->n_tables && rc == 0; i++)
+        rc = write_table(tables, suite->tables[i]);
+    if (H5Gclose(tables) < 0 || rc != 0)
         return DM_EIO;
     return DM_OK;
 }
@@ -1458,9 +1556,11 @@ static const char *read_sweep(hid_t g, dm_sweep_summary *s)
     return why;
 }
 
+/* The names of a group's members (sweeps, tables), each shorter than `width`. */
 typedef struct sweep_names {
     char (*name)[DM_RUN_ID_MAX];
     size_t n, capacity;
+    size_t width;                    /* 0: DM_RUN_ID_MAX */
 } sweep_names;
 
 static herr_t collect_sweep_name(hid_t g, const char *name, const H5L_info_t *info, void *data)
@@ -1468,7 +1568,7 @@ static herr_t collect_sweep_name(hid_t g, const char *name, const H5L_info_t *in
     (void)g;
     (void)info;
     sweep_names *s = data;
-    if (s->n >= s->capacity || strlen(name) >= DM_RUN_ID_MAX)
+    if (s->n >= s->capacity || strlen(name) >= (s->width ? s->width : DM_RUN_ID_MAX))
         return -1;
     memcpy(s->name[s->n++], name, strlen(name) + 1);
     return 0;
@@ -1580,5 +1680,114 @@ done:
     if (file >= 0)
         H5Fclose(file);
     free(rows);
+    return st;
+}
+
+/* ---- the tables (for `show`) ---- */
+
+/* A text attribute, control characters escaped, cut to fit. */
+static int read_shown_text(hid_t g, const char *name, char *out, size_t size)
+{
+    char raw[256];
+    if (read_text_attr(g, name, raw, sizeof raw) != 0)
+        return -1;
+    dm_escape_controls(raw, out, size);
+    return 0;
+}
+
+/* One /tables/<name> group into t. Returns NULL, or what is wrong with it. */
+static const char *read_table(hid_t g, dm_table_summary *t)
+{
+    long long claimed, found, experimental, symmetric;
+    if (read_shown_text(g, "form", t->form, sizeof t->form) != 0)
+        return "its form attribute is not a text";
+    if (read_shown_text(g, "order_basis", t->basis, sizeof t->basis) != 0)
+        return "its order_basis attribute is not a text";
+    if (read_int_attr(g, "claimed_order", &claimed) != 0 ||
+        read_int_attr(g, "order_found", &found) != 0 || claimed < 1 ||
+        claimed > DM_ORDER_MAX || found < 0 || found > DM_ORDER_MAX)
+        return "its claimed_order and order_found are not whole numbers up to 8";
+    if (read_int_attr(g, "experimental", &experimental) != 0 ||
+        read_int_attr(g, "symmetric", &symmetric) != 0)
+        return "its experimental and symmetric attributes are not 0 or 1";
+    t->claimed_order = (int)claimed;
+    t->order_found = (int)found;
+    t->experimental = experimental != 0;
+    t->symmetric = symmetric != 0;
+    for (int k = 0; k < 2; k++) {
+        char name[96];
+        t->measured[k] = t->constant[k] = NAN;
+        snprintf(name, sizeof name, "measured_order_%s", dm_table_check_problems[k]);
+        if (H5Aexists(g, name) > 0 && read_double_attr(g, name, &t->measured[k]) != 0)
+            return "a measured order is not one number";
+        snprintf(name, sizeof name, "error_constant_%s", dm_table_check_problems[k]);
+        if (H5Aexists(g, name) > 0 && read_double_attr(g, name, &t->constant[k]) != 0)
+            return "an error constant is not one number";
+    }
+    return NULL;
+}
+
+dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, size_t *n,
+                                 dm_error *err)
+{
+    *tables = NULL;
+    *n = 0;
+    hdf5_silence();
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    if (file < 0)
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated",
+                            path);
+    dm_status st = DM_OK;
+    hid_t group = -1;
+    sweep_names names = { .width = DM_TABLE_NAME_MAX };
+    dm_table_summary *out = NULL;
+    H5G_info_t info;
+    if (H5Lexists(file, "tables", H5P_DEFAULT) <= 0)
+        goto done; /* no tables */
+    group = H5Gopen2(file, "tables", H5P_DEFAULT);
+    if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /tables is not a group of at most "
+                          "%d tables", path, DM_SUITE_MAX_RUNS);
+        goto done;
+    }
+    names.capacity = (size_t)info.nlinks;
+    names.name = calloc(names.capacity ? names.capacity : 1, sizeof *names.name);
+    out = calloc(names.capacity ? names.capacity : 1, sizeof *out);
+    hsize_t at = 0;
+    if (names.name == NULL || out == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+        goto done;
+    }
+    if (H5Literate(group, H5_INDEX_NAME, H5_ITER_INC, &at, collect_sweep_name, &names) < 0) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: /tables holds a name longer than "
+                          "a table's", path);
+        goto done;
+    }
+    for (size_t i = 0; i < names.n && st == DM_OK; i++) {
+        dm_table_summary *t = &out[i];
+        dm_escape_controls(names.name[i], t->name, sizeof t->name);
+        H5O_info_t oi;
+        hid_t g = -1;
+        if (H5Oget_info_by_name(group, names.name[i], &oi, H5P_DEFAULT) >= 0 &&
+            oi.type == H5O_TYPE_GROUP)
+            g = H5Gopen2(group, names.name[i], H5P_DEFAULT);
+        const char *why = g >= 0 ? read_table(g, t) : "it is not a group";
+        if (g >= 0)
+            H5Gclose(g);
+        if (why != NULL)
+            st = dm_error_set(err, DM_EINPUT, "cannot read %s: table %s: %s", path, t->name,
+                              why);
+    }
+done:
+    free(names.name);
+    if (group >= 0)
+        H5Gclose(group);
+    H5Fclose(file);
+    if (st == DM_OK) {
+        *tables = out;
+        *n = names.n;
+    } else {
+        free(out);
+    }
     return st;
 }

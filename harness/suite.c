@@ -27,9 +27,11 @@
 #include <yaml.h>
 
 #include "dm_hash.h"
+#include "formula.h"
 #include "harness.h"
 #include "nbody.h"
 #include "run_index.h"
+#include "suite_read.h"
 
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
@@ -44,17 +46,7 @@
 
 /* ---- locations and errors ---- */
 
-typedef struct parse_ctx {
-    yaml_document_t *doc;
-    const char *source;
-    dm_error *err;
-    /* where scalars tagged explicitly as something other than a number (!!str ...)
-     * start: the document API gives every scalar a tag, so only the events tell */
-    size_t *text_tagged;
-    size_t n_text_tagged;
-} parse_ctx;
-
-static size_t node_line(const yaml_node_t *node)
+size_t node_line(const yaml_node_t *node)
 {
     return node->start_mark.line + 1;
 }
@@ -64,10 +56,7 @@ static size_t node_column(const yaml_node_t *node)
     return node->start_mark.column + 1;
 }
 
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
-    __attribute__((format(printf, 3, 4)));
-
-static dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
+dm_status fail_at(parse_ctx *c, const yaml_node_t *node, const char *fmt, ...)
 {
     /* Messages quote what the user wrote, and a YAML text may hold any character (a
      * quoted "a\nb", a block scalar): dm_error_set keeps the message one line. */
@@ -89,12 +78,12 @@ static dm_status prefix_at(parse_ctx *c, const yaml_node_t *node)
     return DM_EINPUT;
 }
 
-static yaml_node_t *node_at(parse_ctx *c, int index)
+yaml_node_t *node_at(parse_ctx *c, int index)
 {
     return yaml_document_get_node(c->doc, index);
 }
 
-static const char *node_kind(const yaml_node_t *node)
+const char *node_kind(const yaml_node_t *node)
 {
     switch (node->type) {
     case YAML_SCALAR_NODE: return "a scalar";
@@ -104,12 +93,12 @@ static const char *node_kind(const yaml_node_t *node)
     }
 }
 
-static const char *scalar_text(const yaml_node_t *node)
+const char *scalar_text(const yaml_node_t *node)
 {
     return (const char *)node->data.scalar.value;
 }
 
-static bool scalar_is_quoted(const yaml_node_t *node)
+bool scalar_is_quoted(const yaml_node_t *node)
 {
     return node->data.scalar.style == YAML_SINGLE_QUOTED_SCALAR_STYLE ||
            node->data.scalar.style == YAML_DOUBLE_QUOTED_SCALAR_STYLE;
@@ -128,7 +117,7 @@ static void join_names(const char *const *names, size_t n, char *buf, size_t siz
     }
 }
 
-static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char *what,
                               const char *word, const char *const *names, size_t n)
 {
     const char *hint = dm_suggest(word, names, n);
@@ -141,7 +130,7 @@ static dm_status fail_unknown(parse_ctx *c, const yaml_node_t *node, const char 
 
 /* ---- scalar readers ---- */
 
-static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
+dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t **key,
                          const char **name)
 {
     *key = node_at(c, pair->key);
@@ -152,8 +141,22 @@ static dm_status get_key(parse_ctx *c, const yaml_node_pair_t *pair, yaml_node_t
     return DM_OK;
 }
 
+dm_status get_known_key(parse_ctx *c, const yaml_node_pair_t *pair, const char *what,
+                        const char *const *names, int n, yaml_node_t **key, int *k)
+{
+    const char *name;
+    dm_status st = get_key(c, pair, key, &name);
+    if (st != DM_OK)
+        return st;
+    for (*k = 0; *k < n && strcmp(name, names[*k]) != 0; (*k)++)
+        ;
+    if (*k == n)
+        return fail_unknown(c, *key, what, name, names, (size_t)n);
+    return DM_OK;
+}
+
 /* A mapping must not give a key twice (libyaml accepts it; YAML forbids it). */
-static dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
+dm_status check_unique_keys(parse_ctx *c, const yaml_node_t *map)
 {
     for (const yaml_node_pair_t *a = map->data.mapping.pairs.start;
          a < map->data.mapping.pairs.top; a++) {
@@ -178,7 +181,7 @@ static bool tagged_as_text(const parse_ctx *c, const yaml_node_t *node)
     return false;
 }
 
-static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *what,
                             double *out)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -206,7 +209,7 @@ static dm_status get_number(parse_ctx *c, const yaml_node_t *node, const char *w
     return DM_OK;
 }
 
-static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char *what,
                               double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -217,7 +220,7 @@ static dm_status get_positive(parse_ctx *c, const yaml_node_t *node, const char 
     return DM_OK;
 }
 
-static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *what,
                            double lo, double hi, double *out)
 {
     dm_status st = get_number(c, node, what, out);
@@ -229,7 +232,7 @@ static dm_status get_whole(parse_ctx *c, const yaml_node_t *node, const char *wh
     return DM_OK;
 }
 
-static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
+dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *what, bool *out)
 {
     if (node->type == YAML_SCALAR_NODE && !scalar_is_quoted(node)) {
         if (strcmp(scalar_text(node), "true") == 0) {
@@ -247,7 +250,7 @@ static dm_status get_bool(parse_ctx *c, const yaml_node_t *node, const char *wha
                    scalar_text(node));
 }
 
-static dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
+dm_status get_string(parse_ctx *c, const yaml_node_t *node, const char *what,
                             char *buf, size_t size)
 {
     if (node->type != YAML_SCALAR_NODE)
@@ -394,6 +397,7 @@ typedef struct problem_entry {
     char data_source[1024];
     char data_hash[DM_HASH_HEX];
     char units[64];
+    bool formula;                     /* written in the suite (potential: ...) */
     int n_given;
     int param[DM_MAX_PARAMS];         /* table indices of the given parameters, ascending */
     value_list *values[DM_MAX_PARAMS];
@@ -440,6 +444,8 @@ typedef struct suite_build {
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
     dm_run_index run_ids;             /* the runs so far by their id, to find twins fast */
+    dm_user_table **tables;           /* the tables typed in the suite (to dm_suite) */
+    size_t n_tables;
 } suite_build;
 
 static void build_free(suite_build *b)
@@ -454,6 +460,9 @@ static void build_free(suite_build *b)
     free(b->run_nodes);
     free(b->run_variants);
     dm_run_index_free(&b->run_ids);
+    for (size_t i = 0; i < b->n_tables; i++)
+        free(b->tables[i]);
+    free(b->tables);
 }
 
 /* "samples" is the older name of "buckets" (each keeps dE at its end and its min/max),
@@ -550,19 +559,289 @@ static int data_stem_length(const char *source)
 }
 static dm_status parse_problem_data(suite_build *b, const yaml_node_t *node, problem_entry *e);
 
-static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
-                                     problem_entry *e)
+
+/* ---- a problem written in the suite as formulas (problems/include/formula.h) ---- */
+
+/* The keys that describe a formula problem; every other key of its entry is a
+ * parameter of the formulas (or `energy`, the start's). */
+static const char *const formula_keys[] = { "potential", "kinetic", "coordinates", "momenta",
+                                            "masses", "q0", "p0", "side", "section", "period",
+                                            "name" };
+enum { FK_POTENTIAL, FK_KINETIC, FK_COORDINATES, FK_MOMENTA, FK_MASSES, FK_Q0, FK_P0, FK_SIDE,
+       FK_SECTION, FK_PERIOD, FK_NAME, FK_COUNT };
+
+static int formula_key(const char *name)
 {
-    parse_ctx *c = &b->ctx;
-    memset(e, 0, sizeof *e);
-    e->node = node;
+    for (int k = 0; k < FK_COUNT; k++)
+        if (strcmp(name, formula_keys[k]) == 0)
+            return k;
+    return -1;
+}
+
+/* A list of names, or one name; n_expected 0: any number up to DM_MAX_DOF. */
+static dm_status get_names(parse_ctx *c, const yaml_node_t *node, const char *what,
+                           int n_expected, const char **out, int *n)
+{
+    *n = 0;
+    if (node->type == YAML_SCALAR_NODE && !scalar_is_quoted(node)) {
+        out[(*n)++] = scalar_text(node);
+    } else if (node->type == YAML_SEQUENCE_NODE) {
+        for (const yaml_node_item_t *it = node->data.sequence.items.start;
+             it < node->data.sequence.items.top; it++) {
+            const yaml_node_t *item = node_at(c, *it);
+            if (item->type != YAML_SCALAR_NODE || scalar_text(item)[0] == '\0')
+                return fail_at(c, item, "%s must be names, found %s", what, node_kind(item));
+            if (*n == DM_MAX_DOF)
+                return fail_at(c, node, "%s lists more than %d names (expected at most %d "
+                               "degrees of freedom)", what, DM_MAX_DOF, DM_MAX_DOF);
+            out[(*n)++] = scalar_text(item);
+        }
+    } else {
+        return fail_at(c, node, "%s must be a name or a list of names, found %s", what,
+                       node_kind(node));
+    }
+    if (*n == 0 || (n_expected > 0 && *n != n_expected))
+        return fail_at(c, node, "%s gives %d names (expected %d, one per coordinate)", what,
+                       *n, n_expected);
+    return DM_OK;
+}
+
+/* One number per coordinate: a list of n, or one number (for every coordinate when
+ * `broadcast`, else only with one coordinate). */
+static dm_status get_per_coordinate(parse_ctx *c, const yaml_node_t *node, const char *what,
+                                    int n, bool broadcast, double *out)
+{
+    dm_status st;
+    if (node->type == YAML_SCALAR_NODE && (broadcast || n == 1)) {
+        if ((st = get_number(c, node, what, &out[0])) != DM_OK)
+            return st;
+        for (int i = 1; i < n; i++)
+            out[i] = out[0];
+        return DM_OK;
+    }
+    if (node->type != YAML_SEQUENCE_NODE)
+        return fail_at(c, node, "%s must be a list of %d numbers, found %s", what, n,
+                       node_kind(node));
+    int k = 0;
+    for (const yaml_node_item_t *it = node->data.sequence.items.start;
+         it < node->data.sequence.items.top; it++, k++) {
+        if (k == n)
+            return fail_at(c, node, "%s lists more than %d numbers (one per coordinate)",
+                           what, n);
+        if ((st = get_number(c, node_at(c, *it), what, &out[k])) != DM_OK)
+            return st;
+    }
+    if (k != n)
+        return fail_at(c, node, "%s lists %d numbers (expected %d, one per coordinate)", what,
+                       k, n);
+    return DM_OK;
+}
+
+/* section: {coordinate: NAME, level: X, direction: up}. */
+static dm_status get_formula_section(parse_ctx *c, const yaml_node_t *node,
+                                     dm_formula_spec *s)
+{
+    static const char *const keys[] = { "coordinate", "level", "direction" };
     if (node->type != YAML_MAPPING_NODE)
-        return fail_at(c, node, "a problems entry must be a mapping, found %s (expected "
-                       "{problem: NAME, parameter: value, ...})", node_kind(node));
+        return fail_at(c, node, "section must be a mapping (expected {coordinate: NAME, "
+                       "level: X, direction: up})");
     dm_status st = check_unique_keys(c, node);
+    s->section_given = true;
+    s->section_coordinate = 0;
+    s->section_level = 0.0;
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         st == DM_OK && p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+            return st;
+        const yaml_node_t *v = node_at(c, p->value);
+        if (strcmp(name, "level") == 0) {
+            st = get_number(c, v, "section level", &s->section_level);
+        } else if (strcmp(name, "coordinate") == 0 || strcmp(name, "direction") == 0) {
+            if (v->type != YAML_SCALAR_NODE)
+                return fail_at(c, v, "section %s must be a name", name);
+            const char *word = scalar_text(v);
+            int i = 0;
+            while (name[0] == 'c' && i < s->dof && strcmp(word, s->coordinates[i]) != 0)
+                i++;
+            if (name[0] == 'c' && i == s->dof)
+                return fail_at(c, v, "section coordinate '%s' is not a coordinate of this "
+                               "problem", word);
+            if (name[0] == 'd' && strcmp(word, "up") != 0)
+                return fail_at(c, v, "section direction '%s': only up is counted (expected "
+                               "up: crossings where the coordinate increases)", word);
+            if (name[0] == 'c')
+                s->section_coordinate = i;
+        } else {
+            return fail_unknown(c, key, "section key", name, keys, 3);
+        }
+    }
+    return st;
+}
+
+/* The keys of the spec other than the formulas' texts and names. */
+static dm_status get_formula_settings(parse_ctx *c, const yaml_node_t *const *at,
+                                      dm_formula_spec *s)
+{
+    dm_status st = DM_OK;
+    for (int i = 0; i < s->dof; i++)
+        s->masses[i] = 1.0;
+    if (at[FK_MASSES] != NULL && s->kinetic != NULL)
+        return fail_at(c, at[FK_MASSES], "give either masses or a kinetic formula, not both");
+    if (at[FK_MOMENTA] != NULL && s->kinetic == NULL)
+        return fail_at(c, at[FK_MOMENTA], "momenta name the variables of a kinetic formula "
+                       "(expected kinetic: too, or no momenta)");
+    if (at[FK_MASSES] != NULL)
+        st = get_per_coordinate(c, at[FK_MASSES], "masses", s->dof, true, s->masses);
+    if (st == DM_OK && at[FK_Q0] != NULL)
+        st = get_per_coordinate(c, at[FK_Q0], "q0", s->dof, false, s->q0);
+    if (st == DM_OK && at[FK_P0] != NULL)
+        st = get_per_coordinate(c, at[FK_P0], "p0", s->dof, false, s->p0);
+    s->side = 1;
+    if (st == DM_OK && at[FK_SIDE] != NULL) {
+        const char *w = at[FK_SIDE]->type == YAML_SCALAR_NODE ? scalar_text(at[FK_SIDE]) : "";
+        if (!s->energy_start)
+            return fail_at(c, at[FK_SIDE], "side goes with energy (the start at rest on that "
+                           "side of the well)");
+        if (strcmp(w, "left") != 0 && strcmp(w, "right") != 0)
+            return fail_at(c, at[FK_SIDE], "side '%s' (expected left or right)", w);
+        s->side = w[0] == 'l' ? -1 : 1;
+    }
+    if (st == DM_OK && at[FK_SECTION] != NULL)
+        st = get_formula_section(c, at[FK_SECTION], s);
+    if (st == DM_OK && at[FK_PERIOD] != NULL)
+        st = get_positive(c, at[FK_PERIOD], "period", &s->period);
+    return st;
+}
+
+/* The coordinates and momenta names, with their defaults: q and p for one coordinate,
+ * p_NAME for each coordinate NAME of more. */
+static dm_status get_formula_names(parse_ctx *c, const yaml_node_t *const *at,
+                                   dm_formula_spec *s, char (*momenta)[DM_NAME_MAX])
+{
+    dm_status st = DM_OK;
+    s->dof = 1;
+    s->coordinates[0] = "q";
+    if (at[FK_COORDINATES] != NULL)
+        st = get_names(c, at[FK_COORDINATES], "coordinates", 0, s->coordinates, &s->dof);
+    if (st != DM_OK || s->kinetic == NULL)
+        return st;
+    int n = 0;
+    if (at[FK_MOMENTA] != NULL)
+        return get_names(c, at[FK_MOMENTA], "momenta", s->dof, s->momenta, &n);
+    for (int i = 0; i < s->dof; i++) {
+        if (s->dof == 1)
+            snprintf(momenta[i], DM_NAME_MAX, "p");
+        else
+            snprintf(momenta[i], DM_NAME_MAX, "p_%.100s", s->coordinates[i]);
+        s->momenta[i] = momenta[i];
+    }
+    return DM_OK;
+}
+
+/* Whether an entry gives more than one coordinate (a list of two or more names). */
+static bool several_coordinates(parse_ctx *c, const yaml_node_t *node)
+{
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        const yaml_node_t *key = node_at(c, p->key), *v = node_at(c, p->value);
+        if (key->type == YAML_SCALAR_NODE && strcmp(scalar_text(key), "coordinates") == 0)
+            return v->type == YAML_SEQUENCE_NODE &&
+                   v->data.sequence.items.top - v->data.sequence.items.start > 1;
+    }
+    return false;
+}
+
+/* The start's parameters (q0, p0 with one coordinate; energy) go after the formulas'. */
+static void start_parameters_last(dm_formula_spec *s)
+{
+    static const char *const start[] = { "q0", "p0", "energy" };
+    for (int k = 0; k < 3; k++)
+        for (int j = 0; j < s->n_params - 1; j++) {
+            if (strcmp(s->param_names[j], start[k]) != 0)
+                continue;
+            const char *n = s->param_names[j];
+            double v = s->param_defaults[j];
+            memmove(&s->param_names[j], &s->param_names[j + 1],
+                    (size_t)(s->n_params - 1 - j) * sizeof s->param_names[0]);
+            memmove(&s->param_defaults[j], &s->param_defaults[j + 1],
+                    (size_t)(s->n_params - 1 - j) * sizeof s->param_defaults[0]);
+            s->param_names[s->n_params - 1] = n;
+            s->param_defaults[s->n_params - 1] = v;
+            break;
+        }
+}
+
+/* The formula problem of an entry with a `potential` key. With one coordinate, q0 and
+ * p0 are parameters (swept as any); with more, lists. */
+static dm_status make_formula(parse_ctx *c, const yaml_node_t *node, problem_entry *e)
+{
+    const yaml_node_t *at[FK_COUNT] = { NULL };
+    dm_formula_spec s = { .id = "formula" };
+    value_list first;
+    bool one = !several_coordinates(c, node);
+    for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
+         p < node->data.mapping.pairs.top; p++) {
+        yaml_node_t *key;
+        const char *name;
+        get_key(c, p, &key, &name);
+        int k = formula_key(name);
+        if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0)
+            continue; /* refused by the caller */
+        if (k >= 0 && !(one && (k == FK_Q0 || k == FK_P0))) {
+            at[k] = node_at(c, p->value);
+            continue;
+        }
+        if (s.n_params == DM_MAX_PARAMS)
+            return fail_at(c, key, "more than %d parameters (expected fewer)", DM_MAX_PARAMS);
+        dm_status st = get_values(c, node_at(c, p->value), name, false, false, &first);
+        if (st != DM_OK)
+            return st;
+        s.energy_start = s.energy_start || strcmp(name, "energy") == 0;
+        s.param_names[s.n_params] = name;
+        s.param_defaults[s.n_params++] = first.v[0];
+    }
+    start_parameters_last(&s);
+    char texts[2][DM_FORMULA_TEXT_MAX];
+    char id[DM_FORMULA_ID_MAX], momenta[DM_MAX_DOF][DM_NAME_MAX];
+    dm_status st = get_string(c, at[FK_POTENTIAL], "potential", texts[0], sizeof texts[0]);
+    s.potential = texts[0];
+    if (st == DM_OK && at[FK_KINETIC] != NULL) {
+        st = get_string(c, at[FK_KINETIC], "kinetic", texts[1], sizeof texts[1]);
+        s.kinetic = texts[1];
+    }
+    if (st == DM_OK && at[FK_NAME] != NULL) {
+        st = get_string(c, at[FK_NAME], "name", id, sizeof id);
+        s.id = id;
+        if (st == DM_OK && strspn(id, "abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                                       "0123456789_") != strlen(id))
+            return fail_at(c, at[FK_NAME], "name '%s' is not a plain word (expected letters, "
+                           "digits and '_': it names the runs)", id);
+    }
+    if (st == DM_OK)
+        st = get_formula_names(c, at, &s, momenta);
+    if (st == DM_OK)
+        st = get_formula_settings(c, at, &s);
     if (st != DM_OK)
         return st;
-    /* First find which problem, wherever its key stands, then read its parameters. */
+    dm_formula_where where;
+    dm_error ferr = { 0 };
+    st = dm_formula_create(&s, &e->problem, &where, &ferr);
+    if (st == DM_OK)
+        return DM_OK;
+    if (where.formula >= 0)
+        return fail_at(c, at[where.formula == 0 ? FK_POTENTIAL : FK_KINETIC],
+                       "%s, column %d of the formula: %s",
+                       where.formula == 0 ? "potential" : "kinetic", where.column, ferr.msg);
+    return fail_at(c, node, "formula problem %s: %s", s.id, ferr.msg);
+}
+
+/* Which problem an entry names, wherever its key stands: a built-in one, a shared
+ * object of the user's (problem_library) or formulas (potential). */
+static dm_status find_entry_problem(parse_ctx *c, const yaml_node_t *node, problem_entry *e)
+{
+    dm_status st;
     for (const yaml_node_pair_t *p = node->data.mapping.pairs.start;
          p < node->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
@@ -574,10 +853,18 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
                 return st;
             continue;
         }
+        if (strcmp(name, "potential") == 0) {
+            if (e->problem != NULL)
+                return fail_at(c, key, "give one of problem, problem_library or potential");
+            if ((st = make_formula(c, node, e)) != DM_OK)
+                return st;
+            e->formula = true;
+            continue;
+        }
         if (strcmp(name, "problem") != 0)
             continue;
-        if (e->library[0] != '\0')
-            return fail_at(c, key, "give either problem or problem_library, not both");
+        if (e->library[0] != '\0' || e->formula)
+            return fail_at(c, key, "give one of problem, problem_library or potential");
         const yaml_node_t *value = node_at(c, p->value);
         char id[DM_NAME_MAX];
         if ((st = get_string(c, value, "problem", id, sizeof id)) != DM_OK)
@@ -591,9 +878,27 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
             return fail_unknown(c, value, "problem", id, names, n);
         }
     }
+    return DM_OK;
+}
+
+static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
+                                     problem_entry *e)
+{
+    parse_ctx *c = &b->ctx;
+    memset(e, 0, sizeof *e);
+    e->node = node;
+    if (node->type != YAML_MAPPING_NODE)
+        return fail_at(c, node, "a problems entry must be a mapping, found %s (expected "
+                       "{problem: NAME, parameter: value, ...})", node_kind(node));
+    dm_status st = check_unique_keys(c, node);
+    if (st != DM_OK)
+        return st;
+    /* First find which problem, wherever its key stands, then read its parameters. */
+    if ((st = find_entry_problem(c, node, e)) != DM_OK)
+        return st;
     if (e->problem == NULL)
-        return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...} "
-                       "or {problem_library: PATH.so, ...})");
+        return fail_at(c, node, "problems entry lacks 'problem' (expected {problem: NAME, ...}, "
+                       "{problem_library: PATH.so, ...} or {potential: FORMULA, ...})");
 
     const dm_problem *pr = e->problem;
     if (pr->needs_data && (st = parse_problem_data(b, node, e)) != DM_OK)
@@ -608,7 +913,9 @@ static dm_status parse_problem_entry(suite_build *b, const yaml_node_t *node,
         const char *name;
         get_key(c, p, &key, &name);
         if (strcmp(name, "problem") == 0 || strcmp(name, "problem_library") == 0 ||
-            (pr->needs_data && is_data_key(name)))
+            (pr->needs_data && is_data_key(name)) ||
+            (e->formula && formula_key(name) >= 0 &&
+             dm_problem_param_index(e->problem, name) < 0))
             continue;
         int i = dm_problem_param_index(pr, name);
         if (i < 0) {
@@ -654,12 +961,14 @@ static const char *step_setting_key(dm_step_setting setting)
 }
 
 static const char *const method_keys[] = { "method", "h", "steps_per_period", "rtol",
-                                           "atol", "compensated" };
+                                           "atol", "compensated", "table" };
 enum { N_METHOD_KEYS = sizeof method_keys / sizeof method_keys[0] };
 
-/* Every key of the entry is known; `method:` names a known method. */
-static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry *e)
+/* Every key of the entry is known; `method:` names a known method, or `table:` gives
+ * the user's own (suite_table.c). */
+static dm_status find_method(suite_build *b, const yaml_node_t *node, method_entry *e)
 {
+    parse_ctx *c = &b->ctx;
     dm_status st;
     const yaml_node_pair_t *start = node->data.mapping.pairs.start;
     const yaml_node_pair_t *top = node->data.mapping.pairs.top;
@@ -673,9 +982,17 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
             k++;
         if (k == N_METHOD_KEYS)
             return fail_unknown(c, key, "method key", name, method_keys, N_METHOD_KEYS);
-        if (k != 0)
+        if (k != 0 && k != N_METHOD_KEYS - 1)
             continue;
+        if (e->method != NULL)
+            return fail_at(c, key, "give either method or table, not both");
         const yaml_node_t *value = node_at(c, p->value);
+        if (k == N_METHOD_KEYS - 1) {
+            st = dm_suite_read_table(c, value, &b->tables, &b->n_tables, &e->method);
+            if (st != DM_OK)
+                return st;
+            continue;
+        }
         char id[DM_NAME_MAX];
         if ((st = get_string(c, value, "method", id, sizeof id)) != DM_OK)
             return st;
@@ -689,7 +1006,8 @@ static dm_status find_method(parse_ctx *c, const yaml_node_t *node, method_entry
         }
     }
     if (e->method == NULL)
-        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...})");
+        return fail_at(c, node, "methods entry lacks 'method' (expected {method: NAME, ...} "
+                       "or {table: {...}, ...})");
     return DM_OK;
 }
 
@@ -707,7 +1025,7 @@ static dm_status parse_method_options(parse_ctx *c, const yaml_node_t *node, met
         yaml_node_t *key = node_at(c, p->key);
         const char *name = scalar_text(key);
         const yaml_node_t *value = node_at(c, p->value);
-        if (strcmp(name, "method") == 0)
+        if (strcmp(name, "method") == 0 || strcmp(name, "table") == 0)
             continue;
         if (strcmp(name, "compensated") == 0) {
             if ((st = get_bool(c, value, "compensated", &e->compensated)) != DM_OK)
@@ -799,7 +1117,7 @@ static dm_status parse_method_entry(suite_build *b, const yaml_node_t *node, met
     const yaml_node_t *setting_value = NULL;
     dm_status st = check_unique_keys(c, node);
     if (st == DM_OK)
-        st = find_method(c, node, e);
+        st = find_method(b, node, e);
     if (st == DM_OK)
         st = parse_method_options(c, node, e, &setting_value);
     if (st == DM_OK)
@@ -1042,6 +1360,9 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " library=%s", spec->problem_library_hash);
     if (spec->data_hash[0] != '\0') /* the bodies, by the hash of their numbers */
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " data=%s", spec->data_hash);
+    const dm_formula_info *formula = dm_formula_info_of(pr);
+    if (formula != NULL) /* the formulas, masses, start and section */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " formula=%s", formula->hash);
     for (int i = 0; i < pr->n_params; i++)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " %s=%.17g", pr->params[i].name,
                            inst->param[i]);
@@ -1054,6 +1375,9 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
             first = false;
         }
     ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " method=%s", m->id);
+    if (m->user != NULL) /* the table itself, by the hash of its suite form */
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " table=%016" PRIx64,
+                           dm_hash_text(m->user->text));
     if (m->adaptive)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " rtol=%.17g atol=%.17g", mc->rtol,
                            mc->atol);
@@ -1096,6 +1420,10 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->lyapunov = b->lyapunov;             /* in config too */
     spec->sweep = -1;
+    if (me->method->nystrom != NULL && !dm_velocity_is_linear(&x->inst))
+        return fail_at(&b->ctx, me->node, "%s is a Runge-Kutta-Nystrom table, for a kinetic "
+                       "energy quadratic in p; %s's grad T is not linear in p (expected a "
+                       "splitting or Runge-Kutta table for it)", me->method->id, x->part);
     dm_status st = set_horizon(b, x, spec);
     if (st == DM_OK && me->method->check_problem != NULL) {
         dm_error why = { 0 };
@@ -1373,7 +1701,7 @@ static dm_status check_no_nul(parse_ctx *c)
 
 /* Names become file names and table cells: a newline or an escape byte in one is
  * always a mistake. */
-static bool has_control(const char *s)
+bool has_control(const char *s)
 {
     for (const unsigned char *u = (const unsigned char *)s; *u; u++)
         if (*u < 0x20 || *u == 0x7f)
@@ -1482,14 +1810,9 @@ static dm_status parse_document(suite_build *b, dm_suite *suite)
     for (const yaml_node_pair_t *p = root->data.mapping.pairs.start;
          p < root->data.mapping.pairs.top; p++) {
         yaml_node_t *key;
-        const char *name;
-        if ((st = get_key(c, p, &key, &name)) != DM_OK)
+        int k;
+        if ((st = get_known_key(c, p, "key", top_keys, TOP_COUNT, &key, &k)) != DM_OK)
             return st;
-        int k = 0;
-        while (k < TOP_COUNT && strcmp(name, top_keys[k]) != 0)
-            k++;
-        if (k == TOP_COUNT)
-            return fail_unknown(c, key, "key", name, top_keys, TOP_COUNT);
         value_of[k] = node_at(c, p->value);
         if ((k == TOP_BUCKETS && value_of[TOP_SAMPLES] != NULL) ||
             (k == TOP_SAMPLES && value_of[TOP_BUCKETS] != NULL))
@@ -1657,6 +1980,12 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     b.step_budget = DM_DEFAULT_STEP_BUDGET;
     b.memory_limit_gib = DM_DEFAULT_MEMORY_LIMIT_GIB;
     dm_status st = parse_document(&b, suite);
+    if (st == DM_OK) { /* the runs' methods live in the tables: the suite keeps them */
+        suite->tables = b.tables;
+        suite->n_tables = b.n_tables;
+        b.tables = NULL;
+        b.n_tables = 0;
+    }
 
     /* One suite per file: a second document is almost surely a mistake. */
     if (st == DM_OK) {
@@ -1771,6 +2100,9 @@ void dm_suite_free(dm_suite *suite)
     for (size_t i = 0; i < suite->n_problem_data; i++)
         free(suite->problem_data[i]);
     free(suite->problem_data);
+    for (size_t i = 0; i < suite->n_tables; i++)
+        free(suite->tables[i]);
+    free(suite->tables);
     memset(suite, 0, sizeof *suite);
 }
 

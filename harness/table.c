@@ -29,6 +29,7 @@ void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
         snprintf(row->regime, sizeof row->regime, "%s", inst->problem->regimes[inst->regime].id);
     snprintf(row->method, sizeof row->method, "%s", m->id);
     row->order = m->order;
+    row->order_found = m->user != NULL ? m->user->findings.order_found : NAN;
     row->h = m->adaptive ? NAN : spec->method_config.h;
     row->rtol = m->adaptive ? spec->method_config.rtol : NAN;
     /* what it measured (DM_RUN_FIGURES) */
@@ -320,4 +321,46 @@ void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
     case DM_TABLE_CSV: sweep_csv(out, sweeps, n); break;
     case DM_TABLE_JSON: sweep_json(out, sweeps, n); break;
     }
+}
+
+/* ---- the tables typed in a suite ---- */
+
+void dm_table_summary_fill(dm_table_summary *s, const dm_user_table *t)
+{
+    memset(s, 0, sizeof *s);
+    snprintf(s->name, sizeof s->name, "%s", t->input.name);
+    snprintf(s->form, sizeof s->form, "%s", dm_table_form_name(t->input.form));
+    s->claimed_order = t->input.claimed_order;
+    s->order_found = t->findings.order_found;
+    snprintf(s->basis, sizeof s->basis, "%s", t->findings.order_basis);
+    s->experimental = t->input.experimental;
+    s->symmetric = t->findings.symmetric;
+    bool measured = t->input.form != DM_TABLE_RUNGE_KUTTA;
+    for (int k = 0; k < 2; k++) {
+        s->measured[k] = measured ? t->findings.measured[k].order : NAN;
+        s->constant[k] = measured ? t->findings.measured[k].error_constant : NAN;
+    }
+}
+
+void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n)
+{
+    fprintf(out, "%-31s %-12s %7s %5s  %-16s %-9s  %-22s %-22s\n", "table", "form",
+            "claimed", "found", "basis", "symmetric", "harmonic: order (C)",
+            "pendulum: order (C)");
+    for (size_t i = 0; i < n; i++) {
+        const dm_table_summary *t = &tables[i];
+        char name[4 * DM_TABLE_NAME_MAX], cell[2][64];
+        dm_escape_controls(t->name, name, sizeof name);
+        for (int k = 0; k < 2; k++)
+            if (isnan(t->measured[k]))
+                snprintf(cell[k], sizeof cell[k], "-");
+            else
+                snprintf(cell[k], sizeof cell[k], "%.2f (%.3g)", t->measured[k],
+                         t->constant[k]);
+        fprintf(out, "%-31s %-12s %7d %5d  %-16s %-9s  %-22s %-22s%s\n", name, t->form,
+                t->claimed_order, t->order_found, t->basis, t->symmetric ? "yes" : "no",
+                cell[0], cell[1],
+                t->order_found < t->claimed_order ? "  experimental: below its claim" : "");
+    }
+    fprintf(out, "(C: the leading error constant, e / (h/T)^p: results/README.md, /tables)\n");
 }

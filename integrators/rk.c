@@ -4,7 +4,9 @@
  *
  * One engine runs any explicit Butcher tableau on y = (q, p) with dq/dt = grad T(p),
  * dp/dt = -grad V(q): dm_rk_explicit_step (problems/include/dm_fused_loop.h), called a
- * step at a time here and inside the problem's fused loop (rk_run_fused). */
+ * step at a time here and inside the problem's fused loop (rk_run_fused); and any
+ * explicit Runge-Kutta-Nystrom table (a method's `nystrom`, typed in a suite) by
+ * dm_rkn_step the same way. */
 #include <math.h>
 #include <stdlib.h>
 
@@ -14,6 +16,7 @@
 typedef struct rk_stepper {
     dm_stepper base;
     const dm_rk_tableau *tableau;
+    const dm_rkn_tableau *nystrom;  /* instead of tableau, for a Nystrom table */
     const double *state_x;
     dm_step_clock clock;
     dm_fused_rk_cache cache;  /* the fused loop's counts */
@@ -27,9 +30,10 @@ static void restart_at(rk_stepper *s, const dm_point *at)
     dm_step_clock_start(&s->clock, at->t);
 }
 
-static dm_stepper *rk_create(const dm_rk_tableau *tab, const dm_method *m,
-                             const dm_instance *inst, const dm_method_config *config,
-                             const dm_point *start, dm_error *err)
+/* Every explicit tableau, built-in or typed in a suite, is the method's own. */
+static dm_stepper *rk_create(const dm_method *m, const dm_instance *inst,
+                             const dm_method_config *config, const dm_point *start,
+                             dm_error *err)
 {
     rk_stepper *s = calloc(1, sizeof *s);
     if (s == NULL) {
@@ -40,23 +44,10 @@ static dm_stepper *rk_create(const dm_rk_tableau *tab, const dm_method *m,
     s->base.inst = inst;
     s->base.dof = inst->dof;
     s->base.config = *config;
-    s->tableau = tab;
+    s->tableau = m->tableau;
+    s->nystrom = m->nystrom;
     restart_at(s, start);
     return &s->base;
-}
-
-static dm_stepper *euler_create(const dm_method *m, const dm_instance *inst,
-                                const dm_method_config *config, const dm_point *start,
-                                dm_error *err)
-{
-    return rk_create(&dm_rk_euler_tableau, m, inst, config, start, err);
-}
-
-static dm_stepper *rk4_create(const dm_method *m, const dm_instance *inst,
-                              const dm_method_config *config, const dm_point *start,
-                              dm_error *err)
-{
-    return rk_create(&dm_rk4_tableau, m, inst, config, start, err);
 }
 
 /* The step arithmetic is dm_rk_explicit_step (dm_fused_loop.h), the fused loop's own. */
@@ -69,10 +60,17 @@ static dm_status rk_step(dm_stepper *base, const dm_point *from, dm_point *to)
     double h = base->config.h;
     if (from->x != s->state_x)
         restart_at(s, from);
-    dm_rk_explicit_step_any(inst, tab, h, from->x, to->x, base->dof,
-                            dm_problem_gradient(problem), problem->velocity);
-    base->counts.force_evals += (uint64_t)tab->stages;
-    base->counts.velocity_evals += (uint64_t)tab->stages;
+    if (s->nystrom != NULL) {
+        dm_rkn_step(inst, s->nystrom, h, from->x, to->x, base->dof, s->nystrom->stages,
+                    dm_problem_gradient(problem), problem->velocity);
+        base->counts.force_evals += (uint64_t)s->nystrom->stages;
+        base->counts.velocity_evals += (uint64_t)s->nystrom->stages + 1;
+    } else {
+        dm_rk_explicit_step_any(inst, tab, h, from->x, to->x, base->dof,
+                                dm_problem_gradient(problem), problem->velocity);
+        base->counts.force_evals += (uint64_t)tab->stages;
+        base->counts.velocity_evals += (uint64_t)tab->stages;
+    }
     base->counts.steps++;
     to->t = dm_step_clock_next(&s->clock, h);
     to->potential = NAN; /* no slope is taken at the step's end */
@@ -87,12 +85,14 @@ static dm_fused_event rk_run_fused(dm_stepper *base, dm_fused_run *run, uint64_t
     const dm_instance *inst = base->inst;
     if (inst->problem->fused_rk_loop == NULL || base->config.plain_steps)
         return DM_FUSED_UNSUPPORTED;
-    const dm_fused_rk method = { .tableau = s->tableau, .h = base->config.h };
+    const dm_fused_rk method = { .tableau = s->tableau, .nystrom = s->nystrom,
+                                 .h = base->config.h };
     uint64_t k0 = run->k;
     int event = inst->problem->fused_rk_loop(inst, &method, &s->cache, run, k_end);
     base->counts.steps += run->k - k0;
     base->counts.force_evals += s->cache.evaluations;
-    base->counts.velocity_evals += s->cache.evaluations;
+    /* a Nystrom step takes one velocity more than forces: grad T(p0) */
+    base->counts.velocity_evals += s->cache.evaluations + (s->nystrom ? run->k - k0 : 0);
     s->cache.evaluations = 0;
     return (dm_fused_event)event;
 }
@@ -142,7 +142,8 @@ const dm_method dm_euler = {
     .symplectic = false,
     .symmetric = false,
     .force_evals_per_step = 1,
-    .create = euler_create,
+    .tableau = &dm_rk_euler_tableau,
+    .create = rk_create,
     .step = rk_step,
     .run_fused = rk_run_fused,
     .restart = rk_restart,
@@ -161,7 +162,8 @@ const dm_method dm_rk4 = {
     .symplectic = false,
     .symmetric = false,
     .force_evals_per_step = 4,
-    .create = rk4_create,
+    .tableau = &dm_rk4_tableau,
+    .create = rk_create,
     .step = rk_step,
     .run_fused = rk_run_fused,
     .restart = rk_restart,

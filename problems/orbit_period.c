@@ -205,7 +205,7 @@ static double zone_between(dm_potential_fn V, void *data, double E, double a, do
 static bool turning_point(dm_potential_fn V, void *data, double E, double q0, double dir,
                           double reach, double *at, bool *not_finite)
 {
-    double inside = q0, f_inside = E - V(data, q0);
+    double inside = q0, f_inside = E - V(data, q0), widest = fmax(f_inside, 0.0);
     double step = 1e-6 * fmax(1.0, fabs(q0));
     const double smallest = 1e-13 * fmax(1.0, fabs(q0));
     for (;;) {
@@ -216,7 +216,15 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
             return false;
         }
         double fq = E - v;
-        double outside = fq < 0.0 ? q : zone_between(V, data, E, inside, f_inside, q, fq);
+        /* E - V within rounding of 0 where V is flat (its slope over the way come, against
+         * the widest E - V seen, below the 1e-3 dm_orbit_period refuses) is a maximum of
+         * V at the orbit's energy, a separatrix, or next to one: the orbit is taken to
+         * end there, and refused below, rather than followed over the top and the next
+         * tops out to `reach` */
+        double slope = (fq - f_inside) / step; /* along the direction of travel */
+        bool touching = fq < 0.0 || (fq <= 64.0 * DBL_EPSILON * (fabs(E) + fabs(v)) &&
+                                     fabs(slope) * fabs(q - q0) < 1e-3 * widest);
+        double outside = touching ? q : zone_between(V, data, E, inside, f_inside, q, fq);
         if (!isnan(outside)) { /* V = +inf (a wall) counts as outside */
             double a = inside, b = outside;
             for (int it = 0; it < 1100; it++) {
@@ -231,9 +239,9 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
             *at = a;
             return true;
         }
-        double slope = (fq - f_inside) / step; /* along the direction of travel */
         inside = q;
         f_inside = fq;
+        widest = fmax(widest, fq);
         if (fabs(q - q0) > reach)
             return false;
         double next = 2.0 * step;
@@ -241,6 +249,15 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
             next = fmin(next, fmax(0.5 * fq / -slope, smallest));
         step = next;
     }
+}
+
+/* The integrand of the orbit between the turning points qm < qp. */
+static integrand orbit_integrand(dm_potential_fn V, void *data, double E, double qm, double qp)
+{
+    double d = 0.5 * (qp - qm);
+    return (integrand){ .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
+                        .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
+                        .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
 }
 
 dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, double q0,
@@ -293,9 +310,7 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "%.2g, below 1e-3): its period cannot be integrated to 3e-10 in "
                             "double precision", what, E, flat_m < flat_p ? qm : qp,
                             fmin(flat_m, flat_p));
-    integrand in = { .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
-                     .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
-                     .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
+    integrand in = orbit_integrand(V, data, E, qm, qp);
     double rel = NAN;
     double integral = adapt(&in, 0.0, M_PI, &rel);
     if (in.bad)
@@ -311,4 +326,19 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "converge (relative error %.2g): too close to a separatrix",
                             what, E, rel);
     return DM_OK;
+}
+
+double dm_orbit_time(dm_potential_fn V, void *data, double m, double E, const dm_orbit *orbit,
+                     double x)
+{
+    double qm = orbit->q_minus, qp = orbit->q_plus;
+    if (!(x > qm))
+        return 0.0;
+    if (!(x < qp))
+        return 0.5 * orbit->period;
+    integrand in = orbit_integrand(V, data, E, qm, qp);
+    /* x = c - d cos(phi) */
+    double phi = acos(fmax(-1.0, fmin(1.0, (in.c - x) / in.d)));
+    double rel = NAN;
+    return sqrt(0.5 * m) * adapt(&in, 0.0, phi, &rel);
 }

@@ -1,9 +1,10 @@
 #!/bin/bash
 # check_bench.sh DRIFTMARK — `driftmark bench --quick --json` runs, prints JSON that
-# parses, has every field the report promises for the eight cases, the CVODE rows, the
-# 1-vs-N-jobs row and the many-short-runs row, the hand-written loops end with the
-# harness's energy error bit for bit (both do the same arithmetic), and 1 and N jobs
-# give the same results bit for bit. Not a timing test: no speed is asserted.
+# parses, has every field the report promises for the ten cases (yoshida4 twice: built
+# in and typed as a table), the CVODE rows, the 1-vs-N-jobs row and the many-short-runs
+# row, the hand-written loops end with the harness's energy error bit for bit (both do
+# the same arithmetic), and 1 and N jobs give the same results bit for bit. Not a timing
+# test: no speed is asserted.
 set -u
 exe=${1:?usage: check_bench.sh DRIFTMARK}
 out=$(mktemp)
@@ -38,8 +39,8 @@ if need(report, "quick", "top") is not True:
     problems.append("top: quick should be true for --quick")
 cases = need(report, "cases", "top") or []
 want = {(p, m) for p in ("pendulum", "kepler") for m in ("verlet", "yoshida4", "rk4",
-                                                          "midpoint")}
-splitting = {"verlet", "yoshida4"}
+                                                          "midpoint", "yoshida4-typed")}
+splitting = {"verlet", "yoshida4", "yoshida4-typed"}
 got = {(c.get("problem"), c.get("method")) for c in cases}
 if got != want:
     problems.append(f"cases: expected {sorted(want)}, got {sorted(got)}")

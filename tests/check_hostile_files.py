@@ -11,7 +11,9 @@ bytes escaped.
   - /summary claiming more rows than n_runs_written or than a suite can have;
   - a FIFO and a device given as the results file (must not block);
   - a damaged HDF5 header: our one line only;
-  - a run_id, reason and suite_source holding an escape sequence and a newline.
+  - a run_id, reason and suite_source holding an escape sequence and a newline;
+  - /tables (a suite's own tables) not a group, a table not a group, an attribute of
+    the wrong shape or type, a table name holding an escape sequence.
 
 Hostile files are made with h5py from a small valid file the built driftmark writes.
 
@@ -155,6 +157,35 @@ def main():
             replace_attr(f, "n_runs_written", np.uint64(100001))
         hostile(base, "many-rows.h5", many_rows)
         refused(tmp, ["show", "many-rows.h5"], "show 100001 rows", "at most 100000")
+
+        # /tables (a suite's own tables), which `show` reads: each group checked, names
+        # escaped
+        with open(os.path.join(tmp, "t.yaml"), "w") as f:
+            f.write(SUITE + "  - {table: {name: j2, order: 2, compose: verlet, weights: [1]},"
+                    " steps_per_period: 16}\n")
+        r = run(["run", "t.yaml", "-o", "tables.h5"], tmp)
+        check(r.returncode == 0, f"the suite with a table runs: {r.stderr}")
+        tables = os.path.join(tmp, "tables.h5")
+
+        def tables_dataset(f):
+            del f["tables"]
+            f["tables"] = np.arange(3.0)
+        table_cases = [
+            ("tables-dataset.h5", tables_dataset, "/tables is not a group"),
+            ("table-dataset.h5", lambda f: (f["tables"].__delitem__("j2"),
+                                            f["tables"].create_dataset("j2", data=[1.0])),
+             "it is not a group"),
+            ("table-order-array.h5", lambda f: replace_attr(f["tables/j2"], "claimed_order",
+                                                            np.arange(4096, dtype="i4")),
+             "claimed_order"),
+            ("table-form-number.h5", lambda f: replace_attr(f["tables/j2"], "form", 3.5),
+             "form"),
+            ("table-escape-name.h5", lambda f: f["tables"].create_group("x\x1b[31m\ny"),
+             "x\\x1b[31m"),
+        ]
+        for name, edit, needle in table_cases:
+            hostile(tables, name, edit)
+            refused(tmp, ["show", name], f"show {name}", needle)
 
         # not regular files: refused at once, not read or waited on
         os.mkfifo(os.path.join(tmp, "fifo.h5"))

@@ -77,9 +77,14 @@ def same_datasets(a, b, label, restarted=()):
 
 
 def close_enough(ga, gb, label):
-    """A CVODE run restarted at its checkpoint takes other steps after it: same horizon
-    and status, step count within 5 %, max |dE| and the phase drift within a factor 2
-    (the solver's tolerance sets both; a restart moves them by far less: printed)."""
+    """A CVODE run restarted at its checkpoint takes other steps after it (order 1 and a
+    new first step, then its own step-size history): same horizon and status; its step
+    count and largest |dE| are other samples of the same method at the same tolerance.
+    Measured over 12 stop times of this suite's pendulum-amplitude2 run (results/README.md):
+    steps -6.6 % to +0.1 %, max |dE| x0.94 to x12.3, the phase drift per period from
+    -4.2e-3 to +3.6e-4 against +1.4e-4 (its sign too is a sample, so it is not
+    compared). The bounds below hold that spread with room: steps within 10 %, max |dE|
+    within a factor 30 either way (printed)."""
     check(ga.attrs["status"] == gb.attrs["status"], f"{label}: same status")
     check(ga.attrs["t_reached"] == gb.attrs["t_reached"], f"{label}: same t_reached")
     sa, sb = float(ga.attrs["steps"]), float(gb.attrs["steps"])
@@ -87,9 +92,8 @@ def close_enough(ga, gb, label):
     pa, pb = float(ga.attrs["phase_error_per_period"]), float(gb.attrs["phase_error_per_period"])
     print(f"{label}: steps {sa:.0f} vs {sb:.0f}, max |dE| {ea:.4g} vs {eb:.4g}, "
           f"phase per period {pa:.4g} vs {pb:.4g}")
-    check(abs(sa - sb) <= 0.05 * sa, f"{label}: steps within 5 %")
-    check(0.5 <= eb / ea <= 2.0, f"{label}: max |dE| within a factor 2")
-    check(pa * pb > 0 and 0.5 <= pb / pa <= 2.0, f"{label}: phase drift within a factor 2")
+    check(abs(sa - sb) <= 0.10 * sa, f"{label}: steps within 10 %")
+    check(1.0 / 30.0 <= eb / ea <= 30.0, f"{label}: max |dE| within a factor 30")
 
 
 def run(args, **kw):

@@ -219,7 +219,8 @@ static void bad_orbits_are_refused_in_one_line(void **state)
 {
     (void)state;
     refused(line_V, 1.0, 0.0, "unbounded");           /* nothing stops it going down */
-    refused(pendulum_V, 1.0, 0.0, "unbounded");       /* the separatrix itself */
+    refused(pendulum_V, 1.0, 0.0, "separatrix");      /* the separatrix itself: E - V
+                                                         touches 0 at the top */
     refused(pendulum_V, -1.0, 0.0, "equilibrium");    /* at rest at the bottom */
     refused(quartic_V, -1.0, 0.0, "below");
     refused(log_V, 50.0, 1.0, "not finite");

@@ -712,7 +712,7 @@ static void show_prints_table_csv_and_json_of_a_results_file(void **state)
 
     snprintf(args, sizeof args, "'%s' --format csv", path);
     assert_int_equal(show(args, out, sizeof out, err, sizeof err), 0);
-    const char *head = "run_id,hash,problem,regime,method,order,h,rtol,steps,";
+    const char *head = "run_id,hash,problem,regime,method,order,order_found,h,rtol,steps,";
     assert_true(strncmp(out, head, strlen(head)) == 0);
     /* header + one line a run */
     size_t lines = 0;

@@ -26,6 +26,7 @@
 #include "method.h"
 #include "problem.h"
 #include "run_figures.h"
+#include "user_table.h"
 
 #define DM_RUN_ID_MAX 160
 #define DM_HASH_HEX 17          /* 64-bit hash as 16 hex digits + NUL */
@@ -95,6 +96,10 @@ typedef struct dm_suite {
     dm_sweep *sweeps;                /* owned */
     size_t n_problem_data;
     void **problem_data;             /* owned: the data the runs' instances point to */
+    /* the methods typed as tables in the suite (user_table.h), in the order first
+     * given; the runs' methods point into them (owned) */
+    size_t n_tables;
+    struct dm_user_table **tables;
 } dm_suite;
 
 /* Parses and validates a whole suite before anything runs. Errors are one line,
@@ -361,6 +366,26 @@ void dm_sweep_summaries_free(dm_sweep_summary *s, size_t n);
 /* 1 when `name` is a code of the datasets energy_fit and phase_fit (or ""), else 0. */
 int dm_fit_use_name_known(const char *name);
 
+/* ---- the tables typed in a suite ---- */
+
+/* What the tables block shows of one table typed in a suite (user_table.h): from the
+ * suite's tables (dm_table_summary_fill) or read back from /tables
+ * (dm_results_read_tables). */
+typedef struct dm_table_summary {
+    char name[DM_TABLE_NAME_MAX];
+    char form[16];
+    int claimed_order, order_found;
+    char basis[24];                  /* "order conditions" or "measured" */
+    bool experimental, symmetric;
+    double measured[2], constant[2]; /* on dm_table_check_problems; NaN for a Butcher
+                                        tableau (its order is from its conditions) */
+} dm_table_summary;
+
+void dm_table_summary_fill(dm_table_summary *s, const dm_user_table *t);
+/* One line a table: its form, the order claimed and the order found with its basis,
+ * symmetry, and the measured orders and error constants. */
+void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n);
+
 /* ---- the results file (results.c) ---- */
 
 /* The results file, written run by run as the runs finish (results/README.md, "How the
@@ -410,6 +435,12 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
  * ours, or a sweep whose attributes or datasets are not as results/README.md says, is
  * DM_EINPUT with one line naming it. */
 dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, size_t *n,
+                                 dm_error *err);
+
+/* Every table of the file at `path` (its /tables groups; none in a file without
+ * tables), into a new array (free it). A group not as results/README.md says is
+ * DM_EINPUT with one line naming it. */
+dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, size_t *n,
                                  dm_error *err);
 
 /* The suite text stored in a results file, and where it came from (malloc'd text). */

@@ -123,6 +123,8 @@
       "regime of the starting state (libration, rotation, bound, ...)")                    \
     X(method, TEXT, 32, "method id")                                                       \
     X(order, INT, 0, "the method's classical order")                                       \
+    X(order_found, REAL, 0, "the order found for a table typed in the suite (order "        \
+      "conditions or measured: /tables); NaN for a built-in method")                       \
     X(h, REAL, 0, "step size (NaN for adaptive methods)")                                  \
     X(rtol, REAL, 0, "relative tolerance (NaN for fixed-step methods)")
 

@@ -148,6 +148,14 @@ struct dm_method {
      * problems/include/nbody.h): DM_OK or DM_EINPUT with a one-line reason. The suite
      * reader asks it for every run before anything runs; create refuses the same. */
     dm_status (*check_problem)(const dm_method *m, const dm_instance *inst, dm_error *err);
+    /* Optional: an explicit Runge-Kutta method's tableau (rk.c runs the one given here) */
+    const dm_rk_tableau *tableau;
+    /* Optional: a Runge-Kutta-Nystrom method's table (rk.c runs it instead of `tableau`;
+     * for problems whose grad T is linear in p) */
+    const dm_rkn_tableau *nystrom;
+    /* Optional: the table typed in a suite this method was made from (user_table.h);
+     * NULL for the built-in methods */
+    const struct dm_user_table *user;
 
     /* Non-splitting methods. create allocates everything the steps will need; the
      * stepper keeps pointers to `inst` (which must outlive it) but not to `start`. */

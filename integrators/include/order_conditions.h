@@ -35,4 +35,17 @@ typedef struct dm_order_report {
 void dm_rk_order(const double *a, const double *b, int s, int max_order, double tol,
                  dm_order_report *report);
 
+/* The same for an explicit Runge-Kutta-Nystrom table for y'' = f(y) (abar s x s
+ * row-major): order p when sum_i b_i Phi_i(t) = 1 / gamma(t) for every special Nystrom
+ * tree t with rho(t) <= p, and sum_i bbar_i Phi_i(t) = 1 / ((rho(t) + 1) gamma(t)) for
+ * those with rho(t) <= p - 1 (Hairer, Norsett, Wanner, Solving ODEs I, 2nd ed. 1993,
+ * section II.14; from memory of the book: order 3 reads sum b = 1, sum b c = 1/2,
+ * sum b c^2 = 1/3, sum b abar 1 = 1/6, sum bbar = 1/2, sum bbar c = 1/6). The trees: a
+ * fat root whose branches are meagre leaves (weight c_i) or meagre vertices over a fat
+ * subtree (weight sum_j abar_ij Phi_j). Summed in quad precision like dm_rk_order. */
+void dm_rkn_order(const double *abar, const double *bbar, const double *b, const double *c,
+                  int s, int max_order, double tol, dm_order_report *report);
+/* The number of special Nystrom trees with n vertices (n = 1 .. DM_ORDER_MAX). */
+size_t dm_nystrom_tree_count(int n);
+
 #endif

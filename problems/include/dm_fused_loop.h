@@ -292,7 +292,8 @@ DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
 DM_SILENCE_MAYBE_UNINITIALIZED_END
 }
 
-/* The same for a tableau known at run time: S made a constant by a switch. */
+/* The same for a tableau known at run time: S made a constant by a switch up to 4
+ * stages; longer tables (typed in a suite) loop over their stages. */
 static inline __attribute__((always_inline)) void
 dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double h,
                         const double *y0, double *y1, const int N, dm_gradient_fn gradient,
@@ -302,8 +303,50 @@ dm_rk_explicit_step_any(const dm_instance *inst, const dm_rk_tableau *t, double 
     case 1: dm_rk_explicit_step(inst, t, h, y0, y1, N, 1, gradient, velocity); break;
     case 2: dm_rk_explicit_step(inst, t, h, y0, y1, N, 2, gradient, velocity); break;
     case 3: dm_rk_explicit_step(inst, t, h, y0, y1, N, 3, gradient, velocity); break;
-    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
+    case 4: dm_rk_explicit_step(inst, t, h, y0, y1, N, 4, gradient, velocity); break;
+    default: dm_rk_explicit_step(inst, t, h, y0, y1, N, t->stages, gradient, velocity); break;
     }
+}
+
+/* One explicit Runge-Kutta-Nystrom step for q'' = -M^-1 grad V(q) with grad T(p) = M^-1 p
+ * linear in p (Hairer, Norsett, Wanner, Solving ODEs I, 2nd ed. 1993, section II.14; from
+ * memory of the book): with v0 = grad T(p0),
+ *   Q_i = q0 + c_i h v0 + h^2 sum_j abar_ij g_j,  f_i = -grad V(Q_i),  g_i = grad T(f_i),
+ *   p1 = p0 + h sum_i b_i f_i,  q1 = q0 + h v0 + h^2 sum_i bbar_i g_i
+ * (g_i the acceleration M^-1 f_i). S forces and S + 1 velocities a step. y1 may not be
+ * y0. */
+static inline __attribute__((always_inline)) void
+dm_rkn_step(const dm_instance *inst, const dm_rkn_tableau *t, double h, const double *y0,
+            double *y1, const int N, const int S, dm_gradient_fn gradient,
+            dm_fused_velocity velocity)
+{
+    DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
+    double f[DM_RK_MAX_STAGES][DM_MAX_DOF], g[DM_RK_MAX_STAGES][DM_MAX_DOF];
+    double v0[DM_MAX_DOF], Q[DM_MAX_DOF];
+    const double h2 = h * h;
+    velocity(inst, y0 + N, v0);
+    for (int i = 0; i < S; i++) {
+        for (int c = 0; c < N; c++) {
+            double sum = 0.0;
+            for (int j = 0; j < i; j++)
+                sum += t->abar[i][j] * g[j][c];
+            Q[c] = y0[c] + t->c[i] * h * v0[c] + h2 * sum;
+        }
+        gradient(inst, Q, f[i]);
+        for (int c = 0; c < N; c++)
+            f[i][c] = -f[i][c];
+        velocity(inst, f[i], g[i]);
+    }
+    for (int c = 0; c < N; c++) {
+        double sum_b = 0.0, sum_bbar = 0.0;
+        for (int i = 0; i < S; i++) {
+            sum_b += t->b[i] * f[i][c];
+            sum_bbar += t->bbar[i] * g[i][c];
+        }
+        y1[N + c] = y0[N + c] + h * sum_b;
+        y1[c] = y0[c] + h * v0[c] + h2 * sum_bbar;
+    }
+    DM_SILENCE_MAYBE_UNINITIALIZED_END
 }
 
 /* Updates below this many ulps of |k| count as converged. */
@@ -385,9 +428,9 @@ dm_midpoint_step(const dm_instance *inst, double h, int max_iterations, const do
 static inline __attribute__((always_inline)) int
 dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
                   const dm_rk_tableau *t, dm_fused_rk_cache *cache, dm_fused_run *run,
-                  uint64_t k_end, const int N, const int S, dm_gradient_fn gradient,
-                  dm_fused_velocity velocity, dm_fused_kinetic kinetic,
-                  dm_fused_potential potential)
+                  uint64_t k_end, const int N, const int S, const bool nystrom,
+                  dm_gradient_fn gradient, dm_fused_velocity velocity,
+                  dm_fused_kinetic kinetic, dm_fused_potential potential)
 {
     double y0[2 * DM_MAX_DOF], y1[2 * DM_MAX_DOF], f[2 * DM_MAX_DOF];
     for (int c = 0; c < 2 * N; c++) {
@@ -403,7 +446,7 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
     int event = DM_FUSED_END;
 
     while (k < k_end) {
-        if (t == NULL) {
+        if (t == NULL && !nystrom) {
             int it;
             double update;
             bool ok = dm_midpoint_step(inst, h, max_iterations, y0, y1, f, &slope_valid, N,
@@ -416,6 +459,9 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
                 event = DM_FUSED_FAILED;
                 break;
             }
+        } else if (nystrom) {
+            dm_rkn_step(inst, method->nystrom, h, y0, y1, N, method->nystrom->stages,
+                        gradient, velocity);
         } else if (S > 0) {
             dm_rk_explicit_step(inst, t, h, y0, y1, N, S, gradient, velocity);
         } else {
@@ -440,7 +486,9 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
         cache->slope[c] = f[c];
     }
     cache->slope_valid = slope_valid;
-    cache->evaluations += t == NULL ? evaluations : (k - k_start) * (uint64_t)t->stages;
+    cache->evaluations += nystrom    ? (k - k_start) * (uint64_t)method->nystrom->stages
+                          : t == NULL ? evaluations
+                                      : (k - k_start) * (uint64_t)t->stages;
     cache->max_iterations_in_step = most;
     run->monitor = mon;
     run->k = k;
@@ -451,24 +499,27 @@ dm_fused_rk_steps(const dm_instance *inst, const dm_fused_rk *method,
  * gradient, velocity, kinetic and potential functions, for DOF degrees of freedom: one
  * function per shape (the implicit midpoint rule, RK4, Euler, any other tableau), each
  * compiled on its own so that each gets the registers to itself. */
-#define DM_FUSED_RK_SHAPE(NAME, SHAPE, T, S, DOF)                                          \
+#define DM_FUSED_RK_SHAPE(NAME, SHAPE, T, S, NYSTROM, DOF)                                 \
     static __attribute__((noinline)) int NAME##_##SHAPE(                                   \
         const dm_instance *inst, const dm_fused_rk *method, dm_fused_rk_cache *cache,      \
         dm_fused_run *run, uint64_t k_end)                                                 \
     {                                                                                       \
         return dm_fused_rk_steps(inst, method, (T), cache, run, k_end, (DOF), (S),         \
-                                 gradient, velocity, kinetic, potential);                  \
+                                 (NYSTROM), gradient, velocity, kinetic, potential);       \
     }
 #define DM_FUSED_RK_LOOP(NAME, DOF)                                                        \
     _Static_assert((DOF) >= 1 && (DOF) <= DM_MAX_DOF, "DM_FUSED_RK_LOOP: DOF out of range"); \
-    DM_FUSED_RK_SHAPE(NAME, midpoint, NULL, -1, DOF)                                        \
-    DM_FUSED_RK_SHAPE(NAME, rk4, &dm_rk4_tableau, 4, DOF)                                   \
-    DM_FUSED_RK_SHAPE(NAME, euler, &dm_rk_euler_tableau, 1, DOF)                            \
-    DM_FUSED_RK_SHAPE(NAME, any, method->tableau, -1, DOF)                                  \
+    DM_FUSED_RK_SHAPE(NAME, midpoint, NULL, -1, false, DOF)                                 \
+    DM_FUSED_RK_SHAPE(NAME, rk4, &dm_rk4_tableau, 4, false, DOF)                            \
+    DM_FUSED_RK_SHAPE(NAME, euler, &dm_rk_euler_tableau, 1, false, DOF)                     \
+    DM_FUSED_RK_SHAPE(NAME, any, method->tableau, -1, false, DOF)                           \
+    DM_FUSED_RK_SHAPE(NAME, nystrom, NULL, -1, true, DOF)                                   \
     static int NAME(const dm_instance *inst, const dm_fused_rk *method,                    \
                     dm_fused_rk_cache *cache, dm_fused_run *run, uint64_t k_end)            \
     {                                                                                       \
         const dm_rk_tableau *t = method->tableau;                                           \
+        if (method->nystrom != NULL)                                                        \
+            return NAME##_nystrom(inst, method, cache, run, k_end);                         \
         if (t == NULL)                                                                      \
             return NAME##_midpoint(inst, method, cache, run, k_end);                        \
         if (dm_rk_same_tableau(t, &dm_rk4_tableau))                                         \

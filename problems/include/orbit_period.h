@@ -35,6 +35,13 @@ typedef struct dm_orbit {
 dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, double q0,
                           double reach, const char *what, dm_orbit *orbit, dm_error *err);
 
+/* The time the orbit of `orbit` (found by dm_orbit_period with the same V, m and E)
+ * takes from its lower turning point up to x (common practice: sqrt(m/2) times the
+ * integral of dq / sqrt(E - V) from q- to x, by the same quadrature): 0 at q-, half the
+ * period at q+ and beyond. */
+double dm_orbit_time(dm_potential_fn V, void *data, double m, double E, const dm_orbit *orbit,
+                     double x);
+
 /* The Gauss-Kronrod 7-15 rule on [a, b]: returns the 15-point Kronrod value and writes
  * the 7-point Gauss value (their difference estimates the error). */
 double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,

@@ -151,7 +151,7 @@ typedef int (*dm_fused_loop_fn)(const dm_instance *inst, const dm_fused_table *t
  * rule (integrators/midpoint.c). The step arithmetic is written once, in
  * dm_fused_loop.h (dm_rk_explicit_step, dm_midpoint_step), and the per-step paths of
  * rk.c and midpoint.c call the same functions. */
-#define DM_RK_MAX_STAGES 4
+#define DM_RK_MAX_STAGES 16
 
 /* An explicit Butcher tableau: a strictly lower triangular, b the weights. */
 typedef struct dm_rk_tableau {
@@ -160,8 +160,20 @@ typedef struct dm_rk_tableau {
     double b[DM_RK_MAX_STAGES];
 } dm_rk_tableau;
 
+/* An explicit Runge-Kutta-Nystrom table for q'' = -M^-1 grad V(q), for a kinetic
+ * energy quadratic in p (grad T linear): abar strictly lower triangular, bbar the
+ * position weights, b the momentum weights, c the nodes. */
+typedef struct dm_rkn_tableau {
+    int stages;                 /* 1 .. DM_RK_MAX_STAGES */
+    double abar[DM_RK_MAX_STAGES][DM_RK_MAX_STAGES];
+    double bbar[DM_RK_MAX_STAGES];
+    double b[DM_RK_MAX_STAGES];
+    double c[DM_RK_MAX_STAGES];
+} dm_rkn_tableau;
+
 typedef struct dm_fused_rk {
-    const dm_rk_tableau *tableau;   /* NULL: the implicit midpoint rule */
+    const dm_rk_tableau *tableau;   /* NULL: the implicit midpoint rule (or nystrom) */
+    const dm_rkn_tableau *nystrom;  /* not NULL: this Runge-Kutta-Nystrom table */
     double h;
     int max_iterations;             /* implicit midpoint: the fixed-point iteration cap */
 } dm_fused_rk;
@@ -277,8 +289,9 @@ struct dm_problem {
  * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
  * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
  * fused loop's types change, so an object built against another version is refused. */
-#define DM_PROBLEM_ABI 3u /* 2: DM_MAX_DOF 6 -> 384; 3: data, no_period, needs_data,
-                             relative sections, closest_approach */
+#define DM_PROBLEM_ABI 4u /* 2: DM_MAX_DOF 6 -> 384; 3: DM_RK_MAX_STAGES 4 -> 16 and
+                             Runge-Kutta-Nystrom tables in the fused loop; 4: data,
+                             no_period, needs_data, relative sections, closest_approach */
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 

@@ -1,0 +1,272 @@
+#!/usr/bin/python3
+"""Problems written in the suite as formulas ({potential: FORMULA, ...}), driven through
+the driftmark under test and read back with h5py:
+- `-cos(q)` against the built-in pendulum: the period to 1e-12 (both are computed: the
+  built-in's from K(m), ours by quadrature), and at the same h the same trajectory bit for
+  bit (the same arithmetic: libmatheval's derivative of -cos(q) simplifies to sin(q), and
+  the generated code runs the same fused loop);
+- a quartic against the built-in double well, the Morse formula against the built-in
+  Morse (periods to 1e-12, energy errors to rounding);
+- V = q^4/4 at amplitude A: T = 4 K(1/2) / A (x = A cn(A t | 1/2), common practice),
+  K from mpmath's ellipk;
+- Henon-Heiles (M. Henon, C. Heiles, Astron. J. 69 (1964) 73: V = (x^2 + y^2)/2 + x^2 y -
+  y^3/3) at E ~ 0.08 runs, and its energy error falls at Verlet's order 2 and Yoshida's 4;
+- the evaluator fallback (DRIFTMARK_FORMULA_CC empty, or a compiler that fails) gives one
+  warning line and the compiled results; the cache compiles a sweep once;
+- every refusal: one line FILE:LINE:COLUMN: ..., exit 2, no file written.
+
+usage: check_formula.py PATH/TO/driftmark   (run from the build directory by CTest)
+"""
+import os
+import sys
+import tempfile
+
+import h5py
+import mpmath as mp
+import numpy as np
+
+import checklib
+from checklib import check
+
+EXE = os.path.abspath(sys.argv[1])
+
+
+def run_suite(tmp, name, text, env_extra=None, expect=0):
+    path = os.path.join(tmp, name + ".yaml")
+    with open(path, "w") as f:
+        f.write(f"name: {name}\noutput: {name}.h5\n" + text)
+    env = dict(os.environ, XDG_CACHE_HOME=os.path.join(tmp, "cache"))
+    env.pop("DRIFTMARK_FORMULA_CC", None)
+    env.update(env_extra or {})
+    import subprocess
+    p = subprocess.run([EXE, "run", path, "--force"], capture_output=True, text=True, cwd=tmp,
+                       env=env)
+    check(p.returncode == expect, f"{name}: exit {p.returncode}, expected {expect}: {p.stderr}")
+    return p, os.path.join(tmp, name + ".h5")
+
+
+def runs(h5):
+    f = h5py.File(h5, "r")
+    return f, f["runs"]
+
+
+with tempfile.TemporaryDirectory() as tmp:
+    # ---- the pendulum: period and trajectory ----
+    p, out = run_suite(tmp, "pend", """horizon: {time: 2000}
+buckets: 64
+problems:
+  - {problem: pendulum, amplitude: [0.5, 2.5, 3.1]}
+  - {potential: "-cos(q)", q0: [0.5, 2.5, 3.1], name: swing}
+methods:
+  - {method: verlet, h: 0.05}
+  - {method: rk4, h: 0.1}
+""")
+    f, r = runs(out)
+    for a in ["0.5", "2.5", "3.1"]:
+        for m in ["verlet-h0.05", "rk4-h0.1"]:
+            b, s = r[f"pendulum-amplitude{a}.{m}"], r[f"swing-q0{a}.{m}"]
+            rel = abs(b.attrs["period"] - s.attrs["period"]) / b.attrs["period"]
+            # at 3.1, next to the separatrix, V is nearly flat at the turning points: there
+            # problems/orbit_period.c documents its quadrature to a few 1e-12 only
+            check(rel < (1e-12 if a != "3.1" else 1e-11),
+                  f"pendulum {a}: period relative difference {rel}")
+            if m.startswith("verlet"):
+                print(f"pendulum amplitude {a}: period relative difference {rel:.2g}")
+            for k in ["energy_error", "energy_error_min", "energy_error_max", "crossing_time"]:
+                check(np.array_equal(b[k][()], s[k][()]), f"pendulum {a} {m}: {k} not bit for bit")
+            check(s.attrs["formula_code"] == "compiled", "the formula was compiled")
+    check(p.stderr.count("compiled in") == 1, f"one compile for the sweep: {p.stderr}")
+    f.close()
+
+    # ---- the double well and Morse against the built-ins ----
+    p, out = run_suite(tmp, "wells", """horizon: {periods: 200}
+buckets: 64
+problems:
+  - {problem: double_well, energy: [-0.1, 0.3]}
+  - {potential: "-a*q^2/2 + b*q^4/4", a: 1, b: 1, q0: 1, energy: [-0.1, 0.3], name: well}
+  - {problem: morse, energy: 0.5, D: 2, alpha: 1.5}
+  - {potential: "D*(1 - exp(-alpha*(q - xe)))^2", D: 2, alpha: 1.5, xe: 0, energy: 0.5,
+     q0: 0.2, side: left, name: bond}
+methods:
+  - {method: verlet, h: 0.02}
+""")
+    f, r = runs(out)
+    pairs = [("double_well-energy-0.1", "well-a1-b1-q01-energy-0.1"),
+             ("double_well-energy0.3", "well-a1-b1-q01-energy0.3"),
+             ("morse-D2-alpha1.5-energy0.5", "bond-D2-alpha1.5-xe0-q00.2-energy0.5")]
+    for built, ours in pairs:
+        b, s = r[built + ".verlet-h0.02"], r[ours + ".verlet-h0.02"]
+        rel = abs(b.attrs["period"] - s.attrs["period"]) / b.attrs["period"]
+        check(rel < 1e-12, f"{ours}: period relative difference {rel}")
+        eb, es = b["energy_error_max"][()], s["energy_error_max"][()]
+        dif = np.max(np.abs(eb - es)) / np.max(np.abs(eb))
+        print(f"{ours}: period {rel:.2g}, max dE relative difference {dif:.2g}")
+        # the starts differ by an ulp (a closed form against a bisection to the last bit)
+        # and V is rounded otherwise: the trajectories part by rounding, which grows
+        check(dif < 1e-5, f"{ours}: energy error differs from the built-in's by {dif}")
+    f.close()
+
+    # ---- the pure quartic: T = 4 K(1/2) / A (common practice; mpmath ellipk) ----
+    p, out = run_suite(tmp, "quartic", """horizon: {periods: 10}
+buckets: 16
+problems:
+  - {potential: "q^4/4", q0: [0.3, 1, 7.5]}
+methods:
+  - {method: verlet, steps_per_period: 256}
+""")
+    f, r = runs(out)
+    mp.mp.dps = 30
+    for A in ["0.3", "1", "7.5"]:
+        T = 4 * mp.ellipk(mp.mpf(1) / 2) / mp.mpf(A)
+        got = r[f"formula-q0{A}.verlet-n256"].attrs["period"]
+        rel = abs(mp.mpf(got) - T) / T
+        print(f"quartic A = {A}: period {got!r}, mpmath {mp.nstr(T, 17)}: {mp.nstr(rel, 3)}")
+        check(rel < 1e-12, f"quartic A = {A}: period relative error {rel}")
+    f.close()
+
+    # ---- Henon-Heiles: two coordinates, energy error at the method's order ----
+    p, out = run_suite(tmp, "hh", """horizon: {time: 200}
+buckets: 64
+problems:
+  - potential: "(x^2 + y^2)/2 + x^2*y - y^3/3"
+    coordinates: [x, y]
+    q0: [0, 0.1]
+    p0: [0.39, 0]
+    period: 6.283185307179586
+    name: galaxy
+methods:
+  - {method: verlet, h: [0.04, 0.02, 0.01]}
+  - {method: yoshida4, h: [0.08, 0.04, 0.02]}
+""")
+    f = h5py.File(out, "r")
+    orders = {name: f["sweeps"][name].attrs["energy_order"] for name in f["sweeps"]}
+    print("Henon-Heiles energy orders:", orders)
+    check(abs(orders["galaxy.verlet"] - 2) < 0.15, f"Henon-Heiles verlet order {orders}")
+    check(abs(orders["galaxy.yoshida4"] - 4) < 0.3, f"Henon-Heiles yoshida4 order {orders}")
+    f.close()
+
+    # ---- 64 coordinates: a chain of unit masses and springs, fixed at both ends, started
+    # in its lowest normal mode (q_j = 0, p_j = sin(j pi / 65)): the mode's period
+    # T = 2 pi / w, w = 2 sin(pi / 130) (common practice), and Verlet's numerical
+    # frequency on a linear system, w~ = (2 / h) arcsin(w h / 2) (Hairer, Lubich, Wanner,
+    # Geometric Numerical Integration, 2006, ch. I, from memory), so its measured period
+    # error is w / w~ - 1 ----
+    N = 64
+    coords = [f"x{j}" for j in range(1, N + 1)]
+    terms = [f"{coords[0]}^2/2"] + [f"({coords[j]} - {coords[j - 1]})^2/2" for j in range(1, N)]
+    terms.append(f"{coords[-1]}^2/2")
+    w = 2 * np.sin(np.pi / (2 * (N + 1)))
+    h = 0.05
+    p0 = [np.sin(j * np.pi / (N + 1)) for j in range(1, N + 1)]
+    p, out = run_suite(tmp, "chain", f"""horizon: {{periods: 20}}
+buckets: 16
+problems:
+  - potential: "{' + '.join(terms)}"
+    coordinates: [{', '.join(coords)}]
+    q0: [{', '.join(['0'] * N)}]
+    p0: [{', '.join(repr(x) for x in p0)}]
+    period: {2 * np.pi / w!r}
+    name: chain
+methods:
+  - {{method: verlet, h: {h}}}
+""")
+    with h5py.File(out) as f:
+        g = f["runs"]["chain.verlet-h0.05"]
+        expected = w / ((2 / h) * np.arcsin(w * h / 2)) - 1
+        got = g.attrs["period_rel_error"]
+        print(f"chain of {N}: period error {got:.6g}, Verlet's on the mode {expected:.6g}; "
+              f"max |dE| {g.attrs['max_energy_error']:.3g}")
+        check(abs(got - expected) < 1e-3 * abs(expected), f"chain period error {got} against {expected}")
+        check(g.attrs["formula_code"] == "compiled", "chain compiled")
+
+    # ---- a kinetic formula: T = p^2/2 with V = q^2/2 is the harmonic oscillator, started
+    # on its section (q = 0 going up) so the crossings come at multiples of its period 2 pi:
+    # Verlet's period error is w / w~ - 1 as above (w = 1) ----
+    p, out = run_suite(tmp, "spring", """horizon: {periods: 50}
+buckets: 16
+problems:
+  - {potential: "q^2/2", kinetic: "p^2/2", q0: 0, p0: 1, period: 6.283185307179586,
+     name: spring}
+methods:
+  - {method: verlet, h: 0.05}
+""")
+    with h5py.File(out) as f:
+        g = f["runs"]["spring-q00-p01.verlet-h0.05"]
+        expected = 1 / ((2 / 0.05) * np.arcsin(0.05 / 2)) - 1
+        got = g.attrs["period_rel_error"]
+        print(f"kinetic formula: period error {got:.6g}, Verlet's {expected:.6g}")
+        check(abs(got - expected) < 1e-3 * abs(expected), f"spring period error {got} against {expected}")
+        check(g.attrs["formula_kinetic"] == "p^2/2", "formula_kinetic recorded")
+
+    # ---- the evaluator: forced (no compiler) and after a failed compile ----
+    pend = """horizon: {time: 300}
+buckets: 32
+problems:
+  - {potential: "-g*cos(q) + c*q^4", g: 1.5, c: 0.01, q0: 2.5, p0: 0.1, name: lamp}
+methods:
+  - {method: yoshida4, h: 0.05}
+"""
+    p, compiled = run_suite(tmp, "lamp", pend)
+    p1, evaluated = run_suite(tmp, "lamp-ev", pend, {"DRIFTMARK_FORMULA_CC": ""})
+    lines = [l for l in p1.stderr.splitlines() if "warning" in l]
+    check(len(lines) == 1 and "evaluated by libmatheval" in lines[0], f"one warning: {p1.stderr}")
+    p2, failed = run_suite(tmp, "lamp-fail", pend, {"DRIFTMARK_FORMULA_CC": "/bin/false"})
+    check("failed on the generated C" in p2.stderr, f"compile failure named: {p2.stderr}")
+    with h5py.File(compiled) as a, h5py.File(evaluated) as b, h5py.File(failed) as c:
+        x, y, z = (g["runs"]["lamp-g1.5-c0.01-q02.5-p00.1.yoshida4-h0.05"] for g in (a, b, c))
+        check(x.attrs["formula_code"] == "compiled" and y.attrs["formula_code"] == "evaluated"
+              and z.attrs["formula_code"] == "evaluated", "formula_code")
+        for k in ["energy_error", "energy_error_max", "crossing_time"]:
+            d = np.max(np.abs(x[k][()] - y[k][()]))
+            check(np.array_equal(x[k][()], y[k][()]) or d < 1e-13,
+                  f"evaluated {k} differs from compiled by {d}")
+            check(np.array_equal(y[k][()], z[k][()]), f"fallbacks differ in {k}")
+    p3, _ = run_suite(tmp, "lamp", pend)
+    check("from the cache" in p3.stderr, f"second run takes the cached object: {p3.stderr}")
+
+    # ---- refusals: one line naming the place, exit 2, nothing written ----
+    bad = [
+        ('{potential: "-cos(q)", energy: 1}', "separatrix"),
+        ('{potential: "-cos(q)", energy: 0.9999999999999999}', "separatrix"),
+        ('{potential: "-q^2", q0: 1}', "unbounded"),
+        ('{potential: "q^2 + log(q)", q0: -1}', "not finite"),
+        ('{potential: "q^2 + * 3"}', "column 7 of the formula: the formula does not parse"),
+        ('{potential: "q^2 + (q"}', "column 7 of the formula: '(' is never closed"),
+        ('{potential: "k*q^2"}', "column 1 of the formula: unknown name 'k'"),
+        ('{potential: "pow(q)"}', "unknown function 'pow'"),
+        ('{potential: "atan2(q, 2)"}', "column 8 of the formula: unexpected character ','"),
+        ('{potential: "q^2", k: 1}', "parameter 'k' appears in no formula"),
+        ('{potential: "q^2", kinetic: "sqrt(1 + p^2)"}', "a period is needed"),
+        ('{potential: "q^2", coordinates: [x]}', "unknown name 'q'"),
+        ('{potential: "q^2.1234567"}', "exponent"),
+        ('{potential: "q^2", q0: 1, section: {level: 5}}', "not crossed"),
+        ('{potential: "q^2", section: {level: 0, direction: down}}', "only up"),
+        ('{potential: "q^2", problem: pendulum}', "give one of"),
+        ('{potential: "q^2", kinetic: "p^2/2", masses: 2, period: 1}', "either masses or a kinetic"),
+        ('{potential: "q^2", momenta: [p]}', "momenta name the variables of a kinetic"),
+        ('{potential: "q^2", side: left}', "side goes with energy"),
+        ('{potential: "q^2", energy: 1, side: up}', "expected left or right"),
+        ('{potential: "q^2", energy: 1, p0: 1}', "either p0 or energy"),
+        ('{potential: "x^2 + y^2", coordinates: [x, y], q0: [1], period: 1}', "lists 1 numbers"),
+        ('{potential: "sin^2", coordinates: [sin]}', "coordinate name 'sin' is taken"),
+        ('{potential: "x^2", coordinates: [x, x], period: 1}', "given twice"),
+        ('{potential: "x^2 + y^2", coordinates: [x, y]}', "a period is needed"),
+        ('{potential: "q^2", period: 3}', "period is computed"),
+        ('{potential: "q^2", masses: -1}', "not a positive number"),
+        ('{potential: "q^2", name: "a/b"}', "name 'a/b'"),
+        ('{potential: "q^2", section: {coordinate: y, level: 0}}', "not a coordinate"),
+    ]
+    for i, (entry, words) in enumerate(bad):
+        name = f"bad{i}"
+        p, out = run_suite(tmp, name, f"horizon: {{periods: 10}}\nproblems:\n  - {entry}\n"
+                           "methods:\n  - {method: verlet, h: 0.01}\n", expect=2)
+        err = p.stderr.strip().splitlines()
+        line = err[-1] if err else ""
+        check(len([l for l in err if "warning" not in l and "compiled" not in l]) == 1,
+              f"{entry}: one line: {p.stderr}")
+        check(f" {tmp}/{name}.yaml:5:" in line, f"{entry}: located: {line}")
+        check(words in line, f"{entry}: says '{words}': {line}")
+        check(not os.path.exists(out), f"{entry}: nothing written")
+        print("refused:", line.split(": ", 1)[1] if ": " in line else line)
+
+checklib.finish("check_formula")
