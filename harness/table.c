@@ -243,10 +243,15 @@ static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
         cell_number(phase, sizeof phase, s->phase_order, "%.3f");
         fprintf(out, "%-56s %12s %6" PRIu64 " %12s %6" PRIu64 "\n", name, energy,
                 s->n_points_energy, phase, s->n_points_phase);
-        /* the runs a fit left out, and why */
+        /* the runs a fit left out, and why; a figure none of the sweep's runs has (the
+         * phase of a problem without a period) is not a reason to list them */
+        bool phase_nowhere = true;
+        for (size_t i = 0; i < s->n_runs; i++)
+            phase_nowhere = phase_nowhere && strcmp(s->runs[i].phase_fit, "no_value") == 0;
         for (size_t i = 0; i < s->n_runs; i++) {
             const dm_sweep_run_use *u = &s->runs[i];
-            bool used = strcmp(u->energy_fit, "used") == 0 && strcmp(u->phase_fit, "used") == 0;
+            bool used = strcmp(u->energy_fit, "used") == 0 &&
+                        (strcmp(u->phase_fit, "used") == 0 || phase_nowhere);
             if (used || u->energy_fit[0] == '\0' || strcmp(u->energy_fit, "not_run") == 0)
                 continue;
             char id[4 * DM_RUN_ID_MAX], e[4 * DM_FIT_USE_NAME_MAX], p[4 * DM_FIT_USE_NAME_MAX];
