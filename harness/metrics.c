@@ -285,6 +285,10 @@ dm_status dm_sweep_summary_fill(dm_sweep_summary *s, const dm_suite *suite,
     s->phase_order = fit ? fit->phase_order : NAN;
     s->n_points_energy = fit ? fit->n_energy_points : 0;
     s->n_points_phase = fit ? fit->n_phase_points : 0;
+    s->energy_local_min = fit ? fit->energy_local_min : NAN;
+    s->energy_local_max = fit ? fit->energy_local_max : NAN;
+    s->phase_local_min = fit ? fit->phase_local_min : NAN;
+    s->phase_local_max = fit ? fit->phase_local_max : NAN;
     s->runs = calloc(sweep->n_runs ? sweep->n_runs : 1, sizeof *s->runs);
     if (s->runs == NULL)
         return dm_error_set(err, DM_ENOMEM, "%s: out of memory for its table", sweep->name);
@@ -355,10 +359,29 @@ static int by_x(const void *a, const void *b)
     return (p->slot > q->slot) - (p->slot < q->slot);
 }
 
+/* The running range of the slopes between neighbouring points of one fit. */
+typedef struct local_orders {
+    double x, y;          /* the last point (log x, log y); x NaN before the first */
+    double min, max;
+} local_orders;
+
+static void local_orders_add(local_orders *l, double log_x, double log_y)
+{
+    if (!isnan(l->x) && log_x != l->x) {
+        double slope = (log_y - l->y) / (log_x - l->x);
+        l->min = isnan(l->min) || slope < l->min ? slope : l->min;
+        l->max = isnan(l->max) || slope > l->max ? slope : l->max;
+    }
+    l->x = log_x;
+    l->y = log_y;
+}
+
 dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_sweep_fit *fit,
                         dm_error *err)
 {
-    *fit = (dm_sweep_fit){ .energy_order = NAN, .phase_order = NAN, .n_runs = n };
+    *fit = (dm_sweep_fit){ .energy_order = NAN, .phase_order = NAN, .n_runs = n,
+                           .energy_local_min = NAN, .energy_local_max = NAN,
+                           .phase_local_min = NAN, .phase_local_max = NAN };
     fit->energy_use = calloc(n ? n : 1, sizeof *fit->energy_use);
     fit->phase_use = calloc(n ? n : 1, sizeof *fit->phase_use);
     fit_point *pts = calloc(n ? n : 1, sizeof *pts);
@@ -408,14 +431,25 @@ dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_s
         if (isnan(sign))
             fit->phase_use[i] = DM_FIT_SIGN_CHANGE;
     }
+    local_orders le = { NAN, NAN, NAN, NAN }, lp = { NAN, NAN, NAN, NAN };
     for (size_t k = 0; k < n; k++) {
         size_t i = pts[k].slot;
-        if (fit->energy_use[i] == DM_FIT_USED)
-            dm_line_fit_add(&fit->energy_line, log(pts[k].x), log(in[i].max_energy_error));
-        if (fit->phase_use[i] == DM_FIT_USED)
-            dm_line_fit_add(&fit->phase_line, log(pts[k].x),
-                            log(fabs(in[i].phase_error_per_period)));
+        double lx = log(pts[k].x);
+        if (fit->energy_use[i] == DM_FIT_USED) {
+            double ly = log(in[i].max_energy_error);
+            dm_line_fit_add(&fit->energy_line, lx, ly);
+            local_orders_add(&le, lx, ly);
+        }
+        if (fit->phase_use[i] == DM_FIT_USED) {
+            double ly = log(fabs(in[i].phase_error_per_period));
+            dm_line_fit_add(&fit->phase_line, lx, ly);
+            local_orders_add(&lp, lx, ly);
+        }
     }
+    fit->energy_local_min = le.min;
+    fit->energy_local_max = le.max;
+    fit->phase_local_min = lp.min;
+    fit->phase_local_max = lp.max;
     fit->energy_order = dm_line_fit_slope(&fit->energy_line);
     fit->phase_order = dm_line_fit_slope(&fit->phase_line);
     fit->n_energy_points = (size_t)fit->energy_line.n;

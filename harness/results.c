@@ -576,6 +576,10 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         rc |= attr_double(g, "phase_order", sum.phase_order);
         rc |= attr_u64(g, "n_points_energy", sum.n_points_energy);
         rc |= attr_u64(g, "n_points_phase", sum.n_points_phase);
+        rc |= attr_double(g, "energy_order_local_min", sum.energy_local_min);
+        rc |= attr_double(g, "energy_order_local_max", sum.energy_local_max);
+        rc |= attr_double(g, "phase_order_local_min", sum.phase_local_min);
+        rc |= attr_double(g, "phase_order_local_max", sum.phase_local_max);
         rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
         rc |= dataset_strings(g, "run_id", ids, n);
         rc |= dataset_double(g, sw->step_setting == DM_SET_BY_RTOL ? "rtol" : "h", h, n);
@@ -1520,6 +1524,16 @@ static const char *read_sweep(hid_t g, dm_sweep_summary *s)
         return "its n_points_energy attribute is not one whole number";
     if (read_u64_attr(g, "n_points_phase", &s->n_points_phase) != 0)
         return "its n_points_phase attribute is not one whole number";
+    /* the local orders: absent (NaN) in files written before they were kept */
+    static const char *const local[4] = { "energy_order_local_min", "energy_order_local_max",
+                                          "phase_order_local_min", "phase_order_local_max" };
+    double *local_at[4] = { &s->energy_local_min, &s->energy_local_max, &s->phase_local_min,
+                            &s->phase_local_max };
+    for (int k = 0; k < 4; k++) {
+        *local_at[k] = NAN;
+        if (H5Aexists(g, local[k]) > 0 && read_double_attr(g, local[k], local_at[k]) != 0)
+            return "a local order attribute is not one number";
+    }
     if (read_u64_attr(g, "n_runs", &n_runs) != 0 || n_runs > DM_SUITE_MAX_RUNS)
         return "its n_runs attribute is not one whole number of at most the runs a suite has";
     if (s->n_points_energy > n_runs || s->n_points_phase > n_runs)

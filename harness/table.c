@@ -231,18 +231,37 @@ void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_fo
 
 /* ---- the sweep table ---- */
 
+/* The orders between neighbouring points differ by more than this: the sweep's points
+ * are not all in one regime (our threshold; results/README.md, sweeps). */
+#define LOCAL_ORDER_SPREAD 0.25
+
+/* "1.33-1.99" (and a * when they differ by more than LOCAL_ORDER_SPREAD), "-" without. */
+static bool cell_local(char *buf, size_t size, double lo, double hi)
+{
+    if (isnan(lo) || isnan(hi)) {
+        snprintf(buf, size, "-");
+        return false;
+    }
+    bool spread = hi - lo > LOCAL_ORDER_SPREAD;
+    snprintf(buf, size, "%.2f..%.2f%s", lo, hi, spread ? "*" : "");
+    return spread;
+}
+
 static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 {
-    fprintf(out, "%-56s %12s %6s %12s %6s\n", "sweep", "energy order", "points", "phase order",
-            "points");
+    fprintf(out, "%-56s %12s %6s %12s %6s %12s %12s\n", "sweep", "energy order", "points",
+            "phase order", "points", "energy local", "phase local");
+    bool any_spread = false;
     for (size_t w = 0; w < n; w++) {
         const dm_sweep_summary *s = &sweeps[w];
-        char name[4 * DM_RUN_ID_MAX], energy[32], phase[32];
+        char name[4 * DM_RUN_ID_MAX], energy[32], phase[32], el[40], pl[40];
         dm_escape_controls(s->name, name, sizeof name);
         cell_number(energy, sizeof energy, s->energy_order, "%.3f");
         cell_number(phase, sizeof phase, s->phase_order, "%.3f");
-        fprintf(out, "%-56s %12s %6" PRIu64 " %12s %6" PRIu64 "\n", name, energy,
-                s->n_points_energy, phase, s->n_points_phase);
+        any_spread |= cell_local(el, sizeof el, s->energy_local_min, s->energy_local_max);
+        any_spread |= cell_local(pl, sizeof pl, s->phase_local_min, s->phase_local_max);
+        fprintf(out, "%-56s %12s %6" PRIu64 " %12s %6" PRIu64 " %12s %12s\n", name, energy,
+                s->n_points_energy, phase, s->n_points_phase, el, pl);
         /* the runs a fit left out, and why; a figure none of the sweep's runs has (the
          * phase of a problem without a period) is not a reason to list them */
         bool phase_nowhere = true;
@@ -261,6 +280,11 @@ static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
             fprintf(out, "  left out: %s: energy %s, phase %s\n", id, e, p);
         }
     }
+    if (any_spread)
+        fprintf(out, "  local: the smallest and largest order between neighbouring steps; *: "
+                     "they differ by more than %.2f,\n  so not every point is in the regime "
+                     "where the error goes as h^p: the fitted order mixes regimes (add finer "
+                     "steps)\n", LOCAL_ORDER_SPREAD);
 }
 
 /* One row per written run of each sweep (a sweep with none: one row, its run fields
@@ -268,7 +292,8 @@ static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 {
     fputs("sweep,energy_order,n_points_energy,phase_order,n_points_phase,run_id,energy_fit,"
-          "phase_fit\n", out);
+          "phase_fit,energy_order_local_min,energy_order_local_max,phase_order_local_min,"
+          "phase_order_local_max\n", out);
     for (size_t w = 0; w < n; w++) {
         const dm_sweep_summary *s = &sweeps[w];
         for (size_t i = 0; i < (s->n_runs ? s->n_runs : 1); i++) {
@@ -287,6 +312,12 @@ static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
             } else {
                 fputs(",,", out);
             }
+            const double local[4] = { s->energy_local_min, s->energy_local_max,
+                                      s->phase_local_min, s->phase_local_max };
+            for (int k = 0; k < 4; k++) {
+                fputc(',', out);
+                csv_number(out, local[k]);
+            }
             fputc('\n', out);
         }
     }
@@ -303,7 +334,16 @@ static void sweep_json(FILE *out, const dm_sweep_summary *sweeps, size_t n)
         dm_json_number(out, s->energy_order, "%.17g");
         fprintf(out, ", \"n_points_energy\": %" PRIu64 ", \"phase_order\": ", s->n_points_energy);
         dm_json_number(out, s->phase_order, "%.17g");
-        fprintf(out, ", \"n_points_phase\": %" PRIu64 ", \"runs\": [", s->n_points_phase);
+        fprintf(out, ", \"n_points_phase\": %" PRIu64, s->n_points_phase);
+        const char *const local_names[4] = { "energy_order_local_min", "energy_order_local_max",
+                                             "phase_order_local_min", "phase_order_local_max" };
+        const double local[4] = { s->energy_local_min, s->energy_local_max, s->phase_local_min,
+                                  s->phase_local_max };
+        for (int k = 0; k < 4; k++) {
+            fprintf(out, ", \"%s\": ", local_names[k]);
+            dm_json_number(out, local[k], "%.17g");
+        }
+        fputs(", \"runs\": [", out);
         for (size_t i = 0; i < s->n_runs; i++) {
             fputs(i ? ", {\"run_id\": " : "{\"run_id\": ", out);
             dm_json_string(out, s->runs[i].run_id);

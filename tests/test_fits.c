@@ -399,6 +399,56 @@ static void fit_codes_sign_change_floor_and_counts(void **state)
 
 /* 300 values in one sweep: every one enters the fit (no cap). The suite reader allows
  * at most 100 values per range, so the sweep is made by hand. */
+/* The orders between neighbouring points, on errors whose law is known: a pure power
+ * gives its exponent at every pair; a law with a second term that matters at the coarse
+ * steps, e = (2.5 h^2 - 0.28 h^4) 1e-6 (close to what Verlet shows on a made-up
+ * three-planet system at h = 2, 1, 0.5), gives log2(e(2h) / e(h)) pair by pair, the
+ * numbers worked out by hand below; and both are the same with h in other units (h
+ * times 1/365.25: the same points, their errors unchanged). */
+static void local_orders_of(const double *h, const double *e, size_t n, double scale,
+                            dm_sweep_fit *fit)
+{
+    dm_fit_input in[8];
+    for (size_t i = 0; i < n; i++)
+        in[i] = (dm_fit_input){ .x = h[i] * scale, .status = DM_RUN_OK, .steps = 1000,
+                                .max_energy_error = e[i], .phase_error_per_period = e[i] };
+    dm_error err = { 0 };
+    assert_int_equal(dm_fit_points("local", in, n, fit, &err), DM_OK);
+}
+
+static void local_orders_show_a_pre_asymptotic_sweep(void **state)
+{
+    (void)state;
+    const double h[4] = { 2.0, 1.0, 0.5, 0.25 };
+    double pure[4], mixed[4];
+    for (int i = 0; i < 4; i++) {
+        pure[i] = 3e-6 * h[i] * h[i];
+        mixed[i] = (2.5 * h[i] * h[i] - 0.28 * pow(h[i], 4)) * 1e-6;
+    }
+    for (int u = 0; u < 2; u++) {
+        double scale = u == 0 ? 1.0 : 1.0 / 365.25;
+        dm_sweep_fit fit;
+        local_orders_of(h, pure, 4, scale, &fit);
+        assert_close(fit.energy_local_min, 2.0, 1e-12);
+        assert_close(fit.energy_local_max, 2.0, 1e-12);
+        assert_close(fit.phase_local_max, 2.0, 1e-12);
+        dm_sweep_fit_free(&fit);
+        local_orders_of(h, mixed, 4, scale, &fit);
+        /* e(2) = 5.52, e(1) = 2.22, e(0.5) = 0.6075, e(0.25) = 0.15515625 (times 1e-6):
+         * log2(5.52 / 2.22) = 1.3141, log2(2.22 / 0.6075) = 1.8697,
+         * log2(0.6075 / 0.15515625) = 1.9692 */
+        assert_close(fit.energy_local_min, log2(5.52 / 2.22), 1e-9);
+        assert_close(fit.energy_local_max, log2(0.6075 / 0.15515625), 1e-9);
+        assert_true(fit.energy_local_min < 1.32 && fit.energy_local_max > 1.96);
+        dm_sweep_fit_free(&fit);
+    }
+    /* one point: no neighbour, no local order */
+    dm_sweep_fit fit;
+    local_orders_of(h, pure, 1, 1.0, &fit);
+    assert_true(isnan(fit.energy_local_min) && isnan(fit.energy_local_max));
+    dm_sweep_fit_free(&fit);
+}
+
 static void a_300_point_sweep_uses_every_point(void **state)
 {
     (void)state;
@@ -446,6 +496,7 @@ int main(void)
         cmocka_unit_test(saturated_runs_leave_the_energy_fit),
         cmocka_unit_test(fit_codes_sign_change_floor_and_counts),
         cmocka_unit_test(a_300_point_sweep_uses_every_point),
+        cmocka_unit_test(local_orders_show_a_pre_asymptotic_sweep),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -308,6 +308,10 @@ typedef struct dm_sweep_fit {
     size_t n_phase_points;           /* runs in the phase fit */
     dm_line_fit energy_line;         /* the fits themselves: log max |dE| and ... */
     dm_line_fit phase_line;          /* ... log |phase error per period| against log x */
+    /* the smallest and largest order between neighbouring points of each fit (NaN
+     * with fewer than 2 points): far apart, the points are not all in the regime
+     * where the error goes as x^p, and the fitted slope mixes regimes */
+    double energy_local_min, energy_local_max, phase_local_min, phase_local_max;
     size_t n_runs;                   /* the sweep's runs; the arrays below have this length */
     unsigned char *energy_use;       /* dm_fit_use of each run, in sweep order (owned) */
     unsigned char *phase_use;
@@ -354,6 +358,8 @@ typedef struct dm_sweep_summary {
     char name[DM_RUN_ID_MAX];
     double energy_order, phase_order;
     uint64_t n_points_energy, n_points_phase;
+    double energy_local_min, energy_local_max;  /* as in dm_sweep_fit (NaN in files */
+    double phase_local_min, phase_local_max;    /* written before they were kept) */
     size_t n_runs;
     dm_sweep_run_use *runs;          /* owned; the runs that started, in sweep order */
 } dm_sweep_summary;
