@@ -43,9 +43,15 @@ def text(v):
     return v.decode() if isinstance(v, bytes) else str(v)
 
 
-def variant_of(group):
-    """The problem variant of a run, from its attributes (run ids cannot be split on
-    '.', since their numbers have decimal points): problem-<param><value>..."""
+def variant_of(group, run_id):
+    """The problem variant of a run: its id up to ".<method id>" (ids cannot be split on
+    any '.', since their numbers have decimal points). The id, not the parameters, tells
+    apart variants the parameters do not (two N-body systems of one G: their ids carry
+    the bodies' hash); from the parameters only when the id does not hold the method."""
+    method = text(group.attrs["method"]) if "method" in group.attrs else ""
+    cut = run_id.rfind("." + method) if method else -1
+    if cut > 0:
+        return run_id[:cut]
     given = [x for x in text(group.attrs["given_parameters"]).split(",") if x]
     parts = [text(group.attrs["problem"])]
     parts += [f"{name}{float(group.attrs['param_' + name]):g}" for name in given]
@@ -107,7 +113,7 @@ def load(path):
             g = f["runs"][rid]
             runs.append({
                 "id": rid,
-                "variant": variant_of(g),
+                "variant": variant_of(g, rid),
                 "method": text(row["method"]),
                 "status": text(row["status"]),
                 "force_evals": float(row["force_evals"]),

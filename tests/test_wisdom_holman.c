@@ -210,7 +210,8 @@ static void two_bodies_are_integrated_exactly(void **state)
 /* The outer solar system at a 10-day step over 10^5 days: the energy error of
  * Wisdom-Holman is at least 100 times below Stormer-Verlet's (a fact of the trade: its
  * error carries the planets' mass ratio, about 10^-3), second order as the step halves,
- * and momentum and angular momentum are kept to rounding. */
+ * and momentum and angular momentum are kept to rounding; Jupiter's measured period is
+ * within 1 % of its sidereal period, 4332.6 days (a fact of the trade, from memory). */
 static void wisdom_holman_beats_verlet_on_the_outer_solar_system(void **state)
 {
     (void)state;
