@@ -236,14 +236,15 @@ static dm_status setup(dm_instance *inst, dm_error *err)
                             fabs(V0));
     inst->energy = inst->problem->kinetic(inst, inst->p0) + V0;
     inst->regime = 0;
-    if (F->period_given > 0.0) {
-        /* no period known to us: the user's, the section through the start */
-        inst->period = F->period_given;
+    if (F->period_given > 0.0 || inst->problem->no_period) {
+        /* no period known to us: the user's, or none (no_period: the runner measures the
+         * time between crossings); the section through the start */
+        inst->period = F->period_given > 0.0 ? F->period_given : NAN;
         int c = F->section_given ? F->section_coordinate : 0;
         inst->section = (dm_section){ .coord = c,
                                       .level = F->section_given ? F->section_level
                                                                 : inst->q0[c] };
-        inst->first_crossing = F->period_given;
+        inst->first_crossing = inst->period;
         return DM_OK;
     }
     dm_orbit orbit;
@@ -305,10 +306,6 @@ static dm_status check_spec(const dm_formula_spec *s, dm_error *err)
     if (computed && s->period > 0.0)
         return dm_error_set(err, DM_EINPUT, "period is computed for one coordinate with "
                             "masses (expected no period key)");
-    if (!computed && !(s->period > 0.0))
-        return dm_error_set(err, DM_EINPUT, "a period is needed with %s (expected period: T, "
-                            "the orbit's period or a time scale of your choice)",
-                            s->dof > 1 ? "more than one coordinate" : "a kinetic formula");
     if (s->energy_start && !computed)
         return dm_error_set(err, DM_EINPUT, "a start from an energy needs one coordinate and "
                             "masses (expected q0 and p0)");
@@ -458,6 +455,9 @@ static void fill_table(formula_problem *F, const dm_formula_spec *s)
     t->n_regimes = 1;
     t->regimes[0] = (dm_regime){ "orbit", "the orbit started (one regime: no separatrix is "
                                           "known to driftmark)" };
+    /* Beyond one coordinate with masses no period is computed: the user's, or none
+     * (horizon in time, step h, no phase figures: as for N-body) */
+    t->no_period = !(s->dof == 1 && s->kinetic == NULL) && !(s->period > 0.0);
     t->setup = setup;
     t->potential = ev_potential;
     t->force = ev_force;

@@ -132,7 +132,6 @@ problems:
     coordinates: [x, y]
     q0: [0, 0.1]
     p0: [0.39, 0]
-    period: 6.283185307179586
     name: galaxy
 methods:
   - {method: verlet, h: [0.04, 0.02, 0.01]}
@@ -143,7 +142,25 @@ methods:
     print("Henon-Heiles energy orders:", orders)
     check(abs(orders["galaxy.verlet"] - 2) < 0.15, f"Henon-Heiles verlet order {orders}")
     check(abs(orders["galaxy.yoshida4"] - 4) < 0.3, f"Henon-Heiles yoshida4 order {orders}")
+    # two coordinates and no period given: no period is made up, so no phase figure
+    # either; the time between the section's crossings is measured instead
+    for rid, g in f["runs"].items():
+        check(np.isnan(g.attrs["period"]) and np.isnan(g.attrs["phase_error_per_period"]),
+              f"{rid}: no period, no phase: {g.attrs['period']} {g.attrs['phase_error_per_period']}")
+        check(np.isfinite(g.attrs["period_measured"]) and g.attrs["period_measured"] > 0,
+              f"{rid}: the crossings' period measured: {g.attrs['period_measured']}")
     f.close()
+    # ... so a horizon in periods is refused, in one line at the horizon
+    p, out = run_suite(tmp, "hh-periods", """horizon: {periods: 10}
+problems:
+  - {potential: "x^2 + y^2", coordinates: [x, y], q0: [1, 0]}
+methods:
+  - {method: verlet, h: 0.01}
+""", expect=2)
+    err = [l for l in p.stderr.strip().splitlines() if "compiled" not in l]
+    check(len(err) == 1 and f"{tmp}/hh-periods.yaml:3:" in err[0]
+          and "no closed-form period" in err[0] and not os.path.exists(out),
+          f"horizon in periods without a period: {p.stderr}")
 
     # ---- 64 coordinates: a chain of unit masses and springs, fixed at both ends, started
     # in its lowest normal mode (q_j = 0, p_j = sin(j pi / 65)): the mode's period
@@ -236,7 +253,6 @@ methods:
         ('{potential: "pow(q)"}', "unknown function 'pow'"),
         ('{potential: "atan2(q, 2)"}', "column 8 of the formula: unexpected character ','"),
         ('{potential: "q^2", k: 1}', "parameter 'k' appears in no formula"),
-        ('{potential: "q^2", kinetic: "sqrt(1 + p^2)"}', "a period is needed"),
         ('{potential: "q^2", coordinates: [x]}', "unknown name 'q'"),
         ('{potential: "q^2.1234567"}', "exponent"),
         ('{potential: "q^2", q0: 1, section: {level: 5}}', "not crossed"),
@@ -250,7 +266,6 @@ methods:
         ('{potential: "x^2 + y^2", coordinates: [x, y], q0: [1], period: 1}', "lists 1 numbers"),
         ('{potential: "sin^2", coordinates: [sin]}', "coordinate name 'sin' is taken"),
         ('{potential: "x^2", coordinates: [x, x], period: 1}', "given twice"),
-        ('{potential: "x^2 + y^2", coordinates: [x, y]}', "a period is needed"),
         ('{potential: "q^2", period: 3}', "period is computed"),
         ('{potential: "q^2", masses: -1}', "not a positive number"),
         ('{potential: "q^2", name: "a/b"}', "name 'a/b'"),

@@ -38,7 +38,7 @@ typedef struct dm_formula_spec {
     bool section_given;
     int section_coordinate;
     double section_level;
-    double period;        /* > 0: given (needed beyond one dof with masses); else computed */
+    double period;        /* > 0: given; else computed (one dof with masses) or none */
 } dm_formula_spec;
 
 /* Where a refused spec went wrong: which formula (0 the potential, 1 the kinetic
