@@ -140,7 +140,8 @@ static dm_status read_value(parse_ctx *c, int k, const yaml_node_t *v, dm_table_
     case K_NAME: return get_table_name(c, v, in->name);
     case K_ORDER:
         st = get_whole(c, v, "order", 1, DM_ORDER_MAX, &x);
-        in->claimed_order = (int)x;
+        if (st == DM_OK) /* x is only in range when read */
+            in->claimed_order = (int)x;
         return st;
     case K_REFERENCE:
         st = get_string(c, v, "reference", in->reference, sizeof in->reference);

@@ -74,6 +74,20 @@ static void negative_samples_are_refused_without_converting_them(void **state)
     expect_refused(huge, strlen(huge), SRC ":1:10: ", "samples = -1e300 is out of range");
 }
 
+/* Fuzzer finding: a typed table's `order: 3.3e42` was converted to int before the range
+ * check's verdict was looked at (undefined behaviour; UBSan aborted in suite_table.c). */
+static void a_table_order_out_of_range_is_refused_without_converting_it(void **state)
+{
+    size_t n;
+    const char *text = read_corpus("regression-table-order-huge.yaml", &n);
+    expect_refused(text, n, SRC ":6:30: ", "order = 3333333333333333333333333333333333333333334 "
+                   "is out of range (expected a whole number in [1, 8])");
+    const char *reduced = "horizon: {periods: 1}\nproblems: [{problem: harmonic}]\n"
+                          "methods: [{table: {name: t, order: -1e300, kick: [0.5, 0.5], "
+                          "drift: [1]}, h: 0.1}]\n";
+    expect_refused(reduced, strlen(reduced), SRC ":3:", "order = -1e300 is out of range");
+}
+
 /* Fuzzer finding: a scalar holding a line break (here a folded multi-line plain scalar
  * inside a flow mapping) was quoted verbatim in the error, which then ran over two
  * lines. Control characters are now written as escapes. */
@@ -367,6 +381,7 @@ int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(negative_samples_are_refused_without_converting_them),
+        cmocka_unit_test(a_table_order_out_of_range_is_refused_without_converting_it),
         cmocka_unit_test(control_characters_in_quoted_input_keep_the_error_on_one_line),
         cmocka_unit_test(a_nul_inside_a_quoted_scalar_is_refused_not_cut_short),
         cmocka_unit_test(the_suites_energy_limit_reaches_every_run),
