@@ -12,6 +12,7 @@
  * gathering their results instead of the thread pool below; the other ranks only run
  * what rank 0 hands them. */
 #include <getopt.h>
+#include <inttypes.h>
 #include <math.h>
 #include <signal.h>
 #include <stdio.h>
@@ -423,7 +424,7 @@ static int print_plan(const dm_suite *suite, int jobs)
         double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
         char steps[32] = "adaptive";
         if (!spec->method->adaptive)
-            snprintf(steps, sizeof steps, "%.0f", ceil(spec->t_end / fabs(spec->method_config.h)));
+            snprintf(steps, sizeof steps, "%" PRIu64, dm_run_fixed_steps(spec));
         printf("%-56s %16s %16.4g %12.1f\n", spec->id, steps, cost, mem / 1048576.0);
         work += cost;
         bytes += mem;

@@ -22,7 +22,7 @@ double dm_run_estimated_cost(const dm_run_spec *spec)
     const dm_method *m = spec->method;
     if (!m->adaptive) {
         double per = m->force_evals_per_step > 0 ? m->force_evals_per_step : 4;
-        return per * spec->t_end / fabs(spec->method_config.h);
+        return per * (double)dm_run_fixed_steps(spec);
     }
     double digits = -log10(spec->method_config.rtol);
     return spec->periods * 20.0 * digits * digits;

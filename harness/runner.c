@@ -365,6 +365,11 @@ static uint64_t fixed_step_count(double t_end, double h)
     return (uint64_t)(fabs(ratio - nearest) <= 1e-12 * ratio ? nearest : ceil(ratio));
 }
 
+uint64_t dm_run_fixed_steps(const dm_run_spec *spec)
+{
+    return spec->method->adaptive ? 0 : fixed_step_count(spec->t_end, spec->method_config.h);
+}
+
 /* floor((bucket + 1) n_steps / samples) without overflowing 64 bits. */
 static uint64_t bucket_end_step(uint64_t n_steps, size_t samples, size_t bucket)
 {

@@ -122,6 +122,13 @@ def main():
         check(p.returncode == 0 and p.stdout.count("\n") == 12 + 3 and "rough time" in p.stdout
               and not os.path.exists(os.path.join(tmp, "never.h5")),
               f"--plan: {p.returncode} {p.stdout!r} {p.stderr!r}")
+        # ... with the steps the runner takes (the same count, not a second rounding)
+        planned = {l.split()[0]: l.split()[1] for l in p.stdout.splitlines()[1:13]}
+        with h5py.File(full, "r") as f:
+            taken = {text(r["run_id"]): str(int(r["steps"])) for r in f["summary"][()]}
+        fixed = {k: v for k, v in planned.items() if v != "adaptive"}
+        check(fixed and all(taken[k] == v for k, v in fixed.items()),
+              f"--plan steps equal the steps taken: {fixed} vs {taken}")
 
         # an existing file is refused without --force, and left as it was
         before = open(full, "rb").read()

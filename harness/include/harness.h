@@ -222,6 +222,10 @@ void dm_run_result_drop_series(dm_run_result *result);
 /* The memory a run's result takes (its series and crossing buffers), in bytes: the
  * suite reader refuses suites whose runs would take more than memory_limit_gib. */
 double dm_run_memory_bytes(const dm_run_spec *spec);
+
+/* The steps a fixed-step run takes (the runner's own count: N periods at n steps per
+ * period are N n steps even when t_end / h rounds a hair above); 0 for adaptive runs. */
+uint64_t dm_run_fixed_steps(const dm_run_spec *spec);
 #define DM_DEFAULT_MEMORY_LIMIT_GIB 8.0
 
 /* ---- many runs at once (pool.c): `run --jobs` and `bench` ---- */
