@@ -345,7 +345,7 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
             dm_table_summary_fill(&tables[i], suite->tables[i]);
         if (tables != NULL) {
             fputc('\n', stdout);
-            dm_tables_print(stdout, tables, suite->n_tables);
+            dm_tables_print(stdout, tables, suite->n_tables, DM_TABLE_TEXT);
         }
         free(tables);
     }

@@ -1,6 +1,7 @@
-/* cmd_show.c — `driftmark show FILE.h5 [--format table|csv|json] [--sweeps]`: print the
- * summary table of a results file and its sweep table (as `run` prints them), or with
- * --sweeps the sweep table alone (so that CSV and JSON hold one table). */
+/* cmd_show.c — `driftmark show FILE.h5 [--format table|csv|json] [--sweeps|--tables]`:
+ * print the summary table of a results file, its sweep table and its typed tables (as
+ * `run` prints them), or with --sweeps or --tables that block alone (so that CSV and
+ * JSON hold one table each). */
 #include <getopt.h>
 #include <stdbool.h>
 #include <stdio.h>
@@ -11,22 +12,23 @@
 #include "harness.h"
 
 static const char usage[] =
-    "usage: driftmark show FILE.h5 [--format table|csv|json] [--sweeps]";
+    "usage: driftmark show FILE.h5 [--format table|csv|json] [--sweeps|--tables]";
 
 int dm_cmd_show(int argc, char **argv)
 {
     static const struct option options[] = {
         { "format", required_argument, NULL, 'f' },
         { "sweeps", no_argument, NULL, 's' },
+        { "tables", no_argument, NULL, 't' },
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
     dm_table_format format = DM_TABLE_TEXT;
-    bool sweeps_only = false;
+    bool sweeps_only = false, tables_only = false;
     optind = 0; /* glibc: full re-initialisation, in case getopt ran before */
     opterr = 0; /* our own one-line messages */
     int c;
-    while ((c = getopt_long(argc, argv, "f:sh", options, NULL)) != -1) {
+    while ((c = getopt_long(argc, argv, "f:sth", options, NULL)) != -1) {
         switch (c) {
         case 'f':
             if (strcmp(optarg, "table") == 0)
@@ -41,6 +43,9 @@ int dm_cmd_show(int argc, char **argv)
             break;
         case 's':
             sweeps_only = true;
+            break;
+        case 't':
+            tables_only = true;
             break;
         case 'h':
             printf("%s\n", usage);
@@ -62,6 +67,9 @@ int dm_cmd_show(int argc, char **argv)
     if (argc - optind > 1)
         return dm_cli_usage_error("show", "one results file at a time, got '%s' and '%s' (%s)",
                                   argv[optind], argv[optind + 1], usage);
+    if (sweeps_only && tables_only)
+        return dm_cli_usage_error("show", "--sweeps and --tables: one block at a time (%s)",
+                                  usage);
     const char *path = argv[optind];
 
     dm_summary_row *rows = NULL;
@@ -86,16 +94,19 @@ int dm_cmd_show(int argc, char **argv)
     }
     if (sweeps_only) {
         dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
+    } else if (tables_only) {
+        dm_tables_print(stdout, tables, n_tables, format);
     } else {
         dm_table_print(stdout, rows, n, format);
-        /* CSV and JSON stay one table each: their sweeps come with --sweeps */
+        /* CSV and JSON stay one table each: their sweeps come with --sweeps, their
+         * typed tables with --tables */
         if (format == DM_TABLE_TEXT && n_sweeps > 0) {
             fputc('\n', stdout);
             dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
         }
         if (format == DM_TABLE_TEXT && n_tables > 0) {
             fputc('\n', stdout);
-            dm_tables_print(stdout, tables, n_tables);
+            dm_tables_print(stdout, tables, n_tables, format);
         }
     }
     free(tables);

@@ -387,7 +387,7 @@ void dm_table_summary_fill(dm_table_summary *s, const dm_user_table *t)
     }
 }
 
-void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n)
+static void tables_text(FILE *out, const dm_table_summary *tables, size_t n)
 {
     fprintf(out, "%-31s %-12s %7s %5s  %-16s %-9s  %-22s %-22s\n", "table", "form",
             "claimed", "found", "basis", "symmetric", "harmonic: order (C)",
@@ -408,4 +408,63 @@ void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n)
                 t->order_found < t->claimed_order ? "  experimental: below its claim" : "");
     }
     fprintf(out, "(C: the leading error constant, e / (h/T)^p: results/README.md, /tables)\n");
+}
+
+/* CSV and JSON: one record a table, named as /tables/<name>'s attributes, the measured
+ * orders and constants as numbers (empty / null for a Butcher tableau). */
+static void tables_csv(FILE *out, const dm_table_summary *tables, size_t n)
+{
+    fputs("table,form,claimed_order,order_found,order_basis,symmetric,experimental,"
+          "measured_order_harmonic,error_constant_harmonic,measured_order_pendulum,"
+          "error_constant_pendulum\n", out);
+    for (size_t i = 0; i < n; i++) {
+        const dm_table_summary *t = &tables[i];
+        csv_text(out, t->name);
+        fprintf(out, ",%s,%d,%d,", t->form, t->claimed_order, t->order_found);
+        csv_text(out, t->basis);
+        fprintf(out, ",%s,%s", t->symmetric ? "yes" : "no", t->experimental ? "yes" : "no");
+        for (int k = 0; k < 2; k++) {
+            fputc(',', out);
+            csv_number(out, t->measured[k]);
+            fputc(',', out);
+            csv_number(out, t->constant[k]);
+        }
+        fputc('\n', out);
+    }
+}
+
+static void tables_json(FILE *out, const dm_table_summary *tables, size_t n)
+{
+    static const char *const on[2] = { "harmonic", "pendulum" };
+    fputs("[", out);
+    for (size_t i = 0; i < n; i++) {
+        const dm_table_summary *t = &tables[i];
+        fputs(i ? ",\n  {\"table\": " : "\n  {\"table\": ", out);
+        dm_json_string(out, t->name);
+        fputs(", \"form\": ", out);
+        dm_json_string(out, t->form);
+        fprintf(out, ", \"claimed_order\": %d, \"order_found\": %d, \"order_basis\": ",
+                t->claimed_order, t->order_found);
+        dm_json_string(out, t->basis);
+        fprintf(out, ", \"symmetric\": %s, \"experimental\": %s",
+                t->symmetric ? "true" : "false", t->experimental ? "true" : "false");
+        for (int k = 0; k < 2; k++) {
+            fprintf(out, ", \"measured_order_%s\": ", on[k]);
+            dm_json_number(out, t->measured[k], "%.17g");
+            fprintf(out, ", \"error_constant_%s\": ", on[k]);
+            dm_json_number(out, t->constant[k], "%.17g");
+        }
+        fputs("}", out);
+    }
+    fputs(n ? "\n]\n" : "]\n", out);
+}
+
+void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n,
+                     dm_table_format format)
+{
+    switch (format) {
+    case DM_TABLE_TEXT: tables_text(out, tables, n); break;
+    case DM_TABLE_CSV: tables_csv(out, tables, n); break;
+    case DM_TABLE_JSON: tables_json(out, tables, n); break;
+    }
 }

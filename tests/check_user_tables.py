@@ -9,6 +9,9 @@ Also: `list --table` prints a built-in table in suite form that reads back as th
 method, and /tables stores each table in full.
 
 Usage: check_user_tables.py DRIFTMARK"""
+import csv
+import io
+import json
 import math
 import os
 import signal
@@ -31,6 +34,10 @@ EXE = sys.argv[1]
 CBRT2 = float("1.2599210498948731647672106072782")
 X1 = 1.0 / (2.0 - CBRT2)
 X0 = -CBRT2 / (2.0 - CBRT2)
+
+
+def as_text(v):
+    return v.decode() if isinstance(v, bytes) else str(v)
 
 
 def num(x):
@@ -200,6 +207,22 @@ def main():
             rows = f["summary"][()]
             check(all(r["order"] == 4 and r["order_found"] == 1 for r in rows),
                   "/summary does not hold both orders of the experimental table")
+            held = dict(f["tables/bent4"].attrs)
+        # show --tables in CSV and JSON: one record a table, the file's attributes
+        as_csv = run(EXE, ["show", out, "--tables", "--format", "csv"])
+        records = list(csv.DictReader(io.StringIO(as_csv.stdout)))
+        as_json = run(EXE, ["show", out, "--tables", "--format", "json"])
+        objects = json.loads(as_json.stdout) if as_json.returncode == 0 else []
+        check(as_csv.returncode == 0 and len(records) == 1 and len(objects) == 1,
+              f"show --tables: {as_csv.stdout!r} {as_json.stdout!r} {as_json.stderr!r}")
+        for rec in (records[0], objects[0]):
+            check(rec["table"] == "bent4" and int(rec["claimed_order"]) == 4
+                  and int(rec["order_found"]) == int(held["order_found"]) == 1
+                  and rec["form"] == as_text(held["form"]),
+                  f"show --tables: orders and form as in /tables: {rec} {held}")
+            for key in ("measured_order_harmonic", "error_constant_pendulum"):
+                check(float(rec[key]) == float(held[key]),
+                      f"show --tables: {key} {rec[key]} against /tables' {held[key]}")
         check_resume(tmp)
     finish("check_user_tables")
 

@@ -378,6 +378,9 @@ int dm_fit_use_name_known(const char *name);
 
 /* ---- the tables typed in a suite ---- */
 
+/* How a table is printed: aligned text, CSV or JSON. */
+typedef enum dm_table_format { DM_TABLE_TEXT, DM_TABLE_CSV, DM_TABLE_JSON } dm_table_format;
+
 /* What the tables block shows of one table typed in a suite (user_table.h): from the
  * suite's tables (dm_table_summary_fill) or read back from /tables
  * (dm_results_read_tables). */
@@ -392,9 +395,10 @@ typedef struct dm_table_summary {
 } dm_table_summary;
 
 void dm_table_summary_fill(dm_table_summary *s, const dm_user_table *t);
-/* One line a table: its form, the order claimed and the order found with its basis,
- * symmetry, and the measured orders and error constants. */
-void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n);
+/* One line (CSV or JSON record) a table: its form, the order claimed and the order
+ * found with its basis, symmetry, and the measured orders and error constants. */
+void dm_tables_print(FILE *out, const dm_table_summary *tables, size_t n,
+                     dm_table_format format);
 
 /* ---- the results file (results.c) ---- */
 
@@ -470,7 +474,6 @@ typedef struct dm_summary_row {
 void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
                          const dm_run_result *result);
 
-typedef enum dm_table_format { DM_TABLE_TEXT, DM_TABLE_CSV, DM_TABLE_JSON } dm_table_format;
 void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_format format);
 /* The sweep table: text (each sweep's orders and point counts, then the runs a fit
  * left out and why), or CSV and JSON (every written run of every sweep with its codes). */
