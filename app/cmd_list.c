@@ -74,6 +74,8 @@ static void print_text(void)
             printf("    %-*s  %s\n", wname, k == 0 ? "invariants" : "",
                    pr->invariant_names[k]);
     }
+    printf("\n  your own: a problems entry {potential: FORMULA, ...} in a suite, or a problem\n"
+           "  from your own C code (README: \"Your own system\")\n");
 
     printf("\nmethods\n");
     if (dm_method_count == 0) {
@@ -100,6 +102,8 @@ static void print_text(void)
                dm_family_name(m->family), order, yes_no(m->symplectic),
                yes_no(m->symmetric), forces, m->name);
     }
+    printf("\n  your own: a methods entry {table: {...}} in a suite (README: \"Your own method\";\n"
+           "  `driftmark list --table ID` prints a built-in one in that form)\n");
 }
 
 static void print_json(void)
