@@ -412,20 +412,26 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
 }
 
 /* --plan: every run with its steps (fixed-step runs; adaptive ones choose theirs), its
- * estimated work in force evaluations, the memory its result takes, and the suite's
+ * estimated work in force evaluations, the memory its result takes, its problem's period
+ * (closed form, or computed at suite reading for a formula problem), and the suite's
  * total with a rough time: the work times the time a force evaluation took in a probe of
  * 2^20 steps of the first fixed-step run, shared among `jobs` threads. Runs nothing. */
 static int print_plan(const dm_suite *suite, int jobs)
 {
     double work = 0.0, bytes = 0.0;
-    printf("%-56s %16s %16s %12s\n", "run", "steps", "force evals", "memory MiB");
+    printf("%-56s %16s %16s %12s %22s\n", "run", "steps", "force evals", "memory MiB",
+           "period");
     for (size_t i = 0; i < suite->n_runs; i++) {
         const dm_run_spec *spec = &suite->runs[i];
         double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
         char steps[32] = "adaptive";
         if (!spec->method->adaptive)
             snprintf(steps, sizeof steps, "%" PRIu64, dm_run_fixed_steps(spec));
-        printf("%-56s %16s %16.4g %12.1f\n", spec->id, steps, cost, mem / 1048576.0);
+        char period[32] = "none";  /* a problem without one: horizon in time */
+        if (isfinite(spec->inst.period))
+            snprintf(period, sizeof period, "%.17g", spec->inst.period);
+        printf("%-56s %16s %16.4g %12.1f %22s\n", spec->id, steps, cost, mem / 1048576.0,
+               period);
         work += cost;
         bytes += mem;
     }

@@ -124,8 +124,12 @@ def main():
               f"--plan: {p.returncode} {p.stdout!r} {p.stderr!r}")
         # ... with the steps the runner takes (the same count, not a second rounding)
         planned = {l.split()[0]: l.split()[1] for l in p.stdout.splitlines()[1:13]}
+        periods = {l.split()[0]: float(l.split()[4]) for l in p.stdout.splitlines()[1:13]}
         with h5py.File(full, "r") as f:
             taken = {text(r["run_id"]): str(int(r["steps"])) for r in f["summary"][()]}
+            held = {text(r["run_id"]): float(f["runs"][text(r["run_id"])].attrs["period"])
+                    for r in f["summary"][()]}
+        check(periods == held, f"--plan's periods are the runs' periods: {periods} {held}")
         fixed = {k: v for k, v in planned.items() if v != "adaptive"}
         check(fixed and all(taken[k] == v for k, v in fixed.items()),
               f"--plan steps equal the steps taken: {fixed} vs {taken}")
