@@ -59,32 +59,38 @@ static void print_text(const dm_choice *c, size_t n)
     }
 }
 
+/* The numbers of a choice, by name (CSV header and JSON key) and field: one list, so
+ * the CSV's header and its rows cannot disagree. */
 #define CHOICE_NUMBERS(X)                                                                  \
-    X(x) X(beyond) X(cost_per_period) X(seconds_per_period) X(energy_error)               \
-    X(phase_per_period) X(margin) X(horizon_factor) X(fit_rms) X(closeness)
+    X(step, x) X(beyond, beyond) X(cost_per_period, cost_per_period)                     \
+    X(seconds_per_period, seconds_per_period) X(energy_error, energy_error)               \
+    X(phase_per_period, phase_per_period) X(margin, margin)                               \
+    X(horizon_factor, horizon_factor) X(fit_rms, fit_rms) X(closeness, closeness)
 
 static void print_csv(const dm_choice *c, size_t n)
 {
-    printf("variant,method,rank,step_kind,step,basis,beyond,cost_per_period,seconds_per_period,"
-           "energy_error,phase_per_period,margin,horizon_factor,fit_rms,closeness,horizon_rule,"
-           "n_points,run_id,why_not\n");
+    printf("variant,method,rank,step_kind,basis");
+#define CSV_NAME(name, field) printf("," #name);
+    CHOICE_NUMBERS(CSV_NAME)
+#undef CSV_NAME
+    printf(",horizon_rule,n_points,run_id,why_not\n");
     for (size_t i = 0; i < n; i++) {
         const dm_choice *x = &c[i];
-        printf("%s,%s,%d,%s,", x->variant, x->method, x->rank, x->adaptive ? "rtol" : "h");
-        const double v[] = { x->x, x->beyond, x->cost_per_period, x->seconds_per_period };
-        for (size_t k = 0; k < 4; k++)
-            isfinite(v[k]) ? printf("%.17g,", v[k]) : printf(",");
-        (void)v;
-        printf("%s", dm_choice_basis_name(x->basis));
-        const double w[] = { x->energy_error, x->phase_per_period, x->margin,
-                             x->horizon_factor, x->fit_rms, x->closeness };
-        for (size_t k = 0; k < 6; k++)
-            isfinite(w[k]) ? printf(",%.17g", w[k]) : printf(",");
-        /* texts of our own making: no commas or quotes in them but the reason's */
-        printf(",%s,%zu,%s,\"", x->horizon_rule, x->n_points, x->run_id);
-        for (const char *p = x->why_not; *p; p++)
-            printf(*p == '"' ? "\"\"" : "%c", *p);
-        printf("\"\n");
+        dm_csv_text(stdout, x->variant);
+        putchar(',');
+        dm_csv_text(stdout, x->method);
+        printf(",%d,%s,%s", x->rank, x->adaptive ? "rtol" : "h",
+               dm_choice_basis_name(x->basis));
+#define CSV_NUMBER(name, field) putchar(','); dm_csv_number(stdout, x->field);
+        CHOICE_NUMBERS(CSV_NUMBER)
+#undef CSV_NUMBER
+        putchar(',');
+        dm_csv_text(stdout, x->horizon_rule);
+        printf(",%zu,", x->n_points);
+        dm_csv_text(stdout, x->run_id);
+        putchar(',');
+        dm_csv_text(stdout, x->why_not);
+        putchar('\n');
     }
 }
 
@@ -101,7 +107,9 @@ static void print_json(const dm_choice *c, size_t n, bool all)
         printf(", \"rank\": %d, \"ranked\": %s, \"step_kind\": \"%s\", \"basis\": \"%s\"",
                x->rank, x->ranked ? "true" : "false", x->adaptive ? "rtol" : "h",
                dm_choice_basis_name(x->basis));
-#define JSON_NUMBER(f) printf(", \"" #f "\": "); dm_json_number(stdout, x->f, "%.17g");
+#define JSON_NUMBER(name, field)                                                           \
+    printf(", \"" #name "\": ");                                                           \
+    dm_json_number(stdout, x->field, "%.17g");
         CHOICE_NUMBERS(JSON_NUMBER)
 #undef JSON_NUMBER
         printf(", \"n_points\": %zu, \"horizon_rule\": ", x->n_points);

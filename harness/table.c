@@ -140,7 +140,7 @@ static void print_text(FILE *out, const dm_summary_row *rows, size_t n)
 
 /* ---- CSV (RFC 4180 quoting) and JSON ---- */
 
-static void csv_text(FILE *out, const char *text)
+void dm_csv_text(FILE *out, const char *text)
 {
     /* control bytes escaped (a file's texts are not trusted), then RFC 4180 quoting */
     char s[4 * DM_CONFIG_MAX];
@@ -158,7 +158,7 @@ static void csv_text(FILE *out, const char *text)
     fputc('"', out);
 }
 
-static void csv_number(FILE *out, double v)
+void dm_csv_number(FILE *out, double v)
 {
     if (isfinite(v))
         fprintf(out, "%.17g", v);
@@ -175,7 +175,7 @@ static void print_field(FILE *out, const dm_figure *f, const dm_summary_row *row
         if (json)
             dm_json_number(out, ROW_VALUE(f, row, double), "%.17g");
         else
-            csv_number(out, ROW_VALUE(f, row, double));
+            dm_csv_number(out, ROW_VALUE(f, row, double));
         break;
     case DM_FIGURE_COUNT: fprintf(out, "%" PRIu64, ROW_VALUE(f, row, uint64_t)); break;
     case DM_FIGURE_INT: fprintf(out, "%d", ROW_VALUE(f, row, int)); break;
@@ -183,7 +183,7 @@ static void print_field(FILE *out, const dm_figure *f, const dm_summary_row *row
         if (json)
             dm_json_string(out, (const char *)row + f->row_at);
         else
-            csv_text(out, (const char *)row + f->row_at);
+            dm_csv_text(out, (const char *)row + f->row_at);
         break;
     }
 }
@@ -297,18 +297,18 @@ static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
     for (size_t w = 0; w < n; w++) {
         const dm_sweep_summary *s = &sweeps[w];
         for (size_t i = 0; i < (s->n_runs ? s->n_runs : 1); i++) {
-            csv_text(out, s->name);
+            dm_csv_text(out, s->name);
             fputc(',', out);
-            csv_number(out, s->energy_order);
+            dm_csv_number(out, s->energy_order);
             fprintf(out, ",%" PRIu64 ",", s->n_points_energy);
-            csv_number(out, s->phase_order);
+            dm_csv_number(out, s->phase_order);
             fprintf(out, ",%" PRIu64 ",", s->n_points_phase);
             if (s->n_runs > 0) {
-                csv_text(out, s->runs[i].run_id);
+                dm_csv_text(out, s->runs[i].run_id);
                 fputc(',', out);
-                csv_text(out, s->runs[i].energy_fit);
+                dm_csv_text(out, s->runs[i].energy_fit);
                 fputc(',', out);
-                csv_text(out, s->runs[i].phase_fit);
+                dm_csv_text(out, s->runs[i].phase_fit);
             } else {
                 fputs(",,", out);
             }
@@ -316,7 +316,7 @@ static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
                                       s->phase_local_min, s->phase_local_max };
             for (int k = 0; k < 4; k++) {
                 fputc(',', out);
-                csv_number(out, local[k]);
+                dm_csv_number(out, local[k]);
             }
             fputc('\n', out);
         }
@@ -419,15 +419,15 @@ static void tables_csv(FILE *out, const dm_table_summary *tables, size_t n)
           "error_constant_pendulum\n", out);
     for (size_t i = 0; i < n; i++) {
         const dm_table_summary *t = &tables[i];
-        csv_text(out, t->name);
+        dm_csv_text(out, t->name);
         fprintf(out, ",%s,%d,%d,", t->form, t->claimed_order, t->order_found);
-        csv_text(out, t->basis);
+        dm_csv_text(out, t->basis);
         fprintf(out, ",%s,%s", t->symmetric ? "yes" : "no", t->experimental ? "yes" : "no");
         for (int k = 0; k < 2; k++) {
             fputc(',', out);
-            csv_number(out, t->measured[k]);
+            dm_csv_number(out, t->measured[k]);
             fputc(',', out);
-            csv_number(out, t->constant[k]);
+            dm_csv_number(out, t->constant[k]);
         }
         fputc('\n', out);
     }

@@ -14,6 +14,8 @@
 
 usage: check_choose.py PATH/TO/driftmark
 """
+import csv
+import io
 import json
 import math
 import os
@@ -70,10 +72,10 @@ methods:
     v = one(data, "harmonic-omega1.7", "verlet")
     h_exact = 2 * math.sqrt(Y) / w
     T = 2 * math.pi / w
-    print(f"verlet on harmonic: h {v['x']:.6g} (closed form {h_exact:.6g}), basis {v['basis']}, "
+    print(f"verlet on harmonic: h {v['step']:.6g} (closed form {h_exact:.6g}), basis {v['basis']}, "
           f"cost {v['cost_per_period']:.6g} (T/h {T / h_exact:.6g}), fit rms {v['fit_rms']:.3g}")
     check(v["ranked"] and v["basis"] == "interpolated", f"verlet interpolated: {v}")
-    check(abs(v["x"] / h_exact - 1) < 0.02, f"verlet h {v['x']} vs {h_exact}")
+    check(abs(v["step"] / h_exact - 1) < 0.02, f"verlet h {v['step']} vs {h_exact}")
     check(abs(v["cost_per_period"] / (T / h_exact) - 1) < 0.02,
           f"verlet cost {v['cost_per_period']} vs {T / h_exact}")
     check(abs(v["energy_error"] / Y - 1) < 1e-9, "the fitted line meets the bound exactly")
@@ -108,9 +110,20 @@ methods:
     for fmt in ("table", "csv"):
         p = run(["choose", out, "--energy-error", "1e-3", "--format", fmt], tmp)
         check(p.returncode == 0 and "verlet" in p.stdout, f"{fmt}: {p.returncode}")
+    # CSV: every field under its own heading, the same value as the JSON field of that name
     p = run(["choose", out, "--energy-error", "1e-3", "--format", "csv"], tmp)
-    header = p.stdout.splitlines()[0].split(",")
-    check(all(len(l.split(",")) >= len(header) for l in p.stdout.splitlines()[1:]), "csv rows")
+    rows = list(csv.DictReader(io.StringIO(p.stdout)))
+    _, data = choose(out, tmp, "--energy-error", "1e-3")
+    check(len(rows) == len(data["choices"]) > 0, f"csv rows: {len(rows)}")
+    for r, j in zip(rows, data["choices"]):
+        for key, value in r.items():
+            check(key in j, f"csv column {key} is a JSON field")
+            if isinstance(j[key], float) or (j[key] is None and key not in ("why_not",)):
+                same = (value == "" and j[key] is None) or (
+                    j[key] is not None and float(value) == j[key])
+            else:
+                same = value == str(j[key])
+            check(same, f"csv {key} = {value!r} but json {j[key]!r} ({r['run_id']})")
     for args in (["choose", out], ["choose", out, "--energy-error", "-1"],
                  ["choose", os.path.join(tmp, "missing.h5"), "--energy-error", "1e-3"],
                  ["choose", out, "--energy-error", "1e-3", "--format", "xml"]):

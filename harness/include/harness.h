@@ -380,6 +380,10 @@ int dm_fit_use_name_known(const char *name);
 
 /* How a table is printed: aligned text, CSV or JSON. */
 typedef enum dm_table_format { DM_TABLE_TEXT, DM_TABLE_CSV, DM_TABLE_JSON } dm_table_format;
+/* One CSV field: a text with control bytes escaped and RFC 4180 quoting where needed;
+ * a number in full precision (%.17g), inf / -inf, or empty for NaN. */
+void dm_csv_text(FILE *out, const char *text);
+void dm_csv_number(FILE *out, double v);
 
 /* What the tables block shows of one table typed in a suite (user_table.h): from the
  * suite's tables (dm_table_summary_fill) or read back from /tables
