@@ -411,32 +411,39 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
     return code;
 }
 
-/* --plan: every run with its steps (fixed-step runs; adaptive ones choose theirs), its
- * estimated work in force evaluations, the memory its result takes, its problem's period
- * (closed form, or computed at suite reading for a formula problem), and the suite's
- * total with a rough time: the work times the time a force evaluation took in a probe of
- * 2^20 steps of the first fixed-step run, shared among `jobs` threads. Runs nothing. */
-static int print_plan(const dm_suite *suite, int jobs)
+/* An adaptive run's work and time, from a probe of its first PLAN_PROBE_STEPS steps
+ * (its step budget): force evaluations and seconds per unit of simulated time, times
+ * its horizon. A CVODE step costs many force evaluations' time, so its time is probed
+ * for itself, not derived from its work. False when the probe took no time step. */
+#define PLAN_PROBE_STEPS 4096
+#define PLAN_PROBE_SECONDS 5.0  /* all adaptive probes together; the rest are guessed */
+
+static bool probe_adaptive(const dm_run_spec *spec, double *evals, double *seconds)
 {
-    double work = 0.0, bytes = 0.0;
-    printf("%-56s %16s %16s %12s %22s\n", "run", "steps", "force evals", "memory MiB",
-           "period");
-    for (size_t i = 0; i < suite->n_runs; i++) {
-        const dm_run_spec *spec = &suite->runs[i];
-        double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
-        char steps[32] = "adaptive";
-        if (!spec->method->adaptive)
-            snprintf(steps, sizeof steps, "%" PRIu64, dm_run_fixed_steps(spec));
-        char period[32] = "none";  /* a problem without one: horizon in time */
-        if (isfinite(spec->inst.period))
-            snprintf(period, sizeof period, "%.17g", spec->inst.period);
-        printf("%-56s %16s %16.4g %12.1f %22s\n", spec->id, steps, cost, mem / 1048576.0,
-               period);
-        work += cost;
-        bytes += mem;
+    dm_run_spec probe = *spec;
+    probe.samples = 1;
+    probe.step_budget = PLAN_PROBE_STEPS;
+    probe.lyapunov = false;
+    dm_run_result r;
+    dm_error err = { 0 };
+    double t0 = dm_clock_seconds();
+    if (dm_run(&probe, &r, NULL, &err) != DM_OK)
+        return false;
+    double took = dm_clock_seconds() - t0, t = r.metrics.t_reached;
+    bool ok = isfinite(t) && t > 0.0;
+    if (ok) {
+        double scale = spec->t_end / t;
+        *evals = (double)r.metrics.counts.force_evals * scale;
+        *seconds = took * scale;
     }
-    printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
-           bytes / 1048576.0);
+    dm_run_result_free(&r);
+    return ok;
+}
+
+/* The time a force evaluation takes, from a probe of 2^20 steps of the first fixed-step
+ * run (which it names); NaN when there is none. */
+static double probe_fixed(const dm_suite *suite, const char **probed)
+{
     for (size_t i = 0; i < suite->n_runs; i++) {
         if (suite->runs[i].method->adaptive)
             continue;
@@ -445,21 +452,81 @@ static int print_plan(const dm_suite *suite, int jobs)
         if (probe.t_end > steps * fabs(probe.method_config.h))
             probe.t_end = steps * fabs(probe.method_config.h);
         probe.samples = 1;
+        probe.lyapunov = false;
         dm_run_result r;
         dm_error err = { 0 };
         double t0 = dm_clock_seconds();
         if (dm_run(&probe, &r, NULL, &err) != DM_OK)
-            break;
+            return NAN;
         double seconds = dm_clock_seconds() - t0, evals = (double)r.metrics.counts.force_evals;
         dm_run_result_free(&r);
-        if (evals > 0)
-            printf("rough time: %.0f s on %d threads (%.3g ns a force evaluation in a probe of "
-                   "%s; adaptive runs are a guess from their tolerance)\n",
-                   work * seconds / evals / (jobs < (int)suite->n_runs ? jobs : (int)suite->n_runs),
-                   jobs, 1e9 * seconds / evals, suite->runs[i].id);
+        *probed = suite->runs[i].id;
+        return evals > 0 ? seconds / evals : NAN;
+    }
+    return NAN;
+}
+
+/* --plan: every run with its steps (fixed-step runs; adaptive ones choose theirs), its
+ * work in force evaluations (fixed steps: counted; adaptive: from a probe of its first
+ * steps, or a guess from its tolerance once the probes have taken PLAN_PROBE_SECONDS),
+ * the memory its result takes, its problem's period (closed form, or computed at suite
+ * reading for a formula problem), and the suite's total with a rough time: the fixed-
+ * step work times a force evaluation's time in a probe, plus the adaptive runs' probed
+ * times, shared among `jobs` threads. Runs nothing to the end; writes nothing. */
+static int print_plan(const dm_suite *suite, int jobs)
+{
+    const char *probed = NULL;
+    double per_eval = probe_fixed(suite, &probed);
+    double work = 0.0, bytes = 0.0, fixed_work = 0.0, adaptive_seconds = 0.0,
+           probe_seconds = 0.0;
+    size_t guessed = 0;
+    printf("%-56s %16s %16s %12s %22s\n", "run", "steps", "force evals", "memory MiB",
+           "period");
+    for (size_t i = 0; i < suite->n_runs; i++) {
+        const dm_run_spec *spec = &suite->runs[i];
+        double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
+        char steps[32] = "adaptive", evals[32];
+        if (!spec->method->adaptive) {
+            snprintf(steps, sizeof steps, "%" PRIu64, dm_run_fixed_steps(spec));
+            fixed_work += cost;
+        } else {
+            double e = NAN, sec = NAN, t0 = dm_clock_seconds();
+            if (probe_seconds < PLAN_PROBE_SECONDS && probe_adaptive(spec, &e, &sec)) {
+                cost = e;
+                adaptive_seconds += sec;
+            } else {
+                guessed++;
+                adaptive_seconds += cost * per_eval; /* NaN without a fixed-step probe */
+            }
+            probe_seconds += dm_clock_seconds() - t0;
+        }
+        snprintf(evals, sizeof evals, "%.4g", cost);
+        char period[32] = "none";  /* a problem without one: horizon in time */
+        if (isfinite(spec->inst.period))
+            snprintf(period, sizeof period, "%.17g", spec->inst.period);
+        printf("%-56s %16s %16s %12.1f %22s\n", spec->id, steps, evals, mem / 1048576.0,
+               period);
+        work += cost;
+        bytes += mem;
+    }
+    printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
+           bytes / 1048576.0);
+    int threads = jobs < (int)suite->n_runs ? jobs : (int)suite->n_runs;
+    double seconds = (fixed_work > 0.0 ? fixed_work * per_eval : 0.0) + adaptive_seconds;
+    if (!isfinite(seconds)) {
+        printf("rough time: not estimated (%zu adaptive run%s beyond the probes' %g s and no "
+               "fixed-step run to time a force evaluation)\n", guessed, guessed == 1 ? "" : "s",
+               PLAN_PROBE_SECONDS);
         return 0;
     }
-    printf("rough time: not estimated (no fixed-step run to probe)\n");
+    printf("rough time: %.0f s on %d thread%s (", seconds / threads, threads,
+           threads == 1 ? "" : "s");
+    if (probed != NULL)
+        printf("%.3g ns a force evaluation in a probe of %s", 1e9 * per_eval, probed);
+    if (suite->n_runs > 0 && adaptive_seconds > 0.0)
+        printf("%sadaptive runs timed over their first %d steps%s", probed ? "; " : "",
+               PLAN_PROBE_STEPS, guessed ? ", some guessed from their tolerance" : "");
+    printf(")\n");
     return 0;
 }
 
@@ -479,7 +546,10 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         if (world->rank > 0)
             return 0;
         dm_error err = { 0 };
-        dm_status st = load_suite(&suite, o.suite_path, o.output, o.resume, &err);
+        /* writes nothing: the output is not checked (nor stale temporary files removed) */
+        dm_status st = o.resume ? load_suite(&suite, NULL, NULL, o.resume, &err)
+                                : load_suite(&suite, o.suite_path, dm_suite_output_unchecked,
+                                             NULL, &err);
         if (st != DM_OK) {
             fprintf(stderr, "driftmark: run: %s\n", err.msg);
             return st == DM_EINPUT ? 2 : 1;

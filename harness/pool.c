@@ -24,8 +24,11 @@ double dm_run_estimated_cost(const dm_run_spec *spec)
         double per = m->force_evals_per_step > 0 ? m->force_evals_per_step : 4;
         return per * (double)dm_run_fixed_steps(spec);
     }
+    /* without a period (nbody, henon_heiles, ...) one time unit stands for one: a guess
+     * for ordering and progress only (`run --plan` probes adaptive runs instead) */
     double digits = -log10(spec->method_config.rtol);
-    return spec->periods * 20.0 * digits * digits;
+    double periods = isfinite(spec->periods) ? spec->periods : spec->t_end;
+    return periods * 20.0 * digits * digits;
 }
 
 /* The suite being ordered, for the qsort comparator (one a thread). */

@@ -122,6 +122,22 @@ def main():
         check(p.returncode == 0 and p.stdout.count("\n") == 12 + 3 and "rough time" in p.stdout
               and not os.path.exists(os.path.join(tmp, "never.h5")),
               f"--plan: {p.returncode} {p.stdout!r} {p.stderr!r}")
+        # --plan of an adaptive run on a problem without a period, from a folder with no
+        # results/ (the default output's): a probed estimate (no NaN), nothing written
+        empty = os.path.join(tmp, "empty")
+        os.mkdir(empty)
+        with open(os.path.join(empty, "hh.yaml"), "w") as f:
+            f.write("name: hh\nhorizon: {time: 200}\nproblems:\n"
+                    "  - {problem: henon_heiles, energy: 0.1, start_y: 0.1}\n"
+                    "methods:\n  - {method: cvode-bdf, rtol: 1e-6}\n")
+        q = run(["hh.yaml", "--plan"], cwd=empty)
+        check(q.returncode == 0 and "nan" not in q.stdout.lower() and "rough time: " in q.stdout
+              and os.listdir(empty) == ["hh.yaml"],
+              f"--plan without a period or an output folder: {q.returncode} {q.stdout!r} "
+              f"{q.stderr!r} {os.listdir(empty)}")
+        row = q.stdout.splitlines()[1].split()
+        check(row[1] == "adaptive" and float(row[2]) > 0 and row[4] == "none",
+              f"--plan row of an adaptive run without a period: {row}")
         # ... with the steps the runner takes (the same count, not a second rounding)
         planned = {l.split()[0]: l.split()[1] for l in p.stdout.splitlines()[1:13]}
         periods = {l.split()[0]: float(l.split()[4]) for l in p.stdout.splitlines()[1:13]}

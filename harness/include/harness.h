@@ -108,6 +108,10 @@ typedef struct dm_suite {
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          const char *source, const char *output, dm_error *err);
 dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err);
+/* Given as `output` to the loaders: the output file (the suite's, or its default) is
+ * named but not checked, and no stale temporary file beside it is removed - for what
+ * reads a suite and writes nothing (`run --plan`). */
+extern const char dm_suite_output_unchecked[];
 dm_status dm_suite_default(dm_suite *suite, const char *output, dm_error *err);
 
 /* Opens `path` for reading only when it is a regular file of at most max_bytes (0: any
