@@ -1378,13 +1378,26 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
             continue;
         size_t probe = 0;
         uint64_t key = dm_hash_text(rows[k].run_id);
+        bool found = false;
         for (size_t i; (i = dm_run_index_next(&ids, key, &probe)) != SIZE_MAX;) {
             const dm_run_spec *spec = &suite->runs[i];
             if (strcmp(spec->id, rows[k].run_id) != 0)
                 continue;
-            /* Same id but another configuration (a changed suite): run it again. */
-            if (strcmp(spec->hash, rows[k].hash) != 0 || results[i].status != DM_RUN_NOT_RUN)
-                break;
+            found = true;
+            /* The suite is the file's own text, so a run of another configuration was
+             * made from inputs outside it that changed since (a bodies file, a problem
+             * library): continuing, or dropping its work without a word, would mislead. */
+            if (strcmp(spec->hash, rows[k].hash) != 0) {
+                char id[4 * DM_RUN_ID_MAX];
+                dm_escape_controls(spec->id, id, sizeof id);
+                st = dm_error_set(err, DM_EINPUT, "cannot resume %s: run %s was made from "
+                                  "other inputs than its suite reads now (a bodies file or "
+                                  "problem library changed since?): restore them, or run the "
+                                  "suite again", path, id);
+                goto done;
+            }
+            if (results[i].status != DM_RUN_NOT_RUN)
+                break; /* a second row of one run: the first is kept */
             char gname[DM_RUN_ID_MAX];
             safe_name(spec->id, gname, sizeof gname);
             hid_t g = H5Gopen2(runs, gname, H5P_DEFAULT);
@@ -1416,6 +1429,14 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
                 }
             }
             break;
+        }
+        if (!found) {
+            char id[4 * DM_RUN_ID_MAX];
+            dm_escape_controls(rows[k].run_id, id, sizeof id);
+            st = dm_error_set(err, DM_EINPUT, "cannot resume %s: its run %s is not one of its "
+                              "suite's runs now (a bodies file or problem library changed "
+                              "since?): restore them, or run the suite again", path, id);
+            goto done;
         }
     }
 done:

@@ -2406,10 +2406,17 @@ static dm_status read_data_keys(suite_build *b, const yaml_node_t *node, problem
                 value[k] = node_at(c, p->value);
     }
     dm_status st;
-    if (!has_G || value[D_UNITS] == NULL || (value[D_BODIES] == NULL) == (value[D_FILE] == NULL))
-        return fail_at(c, node, "%s needs G, units and one of bodies or bodies_file (expected "
-                       "{problem: %s, G: VALUE, units: TEXT, bodies: [...]})", e->problem->id,
-                       e->problem->id);
+    const char *missing = !has_G                      ? "G (the constant of gravitation)"
+                          : value[D_UNITS] == NULL     ? "units (a text naming them)"
+                          : value[D_BODIES] == NULL && value[D_FILE] == NULL
+                              ? "its bodies (bodies: [...] or bodies_file: PATH)"
+                              : NULL;
+    if (missing != NULL)
+        return fail_at(c, node, "%s needs %s (expected {problem: %s, G: VALUE, units: TEXT, "
+                       "bodies: [...]})", e->problem->id, missing, e->problem->id);
+    if (value[D_BODIES] != NULL && value[D_FILE] != NULL)
+        return fail_at(c, value[D_FILE], "%s has both bodies and bodies_file (expected one "
+                       "of them)", e->problem->id);
     if ((value[D_FILE] != NULL) != (value[D_HOLDS] != NULL))
         return fail_at(c, value[D_FILE] ? value[D_FILE] : value[D_HOLDS],
                        "file_holds goes with bodies_file (expected both or neither)");
@@ -2445,7 +2452,7 @@ static dm_status read_data_keys(suite_build *b, const yaml_node_t *node, problem
     *period_of = value[D_PERIOD_OF];
     if (d->n < 2)
         return fail_at(c, value[D_BODIES] ? value[D_BODIES] : value[D_FILE],
-                       "%d bodies (expected 2 to %d)", d->n, DM_NBODY_MAX);
+                       "%d bod%s (expected 2 to %d)", d->n, d->n == 1 ? "y" : "ies", DM_NBODY_MAX);
     return DM_OK;
 }
 

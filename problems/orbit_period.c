@@ -285,7 +285,7 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "%.17g through q0 = %.17g", what, E, q0);
     if (!left || !right)
         return dm_error_set(err, DM_EINPUT, "%s: the orbit of energy %.17g through q0 = "
-                            "%.17g is unbounded (no turning point within %g %s of it): "
+                            "%.17g is unbounded (no turning point within %g %s it): "
                             "no period", what, E, q0, reach, left ? "above" : "below");
     if (!(qp - qm > 2e-6 * fmax(1.0, fabs(q0))))
         return dm_error_set(err, DM_EINPUT, "%s: the start q0 = %.17g at energy %.17g is an "

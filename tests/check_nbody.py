@@ -105,6 +105,28 @@ def main():
         check(p.returncode == 2 and err.count("\n") == 0 and f"{bad}:2:1:" in err and
               "7 fields" in err and not os.path.exists(f"{tmp}/bad.h5"),
               f"bad bodies file: exit {p.returncode}, {err!r}")
+        # --resume after the bodies file changed: refused in one line, the file as it was
+        # (its runs were of the old bodies; continuing them, or dropping them for the new
+        # system's runs, would mislead)
+        sys_csv = os.path.join(tmp, "sys.csv")
+        with open(sys_csv, "w") as f:
+            f.write("A, 1, 0, 0, 0, 0, 0, 0\nB, 1e-3, 1, 0, 0, 0, 1, 0\n")
+        with open(suite, "w") as f:
+            f.write(f"output: {tmp}/sys.h5\nhorizon: {{time: 100}}\nproblems:\n"
+                    f"  - problem: nbody\n    G: 1\n    units: u\n    bodies_file: sys.csv\n"
+                    f"    file_holds: velocities\nmethods:\n  - {{method: verlet, h: 0.1}}\n")
+        p = run(EXE, ["run", suite], cwd=tmp)
+        check(p.returncode == 0, f"sys run: exit {p.returncode} {p.stderr!r}")
+        before = open(f"{tmp}/sys.h5", "rb").read()
+        with open(sys_csv, "w") as f:
+            f.write("A, 1, 0, 0, 0, 0, 0, 0\nB, 5e-3, 1, 0, 0, 0, 1, 0\n")
+        p = run(EXE, ["run", "--resume", f"{tmp}/sys.h5"], cwd=tmp)
+        err = p.stderr.strip()
+        check(p.returncode == 2 and err.count("\n") == 0 and "cannot resume" in err
+              and "changed since" in err,
+              f"resume after the bodies changed: exit {p.returncode}, {err!r}")
+        check(p.returncode == 2 and open(f"{tmp}/sys.h5", "rb").read() == before,
+              "the refused resume leaves the file as it was")
     finish("check_nbody")
 
 

@@ -386,11 +386,12 @@ static void write_file(const char *path, const char *text)
 static void bad_bodies_are_refused_in_one_line(void **state)
 {
     (void)state;
-    refused(HEAD "    units: u\n" TWO METHODS, SRC ":4:5:", "needs G, units");
-    refused(HEAD "    G: 1\n" TWO METHODS, SRC ":4:5:", "needs G, units");
+    refused(HEAD "    units: u\n" TWO METHODS, SRC ":4:5:", "needs G (the constant");
+    refused(HEAD "    G: 1\n" TWO METHODS, SRC ":4:5:", "needs units");
+    refused(HEAD "    G: 1\n    units: u\n" METHODS, SRC ":4:5:", "needs its bodies");
     refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
                  "      - {name: a, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n" METHODS,
-            SRC ":8:7:", "1 bodies");
+            SRC ":8:7:", "1 body (expected 2");
     refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
                  "      - {name: a, mass: -1, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
                  "      - {name: b, mass: 1, position: [1, 0, 0], velocity: [0, 1, 0]}\n" METHODS,
