@@ -146,7 +146,10 @@ int dm_cmd_compare(int argc, char **argv)
         int bad = 0;
         switch (c) {
         case 't': bad = parse_tolerance("--tolerance", optarg, &o.tolerance); break;
-        case 'T': bad = parse_tolerance("--time-tolerance", optarg, &o.time_tolerance); break;
+        case 'T':
+            bad = parse_tolerance("--time-tolerance", optarg, &o.time_tolerance);
+            o.timings_judge = true; /* asked for: timings count in the verdict */
+            break;
         case 'f': bad = dm_cli_format_option("compare", optarg, &format); break;
         case 'h': printf("%s\n", usage); return 0;
         default:

@@ -151,6 +151,10 @@ static int compare_pair(sink *s, const dm_summary_row *a, const dm_summary_row *
             snprintf(d->old_text, sizeof d->old_text, "%s", pa);
             snprintf(d->new_text, sizeof d->new_text, "%s", pb);
         }
+        if (judged(f->name) == TIMING && !o->timings_judge) {
+            within = true; /* listed, judging nothing */
+            continue;
+        }
         better = better || ch == DM_BETTER;
         worse = worse || ch == DM_WORSE;
         within = within || ch == DM_WITHIN;

@@ -86,15 +86,21 @@ with tempfile.TemporaryDirectory() as tmp:
     # the same change the other way round is better, exit 0
     p, d = compare(c, a, tmp)
     check(p.returncode == 0 and d["better"] == 1, f"better: {p.returncode} {d}")
-    # 4. timings: 20 % slower passes, 3 times slower is worse
+    # 4. timings judge only when asked (--time-tolerance): then 20 % slower passes and
+    #    3 times slower is worse; by default a timing is listed but judges nothing
     t = os.path.join(tmp, "t.h5")
     shutil.copyfile(a, t)
     scale_summary(t, run_id, "ns_per_step", 1.2)
-    p, d = compare(a, t, tmp)
+    p, d = compare(a, t, tmp, "--time-tolerance", "0.5")
     check(p.returncode == 0 and d["within"] == 1, f"timing within: {p.returncode} {d}")
     scale_summary(t, run_id, "ns_per_step", 2.5)
+    p, d = compare(a, t, tmp, "--time-tolerance", "0.5")
+    check(p.returncode == 4 and d["worse"] == 1, f"timing worse when asked: {p.returncode} {d}")
     p, d = compare(a, t, tmp)
-    check(p.returncode == 4, f"timing worse: {p.returncode} {d}")
+    listed = [x for x in d["differences"] if x["figure"] == "ns_per_step"]
+    check(p.returncode == 0 and d["worse"] == 0 and d["within"] == 1 and len(listed) == 1
+          and listed[0]["change"] == "worse",
+          f"by default a timing is listed and judges nothing: {p.returncode} {d}")
     # 5. runs in one file only
     e = make("e", "  - {problem: harmonic}\n")
     p, d = compare(a, e, tmp, "--time-tolerance", "1e6")  # timings of reruns: any

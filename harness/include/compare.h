@@ -27,6 +27,9 @@ const char *dm_change_name(dm_change change);
 typedef struct dm_compare_options {
     double tolerance;        /* relative, for errors, costs and plain values */
     double time_tolerance;   /* relative, for timings */
+    bool timings_judge;      /* a timing beyond time_tolerance makes its run better or
+                                worse; false: timings are listed but judge nothing (they
+                                are noise on a shared machine) */
 } dm_compare_options;
 
 /* One figure of one run that is not the same (or a run in one file only). */
