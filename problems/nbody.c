@@ -22,6 +22,7 @@
 #include "nbody.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "dm_fused_loop.h"
@@ -217,6 +218,15 @@ static dm_section period_section(const dm_nbody *d)
                          .ref = 3 * r + axis };
 }
 
+/* A body as an error names it: its name, or its place in the list. */
+static void body_label(const dm_nbody *d, int i, char *out, size_t size)
+{
+    if (d->name[i][0] != '\0')
+        snprintf(out, size, "body '%s'", d->name[i]);
+    else
+        snprintf(out, size, "body %d", i + 1);
+}
+
 static dm_status setup(dm_instance *inst, dm_error *err)
 {
     const dm_nbody *d = bodies(inst);
@@ -224,6 +234,17 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         return dm_error_set(err, DM_EINPUT, "nbody: %d bodies (expected 2 to %d)", d->n,
                             DM_NBODY_MAX);
     inst->dof = 3 * d->n;
+    /* Two bodies at one place: the pair's force is infinite from the start. */
+    for (int i = 0; i < d->n; i++)
+        for (int j = i + 1; j < d->n; j++)
+            if (d->position[i][0] == d->position[j][0] &&
+                d->position[i][1] == d->position[j][1] && d->position[i][2] == d->position[j][2]) {
+                char a[DM_NBODY_NAME_MAX + 16], b[DM_NBODY_NAME_MAX + 16];
+                body_label(d, i, a, sizeof a);
+                body_label(d, j, b, sizeof b);
+                return dm_error_set(err, DM_EINPUT, "nbody: %s and %s start at the same "
+                                    "position (expected distinct positions)", a, b);
+            }
     /* To the barycentric frame: the centre of mass at the origin, at rest. */
     double M = 0.0, C[3] = { 0, 0, 0 }, U[3] = { 0, 0, 0 };
     for (int i = 0; i < d->n; i++) {
@@ -254,9 +275,13 @@ static dm_status setup(dm_instance *inst, dm_error *err)
      * circular orbit of radius R about mass M sets the scale */
     a[A_P_SCALE] = p_sum > 0.0 ? p_sum : M * sqrt(inst->param[P_G] * M / a[A_R_SCALE]);
     a[A_L_SCALE] = l_sum > 0.0 ? l_sum : a[A_R_SCALE] * a[A_P_SCALE];
-    if (!(a[A_R_SCALE] > 0.0) || !isfinite(a[A_P_SCALE]) || !(a[A_L_SCALE] > 0.0))
-        return dm_error_set(err, DM_EINPUT, "nbody: the bodies give no length or momentum "
-                            "scale (expected bodies at distinct positions)");
+    if (!(a[A_R_SCALE] > 0.0) || !(a[A_P_SCALE] > 0.0) || !isfinite(a[A_P_SCALE]) ||
+        !(a[A_L_SCALE] > 0.0) || !isfinite(a[A_L_SCALE]))
+        return dm_error_set(err, DM_EINPUT, "nbody: the bodies' momentum or angular "
+                            "momentum scale (%.3g, %.3g from total mass %.3g, G %.3g and a "
+                            "size %.3g) is zero or beyond double precision (expected masses, "
+                            "G and velocities whose products stay within 1e-300 .. 1e300)",
+                            a[A_P_SCALE], a[A_L_SCALE], M, inst->param[P_G], a[A_R_SCALE]);
     double grad[DM_MAX_DOF];
     inst->energy = kinetic(inst, inst->p0) + force(inst, inst->q0, grad);
     inst->regime = 0;

@@ -390,6 +390,16 @@ static void bad_bodies_are_refused_in_one_line(void **state)
     refused(HEAD "    G: 1\n" TWO METHODS, SRC ":4:5:", "needs units");
     refused(HEAD "    G: 1\n    units: u\n" METHODS, SRC ":4:5:", "needs its bodies");
     refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
+                 "      - {name: a, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
+                 "      - {name: b, mass: 1, position: [1, 0, 0], velocity: [0, 1, 0]}\n"
+                 "      - {mass: 1, position: [1, 0, 0], velocity: [0, 0, 1]}\n" METHODS,
+            SRC ":4:5:", "body 'b' and body 3 start at the same position");
+    refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
+                 "      - {name: a, mass: 1e-300, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
+                 "      - {name: b, mass: 1e-300, position: [1, 0, 0], velocity: [0, 1, 0]}\n"
+                 METHODS,
+            SRC ":4:5:", "momentum scale (0, 0 from total mass 2e-300");
+    refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
                  "      - {name: a, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n" METHODS,
             SRC ":8:7:", "1 body (expected 2");
     refused(HEAD "    G: 1\n    units: u\n    bodies:\n"
