@@ -379,11 +379,21 @@ dm_status dm_formula_compile(formula_problem *F, dm_error *err)
     dm_status st = cache_dir(dir, sizeof dir, err);
     if (st == DM_OK)
         st = build_object(dir, key, src, cc, fl, obj, sizeof obj, &seconds, err);
-    free(src);
     const dm_problem *pb = NULL;
     char hash[17];
     if (st == DM_OK)
         st = dm_problem_load(obj, &pb, hash, err);
+    if (st != DM_OK && seconds == 0.0 && access(obj, F_OK) == 0) {
+        /* a cached object that does not load (damaged, cut short): built again, once */
+        fprintf(stderr, "driftmark: formula problem %s: the cached %s does not load (%s); "
+                "compiling it again\n", F->id, obj, err->msg);
+        dm_error_clear(err);
+        unlink(obj);
+        st = build_object(dir, key, src, cc, fl, obj, sizeof obj, &seconds, err);
+        if (st == DM_OK)
+            st = dm_problem_load(obj, &pb, hash, err);
+    }
+    free(src);
     if (st == DM_OK && pb->dof != F->dof)
         st = dm_error_set(err, DM_EIO, "%s has %d coordinates, not %d", obj, pb->dof, F->dof);
     if (st != DM_OK)

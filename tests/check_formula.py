@@ -240,6 +240,18 @@ methods:
             check(np.array_equal(y[k][()], z[k][()]), f"fallbacks differ in {k}")
     p3, _ = run_suite(tmp, "lamp", pend)
     check("from the cache" in p3.stderr, f"second run takes the cached object: {p3.stderr}")
+    # a damaged cached object is compiled again (not given up for the evaluator for good)
+    import glob
+    for so in glob.glob(os.path.join(tmp, "cache", "driftmark", "formula-*.so")):
+        with open(so, "w") as f:
+            f.write("damaged\n")
+    p4, again = run_suite(tmp, "lamp-again", pend)
+    p5, _ = run_suite(tmp, "lamp-again", pend)
+    with h5py.File(again) as g:
+        code = g["runs"]["lamp-g1.5-c0.01-q02.5-p00.1.yoshida4-h0.05"].attrs["formula_code"]
+    check("compiling it again" in p4.stderr and code == "compiled"
+          and "from the cache" in p5.stderr and "warning" not in p4.stderr + p5.stderr,
+          f"a damaged cached object is rebuilt: {p4.stderr!r} {p5.stderr!r} {code}")
 
     # ---- refusals: one line naming the place, exit 2, nothing written ----
     bad = [
