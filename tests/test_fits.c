@@ -198,6 +198,20 @@ static void random_walk_series_average_one_half(void **state)
     double mean = sum / paths;
     print_message("random walks: mean exponent %.3f over %d paths\n", mean, paths);
     assert_true(fabs(mean - 0.5) <= 0.1);
+    /* ... and a walk is not taken for a wander that stopped: over 256 more paths none
+     * is called "slowed" (a walk's running max stands still over the last decade about
+     * one time in five, but it did not grow linearly before) */
+    int slowed = 0, still = 0;
+    for (int i = 0; i < 256; i++) {
+        fake_series(&f, 1024, 64, 2000, 1e-15, 0.0, 1e-14);
+        const char *why = NULL;
+        double q = dm_drift_exponent(&f.s, 1.0, &why);
+        slowed += strncmp(why, "slowed", 6) == 0;
+        still += q < 0.1;
+    }
+    print_message("random walks: %d of 256 with an exponent below 0.1, %d called slowed\n",
+                  still, slowed);
+    assert_int_equal(slowed, 0);
 
     /* a pure drift beside a large oscillation: exactly linear growth of the centre */
     fake_series(&f, 1024, 256, 100, 0.0, 1e-12, 1e-8);
@@ -217,6 +231,53 @@ static void random_walk_series_average_one_half(void **state)
     fake_series(&f, 1024, 256, 100, 0.0, 0.0, 8.0 * DBL_EPSILON);
     assert_true(isnan(dm_drift_exponent(&f.s, 1.0, &why)));
     assert_non_null(strstr(why, "round-off"));
+}
+
+/* A slow bounded wander of the band's centre (here a swing up as t^2 over the first
+ * 100 periods that then stays, beside a fast oscillation) over 1000 periods: the centre
+ * stood still over the last decade, so the exponent is about 0 (bounded), not the
+ * window's mixed slope of the early swing and the standstill; the same at other
+ * samples. A centre that keeps growing as t^2 keeps its exponent 2. */
+static void a_wander_that_stopped_is_bounded(void **state)
+{
+    (void)state;
+    static fake_run f;
+    const size_t sizes[2] = { 1024, 4096 };
+    for (int keep_growing = 0; keep_growing < 2; keep_growing++)
+        for (int z = 0; z < 2; z++) {
+            size_t samples = sizes[z];
+            const uint64_t per = 64, periods = 1000;
+            uint64_t k = 0, steps = per * periods;
+            for (size_t b = 0; b < samples; b++) {
+                uint64_t k_end = steps * (b + 1) / samples;
+                double lo = INFINITY, hi = -INFINITY, de = 0.0;
+                for (; k < k_end; k++) {
+                    double t = (double)(k + 1) / (double)per;
+                    double swing = keep_growing ? t / 100.0 : fmin(t, 100.0) / 100.0;
+                    de = 1e-3 * swing * swing + 1e-3 * sin(2.0 * M_PI * t);
+                    lo = fmin(lo, de);
+                    hi = fmax(hi, de);
+                }
+                f.t[b] = (double)k / (double)per;
+                f.e[b] = de;
+                f.lo[b] = lo;
+                f.hi[b] = hi;
+            }
+            f.s.n = f.s.capacity = samples;
+            f.s.time = f.t;
+            f.s.energy_error = f.e;
+            f.s.energy_error_min = f.lo;
+            f.s.energy_error_max = f.hi;
+            const char *why = NULL;
+            double p = dm_drift_exponent(&f.s, 1.0, &why);
+            print_message("centre %s, samples %zu: exponent %.3f (%s)\n",
+                          keep_growing ? "growing as t^2" : "stopped at 100 periods", samples,
+                          p, why);
+            if (keep_growing)
+                assert_true(p >= 1.5 && why[0] == '\0'); /* faster; (t0 + tau)^2 - t0^2 */
+            else
+                assert_true(fabs(p) < 0.05 && strncmp(why, "slowed", 6) == 0);
+        }
 }
 
 /* Plain against compensated summation (Kahan 1965) where round-off is all there is:
@@ -492,6 +553,7 @@ int main(void)
         cmocka_unit_test(rk4_linear_loss_has_exponent_one_at_any_samples),
         cmocka_unit_test(exponent_is_the_same_in_scaled_units),
         cmocka_unit_test(random_walk_series_average_one_half),
+        cmocka_unit_test(a_wander_that_stopped_is_bounded),
         cmocka_unit_test(round_off_grows_in_plain_sums_not_in_compensated),
         cmocka_unit_test(saturated_runs_leave_the_energy_fit),
         cmocka_unit_test(fit_codes_sign_change_floor_and_counts),
