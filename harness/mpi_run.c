@@ -406,7 +406,7 @@ static void on_result(coordinator *c, const MPI_Status *s)
                 dm_error_prefix(&e, "%s: ", job->suite->runs[i].id);
                 fail(c, &e, 0);
             } else {
-                dm_run_result_drop_series(&job->results[i]);
+                dm_queue_drop_series(&c->queue, i);
             }
         }
         dm_queue_mark_done(&c->queue, i);
