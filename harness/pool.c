@@ -333,8 +333,9 @@ void dm_queue_serve(dm_work_queue *q)
         dm_error err = { 0 };
         /* an interrupted run read back with its checkpoint continues from it */
         dm_run_watch watch = { .stop = q->stop, .index = i, .ctx = q };
-        if (q->snaps != NULL) {
+        if (q->snaps != NULL) { /* it answers the save points asked for from now on */
             watch.save_request = &q->save_request;
+            watch.answered = __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
             watch.snapshot = take_snapshot;
         }
         dm_status st = dm_run_watched(spec, &q->results[i], &watch, &err);

@@ -699,13 +699,14 @@ static void interrupt(run_context *c)
              (unsigned long long)c->loop.k, c->cur->t);
 }
 
-/* Copies n doubles into a new array (room for one at least); NULL stays NULL. */
-static int copy_doubles(double **to, const double *from, size_t n)
+/* The first n of an array of `capacity` doubles into a new one of the same capacity
+ * (so that the copy can be continued); NULL stays NULL. */
+static int copy_doubles(double **to, const double *from, size_t n, size_t capacity)
 {
     *to = NULL;
     if (from == NULL)
         return 0;
-    *to = malloc((n > 0 ? n : 1) * sizeof(double));
+    *to = malloc((capacity > 0 ? capacity : 1) * sizeof(double));
     if (*to == NULL)
         return -1;
     memcpy(*to, from, n * sizeof(double));
@@ -730,22 +731,25 @@ static void snapshot(run_context *c, size_t bucket, bool in_bucket)
     copy->checkpoint = NULL;
     dm_series *s = &copy->series;
     dm_crossings *x = &copy->crossings;
-    s->n = s->capacity = r->series.n;
+    s->n = r->series.n;
+    s->capacity = r->series.capacity;
     s->n_invariants = r->series.n_invariants;
-    x->n = x->capacity = r->crossings.n;
+    x->n = r->crossings.n;
+    x->capacity = r->crossings.capacity;
     x->stride = r->crossings.stride;
-    int rc = copy_doubles(&s->time, r->series.time, s->n);
-    rc |= copy_doubles(&s->energy_error, r->series.energy_error, s->n);
-    rc |= copy_doubles(&s->energy_error_min, r->series.energy_error_min, s->n);
-    rc |= copy_doubles(&s->energy_error_max, r->series.energy_error_max, s->n);
-    rc |= copy_doubles(&s->global_error, r->series.global_error, s->n);
+    size_t sn = s->n, sc = s->capacity, xn = x->n, xc = x->capacity;
+    int rc = copy_doubles(&s->time, r->series.time, sn, sc);
+    rc |= copy_doubles(&s->energy_error, r->series.energy_error, sn, sc);
+    rc |= copy_doubles(&s->energy_error_min, r->series.energy_error_min, sn, sc);
+    rc |= copy_doubles(&s->energy_error_max, r->series.energy_error_max, sn, sc);
+    rc |= copy_doubles(&s->global_error, r->series.global_error, sn, sc);
     for (int j = 0; j < s->n_invariants; j++)
-        rc |= copy_doubles(&s->invariant_error[j], r->series.invariant_error[j], s->n);
-    rc |= copy_doubles(&x->number, r->crossings.number, x->n);
-    rc |= copy_doubles(&x->time, r->crossings.time, x->n);
-    rc |= copy_doubles(&x->phase_error, r->crossings.phase_error, x->n);
-    rc |= copy_doubles(&x->section_q, r->crossings.section_q, x->n);
-    rc |= copy_doubles(&x->section_p, r->crossings.section_p, x->n);
+        rc |= copy_doubles(&s->invariant_error[j], r->series.invariant_error[j], sn, sc);
+    rc |= copy_doubles(&x->number, r->crossings.number, xn, xc);
+    rc |= copy_doubles(&x->time, r->crossings.time, xn, xc);
+    rc |= copy_doubles(&x->phase_error, r->crossings.phase_error, xn, xc);
+    rc |= copy_doubles(&x->section_q, r->crossings.section_q, xn, xc);
+    rc |= copy_doubles(&x->section_p, r->crossings.section_p, xn, xc);
     if (rc != 0) {
         dm_run_result_free(copy);
         free(copy);
@@ -838,8 +842,7 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
     run_context *c = &(run_context){ .spec = spec, .inst = &spec->inst, .result = result,
                                      .stop = watch->stop, .watch = watch,
                                      .status = DM_RUN_OK };
-    if (watch->save_request != NULL) /* answer the save points asked for from now on */
-        c->save_seen = __atomic_load_n(watch->save_request, __ATOMIC_RELAXED);
+    c->save_seen = watch->answered;
     const dm_instance *inst = c->inst;
     const int n = inst->dof;
     dm_run_metrics *m = &result->metrics;

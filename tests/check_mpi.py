@@ -48,7 +48,7 @@ methods:
 N_RUNS = 4 * 7
 
 # Wall-clock figures and the start time differ between any two runs, even of one process.
-TIMING = {"wall_seconds", "ns_per_step", "start_time_utc"}
+TIMING = {"wall_seconds", "ns_per_step", "start_time_utc", "times_continued"}
 
 
 def check(cond, what):
@@ -178,8 +178,8 @@ def check_resume_continues_on_any_rank(tmp):
     whatever rank it lands (rank 0 sends the checkpoint with the run): the resumed file
     equals the uninterrupted one bit for bit. That the checkpoint is used there, and the
     run not started again, shows in a copy whose checkpoints claim a larger |dE| so far
-    (word 15 + 2 d + 5 of the record for d degrees of freedom, results/README.md): the
-    claim is carried to the end."""
+    (word o + 5 of the record for d degrees of freedom, o = 16 + 2 d in layout 3, 15 + 2 d
+    in layout 2, results/README.md): the claim is carried to the end."""
     suite = os.path.join(tmp, "continued.yaml")
     with open(suite, "w") as f:
         f.write(CONTINUED.format(out=os.path.join(tmp, "continued.h5")))
@@ -204,7 +204,8 @@ def check_resume_continues_on_any_rank(tmp):
         for rid in stopped:
             ck = f["runs"][rid]["checkpoint"]
             dof = int(ck[1])
-            ck[15 + 2 * dof + 5] = np.array([0.25]).view("<u8")[0]
+            o = (16 if int(ck[0]) >= 3 else 15) + 2 * dof
+            ck[o + 5] = np.array([0.25]).view("<u8")[0]
     # resumed over 3 ranks of one thread: rank 0's thread takes one run, the others go
     # to ranks 1 and 2 with their checkpoints
     p = run_mpi(3, ["--resume", part, "-j", "1"])

@@ -216,14 +216,15 @@ dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
                         const volatile int *stop, dm_error *err);
 /* What a run looks at when it polls (every 2^16 fixed steps, 4096 adaptive steps and at
  * bucket ends): a stop request, and save points. `save_request` (may be NULL) is a
- * counter raised by whoever saves: a run that sees it changed since the run started or
- * last answered hands `snapshot` a new result (owned by the callee: free it with
+ * counter raised by whoever saves: a run that sees it differ from the value it last
+ * answered (at first `answered`) hands `snapshot` a new result (owned by the callee: free it with
  * dm_run_result_free, then free) that is exactly what the run's result would be had a
  * stop ended it there (status interrupted, its series so far, a checkpoint), and
  * carries on unchanged. `request` is the counter's value answered. */
 typedef struct dm_run_watch {
     const volatile int *stop;
     const unsigned *save_request;
+    unsigned answered;
     void (*snapshot)(void *ctx, size_t index, dm_run_result *copy, unsigned request);
     void *ctx;
     size_t index;
