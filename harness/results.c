@@ -972,10 +972,11 @@ static int copy_bytes(const char *from, const char *to)
         close(in);
         return -1;
     }
-    static _Thread_local char buf[1 << 20];
-    int rc = 0;
-    for (;;) {
-        ssize_t n = read(in, buf, sizeof buf);
+    size_t size = (size_t)1 << 20;
+    char *buf = malloc(size);
+    int rc = buf != NULL ? 0 : -1;
+    while (rc == 0) {
+        ssize_t n = read(in, buf, size);
         if (n == 0)
             break;
         if (n < 0) {
@@ -994,9 +995,8 @@ static int copy_bytes(const char *from, const char *to)
             }
             done += m;
         }
-        if (rc != 0)
-            break;
     }
+    free(buf);
     close(in);
     if (close(out) != 0)
         rc = -1;
