@@ -165,6 +165,13 @@ def main():
         check(p.returncode == 0, f"uninterrupted: {p.returncode} {p.stderr.strip()}")
         check("save point" not in p.stderr, f"--save-every 0: no save point: {p.stderr!r}")
 
+        # a bad interval: one line naming it, exit 2, nothing written
+        for bad in ("-1", "soon", "nan"):
+            p = run(EXE, ["run", "s.yaml", "-o", "bad.h5", "--save-every", bad], cwd=tmp)
+            check(p.returncode == 2 and p.stderr.count("\n") == 1 and "--save-every" in p.stderr
+                  and not os.path.exists(os.path.join(tmp, "bad.h5")),
+                  f"--save-every {bad}: {p.returncode} {p.stderr!r}")
+
         killed_and_resumed(tmp, full, 1, "one job")
         killed_and_resumed(tmp, full, 2, "two jobs")
 
