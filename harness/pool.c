@@ -122,6 +122,8 @@ static void count_done(dm_work_queue *q, size_t i)
 {
     q->done++;
     running_remove(q, i);
+    if (q->where[i] == DM_RUN_ELSEWHERE)
+        q->n_elsewhere--;
     q->where[i] = DM_RUN_DONE;
     if (q->snaps != NULL) { /* its file group replaces its snapshot */
         snap_free(q->snaps[i]);
@@ -159,7 +161,7 @@ static void take_snapshot(void *ctx, size_t i, dm_run_result *copy, unsigned req
     snap_free(copy);
 }
 
-/* Every run running here answered `request` (under the lock). */
+/* Every run running here, or on another MPI rank, answered `request` (under the lock). */
 static bool all_answered(const dm_work_queue *q, unsigned request)
 {
     for (size_t j = 0; j < q->n_running; j++) {
@@ -167,6 +169,10 @@ static bool all_answered(const dm_work_queue *q, unsigned request)
         if (q->snaps[i] == NULL || q->snap_request[i] != request)
             return false;
     }
+    for (size_t i = 0; q->n_elsewhere > 0 && i < q->suite->n_runs; i++)
+        if (q->where[i] == DM_RUN_ELSEWHERE &&
+            (q->snaps[i] == NULL || q->snap_request[i] != request))
+            return false;
     return true;
 }
 
@@ -205,7 +211,7 @@ static double save_point(dm_work_queue *q)
     if (pending == NULL)
         return 0.0;
     for (size_t i = 0; i < n; i++) {
-        if (q->where[i] == DM_RUN_HERE)
+        if (q->where[i] == DM_RUN_HERE || q->where[i] == DM_RUN_ELSEWHERE)
             pending[i] = q->snaps[i];
         else if (q->where[i] == DM_RUN_QUEUED && q->results[i].status != DM_RUN_NOT_RUN)
             pending[i] = &q->results[i]; /* read back by --resume, not started yet */
@@ -240,6 +246,62 @@ static void *saver_thread(void *arg)
     }
     pthread_mutex_unlock(&q->lock);
     return NULL;
+}
+
+dm_status dm_queue_enable_snapshots(dm_work_queue *q, dm_error *err)
+{
+    size_t n = q->suite->n_runs ? q->suite->n_runs : 1;
+    if (q->snaps != NULL)
+        return DM_OK;
+    q->snaps = calloc(n, sizeof *q->snaps);
+    q->snap_request = calloc(n, sizeof *q->snap_request);
+    if (q->snaps == NULL || q->snap_request == NULL) {
+        free(q->snaps);
+        free(q->snap_request);
+        q->snaps = NULL;
+        q->snap_request = NULL;
+        return dm_error_set(err, DM_ENOMEM, "out of memory for the snapshots of %zu runs", n);
+    }
+    return DM_OK;
+}
+
+void dm_queue_ask_snapshots(dm_work_queue *q)
+{
+    if (q->snaps != NULL)
+        __atomic_add_fetch(&q->save_request, 1u, __ATOMIC_RELAXED);
+}
+
+unsigned dm_queue_save_request(dm_work_queue *q)
+{
+    return __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
+}
+
+size_t dm_queue_take_snapshots(dm_work_queue *q, dm_run_result **out, size_t *idx)
+{
+    size_t n = 0;
+    pthread_mutex_lock(&q->lock);
+    for (size_t i = 0; q->snaps != NULL && i < q->suite->n_runs; i++)
+        if (q->snaps[i] != NULL) {
+            out[n] = q->snaps[i];
+            idx[n++] = i;
+            q->snaps[i] = NULL;
+        }
+    pthread_mutex_unlock(&q->lock);
+    return n;
+}
+
+void dm_queue_put_snapshot(dm_work_queue *q, size_t i, dm_run_result *copy)
+{
+    pthread_mutex_lock(&q->lock);
+    if (q->snaps != NULL && i < q->suite->n_runs && q->where[i] == DM_RUN_ELSEWHERE) {
+        snap_free(q->snaps[i]);
+        q->snaps[i] = copy;
+        q->snap_request[i] = __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
+        copy = NULL;
+        pthread_cond_broadcast(&q->save_wake);
+    }
+    pthread_mutex_unlock(&q->lock);
+    snap_free(copy);
 }
 
 void dm_queue_drop_series(dm_work_queue *q, size_t i)
@@ -390,6 +452,7 @@ size_t dm_queue_take(dm_work_queue *q, size_t k, size_t *out)
     if (!stopped(q) && !q->failed) {
         while (n < k && q->next < q->n_order) {
             q->where[q->order[q->next]] = DM_RUN_ELSEWHERE;
+            q->n_elsewhere++;
             out[n++] = q->order[q->next++];
         }
         if (n > 0) {
