@@ -84,8 +84,9 @@ static int default_jobs(void)
 
 static void print_usage(FILE *out)
 {
-    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5] [-j JOBS] [--force]\n"
-                 "       driftmark run --resume FILE.h5 [-j JOBS]\n"
+    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5] [-j JOBS] [--force] "
+                 "[--save-every S]\n"
+                 "       driftmark run --resume FILE.h5 [-j JOBS] [--save-every S]\n"
                  "  with no SUITE, runs the built-in default suite\n"
                  "  -o, --output FILE   results file (default: the suite's output)\n"
                  "  -j, --jobs N        runs at once (default: every core)\n"
