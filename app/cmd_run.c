@@ -85,14 +85,19 @@ static int default_jobs(void)
 
 static void print_usage(FILE *out)
 {
-    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5] [-j JOBS] [--force]\n"
-                 "       driftmark run --resume FILE.h5 [-j JOBS]\n"
+    fprintf(out, "usage: driftmark run [SUITE.yaml] [-o OUT.h5] [-j JOBS] [--force] "
+                 "[--save-every S]\n"
+                 "       driftmark run --resume FILE.h5 [-j JOBS] [--save-every S]\n"
                  "  with no SUITE, runs the built-in default suite\n"
                  "  -o, --output FILE   results file (default: the suite's output)\n"
                  "  -j, --jobs N        runs at once (default: every core)\n"
                  "  -f, --force         replace an existing results file\n"
                  "  -r, --resume FILE   continue the suite stored in FILE: keep its completed\n"
                  "                      runs, run the rest, and rewrite FILE\n"
+                 "      --save-every S  every S seconds of the run (default 600; 0: never)\n"
+                 "                      leave a complete file at OUT: the finished runs, and\n"
+                 "                      the running ones as interrupted with a checkpoint, so\n"
+                 "                      --resume OUT continues after a kill -9 or a crash\n"
                  "      --plan          list the runs, their steps, work and memory and a\n"
                  "                      rough time (from a short probe), and run nothing\n");
     if (dm_mpi_built())
@@ -195,6 +200,7 @@ typedef struct run_options {
     bool force;
     bool plan;
     int jobs;
+    double save_every;             /* seconds between save points; 0: none */
 } run_options;
 
 /* Reads the command line into *o. Returns -1 to go on, else the exit status (after
@@ -207,10 +213,12 @@ static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_o
         { "force", no_argument, NULL, 'f' },
         { "resume", required_argument, NULL, 'r' },
         { "plan", no_argument, NULL, 'P' },
+        { "save-every", required_argument, NULL, 'S' },
         { "help", no_argument, NULL, 'h' },
         { NULL, 0, NULL, 0 },
     };
-    *o = (run_options){ .jobs = dm_mpi_default_jobs(world, default_jobs()) };
+    *o = (run_options){ .jobs = dm_mpi_default_jobs(world, default_jobs()),
+                        .save_every = DM_DEFAULT_SAVE_EVERY };
     int c;
     optind = 1;
     opterr = 0;
@@ -220,6 +228,12 @@ static int parse_options(int argc, char **argv, const dm_mpi_world *world, run_o
         case 'f': o->force = true; break;
         case 'r': o->resume = optarg; break;
         case 'P': o->plan = true; break;
+        case 'S':
+            if (dm_parse_double(optarg, &o->save_every) != 0 || !(o->save_every >= 0) ||
+                o->save_every > 1e9)
+                return dm_cli_usage_error("run", "--save-every takes seconds from 0 (never) "
+                                          "to 1e9, not '%s'", optarg);
+            break;
         case 'j': {
             double v;
             if (dm_parse_double(optarg, &v) != 0 || v < 1 || v > 1024 || v != floor(v))
@@ -365,6 +379,22 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
     return code;
 }
 
+/* One line on the save points taken (their cost against the time the runs took), or
+ * on the last that failed; nothing when there were none. */
+static void report_saves(const dm_suite *suite, dm_results_writer *writer, double seconds)
+{
+    dm_save_stats s = dm_results_writer_save_stats(writer);
+    if (s.saves > 0)
+        fprintf(stderr, "driftmark: run: %zu save points to %s, %.1f ms each on average "
+                        "(at most %.1f ms; %.3f %% of %.1f s), the last of %.1f MB\n",
+                s.saves, suite->output, 1e3 * s.total_seconds / (double)s.saves,
+                1e3 * s.max_seconds, seconds > 0 ? 100.0 * s.total_seconds / seconds : 0.0,
+                seconds, (double)s.last_bytes / 1e6);
+    if (s.failures > 0)
+        fprintf(stderr, "driftmark: run: %zu save points not written; the last: %s\n",
+                s.failures, s.last_error.msg);
+}
+
 /* Rank 0 (or the one process), with the suite loaded and checked and the file open:
  * runs what `results` does not hold yet, longest first, then completes the file and
  * reports. Returns the exit status. */
@@ -400,6 +430,7 @@ static int run_suite(const dm_mpi_world *world, const dm_suite *suite, dm_run_re
         /* 3. run them (each written as it finishes), then complete the file and report */
         double t0 = dm_clock_seconds();
         code = run_runs(world, suite, results, writer, order, n_order, jobs);
+        report_saves(suite, writer, dm_clock_seconds() - t0);
         code = write_and_report(suite, results, writer, fits, rows, t0, code);
     }
     free(order);
@@ -568,6 +599,8 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
     code = world->rank == 0 ? prepare(&suite, &results, &writer, started, o.suite_path,
                                       o.output, o.resume, o.force)
                             : 0;
+    if (code == 0 && writer != NULL) /* NAME is ours to replace when forced or resumed */
+        dm_results_writer_set_saves(writer, o.save_every, o.force || o.resume != NULL);
     /* every rank learns rank 0's verdict; the others validate the same suite text */
     code = dm_mpi_share_suite(world, code, &suite);
     if (code != 0) {

@@ -10,11 +10,13 @@
 
 #include "checkpoint.h"
 
-#define HEADER_WORDS 12
+/* The header: 12 words in layout 2, 13 in layout 3 (word 12: the times continued). */
+#define HEADER_WORDS(VERSION) ((VERSION) >= 3 ? 13 : 12)
 /* header, t, V, wall, x, monitor (5), max |dE|, two fits (5 each), last phase,
  * invariants, then the stepper's words */
-#define FIXED_WORDS(DOF) (HEADER_WORDS + 3 + 2 * (DOF) + 5 + 1 + 5 + 1 + 5 + DM_MAX_INVARIANTS)
-#define RECORD_MAX (FIXED_WORDS(DM_MAX_DOF) + DM_STEPPER_RECORD_MAX)
+#define FIXED_WORDS(DOF, VERSION)                                                          \
+    (HEADER_WORDS(VERSION) + 3 + 2 * (DOF) + 5 + 1 + 5 + 1 + 5 + DM_MAX_INVARIANTS)
+#define RECORD_MAX (FIXED_WORDS(DM_MAX_DOF, DM_CHECKPOINT_VERSION) + DM_STEPPER_RECORD_MAX)
 
 typedef struct cursor {
     uint64_t *w;
@@ -58,13 +60,16 @@ static void fit(cursor *c, dm_line_fit *f)
     real(c, &f->sxy);
 }
 
-/* The layout, both ways. Returns the words used (the stepper's words last: the caller
- * has checked n_stepper before reading them). */
+/* The layout, both ways: written in the current layout, read in it or in layout 2
+ * (whose runs read as never continued). Returns the words used (the stepper's words
+ * last: the caller has checked n_stepper before reading them). */
 static size_t transfer(dm_checkpoint *ck, uint64_t *w, bool save, bool header_only)
 {
     cursor c = { .w = w, .save = save };
     uint64_t version = DM_CHECKPOINT_VERSION;
     word(&c, &version);
+    if (!save && version != 2 && version != DM_CHECKPOINT_VERSION)
+        return 0;
     word(&c, &ck->dof);
     word(&c, &ck->bucket);
     flag(&c, &ck->in_bucket);
@@ -76,7 +81,12 @@ static size_t transfer(dm_checkpoint *ck, uint64_t *w, bool save, bool header_on
     flag(&c, &ck->monitor.armed);
     word(&c, &ck->n_stepper);
     real(&c, &ck->closest); /* word 11: 0 (reserved) before N-body */
-    if (!save && (version != DM_CHECKPOINT_VERSION || ck->dof < 1 || ck->dof > DM_MAX_DOF))
+    if (version >= 3)
+        word(&c, &ck->times_continued);
+    else
+        ck->times_continued = 0;
+    ck->version = version;
+    if (!save && (ck->dof < 1 || ck->dof > DM_MAX_DOF))
         return 0;
     if (header_only)
         return c.i;
@@ -106,7 +116,7 @@ int dm_checkpoint_write(hid_t group, const dm_checkpoint *ck)
     uint64_t words[RECORD_MAX];
     dm_checkpoint copy = *ck;
     hsize_t n = transfer(&copy, words, true, false);
-    if (n != FIXED_WORDS(ck->dof) + ck->n_stepper)
+    if (n != FIXED_WORDS(ck->dof, DM_CHECKPOINT_VERSION) + ck->n_stepper)
         return -1; /* the layout and FIXED_WORDS disagree: a bug, caught by the tests */
     hid_t space = H5Screate_simple(1, &n, NULL);
     hid_t d = space >= 0 ? H5Dcreate2(group, "checkpoint", H5T_STD_U64LE, space, H5P_DEFAULT,
@@ -128,12 +138,12 @@ int dm_checkpoint_write(hid_t group, const dm_checkpoint *ck)
 static bool fits_run(const dm_checkpoint *ck, size_t n_words, const dm_run_spec *spec,
                      const dm_run_result *r)
 {
-    size_t header = HEADER_WORDS;
+    size_t header = HEADER_WORDS(ck->version);
     return ck->dof == (uint64_t)spec->inst.dof && ck->bucket < spec->samples &&
            ck->series_n == r->series.n && ck->series_n <= ck->bucket &&
            ck->crossings_n == r->crossings.n && ck->crossing_stride >= 1 &&
            ck->crossings_n <= ck->crossing_count && ck->n_stepper <= DM_STEPPER_RECORD_MAX &&
-           n_words == FIXED_WORDS(ck->dof) + ck->n_stepper && n_words > header;
+           n_words == FIXED_WORDS(ck->dof, ck->version) + ck->n_stepper && n_words > header;
 }
 
 int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result *r,
@@ -154,7 +164,7 @@ int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result
                          : -1;
     uint64_t words[RECORD_MAX];
     int rc = -1;
-    if (type >= 0 && H5Tget_class(type) == H5T_INTEGER && count > HEADER_WORDS &&
+    if (type >= 0 && H5Tget_class(type) == H5T_INTEGER && count > HEADER_WORDS(2) &&
         count <= RECORD_MAX &&
         H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, words) >= 0)
         rc = 0;
@@ -168,9 +178,9 @@ int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result
     dm_checkpoint *ck = calloc(1, sizeof *ck);
     if (ck == NULL)
         return -1;
-    /* the header first: it says how many stepper words follow. A record of an older
-     * layout is no checkpoint: the run starts again, as in a file from before them. */
-    if (words[0] != DM_CHECKPOINT_VERSION) {
+    /* the header first: it says how many stepper words follow. A record of layout 1 is
+     * no checkpoint: the run starts again, as in a file from before them. */
+    if (words[0] != 2 && words[0] != DM_CHECKPOINT_VERSION) {
         free(ck);
         return 1;
     }

@@ -17,7 +17,9 @@
 #include "dm_monitor.h"
 #include "harness.h"
 
-#define DM_CHECKPOINT_VERSION 2 /* 2: the state takes 2 dof words (1: 2 * 6) */
+/* 3: word 12 holds the times the run was continued; 2: the state takes 2 dof words
+ * (1: 2 * 6). Layout 2 is still read (never continued). */
+#define DM_CHECKPOINT_VERSION 3
 
 typedef struct dm_checkpoint {
     uint64_t dof;
@@ -38,6 +40,8 @@ typedef struct dm_checkpoint {
     double wall_seconds;        /* spent so far */
     double closest;             /* closest approach of two bodies so far (N-body; else
                                    unused), in the header's word 11 */
+    uint64_t times_continued;   /* continued from a checkpoint so far (word 12) */
+    uint64_t version;           /* the layout it was read in (written: the current) */
     uint64_t n_stepper;         /* words of the stepper's own record (method.h) */
     uint64_t stepper[DM_STEPPER_RECORD_MAX];
 } dm_checkpoint;

@@ -120,7 +120,8 @@ static int compare_pair(sink *s, const dm_summary_row *a, const dm_summary_row *
         const dm_figure *f = cols[j];
         if ((f->kind != DM_FIGURE_REAL && f->kind != DM_FIGURE_COUNT &&
              f->kind != DM_FIGURE_STATUS) ||
-            strcmp(f->name, "wall_seconds") == 0) /* ns_per_step says it per step */
+            strcmp(f->name, "wall_seconds") == 0 || /* ns_per_step says it per step */
+            strcmp(f->name, "times_continued") == 0) /* how it ran, not what it measured */
             continue;
         const char *pa = (const char *)a + f->row_at, *pb = (const char *)b + f->row_at;
         double va = NAN, vb = NAN, rel = NAN;

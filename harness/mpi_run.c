@@ -17,6 +17,8 @@
  *   0 -> worker   STOP     (empty) end the running runs at their next bucket
  *   worker -> 0   FINISHED (empty) every result of the worker was sent
  *   0 -> worker   BYE      (empty) the last message to the worker
+ *   0 -> worker   SAVE     (empty) a save point: the running runs hand over snapshots
+ *   worker -> 0   SNAPSHOT bytes: a running run's snapshot, packed as a RESULT is
  * A worker has at most one REQUEST unanswered and waits for its ASSIGN before saying
  * FINISHED, and keeps receiving until BYE, so no message is ever left unmatched. Rank 0
  * only ever blocks on a message that is already on its way, and sends with MPI_Isend,
@@ -110,7 +112,7 @@ int dm_mpi_end(dm_mpi_world *w, int code) { return code; }
 
 enum {
     TAG_REQUEST = 101, TAG_ASSIGN, TAG_RESULT, TAG_FAILED, TAG_STOPPED, TAG_FINISHED,
-    TAG_STOP, TAG_BYE, TAG_RESUME
+    TAG_STOP, TAG_BYE, TAG_RESUME, TAG_SAVE, TAG_SNAPSHOT
 };
 
 /* Runs one ASSIGN carries at most: a rank with more waiting threads asks again. */
@@ -300,7 +302,8 @@ typedef struct coordinator {
     dm_work_queue queue;           /* the runs, longest first, for every rank (pool.h) */
     int size;                      /* ranks in the job */
     int *owner;                    /* the rank > 0 each run was given to, else -1 */
-    MPI_Request *assign_req, *stop_req, *bye_req;
+    MPI_Request *assign_req, *stop_req, *bye_req, *save_req;
+    unsigned save_forwarded;       /* the queue's save request last sent on as SAVE */
     uint64_t (*assign_buf)[MAX_ASK];
     bool *finished;                /* the rank said FINISHED */
     int n_finished;
@@ -406,12 +409,47 @@ static void on_result(coordinator *c, const MPI_Status *s)
                 dm_error_prefix(&e, "%s: ", job->suite->runs[i].id);
                 fail(c, &e, 0);
             } else {
-                dm_run_result_drop_series(&job->results[i]);
+                dm_queue_drop_series(&c->queue, i);
             }
         }
         dm_queue_mark_done(&c->queue, i);
         job->runs_received++;
         job->bytes_received += (uint64_t)count;
+    }
+    free(buf);
+}
+
+/* SNAPSHOT: a run of that rank, as it was at a save point, kept for the saver. */
+static void on_snapshot(coordinator *c, const MPI_Status *s)
+{
+    int count = 0;
+    MPI_Get_count(s, MPI_BYTE, &count);
+    unsigned char *buf = count > 0 ? malloc((size_t)count) : NULL;
+    dm_run_result *r = malloc(sizeof *r);
+    if (buf == NULL || r == NULL) { /* a save point without it */
+        free(buf);
+        free(r);
+        receive_and_drop(s);
+        return;
+    }
+    MPI_Recv(buf, count, MPI_BYTE, s->MPI_SOURCE, TAG_SNAPSHOT, MPI_COMM_WORLD,
+             MPI_STATUS_IGNORE);
+    size_t i = 0;
+    dm_error e = { 0 };
+    if (dm_result_unpack(c->job->suite, buf, (size_t)count, &i, r, &e) != DM_OK) {
+        fail(c, &e, s->MPI_SOURCE);
+        free(r);
+    } else if (c->owner[i] != s->MPI_SOURCE || r->status != DM_RUN_INTERRUPTED) {
+        dm_run_result_free(r);
+        free(r);
+        dm_error_set(&e, DM_EIO, "sent a snapshot of run %s it was not running",
+                     c->job->suite->runs[i].id);
+        fail(c, &e, s->MPI_SOURCE);
+    } else if (r->checkpoint == NULL) { /* taken without memory for one: of no use */
+        dm_run_result_free(r);
+        free(r);
+    } else {
+        dm_queue_put_snapshot(&c->queue, i, r); /* dropped if its result came first */
     }
     free(buf);
 }
@@ -474,6 +512,7 @@ static bool serve(coordinator *c)
         case TAG_FAILED: on_failed(c, &s); break;
         case TAG_STOPPED: on_stopped(c, src); break;
         case TAG_FINISHED: on_finished(c, src); break;
+        case TAG_SNAPSHOT: on_snapshot(c, &s); break;
         default: receive_and_drop(&s); break;
         }
     }
@@ -491,6 +530,20 @@ static void forward_stop(coordinator *c)
     c->stop_sent = true;
 }
 
+/* A save point raised by the saver (pool.c) goes on to every rank still running. */
+static void forward_save(coordinator *c)
+{
+    unsigned want = dm_queue_save_request(&c->queue);
+    if (want == c->save_forwarded)
+        return;
+    c->save_forwarded = want;
+    for (int r = 1; r < c->size; r++)
+        if (!c->finished[r]) {
+            wait_gently(&c->save_req[r]); /* the last SAVE went long ago */
+            MPI_Isend(NULL, 0, MPI_BYTE, r, TAG_SAVE, MPI_COMM_WORLD, &c->save_req[r]);
+        }
+}
+
 static void coordinator_free(coordinator *c)
 {
     for (size_t j = 0; j < c->n_resume; j++) {
@@ -503,6 +556,7 @@ static void coordinator_free(coordinator *c)
     free(c->assign_req);
     free(c->stop_req);
     free(c->bye_req);
+    free(c->save_req);
     free(c->assign_buf);
     free(c->finished);
 }
@@ -518,6 +572,7 @@ static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job 
     c->assign_req = malloc(size * sizeof *c->assign_req);
     c->stop_req = malloc(size * sizeof *c->stop_req);
     c->bye_req = malloc(size * sizeof *c->bye_req);
+    c->save_req = malloc(size * sizeof *c->save_req);
     c->assign_buf = malloc(size * sizeof *c->assign_buf);
     c->finished = calloc(size, sizeof *c->finished);
     for (size_t j = 0; j < job->n_order; j++)
@@ -526,7 +581,7 @@ static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job 
     c->resume_buf = malloc((c->resume_capacity + 1) * sizeof *c->resume_buf);
     dm_error e = { 0 };
     if (c->owner == NULL || c->assign_req == NULL || c->stop_req == NULL ||
-        c->bye_req == NULL || c->assign_buf == NULL || c->finished == NULL ||
+        c->bye_req == NULL || c->save_req == NULL || c->assign_buf == NULL || c->finished == NULL ||
         c->resume_req == NULL || c->resume_buf == NULL) {
         dm_error_set(&e, DM_ENOMEM, "out of memory for the state of %d ranks", w->size);
     } else if (dm_queue_init(&c->queue, job->suite, job->results, job->writer, job->stop,
@@ -535,7 +590,8 @@ static void coordinator_start(coordinator *c, const dm_mpi_world *w, dm_mpi_job 
         for (size_t i = 0; i < n; i++)
             c->owner[i] = -1;
         for (int r = 0; r < w->size; r++)
-            c->assign_req[r] = c->stop_req[r] = c->bye_req[r] = MPI_REQUEST_NULL;
+            c->assign_req[r] = c->stop_req[r] = c->bye_req[r] = c->save_req[r] =
+                MPI_REQUEST_NULL;
         dm_queue_add(&c->queue, job->order, job->n_order);
         dm_queue_close(&c->queue);
         if (dm_queue_start(&c->queue, job->jobs) == 0) {
@@ -558,6 +614,7 @@ void dm_mpi_coordinate(const dm_mpi_world *w, dm_mpi_job *job)
     for (;;) {
         bool busy = serve(&c);
         forward_stop(&c);
+        forward_save(&c);
         dm_queue_state state;
         dm_queue_look(&c.queue, &state, NULL);
         if (state.alive == 0 && c.n_finished == c.size - 1)
@@ -571,6 +628,7 @@ void dm_mpi_coordinate(const dm_mpi_world *w, dm_mpi_job *job)
         wait_gently(&c.assign_req[r]);
         wait_gently(&c.stop_req[r]);
         wait_gently(&c.bye_req[r]);
+        wait_gently(&c.save_req[r]);
     }
     coordinator_free(&c);
 }
@@ -583,6 +641,8 @@ typedef struct worker {
     bool have_queue;
     dm_run_result *results;        /* one slot per run of the suite, freed once sent */
     size_t *ready;                 /* runs finished and not yet sent */
+    dm_run_result **snaps;         /* snapshots taken for a save point, not yet sent ... */
+    size_t *snap_idx;              /* ... and their runs */
     bool outstanding;              /* a REQUEST waits for its ASSIGN */
     bool no_more;                  /* rank 0 has nothing more to give */
     bool failed, failed_sent, stopped_sent;
@@ -606,8 +666,10 @@ static void worker_start(worker *k, dm_mpi_job *job)
     size_t n = job->suite->n_runs ? job->suite->n_runs : 1;
     k->results = calloc(n, sizeof *k->results);
     k->ready = malloc(n * sizeof *k->ready);
+    k->snaps = malloc(n * sizeof *k->snaps);
+    k->snap_idx = malloc(n * sizeof *k->snap_idx);
     dm_error e = { 0 };
-    if (k->results == NULL || k->ready == NULL) {
+    if (k->results == NULL || k->ready == NULL || k->snaps == NULL || k->snap_idx == NULL) {
         dm_error_set(&e, DM_ENOMEM, "out of memory for the results of %zu runs", n);
         worker_fail(k, &e);
         return;
@@ -617,6 +679,10 @@ static void worker_start(worker *k, dm_mpi_job *job)
         return;
     }
     k->have_queue = true;
+    if (dm_queue_enable_snapshots(&k->queue, &e) != DM_OK) { /* before any thread runs */
+        worker_fail(k, &e);
+        return;
+    }
     if (dm_queue_start(&k->queue, job->jobs) == 0) {
         dm_error_set(&e, DM_ENOMEM, "cannot start a thread to run the suite");
         worker_fail(k, &e);
@@ -641,6 +707,24 @@ static bool send_results(worker *k, size_t n_ready)
         dm_run_result_free(&k->results[i]);
     }
     return n_ready > 0;
+}
+
+/* Packs and sends each snapshot taken for a save point (before the results of the same
+ * look, so rank 0 never gets a run's snapshot after its result but drops it if so). */
+static bool send_snapshots(worker *k, size_t n)
+{
+    for (size_t j = 0; j < n; j++) {
+        unsigned char *buf = NULL;
+        size_t size = 0;
+        dm_error e = { 0 };
+        if (dm_result_pack(k->job->suite, k->snap_idx[j], k->snaps[j], &buf, &size, &e) ==
+            DM_OK)
+            MPI_Send(buf, (int)size, MPI_BYTE, 0, TAG_SNAPSHOT, MPI_COMM_WORLD);
+        free(buf); /* a snapshot that cannot be packed is only missing from a save point */
+        dm_run_result_free(k->snaps[j]);
+        free(k->snaps[j]);
+    }
+    return n > 0;
 }
 
 /* Tells rank 0, once each, that this rank failed or was sent a signal. */
@@ -740,6 +824,10 @@ static bool receive(worker *k)
         } else if (s.MPI_TAG == TAG_STOP) {
             MPI_Recv(NULL, 0, MPI_BYTE, 0, TAG_STOP, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
             *k->job->stop = 1;
+        } else if (s.MPI_TAG == TAG_SAVE) {
+            MPI_Recv(NULL, 0, MPI_BYTE, 0, TAG_SAVE, MPI_COMM_WORLD, MPI_STATUS_IGNORE);
+            if (k->have_queue)
+                dm_queue_ask_snapshots(&k->queue);
         } else {
             receive_and_drop(&s);
         }
@@ -775,10 +863,13 @@ void dm_mpi_work(const dm_mpi_world *w, dm_mpi_job *job)
      *    what rank 0 sent */
     for (;;) {
         dm_queue_state state = { 0 };
+        size_t n_snaps = k.have_queue ? dm_queue_take_snapshots(&k.queue, k.snaps, k.snap_idx)
+                                      : 0;
         size_t n_ready = k.have_queue ? dm_queue_look(&k.queue, &state, k.ready) : 0;
         if (state.failed)
             worker_fail(&k, &state.error);
-        bool busy = send_results(&k, n_ready);
+        bool busy = send_snapshots(&k, n_snaps);
+        busy |= send_results(&k, n_ready);
         report(&k);
         ask(&k, state.hungry);
         busy |= receive(&k);
@@ -800,6 +891,8 @@ void dm_mpi_work(const dm_mpi_world *w, dm_mpi_job *job)
             dm_run_result_free(&k.results[i]);
     free(k.results);
     free(k.ready);
+    free(k.snaps);
+    free(k.snap_idx);
 }
 
 #endif

@@ -112,11 +112,27 @@ static void running_remove(dm_work_queue *q, size_t i)
         }
 }
 
+static void snap_free(dm_run_result *r)
+{
+    if (r != NULL) {
+        dm_run_result_free(r);
+        free(r);
+    }
+}
+
 /* Counts run i done (under the lock); the progress names it. */
 static void count_done(dm_work_queue *q, size_t i)
 {
     q->done++;
     running_remove(q, i);
+    if (q->where[i] == DM_RUN_ELSEWHERE)
+        q->n_elsewhere--;
+    q->where[i] = DM_RUN_DONE;
+    if (q->snaps != NULL) { /* its file group replaces its snapshot */
+        snap_free(q->snaps[i]);
+        q->snaps[i] = NULL;
+        pthread_cond_broadcast(&q->save_wake);
+    }
     q->cost_done += dm_run_estimated_cost(&q->suite->runs[i]);
     show_progress(q, q->suite->runs[i].id);
 }
@@ -130,6 +146,174 @@ static void record_failure(dm_work_queue *q, const dm_error *err)
     pthread_cond_broadcast(&q->wake);
 }
 
+/* ---- save points ---- */
+
+/* A run's snapshot (dm_run_watch): kept as its latest while it runs here. */
+static void take_snapshot(void *ctx, size_t i, dm_run_result *copy, unsigned request)
+{
+    dm_work_queue *q = ctx;
+    pthread_mutex_lock(&q->lock);
+    if (q->where[i] == DM_RUN_HERE) {
+        snap_free(q->snaps[i]);
+        q->snaps[i] = copy;
+        q->snap_request[i] = request;
+        copy = NULL;
+        pthread_cond_broadcast(&q->save_wake);
+    }
+    pthread_mutex_unlock(&q->lock);
+    snap_free(copy);
+}
+
+/* Every run running here, or on another MPI rank, answered `request` (under the lock). */
+static bool all_answered(const dm_work_queue *q, unsigned request)
+{
+    for (size_t j = 0; j < q->n_running; j++) {
+        size_t i = q->running[j];
+        if (q->snaps[i] == NULL || q->snap_request[i] != request)
+            return false;
+    }
+    for (size_t i = 0; q->n_elsewhere > 0 && i < q->suite->n_runs; i++)
+        if (q->where[i] == DM_RUN_ELSEWHERE &&
+            (q->snaps[i] == NULL || q->snap_request[i] != request))
+            return false;
+    return true;
+}
+
+static void wait_until(dm_work_queue *q, double t)
+{
+    double now = dm_clock_seconds();
+    if (t <= now)
+        return;
+    struct timespec until;
+    clock_gettime(CLOCK_REALTIME, &until);
+    double wait = t - now;
+    until.tv_sec += (time_t)wait;
+    until.tv_nsec += (long)((wait - floor(wait)) * 1e9);
+    if (until.tv_nsec >= 1000000000L) {
+        until.tv_sec++;
+        until.tv_nsec -= 1000000000L;
+    }
+    pthread_cond_timedwait(&q->save_wake, &q->lock, &until);
+}
+
+/* One save point (under the lock): ask, wait for the answers (bounded), then have the
+ * writer save the finished runs, the running runs' snapshots and the runs not started
+ * as they are. Returns the save's own time in seconds (the wait aside), or -1 when the
+ * pool ended meanwhile. */
+static double save_point(dm_work_queue *q)
+{
+    unsigned request = __atomic_add_fetch(&q->save_request, 1u, __ATOMIC_RELAXED);
+    double deadline = dm_clock_seconds() + DM_SAVE_WAIT_SECONDS;
+    while (q->saving && !all_answered(q, request) && dm_clock_seconds() < deadline &&
+           !stopped(q) && !q->failed)
+        wait_until(q, deadline);
+    if (!q->saving || stopped(q) || q->failed)
+        return -1.0; /* the end's own file (complete or interrupted) comes anyway */
+    size_t n = q->suite->n_runs;
+    dm_run_result **pending = calloc(n ? n : 1, sizeof *pending);
+    if (pending == NULL)
+        return 0.0;
+    for (size_t i = 0; i < n; i++) {
+        if (q->where[i] == DM_RUN_HERE || q->where[i] == DM_RUN_ELSEWHERE)
+            pending[i] = q->snaps[i];
+        else if (q->where[i] == DM_RUN_QUEUED && q->results[i].status != DM_RUN_NOT_RUN)
+            pending[i] = &q->results[i]; /* read back by --resume, not started yet */
+    }
+    double t0 = dm_clock_seconds();
+    dm_error err = { 0 };
+    (void)dm_results_writer_save(q->writer, q->results, pending, &err); /* counted there */
+    free(pending);
+    return dm_clock_seconds() - t0;
+}
+
+/* The saver: a save point every save_every seconds, and never sooner than
+ * DM_SAVE_SPACING times the last one's cost after it. */
+static void *saver_thread(void *arg)
+{
+    dm_work_queue *q = arg;
+    double every = dm_results_writer_save_every(q->writer);
+    pthread_mutex_lock(&q->lock);
+    double next = q->t0 + every;
+    while (q->saving) {
+        if (dm_clock_seconds() < next) {
+            wait_until(q, next);
+            continue;
+        }
+        if (stopped(q) || q->failed)
+            break;
+        double cost = save_point(q);
+        if (cost < 0.0)
+            break;
+        double gap = DM_SAVE_SPACING * cost;
+        next = dm_clock_seconds() + (gap > every ? gap : every);
+    }
+    pthread_mutex_unlock(&q->lock);
+    return NULL;
+}
+
+dm_status dm_queue_enable_snapshots(dm_work_queue *q, dm_error *err)
+{
+    size_t n = q->suite->n_runs ? q->suite->n_runs : 1;
+    if (q->snaps != NULL)
+        return DM_OK;
+    q->snaps = calloc(n, sizeof *q->snaps);
+    q->snap_request = calloc(n, sizeof *q->snap_request);
+    if (q->snaps == NULL || q->snap_request == NULL) {
+        free(q->snaps);
+        free(q->snap_request);
+        q->snaps = NULL;
+        q->snap_request = NULL;
+        return dm_error_set(err, DM_ENOMEM, "out of memory for the snapshots of %zu runs", n);
+    }
+    return DM_OK;
+}
+
+void dm_queue_ask_snapshots(dm_work_queue *q)
+{
+    if (q->snaps != NULL)
+        __atomic_add_fetch(&q->save_request, 1u, __ATOMIC_RELAXED);
+}
+
+unsigned dm_queue_save_request(dm_work_queue *q)
+{
+    return __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
+}
+
+size_t dm_queue_take_snapshots(dm_work_queue *q, dm_run_result **out, size_t *idx)
+{
+    size_t n = 0;
+    pthread_mutex_lock(&q->lock);
+    for (size_t i = 0; q->snaps != NULL && i < q->suite->n_runs; i++)
+        if (q->snaps[i] != NULL) {
+            out[n] = q->snaps[i];
+            idx[n++] = i;
+            q->snaps[i] = NULL;
+        }
+    pthread_mutex_unlock(&q->lock);
+    return n;
+}
+
+void dm_queue_put_snapshot(dm_work_queue *q, size_t i, dm_run_result *copy)
+{
+    pthread_mutex_lock(&q->lock);
+    if (q->snaps != NULL && i < q->suite->n_runs && q->where[i] == DM_RUN_ELSEWHERE) {
+        snap_free(q->snaps[i]);
+        q->snaps[i] = copy;
+        q->snap_request[i] = __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
+        copy = NULL;
+        pthread_cond_broadcast(&q->save_wake);
+    }
+    pthread_mutex_unlock(&q->lock);
+    snap_free(copy);
+}
+
+void dm_queue_drop_series(dm_work_queue *q, size_t i)
+{
+    pthread_mutex_lock(&q->lock);
+    dm_run_result_drop_series(&q->results[i]);
+    pthread_mutex_unlock(&q->lock);
+}
+
 dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *results,
                         dm_results_writer *writer, volatile int *stop,
                         dm_pool_progress progress, dm_error *err)
@@ -138,9 +322,19 @@ dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *
     size_t n = suite->n_runs ? suite->n_runs : 1;
     q->order = malloc(n * sizeof *q->order);
     q->finished = malloc(n * sizeof *q->finished);
-    if (q->order == NULL || q->finished == NULL) {
+    q->where = calloc(n, sizeof *q->where);
+    bool saves = writer != NULL && dm_results_writer_save_every(writer) > 0.0;
+    if (saves) {
+        q->snaps = calloc(n, sizeof *q->snaps);
+        q->snap_request = calloc(n, sizeof *q->snap_request);
+    }
+    if (q->order == NULL || q->finished == NULL || q->where == NULL ||
+        (saves && (q->snaps == NULL || q->snap_request == NULL))) {
         free(q->order);
         free(q->finished);
+        free(q->where);
+        free(q->snaps);
+        free(q->snap_request);
         return dm_error_set(err, DM_ENOMEM, "out of memory for the run queue of %zu runs", n);
     }
     q->suite = suite;
@@ -152,9 +346,13 @@ dm_status dm_queue_init(dm_work_queue *q, const dm_suite *suite, dm_run_result *
     q->t0 = dm_clock_seconds();
     pthread_mutex_init(&q->lock, NULL);
     pthread_cond_init(&q->wake, NULL);
+    pthread_cond_init(&q->save_wake, NULL);
     q->ticking = progress != NULL;
     if (q->ticking && pthread_create(&q->ticker, NULL, ticker_thread, q) != 0)
         q->ticking = false;
+    q->saving = saves;
+    if (q->saving && pthread_create(&q->saver, NULL, saver_thread, q) != 0)
+        q->saving = false; /* no save points: the run goes on as without them */
     return DM_OK;
 }
 
@@ -193,20 +391,28 @@ void dm_queue_serve(dm_work_queue *q)
         const dm_run_spec *spec = &q->suite->runs[i];
         q->current = spec->id;
         q->running[q->n_running++] = i; /* at most one a thread */
+        q->where[i] = DM_RUN_HERE;
         show_progress(q, spec->id);
         pthread_mutex_unlock(&q->lock);
 
         dm_error err = { 0 };
         /* an interrupted run read back with its checkpoint continues from it */
-        dm_status st = q->results[i].checkpoint != NULL
-                           ? dm_run_resume(spec, &q->results[i], q->stop, &err)
-                           : dm_run(spec, &q->results[i], q->stop, &err);
-        /* written at once and its series freed: memory does not grow with the runs */
-        if (st == DM_OK && q->writer != NULL &&
-            (st = dm_results_writer_add(q->writer, i, &q->results[i], &err)) == DM_OK)
-            dm_run_result_drop_series(&q->results[i]);
+        dm_run_watch watch = { .stop = q->stop, .index = i, .ctx = q };
+        if (q->snaps != NULL) { /* it answers the save points asked for from now on */
+            watch.save_request = &q->save_request;
+            watch.answered = __atomic_load_n(&q->save_request, __ATOMIC_RELAXED);
+            watch.snapshot = take_snapshot;
+        }
+        dm_status st = dm_run_watched(spec, &q->results[i], &watch, &err);
+        /* written at once and its series freed (under the lock: a save point may read
+         * the result): memory does not grow with the runs */
+        bool written = false;
+        if (st == DM_OK && q->writer != NULL)
+            written = (st = dm_results_writer_add(q->writer, i, &q->results[i], &err)) == DM_OK;
 
         pthread_mutex_lock(&q->lock);
+        if (written)
+            dm_run_result_drop_series(&q->results[i]);
         if (st != DM_OK) {
             running_remove(q, i);
             dm_error_prefix(&err, "%s: ", spec->id);
@@ -247,8 +453,11 @@ size_t dm_queue_take(dm_work_queue *q, size_t k, size_t *out)
     size_t n = 0;
     pthread_mutex_lock(&q->lock);
     if (!stopped(q) && !q->failed) {
-        while (n < k && q->next < q->n_order)
+        while (n < k && q->next < q->n_order) {
+            q->where[q->order[q->next]] = DM_RUN_ELSEWHERE;
+            q->n_elsewhere++;
             out[n++] = q->order[q->next++];
+        }
         if (n > 0) {
             q->current = q->suite->runs[out[n - 1]].id;
             show_progress(q, NULL);
@@ -309,14 +518,30 @@ dm_status dm_queue_finish(dm_work_queue *q, size_t *done, dm_error *err)
     pthread_mutex_unlock(&q->lock);
     if (ticking)
         pthread_join(q->ticker, NULL);
+    pthread_mutex_lock(&q->lock);
+    bool saving = q->saving;
+    q->saving = false;
+    pthread_cond_broadcast(&q->save_wake);
+    pthread_mutex_unlock(&q->lock);
+    if (saving)
+        pthread_join(q->saver, NULL);
+    for (size_t i = 0; q->snaps != NULL && i < q->suite->n_runs; i++)
+        snap_free(q->snaps[i]);
     show_progress(q, "");
     if (done != NULL)
         *done = q->done;
     pthread_mutex_destroy(&q->lock);
     pthread_cond_destroy(&q->wake);
+    pthread_cond_destroy(&q->save_wake);
     free(q->order);
     free(q->finished);
+    free(q->where);
+    free(q->snaps);
+    free(q->snap_request);
     q->order = q->finished = NULL;
+    q->where = NULL;
+    q->snaps = NULL;
+    q->snap_request = NULL;
     if (!q->failed)
         return DM_OK;
     if (err != NULL)

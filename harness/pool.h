@@ -50,7 +50,29 @@ typedef struct dm_work_queue {
     bool ticking;
     pthread_t threads[DM_POOL_MAX_JOBS];
     int n_threads;
+    /* Save points (a writer with a save interval): a thread of its own raises
+     * save_request, waits (a bounded time) for every run running here to answer with a
+     * snapshot (dm_run_watch), and has the writer save the file with them. */
+    unsigned char *where;          /* where[i]: DM_RUN_QUEUED, _HERE, _ELSEWHERE, _DONE */
+    size_t n_elsewhere;            /* runs handed to other ranks and not back yet */
+    unsigned save_request;         /* raised at each save point; runs read it (atomic) */
+    dm_run_result **snaps;         /* the latest snapshot of each run running here, owned */
+    unsigned *snap_request;        /* the request it answered */
+    pthread_cond_t save_wake;      /* a snapshot came, a run ended, or the pool ends */
+    pthread_t saver;
+    bool saving;                   /* the saver thread runs */
 } dm_work_queue;
+
+/* Where a run of the queue is. */
+enum { DM_RUN_QUEUED = 0, DM_RUN_HERE, DM_RUN_ELSEWHERE, DM_RUN_DONE };
+
+/* How long a save point waits for the running runs' snapshots: a run polls every 2^16
+ * fixed or 4096 adaptive steps, so milliseconds, but a run inside its Lyapunov pass or
+ * a very slow step does not answer; it is saved as its last snapshot, or left out. */
+#define DM_SAVE_WAIT_SECONDS 10.0
+
+/* The least time between two save points, as a multiple of the last one's cost. */
+#define DM_SAVE_SPACING 100.0
 
 /* What the queue's owner needs to know between two looks. */
 typedef struct dm_queue_state {
@@ -85,6 +107,23 @@ size_t dm_queue_take(dm_work_queue *q, size_t k, size_t *out);
 
 /* Run i, handed out by dm_queue_take, finished elsewhere and its result is stored. */
 void dm_queue_mark_done(dm_work_queue *q, size_t i);
+
+/* Frees the series of result i, written to the queue's writer (under the lock: a save
+ * point may be reading the result). */
+void dm_queue_drop_series(dm_work_queue *q, size_t i);
+
+/* Save points across MPI ranks. At a rank > 0: enable keeps the snapshots of the runs
+ * running here (before threads start), ask raises the request its runs answer, take
+ * moves the snapshots kept since the last take into out[] and idx[] (room for
+ * suite->n_runs; the caller owns them) and returns how many. At rank 0: put stores the
+ * snapshot of run i, which runs elsewhere, as its latest (taking it), or frees it when
+ * the run is no longer there. */
+dm_status dm_queue_enable_snapshots(dm_work_queue *q, dm_error *err);
+void dm_queue_ask_snapshots(dm_work_queue *q);
+size_t dm_queue_take_snapshots(dm_work_queue *q, dm_run_result **out, size_t *idx);
+void dm_queue_put_snapshot(dm_work_queue *q, size_t i, dm_run_result *copy);
+/* The save request raised last (rank 0 forwards each to the other ranks). */
+unsigned dm_queue_save_request(dm_work_queue *q);
 
 /* Records a failure (the first one is kept) and hands out no more runs. */
 void dm_queue_fail(dm_work_queue *q, const dm_error *err);

@@ -18,6 +18,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <sys/utsname.h>
 #include <unistd.h>
 
@@ -26,6 +27,7 @@
 
 #include "checkpoint.h"
 #include "dm_build_info.h"
+#include "dm_clock.h"
 #include "dm_hash.h"
 #include "formula.h"
 #include "harness.h"
@@ -689,6 +691,14 @@ struct dm_results_writer {
     unsigned char *written;        /* written[i]: run i's group is in the file */
     bool broken;                   /* a write failed: the file can only be abandoned */
     dm_error error;                /* why */
+    /* save points (dm_results_writer_save) */
+    double save_every;             /* seconds; 0: none */
+    bool may_replace;              /* NAME may be replaced though we did not put it there */
+    char save_tmp[1200];           /* ".NAME.save-PID", the copy being completed */
+    dev_t saved_dev;               /* the file a save point put at NAME ... */
+    ino_t saved_ino;
+    bool saved;                    /* ... once one did */
+    dm_save_stats stats;
 };
 
 /* Records the first failure of the writer (under its lock) and returns its code. */
@@ -856,6 +866,42 @@ static int sync_file(const char *path)
     return rc;
 }
 
+/* Completes a file holding the groups w->written says: the runs of results[] not
+ * written yet, as they are (interrupted runs read back that never ran again; at a save
+ * point, the running runs' snapshots), then /summary, /sweeps and /tables. */
+static dm_status complete_file(const dm_results_writer *w, hid_t file, hid_t runs,
+                               const dm_run_result *results, const dm_sweep_fit *fits,
+                               const char **what)
+{
+    for (size_t i = 0; i < w->suite->n_runs; i++) {
+        if (results[i].status == DM_RUN_NOT_RUN || w->written[i])
+            continue;
+        *what = "a run's group";
+        if (write_run(runs, w->suite, &w->suite->runs[i], &results[i]) != 0)
+            return DM_EIO;
+    }
+    return write_last(file, w->suite, results, fits, what);
+}
+
+/* The directory holding `path` synced, so that a rename into it lasts. */
+static int sync_dir(const char *path)
+{
+    char dir[1024];
+    const char *slash = strrchr(path, '/');
+    if (slash == NULL)
+        snprintf(dir, sizeof dir, ".");
+    else if (slash == path)
+        snprintf(dir, sizeof dir, "/");
+    else
+        snprintf(dir, sizeof dir, "%.*s", (int)(slash - path), path);
+    int fd = open(dir, O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+    if (fd < 0)
+        return -1;
+    int rc = fsync(fd);
+    close(fd);
+    return rc;
+}
+
 dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *results,
                                    const dm_sweep_fit *fits, dm_error *err)
 {
@@ -864,17 +910,8 @@ dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *re
     const char *what = "";
     dm_status st = w->broken ? DM_EIO : DM_OK;
     errno = 0;
-    /* runs not written yet (interrupted runs read back that never ran again) as they are */
-    for (size_t i = 0; st == DM_OK && i < w->suite->n_runs; i++) {
-        if (results[i].status == DM_RUN_NOT_RUN || w->written[i])
-            continue;
-        what = "a run's group";
-        if (write_run(w->runs, w->suite, &w->suite->runs[i], &results[i]) != 0)
-            st = DM_EIO;
-        w->written[i] = 1;
-    }
     if (st == DM_OK)
-        st = write_last(w->file, w->suite, results, fits, &what);
+        st = complete_file(w, w->file, w->runs, results, fits, &what);
     if (writer_close(w) != 0 && st == DM_OK) {
         __atomic_store_n(&hdf5_left_broken, true, __ATOMIC_RELAXED);
         st = DM_EIO;
@@ -890,11 +927,242 @@ dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *re
         int e = errno;
         st = dm_error_set(err, DM_EIO, "cannot write results to '%s': rename from '%s' "
                           "failed: %s", w->path, w->tmp, strerror(e));
+    } else {
+        (void)sync_dir(w->path); /* the file is whole either way; this makes it last */
     }
     if (st != DM_OK)
         unlink(w->tmp);
     pthread_mutex_unlock(&w->lock);
     writer_free(w);
+    return st;
+}
+
+void dm_results_writer_set_saves(dm_results_writer *w, double seconds, bool may_replace)
+{
+    pthread_mutex_lock(&w->lock);
+    w->save_every = seconds > 0.0 && isfinite(seconds) ? seconds : 0.0;
+    w->may_replace = may_replace;
+    pthread_mutex_unlock(&w->lock);
+}
+
+double dm_results_writer_save_every(dm_results_writer *w)
+{
+    pthread_mutex_lock(&w->lock);
+    double s = w->save_every;
+    pthread_mutex_unlock(&w->lock);
+    return s;
+}
+
+dm_save_stats dm_results_writer_save_stats(dm_results_writer *w)
+{
+    pthread_mutex_lock(&w->lock);
+    dm_save_stats s = w->stats;
+    pthread_mutex_unlock(&w->lock);
+    return s;
+}
+
+/* The bytes of file `from` into a new file `to` (replacing one left by this process). */
+static int copy_bytes(const char *from, const char *to)
+{
+    int in = open(from, O_RDONLY | O_CLOEXEC);
+    if (in < 0)
+        return -1;
+    int out = open(to, O_WRONLY | O_CREAT | O_TRUNC | O_CLOEXEC, 0644);
+    if (out < 0) {
+        close(in);
+        return -1;
+    }
+    size_t size = (size_t)1 << 20;
+    char *buf = malloc(size);
+    int rc = buf != NULL ? 0 : -1;
+    while (rc == 0) {
+        ssize_t n = read(in, buf, size);
+        if (n == 0)
+            break;
+        if (n < 0) {
+            if (errno == EINTR)
+                continue;
+            rc = -1;
+            break;
+        }
+        for (ssize_t done = 0; done < n;) {
+            ssize_t m = write(out, buf + done, (size_t)(n - done));
+            if (m < 0 && errno == EINTR)
+                continue;
+            if (m <= 0) {
+                rc = -1;
+                break;
+            }
+            done += m;
+        }
+    }
+    free(buf);
+    close(in);
+    if (close(out) != 0)
+        rc = -1;
+    return rc;
+}
+
+/* The view of the suite a save point writes: the written runs' figures from results[]
+ * (their series are in the file already), the others from pending[] (NULL: left out). */
+static dm_run_result *save_view(const dm_results_writer *w, const dm_run_result *results,
+                                dm_run_result *const *pending)
+{
+    size_t n = w->suite->n_runs;
+    dm_run_result *view = calloc(n ? n : 1, sizeof *view);
+    for (size_t i = 0; view != NULL && i < n; i++) {
+        if (w->written[i]) {
+            view[i] = results[i];
+            /* only its figures are read: no pointer of it is followed */
+            uint64_t total = view[i].crossings.total, stride = view[i].crossings.stride;
+            memset(&view[i].series, 0, sizeof view[i].series);
+            memset(&view[i].crossings, 0, sizeof view[i].crossings);
+            view[i].crossings.total = total;
+            view[i].crossings.stride = stride;
+            view[i].checkpoint = NULL;
+        } else if (pending[i] != NULL) {
+            view[i] = *pending[i];
+        }
+    }
+    return view;
+}
+
+/* Puts the completed copy at NAME, unless NAME is a file that neither this run's save
+ * points put there nor may be replaced (--force, --resume): then the copy is dropped
+ * (DM_EINPUT). Under the lock. */
+static dm_status publish_save(dm_results_writer *w, dm_error *err)
+{
+    struct stat at;
+    if (!w->may_replace && lstat(w->path, &at) == 0 &&
+        !(w->saved && at.st_dev == w->saved_dev && at.st_ino == w->saved_ino)) {
+        unlink(w->save_tmp);
+        return dm_error_set(err, DM_EINPUT, "save point not written: '%s' appeared during "
+                            "the run and is not this run's (it is left as it is; --force "
+                            "replaces it)", w->path);
+    }
+    if (rename(w->save_tmp, w->path) != 0) {
+        int e = errno;
+        unlink(w->save_tmp);
+        return dm_error_set(err, DM_EIO, "save point not written: rename from '%s' to '%s' "
+                            "failed: %s", w->save_tmp, w->path, strerror(e));
+    }
+    (void)sync_dir(w->path);
+    if (lstat(w->path, &at) == 0) {
+        w->saved = true;
+        w->saved_dev = at.st_dev;
+        w->saved_ino = at.st_ino;
+    }
+    return DM_OK;
+}
+
+dm_status dm_results_writer_save(dm_results_writer *w, const dm_run_result *results,
+                                 dm_run_result *const *pending, dm_error *err)
+{
+    pthread_mutex_lock(&w->lock);
+    double t0 = dm_clock_seconds();
+    hdf5_silence();
+    const dm_suite *suite = w->suite;
+    dm_status st = DM_OK;
+    const char *what = "the view of the runs";
+    dm_run_result *view = NULL;
+    dm_sweep_fit *fits = NULL;
+    hid_t file = -1, runs = -1;
+    if (w->broken) {
+        st = dm_error_set(err, DM_EIO, "save point not written: %s", w->error.msg);
+        goto out;
+    }
+    if (dm_results_temp_path(w->path, (long)getpid(), w->save_tmp, sizeof w->save_tmp) != 0 ||
+        strlen(w->save_tmp) + 5 >= sizeof w->save_tmp) {
+        st = dm_error_set(err, DM_EIO, "save point not written: '%s' is too long", w->path);
+        goto out;
+    }
+    /* ".NAME.tmp-PID" becomes ".NAME.save-PID" */
+    char *dot = strrchr(w->save_tmp, '.');
+    snprintf(dot, sizeof w->save_tmp - (size_t)(dot - w->save_tmp), ".save-%ld",
+             (long)getpid());
+    view = save_view(w, results, pending);
+    fits = calloc(suite->n_sweeps ? suite->n_sweeps : 1, sizeof *fits);
+    if (view == NULL || fits == NULL) {
+        st = dm_error_set(err, DM_ENOMEM, "save point not written: out of memory");
+        goto out;
+    }
+    for (size_t k = 0; k < suite->n_sweeps && st == DM_OK; k++)
+        st = dm_sweep_fit_compute(suite, &suite->sweeps[k], view, &fits[k], err);
+    if (st != DM_OK)
+        goto out;
+    /* the file as it is, made whole on the disk (HDF5 writes its metadata in place, so
+     * only a flushed file is one), copied, and the copy completed */
+    errno = 0;
+    what = "a flush of the file";
+    if (H5Fflush(w->file, H5F_SCOPE_GLOBAL) < 0) {
+        st = DM_EIO;
+        goto fail;
+    }
+    what = "a copy of the file";
+    if (copy_bytes(w->tmp, w->save_tmp) != 0) {
+        st = DM_EIO;
+        goto fail;
+    }
+    what = "the copy's groups";
+    hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
+    if (fapl >= 0 && H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) >= 0)
+        file = H5Fopen(w->save_tmp, H5F_ACC_RDWR, fapl);
+    if (fapl >= 0)
+        H5Pclose(fapl);
+    runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
+    if (runs < 0) {
+        st = DM_EIO;
+        goto fail;
+    }
+    st = complete_file(w, file, runs, view, fits, &what);
+    if (H5Gclose(runs) < 0 && st == DM_OK)
+        st = DM_EIO;
+    runs = -1;
+    if (H5Fclose(file) < 0 && st == DM_OK) {
+        st = DM_EIO;
+        what = "the copy's last blocks";
+    }
+    file = -1;
+    if (st == DM_OK && sync_file(w->save_tmp) != 0) {
+        st = DM_EIO;
+        what = "the copy to the disk";
+    }
+    if (st != DM_OK)
+        goto fail;
+    st = publish_save(w, err);
+    goto out;
+fail:;
+    int e = errno;
+    if (runs >= 0)
+        H5Gclose(runs);
+    if (file >= 0)
+        H5Fclose(file);
+    unlink(w->save_tmp);
+    st = dm_error_set(err, st == DM_ENOMEM ? DM_ENOMEM : DM_EIO, "save point not written: "
+                      "writing %s failed%s%s", what, e != 0 ? ": " : "",
+                      e != 0 ? strerror(e) : "");
+out:
+    if (fits != NULL)
+        for (size_t k = 0; k < suite->n_sweeps; k++)
+            dm_sweep_fit_free(&fits[k]);
+    free(fits);
+    free(view);
+    double cost = dm_clock_seconds() - t0;
+    if (st == DM_OK) {
+        w->stats.saves++;
+        w->stats.last_seconds = cost;
+        w->stats.total_seconds += cost;
+        if (cost > w->stats.max_seconds)
+            w->stats.max_seconds = cost;
+        w->stats.last_bytes = 0;
+        struct stat at;
+        if (stat(w->path, &at) == 0)
+            w->stats.last_bytes = (uint64_t)at.st_size;
+    } else {
+        w->stats.failures++;
+        w->stats.last_error = *err;
+    }
+    pthread_mutex_unlock(&w->lock);
     return st;
 }
 
@@ -1248,7 +1516,14 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
             if (H5Aexists(g, f->name) != 0)
                 rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double));
             break;
-        case DM_FIGURE_COUNT: rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t)); break;
+        case DM_FIGURE_COUNT:
+            /* times_continued, the one count added after files were written: a file
+             * from before it never continued a run */
+            FIGURE_AT(f, r, uint64_t) = 0;
+            if (f->at != offsetof(dm_run_result, metrics.times_continued) ||
+                H5Aexists(g, f->name) != 0)
+                rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t));
+            break;
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
             FIGURE_AT(f, r, dm_run_status) = dm_run_status_named(text);

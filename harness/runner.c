@@ -285,6 +285,11 @@ typedef struct run_context {
     dm_run_result *result;
     dm_stepper *stepper;
     const volatile int *stop;
+    const dm_run_watch *watch;  /* save points (may be NULL) */
+    unsigned save_seen;         /* the save request last answered */
+    size_t bucket;              /* the bucket running */
+    double wall_before, t_start; /* wall seconds before this part; its clock start */
+    uint64_t times_continued;   /* continued from a checkpoint so far */
     bool fixed;                 /* fixed steps of size h ... */
     bool fused;                 /* ... run by the problem's fused loop */
     double h;
@@ -308,6 +313,35 @@ typedef struct run_context {
 static bool stop_requested(const run_context *c)
 {
     return c->stop != NULL && *c->stop;
+}
+
+static void snapshot(run_context *c, size_t bucket, bool in_bucket);
+
+/* A save point asked for since the run last answered one (a relaxed load: a request
+ * seen at the next poll is soon enough). */
+static bool save_requested(run_context *c)
+{
+    const dm_run_watch *w = c->watch;
+    if (w == NULL || w->save_request == NULL)
+        return false;
+    unsigned want = __atomic_load_n(w->save_request, __ATOMIC_RELAXED);
+    if (want == c->save_seen)
+        return false;
+    c->save_seen = want;
+    return true;
+}
+
+/* At a poll inside a bucket that does not stop: a save point's snapshot when one is
+ * asked for, taken as a stop here would take it. */
+static void save_poll_inside(run_context *c)
+{
+    if (!save_requested(c))
+        return;
+    if (c->fused) { /* the state a stop would leave in cur (bucket_fused's end) */
+        c->cur->t = dm_step_time(0.0, c->loop.k, c->h);
+        memcpy(c->cur->x, c->loop.x, sizeof(double) * 2 * (size_t)c->inst->dof);
+    }
+    snapshot(c, c->bucket, true);
 }
 
 /* The steps and the fraction of the horizon done, for a progress reader on another
@@ -396,6 +430,7 @@ static void bucket_fused(run_context *c, uint64_t k_end)
             publish_progress(c);
             if (stop_requested(c))
                 break;
+            save_poll_inside(c);
             continue;
         }
         if (ev == DM_FUSED_CROSSING) {
@@ -468,6 +503,7 @@ static void bucket_plain(run_context *c, uint64_t k_end, double t_bucket_end)
             }
             if (stop_requested(c))
                 break;
+            save_poll_inside(c);
         }
     }
 }
@@ -484,6 +520,7 @@ static void bucket_plain_polled(run_context *c, uint64_t k_end)
         publish_progress(c);
         if (stop_requested(c))
             break;
+        save_poll_inside(c);
     }
 }
 
@@ -555,6 +592,7 @@ static void finish_metrics(run_context *c, double wall)
     m->counts = *dm_stepper_counts(c->stepper);
     m->t_reached = c->cur->t;
     m->wall_seconds = wall;
+    m->times_continued = c->times_continued;
     m->ns_per_step = k > 0 ? 1e9 * wall / (double)k : NAN;
     if (c->inst->problem->closest_approach != NULL) /* steps after the last bucket end */
         c->closest = fmin(c->closest, c->inst->problem->closest_approach(true));
@@ -605,7 +643,8 @@ static void checkpoint_take(run_context *c, size_t bucket, bool in_bucket, doubl
                            .crossing_stride = c->result->crossings.stride,
                            .drift_fit = c->drift_fit, .max_abs = c->max_abs,
                            .closest = c->closest, .series_n = c->result->series.n,
-                           .crossings_n = c->result->crossings.n, .wall_seconds = wall };
+                           .crossings_n = c->result->crossings.n, .wall_seconds = wall,
+                           .times_continued = c->times_continued };
     /* the fused path keeps the state in loop.x, the per-step path in cur */
     memcpy(ck->x, c->fused ? c->loop.x : c->cur->x, sizeof(double) * 2 * (size_t)n);
     memcpy(ck->max_invariant_error, c->result->metrics.max_invariant_error,
@@ -645,6 +684,7 @@ static dm_status checkpoint_restore(run_context *c, const dm_checkpoint *ck, siz
     c->result->crossings.stride = ck->crossing_stride;
     c->drift_fit = ck->drift_fit;
     c->max_abs = ck->max_abs;
+    c->times_continued = ck->times_continued + 1;
     if (c->inst->problem->closest_approach != NULL)
         c->closest = ck->closest;
     memcpy(c->result->metrics.max_invariant_error, ck->max_invariant_error,
@@ -664,6 +704,74 @@ static void interrupt(run_context *c)
              (unsigned long long)c->loop.k, c->cur->t);
 }
 
+/* The first n of an array of `capacity` doubles into a new one of the same capacity
+ * (so that the copy can be continued); NULL stays NULL. */
+static int copy_doubles(double **to, const double *from, size_t n, size_t capacity)
+{
+    *to = NULL;
+    if (from == NULL)
+        return 0;
+    *to = malloc((capacity > 0 ? capacity : 1) * sizeof(double));
+    if (*to == NULL)
+        return -1;
+    memcpy(*to, from, n * sizeof(double));
+    return 0;
+}
+
+/* A save point's snapshot: what the run's result would be if a stop ended it here
+ * (status interrupted, its series and crossings so far, figures, a checkpoint), as a
+ * new result handed to the watch, while the run carries on unchanged. The stop's own
+ * steps (interrupt, checkpoint_take, finish_metrics) run on a copy of the context whose
+ * result is the new one, so both are the same code. Without memory nothing is handed
+ * over (the save point does without this run). */
+static void snapshot(run_context *c, size_t bucket, bool in_bucket)
+{
+    const dm_run_result *r = c->result;
+    dm_run_result *copy = malloc(sizeof *copy);
+    if (copy == NULL)
+        return;
+    *copy = *r;
+    memset(&copy->series, 0, sizeof copy->series);
+    memset(&copy->crossings, 0, sizeof copy->crossings);
+    copy->checkpoint = NULL;
+    dm_series *s = &copy->series;
+    dm_crossings *x = &copy->crossings;
+    s->n = r->series.n;
+    s->capacity = r->series.capacity;
+    s->n_invariants = r->series.n_invariants;
+    x->n = r->crossings.n;
+    x->capacity = r->crossings.capacity;
+    x->stride = r->crossings.stride;
+    size_t sn = s->n, sc = s->capacity, xn = x->n, xc = x->capacity;
+    int rc = copy_doubles(&s->time, r->series.time, sn, sc);
+    rc |= copy_doubles(&s->energy_error, r->series.energy_error, sn, sc);
+    rc |= copy_doubles(&s->energy_error_min, r->series.energy_error_min, sn, sc);
+    rc |= copy_doubles(&s->energy_error_max, r->series.energy_error_max, sn, sc);
+    rc |= copy_doubles(&s->global_error, r->series.global_error, sn, sc);
+    for (int j = 0; j < s->n_invariants; j++)
+        rc |= copy_doubles(&s->invariant_error[j], r->series.invariant_error[j], sn, sc);
+    rc |= copy_doubles(&x->number, r->crossings.number, xn, xc);
+    rc |= copy_doubles(&x->time, r->crossings.time, xn, xc);
+    rc |= copy_doubles(&x->phase_error, r->crossings.phase_error, xn, xc);
+    rc |= copy_doubles(&x->section_q, r->crossings.section_q, xn, xc);
+    rc |= copy_doubles(&x->section_p, r->crossings.section_p, xn, xc);
+    if (rc != 0) {
+        dm_run_result_free(copy);
+        free(copy);
+        return;
+    }
+    run_context k = *c;
+    k.result = copy;
+    double wall = c->wall_before + dm_clock_seconds() - c->t_start;
+    interrupt(&k);
+    checkpoint_take(&k, bucket, in_bucket, wall);
+    /* checkpoint_take read (and so restarted) the closest-approach accumulator */
+    c->closest = k.closest;
+    finish_metrics(&k, wall);
+    copy->metrics.lyapunov_exponent = NAN;
+    c->watch->snapshot(c->watch->ctx, c->watch->index, copy, c->save_seen);
+}
+
 /* The buckets from `first` (begun before a checkpoint when `inside`), each through the
  * fused loop or a step at a time, recording each bucket's end, until the horizon, a
  * divergence, a failure or a stop (which takes a checkpoint). */
@@ -681,6 +789,7 @@ static void run_buckets(run_context *c, size_t first, bool inside, double wall_b
             continue; /* an empty bucket (fewer steps than samples, or a long adaptive step) */
         if (!(inside && bucket == first))
             dm_monitor_open_bucket(&c->loop.monitor);
+        c->bucket = bucket;
         if (c->fused)
             bucket_fused(c, k_end);
         else if (c->fixed)
@@ -703,6 +812,8 @@ static void run_buckets(run_context *c, size_t first, bool inside, double wall_b
         if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
             interrupt(c);
             checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
+        } else if (c->status == DM_RUN_OK && !at_horizon && save_requested(c)) {
+            snapshot(c, bucket + 1, false);
         }
     }
 }
@@ -717,7 +828,7 @@ static void run_buckets(run_context *c, size_t first, bool inside, double wall_b
  *     takes a checkpoint);
  *  5. compute the run's figures. */
 static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_checkpoint *ck,
-                          const volatile int *stop, dm_error *err)
+                          const dm_run_watch *watch, dm_error *err)
 {
     dm_status rc = DM_OK;
     if (ck == NULL) {
@@ -734,7 +845,9 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         memset(&result->metrics, 0, sizeof result->metrics);
     }
     run_context *c = &(run_context){ .spec = spec, .inst = &spec->inst, .result = result,
-                                     .stop = stop, .status = DM_RUN_OK };
+                                     .stop = watch->stop, .watch = watch,
+                                     .status = DM_RUN_OK };
+    c->save_seen = watch->answered;
     const dm_instance *inst = c->inst;
     const int n = inst->dof;
     dm_run_metrics *m = &result->metrics;
@@ -788,6 +901,8 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
     }
 
     double t_start = dm_clock_seconds();
+    c->wall_before = wall_before;
+    c->t_start = t_start;
     run_buckets(c, first, inside, wall_before, t_start);
     finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
     dm_stepper_destroy(c->stepper);
@@ -802,17 +917,23 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
 dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile int *stop,
                  dm_error *err)
 {
-    return run_from(spec, result, NULL, stop, err);
+    return run_from(spec, result, NULL, &(dm_run_watch){ .stop = stop }, err);
 }
 
 dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
                         const volatile int *stop, dm_error *err)
 {
+    return dm_run_watched(spec, result, &(dm_run_watch){ .stop = stop }, err);
+}
+
+dm_status dm_run_watched(const dm_run_spec *spec, dm_run_result *result,
+                         const dm_run_watch *watch, dm_error *err)
+{
     dm_checkpoint *ck = result->checkpoint;
     if (ck == NULL) {
         dm_run_result_free(result);
-        return run_from(spec, result, NULL, stop, err);
+        return run_from(spec, result, NULL, watch, err);
     }
     result->checkpoint = NULL;
-    return run_from(spec, result, ck, stop, err);
+    return run_from(spec, result, ck, watch, err);
 }

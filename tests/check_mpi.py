@@ -5,7 +5,8 @@ every summary row and every attribute equal those of a single-process run bit fo
 (wall-clock times and the start time excepted); bad input exits 2 from the job with one
 line from driftmark; SIGTERM to mpirun leaves a valid file of the completed runs, and
 `mpirun ... --resume FILE`, from that file or from a partly complete one, finishes it
-bit-identically.
+bit-identically; a save point holds the runs running on every rank, so a job killed
+outright continues from it.
 
 Skips (exit 0, saying so) when the driftmark given was built without MPI or no mpirun
 is on PATH.
@@ -48,7 +49,7 @@ methods:
 N_RUNS = 4 * 7
 
 # Wall-clock figures and the start time differ between any two runs, even of one process.
-TIMING = {"wall_seconds", "ns_per_step", "start_time_utc"}
+TIMING = {"wall_seconds", "ns_per_step", "start_time_utc", "times_continued"}
 
 
 def check(cond, what):
@@ -178,8 +179,8 @@ def check_resume_continues_on_any_rank(tmp):
     whatever rank it lands (rank 0 sends the checkpoint with the run): the resumed file
     equals the uninterrupted one bit for bit. That the checkpoint is used there, and the
     run not started again, shows in a copy whose checkpoints claim a larger |dE| so far
-    (word 15 + 2 d + 5 of the record for d degrees of freedom, results/README.md): the
-    claim is carried to the end."""
+    (word o + 5 of the record for d degrees of freedom, o = 16 + 2 d in layout 3, 15 + 2 d
+    in layout 2, results/README.md): the claim is carried to the end."""
     suite = os.path.join(tmp, "continued.yaml")
     with open(suite, "w") as f:
         f.write(CONTINUED.format(out=os.path.join(tmp, "continued.h5")))
@@ -204,7 +205,8 @@ def check_resume_continues_on_any_rank(tmp):
         for rid in stopped:
             ck = f["runs"][rid]["checkpoint"]
             dof = int(ck[1])
-            ck[15 + 2 * dof + 5] = np.array([0.25]).view("<u8")[0]
+            o = (16 if int(ck[0]) >= 3 else 15) + 2 * dof
+            ck[o + 5] = np.array([0.25]).view("<u8")[0]
     # resumed over 3 ranks of one thread: rank 0's thread takes one run, the others go
     # to ranks 1 and 2 with their checkpoints
     p = run_mpi(3, ["--resume", part, "-j", "1"])
@@ -219,6 +221,40 @@ def check_resume_continues_on_any_rank(tmp):
         for rid in stopped:
             got = float(f["runs"][rid].attrs["max_energy_error"])
             check(got == 0.25, f"continued: {rid} carried its checkpoint's max |dE| 0.25: {got}")
+
+
+def check_save_point_over_ranks(tmp):
+    """A save point under mpirun holds the runs running on every rank: rank 0 sends each
+    rank a SAVE and their runs answer with snapshots. Three ranks of one thread run three
+    runs at once; the file at NAME is read until a save point holds two of them (rank 0
+    runs one at a time) as interrupted, then the whole job is killed (SIGKILL to mpirun and its ranks, one
+    process group), and `--resume` under two ranks ends it as the one-process file
+    (check_resume_continues_on_any_rank made it), times_continued aside."""
+    ref = os.path.join(tmp, "continued-one.h5")
+    suite = os.path.join(tmp, "continued.yaml")  # the reference's suite, its text too
+    out = os.path.join(tmp, "saved.h5")
+    proc = subprocess.Popen(mpirun(3, [suite, "-o", out, "-j", "1", "--save-every", "0.5"]),
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                            env=mpi_env(), start_new_session=True)
+    st, end = {}, time.time() + 60
+    while time.time() < end and proc.poll() is None:
+        try:
+            st = statuses(out)
+        except (OSError, KeyError):
+            st = {}
+        if sum(v == "interrupted" for v in st.values()) >= 2:
+            break
+        time.sleep(0.1)
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    stopped = sum(v == "interrupted" for v in st.values())
+    # rank 0 runs one run at a time (-j 1): a second comes from another rank
+    check(stopped >= 2, f"save point over ranks: runs of other ranks are in it: {st}")
+    p = run_mpi(2, ["--resume", out, "-j", "1"])
+    check(p.returncode == 0, f"save point over ranks: resume: {p.returncode} {p.stderr.strip()}")
+    check(f"({stopped} continued from their checkpoints)" in p.stderr,
+          f"save point over ranks: the interrupted runs continued: {own_lines(p.stderr)}")
+    identical(ref, out, "save point over ranks, resumed")
 
 
 def main():
@@ -329,6 +365,7 @@ def main():
                 identical(ref, sig, f"resumed after {name}", restarted)
 
         check_resume_continues_on_any_rank(tmp)
+        check_save_point_over_ranks(tmp)
 
     if failures:
         print(f"0 passed, {len(failures)} failed")

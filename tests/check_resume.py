@@ -13,7 +13,6 @@ import signal
 import subprocess
 import sys
 import tempfile
-import time
 
 import h5py
 
@@ -198,12 +197,19 @@ def main():
         p = subprocess.run([EXE, "show", old], capture_output=True, text=True)
         check(p.returncode == 0 and p.stdout.strip() != "", f"show of an older schema: {p.returncode} {p.stderr!r}")
 
-        # real signals: stop mid-suite, a valid file, exit 128 + signal, then resume
+        # real signals: stop mid-suite, a valid file, exit 128 + signal, then resume.
+        # Not a timed signal (under load it could land before the first run, or between
+        # two runs when none is running): two jobs start the two longest runs at once, and
+        # the signal goes when the first of them has ended (its progress line), so the
+        # other is running then, whatever the load.
         for sig, code in ((signal.SIGINT, 130), (signal.SIGTERM, 143)):
             os.remove(part)
-            proc = subprocess.Popen([EXE, "run", suite, "-j", "1"], stdout=subprocess.PIPE,
+            proc = subprocess.Popen([EXE, "run", suite, "-j", "2"], stdout=subprocess.PIPE,
                                     stderr=subprocess.PIPE, text=True)
-            time.sleep(0.7)
+            first = proc.stderr.readline()
+            while first and " done: " not in first:
+                first = proc.stderr.readline()
+            check("1/12 done" in first, f"signal {sig}: the first run ended: {first!r}")
             proc.send_signal(sig)
             out, err = proc.communicate(timeout=120)
             check(proc.returncode == code, f"signal {sig}: exit {proc.returncode}, want {code}: {err!r}")

@@ -62,7 +62,7 @@ YOSHIDA_FORMS = {
 RK4_TYPED = ("{name: kutta, order: 4, a: [[], [0.5], [0, 0.5], [0, 0, 1]], b: %s}"
              % numbers([1 / 6, 1 / 3, 1 / 3, 1 / 6]))
 
-WALL = {"wall_seconds", "ns_per_step"}
+WALL = {"wall_seconds", "ns_per_step", "times_continued"}
 NAMING_ROOT = {"start_time_utc", "suite_name", "suite_source", "suite_text"}
 NAMING_RUN = {"run_id", "hash", "config", "method", "method_name", "method_table",
               "method_order_found", "sweep"}

@@ -8,7 +8,12 @@
  * buckets and at their ends alike. Every second continuation goes through the results
  * file (written, read back by the --resume reader). CVODE is restarted at the saved
  * state, its documented rule (results/README.md): it reaches the horizon with about as
- * many steps. A checkpoint that does not fit its run is refused, never followed. */
+ * many steps. A checkpoint that does not fit its run is refused, never followed.
+ *
+ * Save points: a run asked for a snapshot at every poll hands over what a stop there
+ * would have left and itself ends unchanged; continued from a snapshot, it ends as the
+ * run never stopped, with times_continued 1. A checkpoint of layout 2 (before
+ * times_continued) is still continued. */
 #include "dm_test_util.h"
 
 #include <math.h>
@@ -111,6 +116,7 @@ static void assert_same_run(const dm_run_result *a, const dm_run_result *b)
     dm_run_metrics ma = a->metrics, mb = b->metrics;
     ma.wall_seconds = mb.wall_seconds = 0.0;
     ma.ns_per_step = mb.ns_per_step = 0.0;
+    ma.times_continued = mb.times_continued = 0; /* checked where it is known */
     assert_memory_equal(&ma, &mb, sizeof ma);
 }
 
@@ -156,6 +162,8 @@ static void fixed_step_runs_continue_bit_for_bit(void **state)
             assert_true(stops >= 4);
             assert_true(inside >= 1 && inside < stops);
             assert_same_run(&full, &stopped);
+            assert_int_equal(full.metrics.times_continued, 0);
+            assert_int_equal(stopped.metrics.times_continued, stops);
             dm_run_result_free(&full);
             dm_run_result_free(&stopped);
             checked++;
@@ -251,10 +259,151 @@ static void a_stop_inside_the_only_bucket_interrupts(void **state)
     }
 }
 
+/* Save points: a run that is asked for a snapshot at every poll hands over, each
+ * time, what a stop there would have left, and carries on unchanged. */
+typedef struct snapshots {
+    unsigned request;          /* raised by each snapshot: the next poll answers again */
+    dm_run_result *list[64];
+    size_t n, seen;
+} snapshots;
+
+static void keep_snapshot(void *ctx, size_t index, dm_run_result *copy, unsigned request)
+{
+    snapshots *s = ctx;
+    (void)index;
+    assert_int_equal(request, s->request);
+    s->request++;
+    s->seen++;
+    if (s->n < sizeof s->list / sizeof s->list[0]) {
+        s->list[s->n++] = copy;
+    } else {
+        dm_run_result_free(copy);
+        free(copy);
+    }
+}
+
+static void snapshots_continue_bit_for_bit(void **state)
+{
+    (void)state;
+    int checked = 0;
+    for (size_t i = 0; i < suite.n_runs; i++) {
+        if (suite.runs[i].method->adaptive)
+            continue;
+        for (int plain = 0; plain < 2; plain++) {
+            dm_run_spec spec = suite.runs[i];
+            spec.method_config.plain_steps = plain;
+            dm_run_result full, watched;
+            memset(&watched, 0, sizeof watched);
+            dm_error err = { 0 };
+            assert_int_equal(dm_run(&spec, &full, NULL, &err), DM_OK);
+            snapshots s = { .request = 1 };
+            dm_run_watch watch = { .save_request = &s.request, .answered = 0,
+                                   .snapshot = keep_snapshot, .ctx = &s, .index = i };
+            assert_int_equal(dm_run_watched(&spec, &watched, &watch, &err), DM_OK);
+            /* the run that handed them over is the run never asked */
+            assert_same_run(&full, &watched);
+            assert_int_equal(watched.metrics.times_continued, 0);
+            /* as many polls as run_with_stops stops at, each answered */
+            assert_true(s.seen >= 4 && s.n >= 4);
+            int inside = 0;
+            for (size_t k = 0; k < s.n; k++) {
+                dm_run_result *r = s.list[k];
+                assert_int_equal(r->status, DM_RUN_INTERRUPTED);
+                assert_non_null(r->checkpoint);
+                inside += r->checkpoint->in_bucket;
+                /* the first, the last and every third, continued (half through the
+                 * file); each ends as the run never stopped */
+                if (k == 0 || k + 1 == s.n || k % 3 == 0) {
+                    if (k % 2 == 0)
+                        through_file(i, r);
+                    assert_int_equal(dm_run_resume(&spec, r, NULL, &err), DM_OK);
+                    assert_same_run(&full, r);
+                    assert_int_equal(r->metrics.times_continued, 1);
+                }
+                dm_run_result_free(r);
+                free(r);
+            }
+            assert_true(inside >= 1 && inside < (int)s.n);
+            dm_run_result_free(&full);
+            dm_run_result_free(&watched);
+            checked++;
+        }
+    }
+    assert_int_equal(checked, 16);
+}
+
+/* A checkpoint of layout 2 (before times_continued: 12 header words) is still read and
+ * continued, as never continued before; one of layout 1 is not a checkpoint. */
+static void a_layout_2_checkpoint_is_read(void **state)
+{
+    (void)state;
+    char path[64];
+    snprintf(path, sizeof path, "/tmp/dm-checkpoint-v2-%ld.h5", (long)getpid());
+    dm_run_result full, r;
+    dm_error err = { 0 };
+    assert_int_equal(dm_run(&suite.runs[0], &full, NULL, &err), DM_OK);
+    for (int layout = 1; layout <= 2; layout++) {
+        volatile int stop = 1;
+        assert_int_equal(dm_run(&suite.runs[0], &r, &stop, &err), DM_OK);
+        dm_run_result *all = calloc(suite.n_runs, sizeof *all);
+        assert_non_null(all);
+        all[0] = r;
+        assert_int_equal(dm_results_write(path, &suite, all, NULL, "2000-01-01T00:00:00Z",
+                                          &err), DM_OK);
+        dm_run_result_free(&r);
+        /* the record rewritten in the older layout: word 12 dropped */
+        hid_t f = H5Fopen(path, H5F_ACC_RDWR, H5P_DEFAULT);
+        char name[DM_RUN_ID_MAX + 32];
+        snprintf(name, sizeof name, "runs/%s/checkpoint", suite.runs[0].id);
+        hid_t d = H5Dopen2(f, name, H5P_DEFAULT);
+        assert_true(d >= 0);
+        hid_t space = H5Dget_space(d);
+        hsize_t n = (hsize_t)H5Sget_simple_extent_npoints(space);
+        uint64_t *w = calloc(n, sizeof *w);
+        assert_int_equal(H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
+        assert_int_equal(w[0], 3);
+        assert_int_equal(w[12], 0); /* never continued */
+        memmove(w + 12, w + 13, (size_t)(n - 13) * sizeof *w);
+        w[0] = (uint64_t)layout;
+        H5Sclose(space);
+        H5Dclose(d);
+        assert_int_equal(H5Ldelete(f, name, H5P_DEFAULT), 0);
+        hsize_t m = n - 1;
+        space = H5Screate_simple(1, &m, NULL);
+        d = H5Dcreate2(f, name, H5T_STD_U64LE, space, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
+        assert_int_equal(H5Dwrite(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
+        free(w);
+        H5Dclose(d);
+        H5Sclose(space);
+        H5Fclose(f);
+        memset(all, 0, suite.n_runs * sizeof *all);
+        size_t kept = 99;
+        assert_int_equal(dm_results_read_runs(path, &suite, all, NULL, &kept, &err), DM_OK);
+        r = all[0];
+        free(all);
+        unlink(path);
+        if (layout == 1) { /* no checkpoint: the run is left to run again */
+            assert_null(r.checkpoint);
+            dm_run_result_free(&r);
+            continue;
+        }
+        assert_int_equal(r.status, DM_RUN_INTERRUPTED);
+        assert_non_null(r.checkpoint);
+        assert_int_equal(r.checkpoint->times_continued, 0);
+        assert_int_equal(dm_run_resume(&suite.runs[0], &r, NULL, &err), DM_OK);
+        assert_same_run(&full, &r);
+        assert_int_equal(r.metrics.times_continued, 1);
+        dm_run_result_free(&r);
+    }
+    dm_run_result_free(&full);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(fixed_step_runs_continue_bit_for_bit),
+        cmocka_unit_test(snapshots_continue_bit_for_bit),
+        cmocka_unit_test(a_layout_2_checkpoint_is_read),
         cmocka_unit_test(cvode_restarts_at_the_saved_state),
         cmocka_unit_test(a_checkpoint_that_does_not_fit_is_refused),
         cmocka_unit_test(a_stop_inside_the_only_bucket_interrupts),

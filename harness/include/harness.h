@@ -218,6 +218,26 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
  * (DM_EINPUT). */
 dm_status dm_run_resume(const dm_run_spec *spec, dm_run_result *result,
                         const volatile int *stop, dm_error *err);
+/* What a run looks at when it polls (every 2^16 fixed steps, 4096 adaptive steps and at
+ * bucket ends): a stop request, and save points. `save_request` (may be NULL) is a
+ * counter raised by whoever saves: a run that sees it differ from the value it last
+ * answered (at first `answered`) hands `snapshot` a new result (owned by the callee: free it with
+ * dm_run_result_free, then free) that is exactly what the run's result would be had a
+ * stop ended it there (status interrupted, its series so far, a checkpoint), and
+ * carries on unchanged. `request` is the counter's value answered. */
+typedef struct dm_run_watch {
+    const volatile int *stop;
+    const unsigned *save_request;
+    unsigned answered;
+    void (*snapshot)(void *ctx, size_t index, dm_run_result *copy, unsigned request);
+    void *ctx;
+    size_t index;
+} dm_run_watch;
+
+/* dm_run_resume with a watch: continues from result->checkpoint when it holds one, else
+ * runs from the start (a zeroed result, or one to run again). */
+dm_status dm_run_watched(const dm_run_spec *spec, dm_run_result *result,
+                         const dm_run_watch *watch, dm_error *err);
 void dm_run_result_free(dm_run_result *result);
 /* Frees a result's series, crossings and checkpoint once they are written, keeping its
  * status and figures (all that /summary, the sweep fits and the table need). */
@@ -428,6 +448,32 @@ dm_status dm_results_writer_add(dm_results_writer *w, size_t index,
 dm_status dm_results_writer_finish(dm_results_writer *w, const dm_run_result *results,
                                    const dm_sweep_fit *fits, dm_error *err);
 void dm_results_writer_abort(dm_results_writer *w);
+
+/* Save points: every `seconds` (0: never) while runs run, the pool (pool.c) has the
+ * writer leave a complete results file at NAME (dm_results_writer_save). `may_replace`:
+ * NAME may be replaced though no save point put it there (--force, --resume). */
+void dm_results_writer_set_saves(dm_results_writer *w, double seconds, bool may_replace);
+#define DM_DEFAULT_SAVE_EVERY 600.0
+double dm_results_writer_save_every(dm_results_writer *w);
+
+/* What the save points did so far. */
+typedef struct dm_save_stats {
+    size_t saves, failures;
+    double last_seconds, max_seconds, total_seconds; /* each save's own time */
+    uint64_t last_bytes;           /* the size of the last file saved */
+    dm_error last_error;           /* the last failure, when failures > 0 */
+} dm_save_stats;
+dm_save_stats dm_results_writer_save_stats(dm_results_writer *w);
+
+/* One save point: the file so far (flushed, copied to ".NAME.save-PID") completed as the
+ * file of an interrupted suite would be - the runs written, each run not written as
+ * pending[i] says (a running run's snapshot, a run read back as it is; NULL: left out),
+ * /summary, /sweeps, /tables - synced and renamed over NAME (the directory synced too).
+ * The live file goes on unchanged. `results` is read only for the runs written. A NAME
+ * that no save point of this writer put there is not replaced unless may_replace
+ * (DM_EINPUT, the copy removed). A failure leaves NAME and the live file as they were. */
+dm_status dm_results_writer_save(dm_results_writer *w, const dm_run_result *results,
+                                 dm_run_result *const *pending, dm_error *err);
 /* True once a write of the writer failed (its error was returned then). */
 bool dm_results_writer_failed(dm_results_writer *w);
 

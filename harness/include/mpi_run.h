@@ -8,7 +8,9 @@
  * --jobs threads; only its main thread talks MPI (MPI_THREAD_FUNNELED). A finished run travels back to rank 0 as a packed
  * dm_run_result (result_pack.h), is stored at its index and written at once to the one
  * results file by rank 0's writer (dm_results_writer_add, serialised with rank 0's own
- * threads' writes): the file is the one a single process writes.
+ * threads' writes): the file is the one a single process writes. At a save point
+ * (pool.c's saver) rank 0 asks every rank for snapshots of its running runs, which come
+ * back packed the same way.
  *
  * Built without MPI (DM_HAVE_MPI undefined) every function here is a stand-in for a
  * job of one process, so the command line has one code path.

@@ -110,7 +110,9 @@
     X(max_iters_in_step, COUNT, counts, A, 0, "", "",                                      \
       "most nonlinear iterations one step needed (implicit and adaptive methods)")         \
     X(max_invariant_error, PER_INVARIANT, metrics, A, 0, "", "",                           \
-      "max unit-free error of each extra invariant the problem has (see below)")
+      "max unit-free error of each extra invariant the problem has (see below)")          \
+    X(times_continued, COUNT, metrics, SA, 0, "", "",                                      \
+      "times the run was continued from a checkpoint (run --resume); 0 when it ran in one go")
 
 /* The /summary columns that describe the run rather than measure it, filled from its
  * spec by dm_summary_row_fill. X(name, kind, width, meaning), kind TEXT, INT (int32) or
