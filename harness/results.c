@@ -1402,12 +1402,28 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
             /* Never trust a file's strings to be terminated. */
             const dm_figure *cols[DM_SUMMARY_COLUMNS_MAX];
             const size_t n_cols = dm_summary_columns(cols);
+            const char *unknown = NULL;
             for (hssize_t i = 0; i < count; i++)
-                for (size_t j = 0; j < n_cols; j++)
+                for (size_t j = 0; j < n_cols; j++) {
+                    char *text = (char *)&buf[i] + cols[j]->row_at;
                     if (cols[j]->kind == DM_FIGURE_TEXT || cols[j]->kind == DM_FIGURE_STATUS)
-                        ((char *)&buf[i] + cols[j]->row_at)[cols[j]->width - 1] = '\0';
-            *rows = buf;
-            *n = (size_t)count;
+                        text[cols[j]->width - 1] = '\0';
+                    /* a status not one of ours: the file is not as we wrote it */
+                    if (cols[j]->kind == DM_FIGURE_STATUS && unknown == NULL &&
+                        dm_run_status_named(text) == DM_RUN_NOT_RUN)
+                        unknown = text;
+                }
+            if (unknown != NULL) {
+                char shown[4 * DM_RUN_ID_MAX];
+                dm_escape_controls(unknown, shown, sizeof shown);
+                st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary holds a status "
+                                  "'%s' (expected ok, diverged, failed, interrupted or "
+                                  "swamped)", path, shown);
+                free(buf);
+            } else {
+                *rows = buf;
+                *n = (size_t)count;
+            }
         }
     }
     if (mt >= 0)

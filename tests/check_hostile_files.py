@@ -131,6 +131,19 @@ def main():
         # the runs' groups: the root's attributes are checked
         for name in ("schema-array.h5", "written-array.h5"):
             refused(tmp, ["show", name], f"show {name}")
+
+        # a /summary status none of ours: show, choose and compare refuse it in one line
+        # (they printed and ranked it)
+        def summary_status(f):
+            rows = f["summary"][()]
+            rows["status"][0] = b"weird"
+            del f["summary"]
+            f.create_dataset("summary", data=rows)
+        hostile(base, "summary-status.h5", summary_status)
+        for args in (["show", "summary-status.h5"],
+                     ["choose", "summary-status.h5", "--energy-error", "1e-3"],
+                     ["compare", "good.h5", "summary-status.h5"]):
+            refused(tmp, args, " ".join(args), "status 'weird'")
         r = run(["show", "steps-array.h5"], tmp)
         check(r.returncode == 0, f"show steps-array.h5: /summary alone is still readable "
                                  f"(exit {r.returncode}: {r.stderr!r})")
