@@ -1,6 +1,7 @@
 /* cmd_compare.c — `driftmark compare OLD.h5 NEW.h5 [--tolerance R] [--time-tolerance R]
  * [--format table|csv|json]`: what changed between two results files, run by run
- * (harness/include/compare.h). Exit 0 when nothing got worse, 4 when something did. */
+ * (harness/include/compare.h). Exit 0 when nothing got worse, 4 when something did or a
+ * run of the old file is missing from the new. */
 #include <getopt.h>
 #include <math.h>
 #include <stdio.h>
@@ -185,7 +186,8 @@ int dm_cmd_compare(int argc, char **argv)
     case DM_TABLE_CSV: print_csv(&cmp); break;
     case DM_TABLE_JSON: print_json(&cmp); break;
     }
-    code = cmp.runs_worse > 0 ? DM_EXIT_WORSE : 0;
+    /* a run of the old file missing from the new one is lost: worse, for a CI gate */
+    code = cmp.runs_worse > 0 || cmp.only_old > 0 ? DM_EXIT_WORSE : 0;
     free(cmp.list);
     return code;
 }

@@ -105,6 +105,9 @@ with tempfile.TemporaryDirectory() as tmp:
     e = make("e", "  - {problem: harmonic}\n")
     p, d = compare(a, e, tmp, "--time-tolerance", "1e6")  # timings of reruns: any
     check(d["only_new"] == 3 and d["only_old"] == 0 and p.returncode == 0, f"only new: {d}")
+    # ... and the other way round: runs lost from the new file fail the gate
+    p, d = compare(e, a, tmp, "--time-tolerance", "1e6")
+    check(d["only_old"] == 3 and p.returncode == 4, f"runs lost: exit {p.returncode} {d}")
     # 6. every format; bad input
     for fmt in ("table", "csv"):
         p = run(["compare", a, c, "--format", fmt], tmp)
