@@ -51,20 +51,28 @@ static void print_text(void)
         else
             printf("\n  %s - %s (%d degree%s of freedom)\n", pr->id, pr->name, pr->dof,
                    pr->dof == 1 ? "" : "s");
-        int wname = 4;
-        for (int k = 0; k < pr->n_params; k++) {
-            int len = (int)strlen(pr->params[k].name);
-            if (len > wname)
-                wname = len;
-        }
-        printf("    %-*s  %-10s  %-24s  %s\n", wname, "parameter", "default", "range",
-               "meaning");
+        /* columns as wide as their widest cell ("invariants" heads the first) */
+        int wname = (int)strlen("invariants"), wdef = (int)strlen("default"),
+            wrange = (int)strlen("range");
         for (int k = 0; k < pr->n_params; k++) {
             const dm_param *p = &pr->params[k];
             char def[40], range[96];
             dm_number_text(p->fallback, def, sizeof def);
             dm_param_range_text(p, range, sizeof range);
-            printf("    %-*s  %-10s  %-24s  %s%s\n", wname, p->name, def, range, p->meaning,
+            int len[3] = { (int)strlen(p->name), (int)strlen(def), (int)strlen(range) };
+            wname = len[0] > wname ? len[0] : wname;
+            wdef = len[1] > wdef ? len[1] : wdef;
+            wrange = len[2] > wrange ? len[2] : wrange;
+        }
+        printf("    %-*s  %-*s  %-*s  %s\n", wname, "parameter", wdef, "default", wrange,
+               "range", "meaning");
+        for (int k = 0; k < pr->n_params; k++) {
+            const dm_param *p = &pr->params[k];
+            char def[40], range[96];
+            dm_number_text(p->fallback, def, sizeof def);
+            dm_param_range_text(p, range, sizeof range);
+            printf("    %-*s  %-*s  %-*s  %s%s\n", wname, p->name, wdef, def, wrange, range,
+                   p->meaning,
                    (p->flags & DM_PARAM_START) ? " [starting state: give at most one]" : "");
         }
         for (int k = 0; k < pr->n_regimes; k++)

@@ -389,6 +389,10 @@ void dm_table_summary_fill(dm_table_summary *s, const dm_user_table *t)
 
 static void tables_text(FILE *out, const dm_table_summary *tables, size_t n)
 {
+    if (n == 0) {
+        fprintf(out, "(no tables: the suite typed no method as a table)\n");
+        return;
+    }
     fprintf(out, "%-31s %-12s %7s %5s  %-16s %-9s  %-22s %-22s\n", "table", "form",
             "claimed", "found", "basis", "symmetric", "harmonic: order (C)",
             "pendulum: order (C)");
