@@ -9,6 +9,7 @@
 
 #include "cli.h"
 #include "dm_json.h"
+#include "dm_number_text.h"
 #include "orbit_period.h"
 #include "problem.h"
 
@@ -81,7 +82,9 @@ static void print_text(const dm_instance *inst)
          * none was given is its own business, and q0, p0, energy below show the state. */
         if (start && !given)
             continue;
-        printf("%-16s%s = %.17g%s\n", label, pr->params[i].name, inst->param[i],
+        char value[40]; /* the shortest text that reads back as the same double */
+        dm_number_text(inst->param[i], value, sizeof value);
+        printf("%-16s%s = %s%s\n", label, pr->params[i].name, value,
                given ? "" : " (default)");
         label = "";
     }
