@@ -1574,8 +1574,9 @@ done:
 }
 
 /* A killed `run` leaves its temporary file ".NAME.tmp-PID" (up to the size of a whole
- * results file) beside NAME. Those of processes that no longer exist are removed:
- * only names of exactly that form, for this NAME. */
+ * results file) beside NAME, and ".NAME.save-PID" when killed inside a save point.
+ * Those of processes that no longer exist are removed: only names of exactly those
+ * forms, for this NAME. */
 static void remove_stale_temps(const char *dir, const char *base)
 {
     DIR *d = opendir(dir);
@@ -1585,10 +1586,15 @@ static void remove_stale_temps(const char *dir, const char *base)
     struct dirent *e;
     while ((e = readdir(d)) != NULL) {
         const char *n = e->d_name;
-        if (n[0] != '.' || strncmp(n + 1, base, base_len) != 0 ||
-            strncmp(n + 1 + base_len, ".tmp-", 5) != 0)
+        if (n[0] != '.' || strncmp(n + 1, base, base_len) != 0)
             continue;
-        const char *digits = n + 1 + base_len + 5;
+        const char *kind = n + 1 + base_len, *digits = NULL;
+        if (strncmp(kind, ".tmp-", 5) == 0)
+            digits = kind + 5;
+        else if (strncmp(kind, ".save-", 6) == 0)
+            digits = kind + 6;
+        else
+            continue;
         char *end = NULL;
         errno = 0;
         long pid = strtol(digits, &end, 10);

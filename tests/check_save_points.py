@@ -144,8 +144,16 @@ def killed_and_resumed(tmp, full, jobs, label):
         check(int(g.attrs["times_continued"]) == 0, f"{label}: never continued yet")
         check(0 < len(g["time"]) < 256, f"{label}: it keeps its series so far: {len(g['time'])}")
     check(not [x for x in os.listdir(tmp) if ".save-" in x], f"{label}: no save copy left")
+    base = os.path.basename(out)
+    left = [x for x in os.listdir(tmp) if x.startswith(f".{base}.tmp-")]
+    check(len(left) == 1, f"{label}: the killed process's temporary file is there: {left}")
+    # ... and a save copy of a process killed inside a save point (a dead pid's name)
+    with open(os.path.join(tmp, f".{base}.save-999999999"), "w") as f:
+        f.write("half a copy")
     p = run(EXE, ["run", "--resume", out, "-j", str(jobs)], cwd=tmp)
     check(p.returncode == 0, f"{label}: resume: {p.returncode} {p.stderr.strip()}")
+    check(not [x for x in os.listdir(tmp) if x.startswith(f".{base}.")],
+          f"{label}: --resume removed the dead process's temporary files: {os.listdir(tmp)}")
     check("(1 continued from their checkpoints)" in p.stderr,
           f"{label}: the interrupted run continues: {p.stderr!r}")
     identical(full, out, f"{label}: resumed")
