@@ -1250,7 +1250,12 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
             if (H5Aexists(g, f->name) != 0)
                 rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double));
             break;
-        case DM_FIGURE_COUNT: rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t)); break;
+        case DM_FIGURE_COUNT:
+            /* one a file from before it existed lacks counts nothing */
+            FIGURE_AT(f, r, uint64_t) = 0;
+            if (H5Aexists(g, f->name) != 0)
+                rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t));
+            break;
         case DM_FIGURE_STATUS:
             rc |= read_text_attr(g, f->name, text, sizeof text);
             FIGURE_AT(f, r, dm_run_status) = dm_run_status_named(text);
