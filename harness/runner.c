@@ -600,13 +600,19 @@ static void finish_metrics(run_context *c, double wall)
     m->max_global_error = m->max_reference_error = m->reference_valid_until = NAN;
     /* With a reference, the buckets up to the first whose reference error estimate
      * exceeds 1e-3 of the global error (beyond it the global error is the reference's
-     * as much as the method's) */
+     * as much as the method's), or 1e-3 of the size of the start in phase space (a
+     * chaotic reference lost at the Lyapunov horizon: its error grows as exp(lambda t)) */
     size_t trusted = ser->n;
     if (ser->reference_error != NULL) {
+        double size = 0.0;
+        for (int j = 0; j < c->inst->dof; j++)
+            size += c->inst->q0[j] * c->inst->q0[j] + c->inst->p0[j] * c->inst->p0[j];
+        size = sqrt(size);
         m->max_reference_error = 0.0;
         for (size_t i = 0; i < ser->n; i++) {
-            m->max_reference_error = fmax(m->max_reference_error, ser->reference_error[i]);
-            if (trusted == ser->n && !(ser->reference_error[i] <= 1e-3 * ser->global_error[i]))
+            double e = ser->reference_error[i];
+            m->max_reference_error = fmax(m->max_reference_error, e);
+            if (trusted == ser->n && !(e <= 1e-3 * ser->global_error[i] && e <= 1e-3 * size))
                 trusted = i;
         }
         if (ser->n > 0)

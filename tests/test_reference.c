@@ -355,7 +355,45 @@ static void reference_is_the_same_in_other_units(void **state)
     assert_true(units_worst(256.0, 262144.0) == 0.0);
 }
 
-/* A problem with no quad gradient is refused where it stands in the suite. */
+/* A chaotic orbit (Henon-Heiles at E = 0.1666 from start_y -0.1, exponent about 0.13:
+ * test_henon_heiles.c) with a reference made coarse on purpose (tolerance 1e-6): its error
+ * estimate grows as exp(lambda t) and passes 1e-3 of the orbit's size before the
+ * horizon; the run says where, and its max global error is taken up to there. */
+static void a_lost_reference_cuts_the_global_error(void **state)
+{
+    (void)state;
+    static const char text[] =
+        "output: /tmp/dm-test-reference/out.h5\nhorizon: {time: 400}\nbuckets: 100\n"
+        "reference: true\nreference_tolerance: 1.0e-6\nproblems:\n"
+        "  - {problem: henon_heiles, energy: 0.1666, start_y: -0.1}\n"
+        "methods:\n  - {method: yoshida4, h: 0.05}\n";
+    dm_suite suite;
+    parse(&suite, text);
+    dm_run_result r;
+    run_all(&suite, &r);
+    const dm_run_metrics *m = &r.metrics;
+    assert_true(m->reference_valid_until > 0.0 && m->reference_valid_until < m->t_reached);
+    assert_non_null(strstr(r.reference_note, "after t = "));
+    double size = 0.0, max = 0.0;
+    for (int j = 0; j < 2; j++)
+        size += suite.runs[0].inst.q0[j] * suite.runs[0].inst.q0[j] +
+                suite.runs[0].inst.p0[j] * suite.runs[0].inst.p0[j];
+    size = sqrt(size);
+    size_t i = 0;
+    for (; i < r.series.n && r.series.time[i] <= m->reference_valid_until; i++) {
+        assert_true(r.series.reference_error[i] <= 1e-3 * r.series.global_error[i]);
+        assert_true(r.series.reference_error[i] <= 1e-3 * size);
+        max = fmax(max, r.series.global_error[i]);
+    }
+    assert_true(i < r.series.n);
+    assert_true(r.series.reference_error[i] > 1e-3 * fmin(size, r.series.global_error[i]));
+    assert_true(m->max_global_error == max);
+    dm_run_result_free(&r);
+    dm_suite_free(&suite);
+}
+
+/* A problem with no quad gradient is refused where it stands in the suite, and so is a
+ * tolerance out of range. */
 static void formula_problem_is_refused(void **state)
 {
     (void)state;
@@ -370,6 +408,12 @@ static void formula_problem_is_refused(void **state)
     assert_non_null(strstr(err.msg, SRC ":5:5: "));
     assert_non_null(strstr(err.msg, "gradient_quad"));
     assert_null(strchr(err.msg, '\n'));
+    static const char bad[] =
+        "output: /tmp/dm-test-reference/out.h5\nhorizon: {periods: 10}\nreference: true\n"
+        "reference_tolerance: 1.0e-40\n"
+        "problems:\n  - {problem: harmonic}\nmethods:\n  - {method: verlet, steps_per_period: 32}\n";
+    assert_int_equal(dm_suite_parse(&suite, bad, strlen(bad), SRC, NULL, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, SRC ":4:22: reference_tolerance = 1e-40 is out of range"));
 }
 
 int main(void)
@@ -383,6 +427,7 @@ int main(void)
         cmocka_unit_test(outer_solar_verlet_is_of_order_two),
         cmocka_unit_test(figures_do_not_depend_on_buckets_or_jobs),
         cmocka_unit_test(reference_is_the_same_in_other_units),
+        cmocka_unit_test(a_lost_reference_cuts_the_global_error),
         cmocka_unit_test(formula_problem_is_refused),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -83,7 +83,7 @@
     X(max_reference_error, REAL, metrics, SA, 0, "", "",                                  \
       "max of the reference's error estimate over the bucket ends (NaN without reference: true)") \
     X(reference_valid_until, REAL, metrics, SA, 0, "", "",                                \
-      "the last bucket end before the reference's error estimate first exceeds 1e-3 of the global error (NaN without a reference)") \
+      "the last bucket end before the reference's error estimate first exceeds 1e-3 of the global error or of the start's size in phase space (NaN without a reference)") \
     X(reference_step, REAL, metrics, A, 0, "", "",                                        \
       "step of the reference trajectory, the finer of its two (NaN without one)")        \
     X(reference_force_evals, COUNT, metrics, A, 0, "", "",                                \
