@@ -355,6 +355,50 @@ static void reference_is_the_same_in_other_units(void **state)
     assert_true(units_worst(256.0, 262144.0) == 0.0);
 }
 
+/* A run stopped at every bucket end and continued (--resume) ends with the same global
+ * error and reference figures, bit for bit, as one never stopped: the reference is
+ * started again and stepped on its own grid to the time asked for, so the checkpoint
+ * needs nothing of it. */
+static void a_continued_run_has_the_same_reference(void **state)
+{
+    (void)state;
+    static const char text[] =
+        "output: /tmp/dm-test-reference/out.h5\nhorizon: {time: 100}\nbuckets: 6\n"
+        "reference: true\nreference_tolerance: 1.0e-14\nproblems:\n"
+        "  - {problem: henon_heiles, energy: 0.08333333333333333, start_y: 0.1}\n"
+        "methods:\n  - {method: yoshida4, h: 0.05}\n  - {method: cvode-adams, rtol: 1.0e-9}\n";
+    dm_suite suite;
+    parse(&suite, text);
+    dm_error err = { 0 };
+    for (size_t i = 0; i < suite.n_runs; i++) {
+        dm_run_result whole, part;
+        assert_int_equal(dm_run(&suite.runs[i], &whole, NULL, &err), DM_OK);
+        volatile int stop = 1; /* every bucket end stops the run */
+        assert_int_equal(dm_run(&suite.runs[i], &part, &stop, &err), DM_OK);
+        int stops = 0;
+        while (part.status == DM_RUN_INTERRUPTED) {
+            stops++;
+            assert_int_equal(dm_run_resume(&suite.runs[i], &part, &stop, &err), DM_OK);
+        }
+        assert_true(stops >= 4);
+        assert_int_equal(part.status, DM_RUN_OK);
+        assert_int_equal(part.series.n, whole.series.n);
+        if (i == 0) { /* fixed steps continue exactly; CVODE is restarted (results/README.md) */
+            assert_memory_equal(whole.series.global_error, part.series.global_error,
+                                whole.series.n * sizeof(double));
+            assert_memory_equal(&whole.metrics.max_global_error, &part.metrics.max_global_error,
+                                sizeof(double));
+        }
+        /* the reference at each time asked for does not depend on the stops */
+        assert_memory_equal(whole.series.reference_error + whole.series.n - 1,
+                            part.series.reference_error + part.series.n - 1, sizeof(double));
+        assert_true(part.metrics.reference_step == whole.metrics.reference_step);
+        dm_run_result_free(&whole);
+        dm_run_result_free(&part);
+    }
+    dm_suite_free(&suite);
+}
+
 /* A chaotic orbit (Henon-Heiles at E = 0.1666 from start_y -0.1, exponent about 0.13:
  * test_henon_heiles.c) with a reference made coarse on purpose (tolerance 1e-6): its error
  * estimate grows as exp(lambda t) and passes 1e-3 of the orbit's size before the
@@ -427,6 +471,7 @@ int main(void)
         cmocka_unit_test(outer_solar_verlet_is_of_order_two),
         cmocka_unit_test(figures_do_not_depend_on_buckets_or_jobs),
         cmocka_unit_test(reference_is_the_same_in_other_units),
+        cmocka_unit_test(a_continued_run_has_the_same_reference),
         cmocka_unit_test(a_lost_reference_cuts_the_global_error),
         cmocka_unit_test(formula_problem_is_refused),
     };
