@@ -84,8 +84,8 @@ static bool has_global_error(const dm_run_spec *spec)
     return spec->reference || spec->inst.problem->exact != NULL;
 }
 
-/* What allocate() below takes: 4 series, the global error's, the reference's error
- * estimate and each invariant's, of
+/* What allocate() below takes (and the reference trajectories, allocated by run_from):
+ * 4 series, the global error's, the reference's error estimate and each invariant's, of
  * `samples` doubles, and 3 crossing arrays (5 with the surface of section) of at least
  * 64. Keep the two together. */
 double dm_run_memory_bytes(const dm_run_spec *spec)
@@ -95,7 +95,7 @@ double dm_run_memory_bytes(const dm_run_spec *spec)
     double series = 4.0 + has_global_error(spec) + spec->reference +
                     (pb->invariants != NULL ? pb->n_invariants : 0);
     double crossing_arrays = keeps_section_points(&spec->inst) ? 5.0 : 3.0;
-    return sizeof(dm_run_result) +
+    return sizeof(dm_run_result) + (spec->reference ? sizeof(dm_reference_pair) : 0) +
            sizeof(double) * (series * cap + crossing_arrays * (cap < 64 ? 64 : cap));
 }
 
