@@ -430,6 +430,10 @@ static int print_plan(const dm_suite *suite, int jobs)
     }
     printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
            bytes / 1048576.0);
+    if (suite->n_runs > 0 && suite->runs[0].reference)
+        printf("and a reference trajectory a run, in quad precision: up to %.3g gradients each "
+               "(reference_force_evals), its step chosen from reference_tolerance when it runs, "
+               "not in the rough time below\n", suite->runs[0].reference_force_evals);
     for (size_t i = 0; i < suite->n_runs; i++) {
         if (suite->runs[i].method->adaptive)
             continue;
@@ -438,6 +442,7 @@ static int print_plan(const dm_suite *suite, int jobs)
         if (probe.t_end > steps * fabs(probe.method_config.h))
             probe.t_end = steps * fabs(probe.method_config.h);
         probe.samples = 1;
+        probe.reference = false; /* the method's time alone: the reference's is below */
         dm_run_result r;
         dm_error err = { 0 };
         double t0 = dm_clock_seconds();
