@@ -84,7 +84,8 @@ static bool has_global_error(const dm_run_spec *spec)
     return spec->reference || spec->inst.problem->exact != NULL;
 }
 
-/* What allocate() below takes (and the reference trajectories, allocated by run_from):
+/* What allocate() below takes (and the reference trajectories with the states they are
+ * compared with, allocated by run_from):
  * 4 series, the global error's, the reference's error estimate and each invariant's, of
  * `samples` doubles, and 3 crossing arrays (5 with the surface of section) of at least
  * 64. Keep the two together. */
@@ -95,7 +96,9 @@ double dm_run_memory_bytes(const dm_run_spec *spec)
     double series = 4.0 + has_global_error(spec) + spec->reference +
                     (pb->invariants != NULL ? pb->n_invariants : 0);
     double crossing_arrays = keeps_section_points(&spec->inst) ? 5.0 : 3.0;
-    return sizeof(dm_run_result) + (spec->reference ? sizeof(dm_reference_pair) : 0) +
+    double reference = spec->reference ? sizeof(dm_reference_pair) +
+                                             sizeof(double) * 2.0 * spec->inst.dof * cap : 0.0;
+    return sizeof(dm_run_result) + reference +
            sizeof(double) * (series * cap + crossing_arrays * (cap < 64 ? 64 : cap));
 }
 
@@ -317,10 +320,12 @@ typedef struct run_context {
                                    buckets (problems with closest_approach), else NaN */
     int n_invariants;
     double invariant_start[DM_MAX_INVARIANTS], invariant_scale[DM_MAX_INVARIANTS];
-    /* the reference trajectory (spec->reference; allocated, NULL otherwise) and the wall
-     * time it took at bucket ends, which is not the method's */
+    /* the reference trajectory (spec->reference; allocated, NULL otherwise), and the
+     * run's state at each bucket end from ref_first on, compared with it after the run
+     * (so the reference's work does not interleave with the method's, nor its time) */
     dm_reference_pair *ref;
-    double ref_seconds_in_buckets;
+    double *ref_states;
+    size_t ref_first;
     dm_run_status status;
 } run_context;
 
@@ -524,11 +529,8 @@ static void record_bucket(run_context *c)
         dm_line_fit_add(&c->drift_fit, t / inst->period, mon->energy_error);
     if (inst->problem->closest_approach != NULL)
         c->closest = fmin(c->closest, inst->problem->closest_approach(true));
-    if (c->ref != NULL) {
-        double before = c->ref->seconds;
-        dm_reference_pair_at(c->ref, t, c->cur->x, &ser->global_error[i],
-                             &ser->reference_error[i]);
-        c->ref_seconds_in_buckets += c->ref->seconds - before;
+    if (c->ref != NULL) { /* compared after the run: reference_pass */
+        memcpy(c->ref_states + 2 * (size_t)n * i, c->cur->x, sizeof(double) * 2 * (size_t)n);
     } else if (ser->global_error != NULL) {
         double qe[DM_MAX_DOF], pe[DM_MAX_DOF], sum = 0.0;
         inst->problem->exact(inst, t, qe, pe);
@@ -627,6 +629,19 @@ static void finish_metrics(run_context *c, double wall)
     result->crossings.total = c->log.count;
 }
 
+/* The global error of the buckets recorded by this call (from ref_first) against the
+ * reference, and the reference's error estimate there. */
+static void reference_pass(run_context *c)
+{
+    if (c->ref == NULL)
+        return;
+    dm_series *ser = &c->result->series;
+    const size_t n2 = 2 * (size_t)c->inst->dof;
+    for (size_t i = c->ref_first; i < ser->n; i++)
+        dm_reference_pair_at(c->ref, ser->time[i], c->ref_states + n2 * i,
+                             &ser->global_error[i], &ser->reference_error[i]);
+}
+
 /* The reference's own figures and its note. */
 static void finish_reference(run_context *c)
 {
@@ -652,7 +667,9 @@ static void finish_reference(run_context *c)
                  "its error estimate exceeds 1e-3 of the global error after t = %.6g: "
                  "max_global_error is taken up to there", m->reference_valid_until);
     free(c->ref);
+    free(c->ref_states);
     c->ref = NULL;
+    c->ref_states = NULL;
 }
 
 /* The run's whole state into a new checkpoint (result->checkpoint): `bucket` is the
@@ -861,10 +878,14 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         /* a continued run starts its reference again: the grid is stepped up to the
          * first bucket end asked for, so it is the one an unstopped run has */
         c->ref = malloc(sizeof *c->ref);
-        rc = c->ref != NULL ? dm_reference_pair_start(c->ref, spec, err)
-                            : dm_error_set(err, DM_ENOMEM, "out of memory for the reference");
+        c->ref_states = malloc(sizeof(double) * 2 * (size_t)n * spec->samples);
+        c->ref_first = result->series.n;
+        rc = c->ref != NULL && c->ref_states != NULL
+                 ? dm_reference_pair_start(c->ref, spec, err)
+                 : dm_error_set(err, DM_ENOMEM, "out of memory for the reference");
         if (rc != DM_OK) {
             free(c->ref);
+            free(c->ref_states);
             dm_stepper_destroy(c->stepper);
             return rc;
         }
@@ -872,7 +893,9 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
 
     double t_start = dm_clock_seconds();
     run_buckets(c, first, inside, wall_before, t_start);
-    finish_metrics(c, wall_before + dm_clock_seconds() - t_start - c->ref_seconds_in_buckets);
+    double wall = wall_before + dm_clock_seconds() - t_start;
+    reference_pass(c);
+    finish_metrics(c, wall);
     finish_reference(c);
     dm_stepper_destroy(c->stepper);
     m->lyapunov_exponent = NAN;
