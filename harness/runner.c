@@ -662,7 +662,8 @@ static void finish_reference(run_context *c)
                  "tolerance %.3g not met within %.3g gradient evaluations: %.3g projected "
                  "at step %.6g", c->spec->reference_tolerance, c->spec->reference_force_evals,
                  c->ref->projected, m->reference_step);
-    else if (m->reference_valid_until < m->t_reached)
+    else if (m->reference_valid_until < m->t_reached &&
+             (r->status == DM_RUN_OK || r->status == DM_RUN_SWAMPED))
         snprintf(r->reference_note, sizeof r->reference_note,
                  "its error estimate exceeds 1e-3 of the global error after t = %.6g: "
                  "max_global_error is taken up to there", m->reference_valid_until);
