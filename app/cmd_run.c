@@ -455,6 +455,7 @@ static bool probe_adaptive(const dm_run_spec *spec, double *evals, double *secon
     probe.samples = 1;
     probe.step_budget = PLAN_PROBE_STEPS;
     probe.lyapunov = false;
+    probe.reference = false;
     dm_run_result r;
     dm_error err = { 0 };
     double t0 = dm_clock_seconds();
@@ -484,6 +485,7 @@ static double probe_fixed(const dm_suite *suite, const char **probed)
             probe.t_end = steps * fabs(probe.method_config.h);
         probe.samples = 1;
         probe.lyapunov = false;
+        probe.reference = false; /* the method's time alone: the reference's is below */
         dm_run_result r;
         dm_error err = { 0 };
         double t0 = dm_clock_seconds();
@@ -542,6 +544,10 @@ static int print_plan(const dm_suite *suite, int jobs)
     }
     printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
            bytes / 1048576.0);
+    if (suite->n_runs > 0 && suite->runs[0].reference)
+        printf("and a reference trajectory a run, in quad precision: up to %.3g gradients each "
+               "(reference_force_evals), its step chosen from reference_tolerance when it runs, "
+               "not in the rough time below\n", suite->runs[0].reference_force_evals);
     int threads = jobs < (int)suite->n_runs ? jobs : (int)suite->n_runs;
     double seconds = (fixed_work > 0.0 ? fixed_work * per_eval : 0.0) + adaptive_seconds;
     if (!isfinite(seconds)) {

@@ -24,7 +24,7 @@
 /* The distance of x and y in phase space with positions in units of |q0| and momenta in
  * units of |p0| (each 1 when it is 0), so that it, the start of the shadow and the
  * exponent times the time unit do not depend on the units of the problem. */
-static double distance(const double *x, const double *y, int dof, const double scale[2])
+double dm_phase_distance(const double *x, const double *y, int dof, const double scale[2])
 {
     double s = 0.0;
     for (int i = 0; i < 2 * dof; i++) {
@@ -42,6 +42,14 @@ static double norm(const double *v, int n)
     return sqrt(s);
 }
 
+void dm_phase_scale(const dm_instance *inst, double scale[2])
+{
+    scale[0] = norm(inst->q0, inst->dof);
+    scale[1] = norm(inst->p0, inst->dof);
+    for (int k = 0; k < 2; k++)
+        scale[k] = scale[k] > 0.0 ? scale[k] : 1.0;
+}
+
 double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *err)
 {
     const dm_instance *inst = &spec->inst;
@@ -51,9 +59,8 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
     double x[2][2 * DM_MAX_DOF], y[2][2 * DM_MAX_DOF];
     memcpy(x[0], inst->q0, sizeof(double) * (size_t)dof);
     memcpy(x[0] + dof, inst->p0, sizeof(double) * (size_t)dof);
-    double scale[2] = { norm(inst->q0, dof), norm(inst->p0, dof) };
-    for (int k = 0; k < 2; k++)
-        scale[k] = scale[k] > 0.0 ? scale[k] : 1.0;
+    double scale[2];
+    dm_phase_scale(inst, scale);
     for (int i = 0; i < n; i++) /* along the diagonal: every component moved */
         y[0][i] = x[0][i] + D0 * scale[i >= dof] / sqrt((double)n);
     dm_point px[2] = { { 0.0, x[0], NAN }, { 0.0, x[1], NAN } };
@@ -71,7 +78,7 @@ double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *e
         cur = 1 - cur;
         if (k % RENORM_STEPS != 0 && k != steps)
             continue;
-        double d = distance(x[cur], y[cur], dof, scale);
+        double d = dm_phase_distance(x[cur], y[cur], dof, scale);
         if (!(d > 0.0) || !isfinite(d))
             break;
         sum += log(d / D0);

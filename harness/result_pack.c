@@ -130,6 +130,7 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
     put_array(c, s->energy_error_min, s->n);
     put_array(c, s->energy_error_max, s->n);
     put_array(c, s->global_error, s->n);
+    put_array(c, s->reference_error, s->n);
     for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++)
         put_array(c, s->invariant_error[i], s->n);
 
@@ -298,7 +299,8 @@ static bool get_series(cursor *c, const dm_run_spec *spec, dm_series *s, bool *n
         !get_array(c, s->n, s->capacity, &s->energy_error, nomem) ||
         !get_array(c, s->n, s->capacity, &s->energy_error_min, nomem) ||
         !get_array(c, s->n, s->capacity, &s->energy_error_max, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->global_error, nomem))
+        !get_array(c, s->n, s->capacity, &s->global_error, nomem) ||
+        !get_array(c, s->n, s->capacity, &s->reference_error, nomem))
         return false;
     for (int i = 0; i < n_inv; i++)
         if (!get_array(c, s->n, s->capacity, &s->invariant_error[i], nomem))

@@ -492,6 +492,8 @@ static int write_run_series(hid_t g, const dm_problem *pr, const dm_run_result *
     rc |= dataset_double(g, "energy_error_max", s->energy_error_max, s->n);
     if (s->global_error != NULL)
         rc |= dataset_double(g, "global_error", s->global_error, s->n);
+    if (s->reference_error != NULL)
+        rc |= dataset_double(g, "reference_error", s->reference_error, s->n);
     for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++) {
         if (s->invariant_error[i] == NULL)
             continue;
@@ -1533,11 +1535,10 @@ static int read_run_figures(hid_t g, const dm_run_spec *spec, const dm_summary_r
                 rc |= read_double_attr(g, f->name, &FIGURE_AT(f, r, double));
             break;
         case DM_FIGURE_COUNT:
-            /* times_continued, the one count added after files were written: a file
-             * from before it never continued a run */
+            /* a count added after files were written (times_continued, the reference's
+             * force evaluations): one a file from before it lacks counts nothing */
             FIGURE_AT(f, r, uint64_t) = 0;
-            if (f->at != offsetof(dm_run_result, metrics.times_continued) ||
-                H5Aexists(g, f->name) != 0)
+            if (H5Aexists(g, f->name) != 0)
                 rc |= read_u64_attr(g, f->name, &FIGURE_AT(f, r, uint64_t));
             break;
         case DM_FIGURE_STATUS:
@@ -1593,8 +1594,10 @@ static int read_run(hid_t g, const dm_run_spec *spec, const dm_summary_row *row,
     rc |= read_doubles(g, "energy_error", &n, cap, &s->energy_error);
     rc |= read_doubles(g, "energy_error_min", &n, cap, &s->energy_error_min);
     rc |= read_doubles(g, "energy_error_max", &n, cap, &s->energy_error_max);
-    if (pr->exact != NULL)
+    if (pr->exact != NULL || spec->reference)
         rc |= read_doubles(g, "global_error", &n, cap, &s->global_error);
+    if (spec->reference)
+        rc |= read_doubles(g, "reference_error", &n, cap, &s->reference_error);
     s->n_invariants = pr->invariants != NULL ? pr->n_invariants : 0;
     for (int i = 0; i < s->n_invariants; i++) {
         char raw[96], name[96];

@@ -15,6 +15,7 @@
 #include "dm_number_text.h"
 #include "checkpoint.h"
 #include "harness.h"
+#include "reference_run.h"
 
 /* A stop request is polled, and the progress published, every POLL_STEPS steps of a
  * fixed-step run (every ADAPTIVE_POLL_STEPS adaptive steps) and at bucket ends. */
@@ -43,6 +44,7 @@ void dm_run_result_drop_series(dm_run_result *result)
     free(result->series.energy_error_min);
     free(result->series.energy_error_max);
     free(result->series.global_error);
+    free(result->series.reference_error);
     for (int i = 0; i < DM_MAX_INVARIANTS; i++)
         free(result->series.invariant_error[i]);
     free(result->crossings.number);
@@ -75,16 +77,28 @@ static bool keeps_section_points(const dm_instance *inst)
     return inst->dof == 2 && !inst->section.relative;
 }
 
-/* What allocate() below takes: 4 series, the exact solution's and each invariant's, of
+/* Whether a run measures its global error: against the reference when the suite asks
+ * for one, else against the exact solution where the problem has one. */
+static bool has_global_error(const dm_run_spec *spec)
+{
+    return spec->reference || spec->inst.problem->exact != NULL;
+}
+
+/* What allocate() below takes (and the reference trajectories with the states they are
+ * compared with, allocated by run_from):
+ * 4 series, the global error's, the reference's error estimate and each invariant's, of
  * `samples` doubles, and 3 crossing arrays (5 with the surface of section) of at least
  * 64. Keep the two together. */
 double dm_run_memory_bytes(const dm_run_spec *spec)
 {
     const dm_problem *pb = spec->inst.problem;
     double cap = (double)spec->samples;
-    double series = 4.0 + (pb->exact != NULL) + (pb->invariants != NULL ? pb->n_invariants : 0);
+    double series = 4.0 + has_global_error(spec) + spec->reference +
+                    (pb->invariants != NULL ? pb->n_invariants : 0);
     double crossing_arrays = keeps_section_points(&spec->inst) ? 5.0 : 3.0;
-    return sizeof(dm_run_result) +
+    double reference = spec->reference ? sizeof(dm_reference_pair) +
+                                             sizeof(double) * 2.0 * spec->inst.dof * cap : 0.0;
+    return sizeof(dm_run_result) + reference +
            sizeof(double) * (series * cap + crossing_arrays * (cap < 64 ? 64 : cap));
 }
 
@@ -99,9 +113,13 @@ static dm_status allocate(dm_run_result *r, const dm_run_spec *spec, dm_error *e
     s->energy_error_min = calloc(cap, sizeof(double));
     s->energy_error_max = calloc(cap, sizeof(double));
     bool ok = s->time && s->energy_error && s->energy_error_min && s->energy_error_max;
-    if (pb->exact != NULL) {
+    if (has_global_error(spec)) {
         s->global_error = calloc(cap, sizeof(double));
         ok = ok && s->global_error;
+    }
+    if (spec->reference) {
+        s->reference_error = calloc(cap, sizeof(double));
+        ok = ok && s->reference_error;
     }
     s->n_invariants = pb->invariants != NULL ? pb->n_invariants : 0;
     for (int i = 0; i < s->n_invariants; i++) {
@@ -307,6 +325,12 @@ typedef struct run_context {
                                    buckets (problems with closest_approach), else NaN */
     int n_invariants;
     double invariant_start[DM_MAX_INVARIANTS], invariant_scale[DM_MAX_INVARIANTS];
+    /* the reference trajectory (spec->reference; allocated, NULL otherwise), and the
+     * run's state at each bucket end from ref_first on, compared with it after the run
+     * (so the reference's work does not interleave with the method's, nor its time) */
+    dm_reference_pair *ref;
+    double *ref_states;
+    size_t ref_first;
     dm_run_status status;
 } run_context;
 
@@ -547,7 +571,9 @@ static void record_bucket(run_context *c)
         dm_line_fit_add(&c->drift_fit, t / inst->period, mon->energy_error);
     if (inst->problem->closest_approach != NULL)
         c->closest = fmin(c->closest, inst->problem->closest_approach(true));
-    if (ser->global_error != NULL) {
+    if (c->ref != NULL) { /* compared after the run: reference_pass */
+        memcpy(c->ref_states + 2 * (size_t)n * i, c->cur->x, sizeof(double) * 2 * (size_t)n);
+    } else if (ser->global_error != NULL) {
         double qe[DM_MAX_DOF], pe[DM_MAX_DOF], sum = 0.0;
         inst->problem->exact(inst, t, qe, pe);
         for (int j = 0; j < n; j++) {
@@ -616,13 +642,78 @@ static void finish_metrics(run_context *c, double wall)
         m->period_measured = slope;
     }
     m->phase_error_final = c->log.last_phase;
-    m->max_global_error = NAN;
-    if (ser->global_error != NULL) {
+    m->max_global_error = m->max_reference_error = m->reference_valid_until = NAN;
+    /* With a reference, the buckets up to the first whose reference error estimate
+     * exceeds 1e-3 of the global error (beyond it the global error is the reference's
+     * as much as the method's), or 1e-3 of the size of the start in phase space (a
+     * chaotic reference lost at the Lyapunov horizon: its error grows as exp(lambda t)) */
+    size_t trusted = ser->n;
+    if (ser->reference_error != NULL) {
+        double size = 0.0;
+        for (int j = 0; j < c->inst->dof; j++)
+            size += c->inst->q0[j] * c->inst->q0[j] + c->inst->p0[j] * c->inst->p0[j];
+        size = sqrt(size);
+        m->max_reference_error = 0.0;
+        for (size_t i = 0; i < ser->n; i++) {
+            double e = ser->reference_error[i];
+            m->max_reference_error = fmax(m->max_reference_error, e);
+            if (trusted == ser->n && !(e <= 1e-3 * ser->global_error[i] && e <= 1e-3 * size))
+                trusted = i;
+        }
+        if (ser->n > 0)
+            m->reference_valid_until = trusted == ser->n ? m->t_reached
+                                       : trusted > 0 ? ser->time[trusted - 1] : 0.0;
+    }
+    if (ser->global_error != NULL && trusted > 0) {
         m->max_global_error = 0.0;
-        for (size_t i = 0; i < ser->n; i++)
+        for (size_t i = 0; i < trusted; i++)
             m->max_global_error = fmax(m->max_global_error, ser->global_error[i]);
     }
     result->crossings.total = c->log.count;
+}
+
+/* The global error of the buckets recorded by this call (from ref_first) against the
+ * reference, and the reference's error estimate there. */
+static void reference_pass(run_context *c)
+{
+    if (c->ref == NULL)
+        return;
+    dm_series *ser = &c->result->series;
+    const size_t n2 = 2 * (size_t)c->inst->dof;
+    for (size_t i = c->ref_first; i < ser->n; i++)
+        dm_reference_pair_at(c->ref, ser->time[i], c->ref_states + n2 * i,
+                             &ser->global_error[i], &ser->reference_error[i]);
+}
+
+/* The reference's own figures and its note. */
+static void finish_reference(run_context *c)
+{
+    dm_run_metrics *m = &c->result->metrics;
+    dm_run_result *r = c->result;
+    m->reference_step = NAN;
+    m->reference_seconds = NAN;
+    m->reference_force_evals = 0;
+    r->reference_arithmetic[0] = r->reference_note[0] = '\0';
+    if (c->ref == NULL)
+        return;
+    m->reference_step = (double)c->ref->fine.h;
+    m->reference_seconds = c->ref->seconds;
+    m->reference_force_evals = dm_reference_pair_forces(c->ref);
+    snprintf(r->reference_arithmetic, sizeof r->reference_arithmetic, "%s", DM_QUAD_NAME);
+    if (!c->ref->met)
+        snprintf(r->reference_note, sizeof r->reference_note,
+                 "tolerance %.3g not met within %.3g gradient evaluations: %.3g projected "
+                 "at step %.6g", c->spec->reference_tolerance, c->spec->reference_force_evals,
+                 c->ref->projected, m->reference_step);
+    else if (m->reference_valid_until < m->t_reached &&
+             (r->status == DM_RUN_OK || r->status == DM_RUN_SWAMPED))
+        snprintf(r->reference_note, sizeof r->reference_note,
+                 "its error estimate exceeds 1e-3 of the global error after t = %.6g: "
+                 "max_global_error is taken up to there", m->reference_valid_until);
+    free(c->ref);
+    free(c->ref_states);
+    c->ref = NULL;
+    c->ref_states = NULL;
 }
 
 /* The run's whole state into a new checkpoint (result->checkpoint): `bucket` is the
@@ -868,6 +959,8 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         dm_error_clear(err);
         m->period_exact = inst->period;
         m->lyapunov_exponent = NAN;
+        m->max_reference_error = m->reference_valid_until = NAN;
+        m->reference_step = m->reference_seconds = NAN;
         free(ck);
         return DM_OK;
     }
@@ -900,11 +993,31 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         }
     }
 
+    if (spec->reference) {
+        /* a continued run starts its reference again: the grid is stepped up to the
+         * first bucket end asked for, so it is the one an unstopped run has */
+        c->ref = malloc(sizeof *c->ref);
+        c->ref_states = malloc(sizeof(double) * 2 * (size_t)n * spec->samples);
+        c->ref_first = result->series.n;
+        rc = c->ref != NULL && c->ref_states != NULL
+                 ? dm_reference_pair_start(c->ref, spec, err)
+                 : dm_error_set(err, DM_ENOMEM, "out of memory for the reference");
+        if (rc != DM_OK) {
+            free(c->ref);
+            free(c->ref_states);
+            dm_stepper_destroy(c->stepper);
+            return rc;
+        }
+    }
+
     double t_start = dm_clock_seconds();
     c->wall_before = wall_before;
     c->t_start = t_start;
     run_buckets(c, first, inside, wall_before, t_start);
-    finish_metrics(c, wall_before + dm_clock_seconds() - t_start);
+    double wall = wall_before + dm_clock_seconds() - t_start;
+    reference_pass(c);
+    finish_metrics(c, wall);
+    finish_reference(c);
     dm_stepper_destroy(c->stepper);
     m->lyapunov_exponent = NAN;
     if (spec->lyapunov && (c->status == DM_RUN_OK || c->status == DM_RUN_SWAMPED)) {

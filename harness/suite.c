@@ -441,6 +441,11 @@ typedef struct suite_build {
     const yaml_node_t *step_budget_node;
     double memory_limit_gib;          /* the runs' series may take this much memory */
     bool lyapunov;                    /* every run estimates its Lyapunov exponent */
+    bool reference;                   /* every run measures its global error against a
+                                         reference trajectory (reference_run.c) */
+    double reference_tolerance;       /* its target, unit-free */
+    double reference_force_evals;     /* its cost cap */
+    const yaml_node_t *reference_node;
     const yaml_node_t **run_nodes;    /* per run: where its step or tolerance was written */
     const variant **run_variants;     /* per run: its problem variant */
     dm_run_index run_ids;             /* the runs so far by their id, to find twins fast */
@@ -470,9 +475,11 @@ static void build_free(suite_build *b)
 static const char *const top_keys[] = { "name", "output", "horizon", "buckets",
                                         "energy_limit", "step_budget", "problems",
                                         "methods", "memory_limit_gib", "samples",
-                                        "lyapunov" };
+                                        "lyapunov", "reference", "reference_tolerance",
+                                        "reference_force_evals" };
 enum { TOP_NAME, TOP_OUTPUT, TOP_HORIZON, TOP_BUCKETS, TOP_ENERGY_LIMIT, TOP_STEP_BUDGET,
-       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_SAMPLES, TOP_LYAPUNOV, TOP_COUNT };
+       TOP_PROBLEMS, TOP_METHODS, TOP_MEMORY_LIMIT, TOP_SAMPLES, TOP_LYAPUNOV, TOP_REFERENCE,
+       TOP_REFERENCE_TOLERANCE, TOP_REFERENCE_FORCE_EVALS, TOP_COUNT };
 
 static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
 {
@@ -1389,6 +1396,10 @@ static dm_status write_config(suite_build *b, const dm_suite *suite, const metho
                        suite->energy_limit);
     if (spec->lyapunov)
         ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu, " lyapunov=true");
+    if (spec->reference)
+        ok = ok && appendf(cfg, DM_CONFIG_MAX, &cu,
+                           " reference=true reference_tolerance=%.17g reference_force_evals=%.17g",
+                           spec->reference_tolerance, spec->reference_force_evals);
     if (!ok)
         return fail_at(&b->ctx, me->values->node[value_index], "configuration of run %s is too long", spec->id);
     snprintf(spec->hash, sizeof spec->hash, "%016" PRIx64, dm_hash_text(spec->config));
@@ -1419,6 +1430,15 @@ static dm_status make_run(suite_build *b, dm_suite *suite, const variant *x,
     spec->energy_limit = suite->energy_limit; /* the runner's divergence test; in config too */
     spec->step_budget = suite->step_budget;   /* adaptive runs are held to it as they go */
     spec->lyapunov = b->lyapunov;             /* in config too */
+    spec->reference = b->reference;           /* in config too */
+    spec->reference_tolerance = b->reference_tolerance;
+    spec->reference_force_evals = b->reference_force_evals;
+    if (spec->reference && (x->inst.problem->gradient_quad == NULL ||
+                            x->inst.problem->velocity_quad == NULL))
+        return fail_at(&b->ctx, x->entry->node, "%s: reference: true needs a problem with a "
+                       "quad-precision gradient (gradient_quad); %s has none (expected a "
+                       "built-in problem, or a problem_library that provides one)",
+                       x->part, x->entry->formula ? "a problem written as formulas" : x->inst.problem->id);
     spec->sweep = -1;
     if (me->method->nystrom != NULL && !dm_velocity_is_linear(&x->inst))
         return fail_at(&b->ctx, me->node, "%s is a Runge-Kutta-Nystrom table, for a kinetic "
@@ -1767,6 +1787,22 @@ static dm_status parse_top_value(suite_build *b, dm_suite *suite, int k,
     case TOP_LYAPUNOV:
         st = get_bool(c, value, "lyapunov", &b->lyapunov);
         break;
+    case TOP_REFERENCE:
+        st = get_bool(c, value, "reference", &b->reference);
+        b->reference_node = value;
+        break;
+    case TOP_REFERENCE_TOLERANCE:
+        st = get_positive(c, value, "reference_tolerance", &b->reference_tolerance);
+        if (st == DM_OK && !(b->reference_tolerance >= 1e-32 && b->reference_tolerance <= 1e-6))
+            st = fail_at(c, value, "reference_tolerance = %g is out of range (expected a "
+                         "number in [1e-32, 1e-6])", b->reference_tolerance);
+        break;
+    case TOP_REFERENCE_FORCE_EVALS:
+        st = get_positive(c, value, "reference_force_evals", &b->reference_force_evals);
+        if (st == DM_OK && !(b->reference_force_evals >= 1e3 && b->reference_force_evals <= 1e15))
+            st = fail_at(c, value, "reference_force_evals = %g is out of range (expected a "
+                         "number in [1e3, 1e15])", b->reference_force_evals);
+        break;
     case TOP_PROBLEMS:
         st = parse_list(b, value, true);
         break;
@@ -1989,6 +2025,8 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     b.energy_limit = 1.0;
     b.step_budget = DM_DEFAULT_STEP_BUDGET;
     b.memory_limit_gib = DM_DEFAULT_MEMORY_LIMIT_GIB;
+    b.reference_tolerance = DM_REFERENCE_DEFAULT_TOLERANCE;
+    b.reference_force_evals = DM_REFERENCE_DEFAULT_FORCE_EVALS;
     dm_status st = parse_document(&b, suite);
     if (st == DM_OK) { /* the runs' methods live in the tables: the suite keeps them */
         suite->tables = b.tables;

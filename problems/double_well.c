@@ -22,6 +22,7 @@
 #include "elliptic.h"
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_A, P_B, P_AMPLITUDE, P_ENERGY, P_SIDE };
 enum { R_ONE_WELL, R_OVER_BARRIER };
@@ -260,6 +261,18 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? R_ONE_WELL : R_OVER_BARRIER;
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    dm_quad a = inst->param[P_A], b = inst->param[P_B], x = q[0];
+    grad[0] = x * (b * (x * x) - a);
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    (void)inst;
+    v[0] = p[0];
+}
+
 /* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 DM_FUSED_RK_LOOP(fused_rk_loop, 1)
@@ -299,4 +312,6 @@ const dm_problem dm_problem_double_well = {
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

@@ -4,6 +4,7 @@
 
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_OMEGA, P_AMPLITUDE, P_ENERGY };
 
@@ -70,6 +71,18 @@ static void exact(const dm_instance *inst, double t, double *q, double *p)
     p[0] = -a * w * sin(w * t);
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    dm_quad w = inst->param[P_OMEGA];
+    grad[0] = w * w * q[0];
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    (void)inst;
+    v[0] = p[0];
+}
+
 /* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 DM_FUSED_RK_LOOP(fused_rk_loop, 1)
@@ -98,4 +111,6 @@ const dm_problem dm_problem_harmonic = {
     .fused_rk_loop = fused_rk_loop,
     .hessian = hessian,
     .exact = exact,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

@@ -13,6 +13,7 @@
 
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_ENERGY, P_START_Y, P_START_PY };
 
@@ -93,6 +94,21 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     return DM_OK;
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    (void)inst;
+    dm_quad x = q[0], y = q[1];
+    grad[0] = x + 2 * x * y;
+    grad[1] = y + x * x - y * y;
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    (void)inst;
+    v[0] = p[0];
+    v[1] = p[1];
+}
+
 DM_FUSED_LOOP(fused_loop, 2)
 DM_FUSED_RK_LOOP(fused_rk_loop, 2)
 
@@ -124,4 +140,6 @@ const dm_problem dm_problem_henon_heiles = {
     .regime_of_energy = regime_of_energy,
     .fused_loop = fused_loop,
     .fused_rk_loop = fused_rk_loop,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

@@ -20,6 +20,7 @@
 
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_MU, P_SEMI_MAJOR_AXIS, P_ECCENTRICITY };
 
@@ -254,6 +255,21 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < 0.0 ? 0 : -1;
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    dm_quad r2 = q[0] * q[0] + q[1] * q[1];
+    dm_quad k = (dm_quad)inst->param[P_MU] / (r2 * dm_quad_sqrt(r2));
+    grad[0] = k * q[0];
+    grad[1] = k * q[1];
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    (void)inst;
+    v[0] = p[0];
+    v[1] = p[1];
+}
+
 /* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 2)
 DM_FUSED_RK_LOOP(fused_rk_loop, 2)
@@ -289,4 +305,6 @@ const dm_problem dm_problem_kepler = {
     .invariant_errors = { DM_INVARIANT_RELATIVE, DM_INVARIANT_DIFFERENCE,
                           DM_INVARIANT_DIFFERENCE },
     .invariants = invariants,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

@@ -36,6 +36,11 @@ dm_status dm_problem_check(const dm_problem *pb, dm_error *err)
         if (pb->regimes[i].id == NULL || pb->regimes[i].meaning == NULL)
             return dm_error_set(err, DM_EINPUT, "problem %s: regime %d lacks its id or meaning",
                                 id, i);
+    if ((pb->gradient_quad != NULL) != (pb->velocity_quad != NULL))
+        return dm_error_set(err, DM_EINPUT, "problem %s: gradient_quad %s and velocity_quad %s "
+                            "(expected both or neither)", id,
+                            pb->gradient_quad != NULL ? "set" : "NULL",
+                            pb->velocity_quad != NULL ? "set" : "NULL");
     if (pb->n_invariants < 0 || pb->n_invariants > DM_MAX_INVARIANTS ||
         (pb->n_invariants > 0) != (pb->invariants != NULL))
         return dm_error_set(err, DM_EINPUT, "problem %s: n_invariants = %d with invariants %s "

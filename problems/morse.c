@@ -206,6 +206,18 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < inst->param[P_DEPTH] ? 0 : -1;
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    dm_quad D = inst->param[P_DEPTH], alpha = inst->param[P_ALPHA];
+    dm_quad y = dm_quad_exp(-alpha * (q[0] - (dm_quad)inst->param[P_XE]));
+    grad[0] = 2 * D * alpha * y * (1 - y);
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    v[0] = p[0] / (dm_quad)inst->param[P_MASS];
+}
+
 /* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 DM_FUSED_RK_LOOP(fused_rk_loop, 1)
@@ -241,4 +253,6 @@ const dm_problem dm_problem_morse = {
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

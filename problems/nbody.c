@@ -27,6 +27,7 @@
 
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_G };
 
@@ -328,6 +329,40 @@ static int fused_loop(const dm_instance *inst, const dm_fused_table *table,
 }
 #undef NBODY_FUSED
 
+/* grad V and the velocities in dm_quad, for the reference trajectory: the same pair sum
+ * (no closest approach kept: the reference is not the method), velocities p / m. */
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    const dm_nbody *d = bodies(inst);
+    const int n = d->n;
+    const dm_quad G = inst->param[P_G];
+    for (int k = 0; k < 3 * n; k++)
+        grad[k] = 0;
+    for (int i = 0; i < n; i++) {
+        const dm_quad gmi = G * (dm_quad)d->mass[i];
+        for (int j = i + 1; j < n; j++) {
+            dm_quad dx = q[3 * j] - q[3 * i], dy = q[3 * j + 1] - q[3 * i + 1],
+                    dz = q[3 * j + 2] - q[3 * i + 2];
+            dm_quad r2 = dx * dx + dy * dy + dz * dz;
+            dm_quad s = gmi * (dm_quad)d->mass[j] / (r2 * dm_quad_sqrt(r2));
+            grad[3 * i] -= s * dx;
+            grad[3 * i + 1] -= s * dy;
+            grad[3 * i + 2] -= s * dz;
+            grad[3 * j] += s * dx;
+            grad[3 * j + 1] += s * dy;
+            grad[3 * j + 2] += s * dz;
+        }
+    }
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    const dm_nbody *d = bodies(inst);
+    for (int i = 0; i < d->n; i++)
+        for (int k = 0; k < 3; k++)
+            v[3 * i + k] = p[3 * i + k] / (dm_quad)d->mass[i];
+}
+
 const dm_problem dm_problem_nbody = {
     .id = "nbody",
     .name = "gravitational N-body problem in 3-D, H = sum |p_i|^2 / (2 m_i) - "
@@ -356,4 +391,6 @@ const dm_problem dm_problem_nbody = {
                           DM_INVARIANT_DIFFERENCE },
     .invariants = invariants,
     .closest_approach = closest_approach,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

@@ -14,6 +14,7 @@
 #include "elliptic.h"
 #include "dm_fused_loop.h"
 #include "problem.h"
+#include "quad.h"
 
 enum { P_G_OVER_L, P_AMPLITUDE, P_ENERGY };
 enum { R_LIBRATION, R_ROTATION };
@@ -181,6 +182,17 @@ static int regime_of_energy(const dm_instance *inst, double energy)
     return energy < inst->param[P_G_OVER_L] ? R_LIBRATION : R_ROTATION;
 }
 
+static void gradient_quad(const dm_instance *inst, const dm_quad *q, dm_quad *grad)
+{
+    grad[0] = (dm_quad)inst->param[P_G_OVER_L] * dm_quad_sin(q[0]);
+}
+
+static void velocity_quad(const dm_instance *inst, const dm_quad *p, dm_quad *v)
+{
+    (void)inst;
+    v[0] = p[0];
+}
+
 /* The fused loops (splitting, Runge-Kutta) with this problem's functions inline. */
 DM_FUSED_LOOP(fused_loop, 1)
 DM_FUSED_RK_LOOP(fused_rk_loop, 1)
@@ -218,4 +230,6 @@ const dm_problem dm_problem_pendulum = {
     .regime_of_energy = regime_of_energy,
     .hessian = hessian,
     .exact = exact,
+    .gradient_quad = gradient_quad,
+    .velocity_quad = velocity_quad,
 };

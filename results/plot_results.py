@@ -16,6 +16,9 @@ problem without a closed-form period (nbody, henon_heiles) gets the energy plot 
 time in its own units (it has no phase error and no cost per period) and, when its runs
 keep one (two degrees of freedom), <variant>-section.png: the surface of section, and
 when it has extra invariants (nbody), <variant>-invariants.png: their errors against time.
+Every variant whose runs measured a global error (an exact solution, or the suite's
+reference trajectory) gets <variant>-global.png: it against time, with the reference's
+own error estimate where there is one.
 --format svg (or both) writes SVG. One colour and marker per method everywhere; runs
 that are not ok are drawn with their status, never dropped.
 
@@ -126,11 +129,14 @@ def load(path):
                 "crossing_time": g["crossing_time"][()],
                 "phase_error": g["phase_error"][()],
                 "section": (g["section_q"][()], g["section_p"][()]) if "section_q" in g else None,
+                "global_error": g["global_error"][()] if "global_error" in g else None,
+                "reference_error": g["reference_error"][()] if "reference_error" in g else None,
+                "reference_valid_until": float(g.attrs.get("reference_valid_until", np.nan)),
                 # the extra invariants' error series: every <name>_error dataset that is
                 # not the energy's, the global or the phase error
                 "invariants": {k[:-len("_error")]: g[k][()] for k in g.keys()
                                if k.endswith("_error") and k not in ("energy_error", "global_error",
-                                                                      "phase_error")},
+                                                                      "phase_error", "reference_error")},
             })
     return runs
 
@@ -629,6 +635,44 @@ def plot_invariants(variant, runs, out, formats):
     return save(fig, out, formats)
 
 
+def plot_global(variant, runs, out, formats):
+    """The global error against time (log-log), each run in its colour and line style,
+    when the runs measured one (an exact solution, or a reference trajectory: then the
+    reference's error estimate is drawn too, grey and dotted, and a run whose estimate
+    came within 1e-3 of its global error gets a vertical mark at reference_valid_until)."""
+    rs = [r for r in runs if r["global_error"] is not None and len(r["global_error"]) > 0]
+    if not rs:
+        return []
+    fig, ax = plt.subplots(figsize=(7.5, 4.2))
+    handles = []
+    reference = []
+    for r in sorted(rs, key=lambda r: (r["method"], r["rank"])):
+        st = run_line_style(r)
+        t = r["time"] / r["time_unit"]
+        y = np.where(r["global_error"] > 0, r["global_error"], np.nan)
+        (line,) = ax.plot(t, y, color=st["color"], ls=st["ls"], lw=1, label=status_label(r))
+        handles.append(line)
+        until = r["reference_valid_until"]
+        if np.isfinite(until) and len(t) and until < r["time"][-1]:
+            ax.axvline(until / r["time_unit"], color=st["color"], ls=":", lw=0.8)
+        if r["reference_error"] is not None and not reference:
+            e = np.where(r["reference_error"] > 0, r["reference_error"], np.nan)
+            reference += ax.plot(t, e, color="0.5", ls=":", lw=1,
+                                 label="reference's error estimate")
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    unit = rs[0]["time_unit"]
+    ax.set_xlabel("time / period" if unit != 1.0 else "time (the suite's units)", fontsize=8)
+    ax.set_ylabel("global error (phase-space distance)", fontsize=8)
+    ax.grid(True, which="major", lw=0.3, alpha=0.5)
+    against = "reference trajectory" if any(r["reference_error"] is not None for r in rs) \
+        else "exact solution"
+    ax.set_title(f"{variant}: global error against the {against}", fontsize=10)
+    legend_outside(ax, handles + reference, title="run (method-step)")
+    fig.tight_layout()
+    return save(fig, out, formats)
+
+
 def main():
     ap = Arguments(description=__doc__.splitlines()[0])
     ap.add_argument("results")
@@ -655,6 +699,7 @@ def main():
     for variant, rs in groups.items():
         assign_ranks(rs)
         written += plot_energy(variant, rs, os.path.join(outdir, f"{variant}-energy"), formats)
+        written += plot_global(variant, rs, os.path.join(outdir, f"{variant}-global"), formats)
         if not all(np.isfinite(r["period"]) for r in rs):
             # no closed-form period (nbody, henon_heiles): no phase error, no cost per
             # period; the surface of section where the runs keep one

@@ -109,7 +109,7 @@ def main():
         statuses = {r["status"] for r in runs.values()}
         check({"ok", "swamped", "diverged"} <= statuses, f"the suite has ok, swamped and diverged runs: {statuses}")
         variants = ["pendulum-amplitude3", "kepler-eccentricity0.6"]
-        figures = [f"{v}-{k}" for v in variants for k in ("energy", "phase", "work")] + ["cost"]
+        figures = [f"{v}-{k}" for v in variants for k in ("energy", "phase", "work", "global")] + ["cost"]
 
         # the command line as before: PNGs only, no target, nothing chosen
         d0 = os.path.join(tmp, "plain")

@@ -463,7 +463,7 @@ static void unknown_keys_are_refused_at_every_level_with_a_hint(void **state)
     expect_error(HEAD PROB METH "colour: red\n", SRC ":7:1: ",
                  "unknown key 'colour' (expected one of: name, output, horizon, buckets, "
                  "energy_limit, step_budget, problems, methods, memory_limit_gib, samples, "
-                 "lyapunov)");
+                 "lyapunov, reference, reference_tolerance, reference_force_evals)");
     expect_error("horizon: {perods: 10}\noutput: OUT\n" PROB METH, SRC ":1:11: ",
                  "unknown horizon key 'perods' (did you mean 'periods'?)");
     expect_error(HEAD "problems:\n  - {problem: harmonic, amplitde: 2}\n" METH, SRC ":4:25: ",

@@ -72,6 +72,12 @@ typedef struct dm_run_spec {
     double energy_limit;             /* |dE| above this: diverged (from the suite) */
     uint64_t step_budget;            /* adaptive runs taking more steps fail (0: none) */
     bool lyapunov;                   /* estimate the largest Lyapunov exponent (lyapunov.c) */
+    /* measure the global error against a reference trajectory (reference_run.c): its
+     * target (unit-free, the estimated error of the coarser of its two trajectories
+     * over the horizon) and the cap of its cost in gradient_quad evaluations */
+    bool reference;
+    double reference_tolerance;
+    double reference_force_evals;
     int sweep;                       /* index into dm_suite.sweeps, or -1 */
 } dm_run_spec;
 
@@ -147,7 +153,9 @@ typedef struct dm_series {
     double *energy_error;
     double *energy_error_min;
     double *energy_error_max;
-    double *global_error;            /* phase-space distance to the exact solution, or NULL */
+    double *global_error;            /* phase-space distance to the exact solution or the
+                                        reference, or NULL */
+    double *reference_error;         /* the reference's error estimate, or NULL */
     int n_invariants;
     double *invariant_error[DM_MAX_INVARIANTS];  /* relative errors, or NULL */
 } dm_series;
@@ -178,6 +186,7 @@ typedef struct dm_run_metrics {
 #define DM_DRIFT_CLASS_MAX 16
 #define DM_DRIFT_NOTE_MAX 128
 #define DM_REGIME_CHANGE_MAX 96
+#define DM_REFERENCE_NOTE_MAX 192
 
 typedef struct dm_run_result {
     dm_run_status status;
@@ -186,6 +195,8 @@ typedef struct dm_run_result {
     char drift_note[DM_DRIFT_NOTE_MAX];   /* why drift_exponent is NaN, or a note */
     char regime_change[DM_REGIME_CHANGE_MAX]; /* the numerical orbit left the starting
                                                  regime: "from -> to at t = ..." */
+    char reference_arithmetic[16];   /* DM_QUAD_NAME, with a reference */
+    char reference_note[DM_REFERENCE_NOTE_MAX];
     dm_run_metrics metrics;
     dm_series series;
     dm_crossings crossings;
@@ -210,6 +221,15 @@ dm_status dm_run(const dm_run_spec *spec, dm_run_result *result, const volatile 
  * a renormalised nearby trajectory (lyapunov.c); NaN for adaptive methods or when a step
  * fails. */
 double dm_lyapunov_exponent(const dm_run_spec *spec, uint64_t steps, dm_error *err);
+
+#define DM_REFERENCE_DEFAULT_TOLERANCE 1e-20
+#define DM_REFERENCE_DEFAULT_FORCE_EVALS 2e8
+
+/* The distance of x and y in phase space with positions in units of scale[0] and momenta
+ * in units of scale[1], and those scales from an instance: |q0| and |p0| (each 1 when it
+ * is 0), so that a distance does not depend on the problem's units (lyapunov.c). */
+double dm_phase_distance(const double *x, const double *y, int dof, const double scale[2]);
+void dm_phase_scale(const dm_instance *inst, double scale[2]);
 
 /* Continues the run whose interrupted result (with its checkpoint, as dm_run left it or
  * dm_results_read_runs read it back) is *result: fixed-step runs exactly as if never

@@ -79,7 +79,21 @@
     X(phase_error_final, REAL, metrics, SA, 0, "final phase err", "%.3e",                  \
       "phase error at the last crossing (radians)")                                        \
     X(max_global_error, REAL, metrics, SA, 0, "", "",                                       \
-      "max phase-space distance to the exact solution (NaN when none is known)")           \
+      "max phase-space distance to the exact solution, or to the reference up to reference_valid_until (NaN when neither)") \
+    X(max_reference_error, REAL, metrics, SA, 0, "", "",                                  \
+      "max of the reference's error estimate over the bucket ends (NaN without reference: true)") \
+    X(reference_valid_until, REAL, metrics, SA, 0, "", "",                                \
+      "the last bucket end before the reference's error estimate first exceeds 1e-3 of the global error or of the start's size in phase space (NaN without a reference)") \
+    X(reference_step, REAL, metrics, A, 0, "", "",                                        \
+      "step of the reference trajectory, the finer of its two (NaN without one)")        \
+    X(reference_force_evals, COUNT, metrics, A, 0, "", "",                                \
+      "gradient evaluations of the reference trajectories, the choice of their step included") \
+    X(reference_seconds, REAL, metrics, A, 0, "", "",                                     \
+      "wall-clock time of the reference trajectories, the choice of their step included") \
+    X(reference_arithmetic, TEXT, result, A, 0, "", "",                                   \
+      "the type the reference was computed in: __float128 or long double; empty without one") \
+    X(reference_note, TEXT, result, A, 0, "", "",                                         \
+      "why the reference falls short of its tolerance or of the run's horizon; empty otherwise") \
     X(closest_approach, REAL, metrics, SA, 0, "", "",                                      \
       "smallest distance between two bodies where the method evaluated forces (N-body; NaN otherwise)") \
     X(lyapunov_exponent, REAL, metrics, SA, 0, "", "",                                     \

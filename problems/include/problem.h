@@ -21,6 +21,20 @@
 #define DM_MAX_INVARIANTS 4
 #define DM_DERIVED_MAX 24     /* problem-private derived constants kept in an instance */
 
+/* The wider floating type of the reference trajectory (gradient_quad below): IEEE
+ * binary128 (gcc's __float128, 113-bit significand, about 34 digits) where the compiler
+ * has it, else long double (x87 extended: 64 bits, about 19 digits). DM_QUAD_NAME names
+ * the one used; results files record it with each reference. */
+#if defined(__SIZEOF_FLOAT128__) && !defined(DM_QUAD_LONG_DOUBLE)
+typedef __float128 dm_quad;
+#define DM_QUAD_NAME "__float128"
+#define DM_QUAD_IS_FLOAT128 1
+#else
+typedef long double dm_quad;
+#define DM_QUAD_NAME "long double"
+#define DM_QUAD_IS_FLOAT128 0
+#endif
+
 /* Parameter flags. */
 enum {
     DM_PARAM_MIN_OPEN = 1u << 0, /* value must be > min (else >= min) */
@@ -278,6 +292,15 @@ struct dm_problem {
      * (INFINITY when none). The runner restarts it when a run starts and reads it at
      * every bucket end, so it covers every step whatever the buckets. */
     double (*closest_approach)(bool restart);
+
+    /* Optional, both or neither: grad V(q) and grad T(p) in dm_quad, for the reference
+     * trajectory of a problem whose runs measure their global error against one (the
+     * suite's `reference: true`; harness/runner.c, integrators/reference.c). The same
+     * formulas as gradient and velocity, every constant taken from the instance's
+     * doubles, so the reference solves exactly the problem the run solves. NULL: no
+     * reference for this problem (the suite refuses `reference: true` for it). */
+    void (*gradient_quad)(const dm_instance *inst, const dm_quad *q, dm_quad *grad);
+    void (*velocity_quad)(const dm_instance *inst, const dm_quad *p, dm_quad *v);
 };
 
 /* ---- problems from the user's own code (library.c) ----
@@ -289,9 +312,10 @@ struct dm_problem {
  * that sets *abi = DM_PROBLEM_ABI and returns its table, filled as a built-in problem's
  * is (examples/glider/). DM_PROBLEM_ABI changes whenever dm_problem, dm_instance or the
  * fused loop's types change, so an object built against another version is refused. */
-#define DM_PROBLEM_ABI 4u /* 2: DM_MAX_DOF 6 -> 384; 3: DM_RK_MAX_STAGES 4 -> 16 and
+#define DM_PROBLEM_ABI 5u /* 2: DM_MAX_DOF 6 -> 384; 3: DM_RK_MAX_STAGES 4 -> 16 and
                              Runge-Kutta-Nystrom tables in the fused loop; 4: data,
-                             no_period, needs_data, relative sections, closest_approach */
+                             no_period, needs_data, relative sections, closest_approach;
+                             5: gradient_quad, velocity_quad */
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 
