@@ -81,21 +81,32 @@ static end_model fit_end(dm_potential_fn V, void *data, double E, double qt, dou
                         .k = (g2 - 2.0 * g1 + g0) / (h * h) };
 }
 
-double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,
-                    double *gauss7)
+/* The rule on [a, b]: the 15 values of fn into fv (the centre first, then the pairs
+ * centre -+ half xgk[j]), the Gauss 7-point value into gauss7; returns Kronrod's. */
+static double kronrod_values(double (*fn)(void *data, double x), void *data, double a,
+                             double b, double fv[15], double *gauss7)
 {
     double half = 0.5 * (b - a), centre = 0.5 * (a + b);
-    double fc = fn(data, centre);
-    double k = fc * wgk[7], g = fc * wg[3];
+    fv[0] = fn(data, centre);
+    double k = fv[0] * wgk[7], g = fv[0] * wg[3];
     for (int j = 0; j < 7; j++) {
         double x = half * xgk[j];
-        double s = fn(data, centre - x) + fn(data, centre + x);
+        fv[1 + 2 * j] = fn(data, centre - x);
+        fv[2 + 2 * j] = fn(data, centre + x);
+        double s = fv[1 + 2 * j] + fv[2 + 2 * j];
         k += wgk[j] * s;
         if (j % 2 == 1)
             g += wg[j / 2] * s;
     }
     *gauss7 = g * half;
     return k * half;
+}
+
+double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,
+                    double *gauss7)
+{
+    double fv[15];
+    return kronrod_values(fn, data, a, b, fv, gauss7);
 }
 
 static double f_of(void *data, double phi)
@@ -107,15 +118,13 @@ static double f_of(void *data, double phi)
  * scaled down for smooth integrands, and never below 50 eps of the integral of |f|). */
 static double kronrod(integrand *in, double a, double b, double *error)
 {
-    double g;
-    double k = dm_kronrod15(f_of, in, a, b, &g);
-    /* |f| and |f - mean| over the piece, by the same rule */
-    double half = 0.5 * (b - a), centre = 0.5 * (a + b), mean = k / (b - a);
-    double fc = f(in, centre);
-    double resabs = wgk[7] * fabs(fc), resasc = wgk[7] * fabs(fc - mean);
+    double g, fv[15];
+    double k = kronrod_values(f_of, in, a, b, fv, &g);
+    /* |f| and |f - mean| over the piece, by the same rule, from the same values */
+    double half = 0.5 * (b - a), mean = k / (b - a);
+    double resabs = wgk[7] * fabs(fv[0]), resasc = wgk[7] * fabs(fv[0] - mean);
     for (int j = 0; j < 7; j++) {
-        double x = half * xgk[j];
-        double f1 = f(in, centre - x), f2 = f(in, centre + x);
+        double f1 = fv[1 + 2 * j], f2 = fv[2 + 2 * j];
         resabs += wgk[j] * (fabs(f1) + fabs(f2));
         resasc += wgk[j] * (fabs(f1 - mean) + fabs(f2 - mean));
     }
