@@ -44,6 +44,14 @@ static double potential_of(void *data, double q)
     return inst->problem->potential(inst, &q);
 }
 
+static double slope_of(void *data, double q)
+{
+    const dm_instance *inst = data;
+    double g;
+    dm_problem_gradient(inst->problem)(inst, &q, &g);
+    return g;
+}
+
 /* An independent check of the closed-form period, for one degree of freedom and
  * T = p^2 / (2 m): the period integral between the turning points
  * (problems/include/orbit_period.h). NaN, with the reason, where it does not apply. */
@@ -62,8 +70,8 @@ static double period_by_quadrature(const dm_instance *inst, char *why, size_t si
     dm_orbit o;
     dm_error err = { 0 };
     double reach = 1e3 * fmax(1.0, fabs(inst->q0[0]));
-    if (dm_orbit_period(potential_of, (void *)inst, 0.5 / t1, inst->energy, inst->q0[0], reach,
-                        pr->id, &o, &err) != DM_OK) {
+    if (dm_orbit_period(potential_of, slope_of, (void *)inst, 0.5 / t1, inst->energy,
+                        inst->q0[0], reach, pr->id, &o, &err) != DM_OK) {
         snprintf(why, size, "%s", err.msg);
         return NAN;
     }

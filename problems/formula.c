@@ -128,6 +128,11 @@ static double slope_at(const dm_instance *inst, double q)
     return g[0];
 }
 
+static double orbit_slope(void *data, double q)
+{
+    return slope_at(data, q);
+}
+
 /* The lowest point of V between the turning points: the lowest of 256 samples, then
  * the sign change of dV/dq next to it bisected to the last bit. */
 static double lowest_point(const dm_instance *inst, double qm, double qp)
@@ -163,7 +168,7 @@ static double lowest_point(const dm_instance *inst, double qm, double qp)
 static double start_time(const dm_instance *inst, const dm_orbit *orbit, double E, double m)
 {
     double q0 = inst->q0[0], p0 = inst->p0[0];
-    double t = dm_orbit_time(orbit_potential, (void *)inst, m, E, orbit, q0);
+    double t = dm_orbit_time(orbit_potential, orbit_slope, (void *)inst, m, E, orbit, q0);
     if (p0 > 0.0)
         return t;
     if (p0 < 0.0)
@@ -178,8 +183,8 @@ static dm_status setup_orbit(dm_instance *inst, const formula_problem *F, dm_orb
 {
     double m = F->masses[0], E = inst->energy;
     double reach = 1e4 * fmax(1.0, fabs(inst->q0[0]));
-    dm_status st = dm_orbit_period(orbit_potential, inst, m, E, inst->q0[0], reach, F->id,
-                                   orbit, err);
+    dm_status st = dm_orbit_period(orbit_potential, orbit_slope, inst, m, E, inst->q0[0],
+                                   reach, F->id, orbit, err);
     if (st != DM_OK)
         return st;
     inst->period = orbit->period;
@@ -192,7 +197,7 @@ static dm_status setup_orbit(dm_instance *inst, const formula_problem *F, dm_orb
                             "orbit, which stays between %.17g and %.17g", F->id, level,
                             orbit->q_minus, orbit->q_plus);
     inst->section = (dm_section){ .coord = 0, .level = level, .wrap = 0.0 };
-    double up = dm_orbit_time(orbit_potential, inst, m, E, orbit, level);
+    double up = dm_orbit_time(orbit_potential, orbit_slope, inst, m, E, orbit, level);
     double first = fmod(up - start_time(inst, orbit, E, m), orbit->period);
     inst->first_crossing = first > 0.0 ? first : first + orbit->period;
     return DM_OK;
@@ -204,7 +209,7 @@ static dm_status start_from_energy(dm_instance *inst, const formula_problem *F, 
     double E = inst->param[F->energy_param];
     dm_orbit orbit;
     double well = inst->q0[0];
-    dm_status st = dm_orbit_period(orbit_potential, inst, F->masses[0], E, well,
+    dm_status st = dm_orbit_period(orbit_potential, orbit_slope, inst, F->masses[0], E, well,
                                    1e4 * fmax(1.0, fabs(well)), F->id, &orbit, err);
     if (st != DM_OK)
         return st;

@@ -33,16 +33,39 @@ enum { MAX_PIECES = 400 };          /* subintervals the adaptive rule may make *
 #define PERIOD_TOLERANCE 1e-13      /* relative, of the period */
 
 /* The integrand after q = c - d cos(phi): d sin(phi) / sqrt(E - V(q)). Next to a
- * turning point E - V(q) is the difference of two nearly equal numbers; where it would
- * keep fewer than 6 good digits it is taken from a quadratic in the distance x to the
- * turning point, gap = s x + k x^2 / 2, with s and k fitted once at each end, and x
- * given exactly by the substitution: q - q- = 2 d sin^2(phi/2), q+ - q = 2 d cos^2(phi/2). */
+ * turning point qt, E - V(q) computed as a difference keeps only the digits its size
+ * leaves of |E|: its rounding, ~eps |E|, is a relative error eps |E| / (E - V) of the
+ * integrand (1e-6 where E - V is 1e-10 |E|), which limited periods to a few 1e-12 and
+ * kept the adaptive rule from its tolerance.
+ *
+ * With V' given, E - V is taken near each turning point from V' instead:
+ *     E - V(qt + dir x) = x S(x),  S(x) = the mean of -dir V' over [qt, qt + dir x]
+ * (dir = +1 at q-, -1 at q+, pointing inward; E = V(qt) to rounding), S by the Gauss
+ * 7-point rule: no difference of nearly equal numbers, so near eps relative. With x from
+ * the substitution (q - q- = 2 d sin^2(phi/2), q+ - q = 2 d cos^2(phi/2)) the integrand
+ * there is sqrt(2 d / S) cos(phi/2) at q- (sin(phi/2) at q+). This zone reaches out
+ * from each turning point to where E - V is ZONE_GAP (|E| + |V|), where the difference
+ * keeps all but about one of its digits. The zone is cut at setup into pieces short
+ * enough for the Gauss rule on V' (derivative_end), with E - V at their ends; at x, E - V
+ * is that at the start of x's piece plus the Gauss rule from there to x.
+ *
+ * Without V' (V' = NULL), where the difference would keep fewer than 6 good digits it is
+ * taken from a quadratic in x, gap = s x + k x^2 / 2, with s and k fitted once at each
+ * end. */
+#define ZONE_GAP (1.0 / 16.0)
+
+enum { MAX_END_PIECES = 64 };
+
 typedef struct end_model {
-    double s, k;                      /* slope and curvature of E - V inward */
+    double qt, dir;                   /* the turning point, the direction inward */
+    double s, k;                      /* without V': slope and curvature of E - V inward */
+    double zone;                      /* with V': E - V from V' for x <= zone, */
+    int pieces;                       /* which is cut into this many equal pieces, */
+    double at[MAX_END_PIECES + 1];    /* with E - V at their ends (at[0] = 0) */
 } end_model;
 
 typedef struct integrand {
-    dm_potential_fn V;
+    dm_potential_fn V, dV;
     void *data;
     double E, c, d;
     end_model minus, plus;
@@ -50,8 +73,47 @@ typedef struct integrand {
     bool bad;                         /* V not finite on the orbit */
 } integrand;
 
+/* The Gauss 7-point rule (the Kronrod table's odd abscissae, wg) on [a, b], as the sum
+ * of w f without the factor (b - a) / 2. */
+static double gauss7_sum(dm_potential_fn fn, void *data, double a, double b)
+{
+    double half = 0.5 * (b - a), centre = 0.5 * (a + b);
+    double g = wg[3] * fn(data, centre);
+    for (int j = 0; j < 3; j++) {
+        double x = half * xgk[2 * j + 1];
+        g += wg[j] * (fn(data, centre - x) + fn(data, centre + x));
+    }
+    return g;
+}
+
+/* S(x) of the end e: the mean of -dir V' over [qt, qt + dir x]: E - V at the start of
+ * the piece x is in, plus the Gauss rule from there to x. */
+static double mean_slope(integrand *in, const end_model *e, double x)
+{
+    int i = (int)fmin(floor(x / e->zone * e->pieces), e->pieces - 1);
+    i = i < 0 ? 0 : i;
+    double a = e->zone * i / e->pieces;
+    double rest = gauss7_sum(in->dV, in->data, e->qt + e->dir * a, e->qt + e->dir * x);
+    in->evaluations += 7;
+    return (e->at[i] - e->dir * 0.5 * (x - a) * rest) / x;
+}
+
 static double f(integrand *in, double phi)
 {
+    double sh = sin(0.5 * phi), ch = cos(0.5 * phi);
+    bool lower = phi < 0.5 * M_PI;
+    const end_model *e = lower ? &in->minus : &in->plus;
+    double x = 2.0 * in->d * (lower ? sh * sh : ch * ch);
+    if (in->dV != NULL && x <= e->zone) {
+        double S = mean_slope(in, e, x);
+        if (!isfinite(S)) {
+            in->bad = true;
+            return 0.0;
+        }
+        if (!(S > 0.0))
+            return 0.0;
+        return sqrt(2.0 * in->d / S) * (lower ? ch : sh);
+    }
     double q = in->c - in->d * cos(phi);
     double v = in->V(in->data, q);
     in->evaluations++;
@@ -60,10 +122,7 @@ static double f(integrand *in, double phi)
         return 0.0;
     }
     double gap = in->E - v;
-    if (!(gap > 1e6 * DBL_EPSILON * (fabs(in->E) + fabs(v)))) {
-        double sh = sin(0.5 * phi), ch = cos(0.5 * phi);
-        const end_model *e = phi < 0.5 * M_PI ? &in->minus : &in->plus;
-        double x = 2.0 * in->d * (phi < 0.5 * M_PI ? sh * sh : ch * ch);
+    if (in->dV == NULL && !(gap > 1e6 * DBL_EPSILON * (fabs(in->E) + fabs(v)))) {
         gap = x * (e->s + 0.5 * e->k * x);
         if (!(gap > 0.0))
             return 0.0; /* on a turning point: a node of weight zero in the limit */
@@ -71,31 +130,42 @@ static double f(integrand *in, double phi)
     return in->d * sin(phi) / sqrt(gap);
 }
 
-/* E - V inward from the turning point qt (direction dir): slope and curvature from
- * two points, h and 2h inside, h a small part of the orbit. */
+/* Without V': E - V inward from the turning point qt (direction dir): slope and
+ * curvature from two points, h and 2h inside, h a small part of the orbit. */
 static end_model fit_end(dm_potential_fn V, void *data, double E, double qt, double dir,
                          double h)
 {
     double g0 = E - V(data, qt), g1 = E - V(data, qt + dir * h), g2 = E - V(data, qt + 2 * dir * h);
-    return (end_model){ .s = (4.0 * g1 - g2 - 3.0 * g0) / (2.0 * h),
+    return (end_model){ .qt = qt, .dir = dir, .s = (4.0 * g1 - g2 - 3.0 * g0) / (2.0 * h),
                         .k = (g2 - 2.0 * g1 + g0) / (h * h) };
 }
 
-double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,
-                    double *gauss7)
+/* The rule on [a, b]: the 15 values of fn into fv (the centre first, then the pairs
+ * centre -+ half xgk[j]), the Gauss 7-point value into gauss7; returns Kronrod's. */
+static double kronrod_values(double (*fn)(void *data, double x), void *data, double a,
+                             double b, double fv[15], double *gauss7)
 {
     double half = 0.5 * (b - a), centre = 0.5 * (a + b);
-    double fc = fn(data, centre);
-    double k = fc * wgk[7], g = fc * wg[3];
+    fv[0] = fn(data, centre);
+    double k = fv[0] * wgk[7], g = fv[0] * wg[3];
     for (int j = 0; j < 7; j++) {
         double x = half * xgk[j];
-        double s = fn(data, centre - x) + fn(data, centre + x);
+        fv[1 + 2 * j] = fn(data, centre - x);
+        fv[2 + 2 * j] = fn(data, centre + x);
+        double s = fv[1 + 2 * j] + fv[2 + 2 * j];
         k += wgk[j] * s;
         if (j % 2 == 1)
             g += wg[j / 2] * s;
     }
     *gauss7 = g * half;
     return k * half;
+}
+
+double dm_kronrod15(double (*fn)(void *data, double x), void *data, double a, double b,
+                    double *gauss7)
+{
+    double fv[15];
+    return kronrod_values(fn, data, a, b, fv, gauss7);
 }
 
 static double f_of(void *data, double phi)
@@ -107,15 +177,13 @@ static double f_of(void *data, double phi)
  * scaled down for smooth integrands, and never below 50 eps of the integral of |f|). */
 static double kronrod(integrand *in, double a, double b, double *error)
 {
-    double g;
-    double k = dm_kronrod15(f_of, in, a, b, &g);
-    /* |f| and |f - mean| over the piece, by the same rule */
-    double half = 0.5 * (b - a), centre = 0.5 * (a + b), mean = k / (b - a);
-    double fc = f(in, centre);
-    double resabs = wgk[7] * fabs(fc), resasc = wgk[7] * fabs(fc - mean);
+    double g, fv[15];
+    double k = kronrod_values(f_of, in, a, b, fv, &g);
+    /* |f| and |f - mean| over the piece, by the same rule, from the same values */
+    double half = 0.5 * (b - a), mean = k / (b - a);
+    double resabs = wgk[7] * fabs(fv[0]), resasc = wgk[7] * fabs(fv[0] - mean);
     for (int j = 0; j < 7; j++) {
-        double x = half * xgk[j];
-        double f1 = f(in, centre - x), f2 = f(in, centre + x);
+        double f1 = fv[1 + 2 * j], f2 = fv[2 + 2 * j];
         resabs += wgk[j] * (fabs(f1) + fabs(f2));
         resasc += wgk[j] * (fabs(f1 - mean) + fabs(f2 - mean));
     }
@@ -251,17 +319,70 @@ static bool turning_point(dm_potential_fn V, void *data, double E, double q0, do
     }
 }
 
-/* The integrand of the orbit between the turning points qm < qp. */
-static integrand orbit_integrand(dm_potential_fn V, void *data, double E, double qm, double qp)
+/* With V': the zone of the end at qt (direction dir inward) out to half the orbit's
+ * width d: halved from d while E - V stays >= ZONE_GAP (|E| + |V|) at its edge. Its
+ * pieces: 1, doubled (to at most MAX_END_PIECES) until on every piece the Gauss 7-point
+ * integral of V' is within 8 eps of the Kronrod 15-point one, relative to E - V there;
+ * E - V at their ends from the Kronrod values, summed. Writes E - V at the zone's edge,
+ * by the difference, into *edge_gap. */
+static end_model derivative_end(integrand *in, double qt, double dir, double *edge_gap)
 {
-    double d = 0.5 * (qp - qm);
-    return (integrand){ .V = V, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d,
-                        .minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d),
-                        .plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d) };
+    end_model e = { .qt = qt, .dir = dir, .zone = in->d, .s = NAN, .k = NAN };
+    *edge_gap = in->E - in->V(in->data, qt + dir * e.zone);
+    in->evaluations++;
+    for (int j = 0; j < 60; j++) {
+        double x = 0.5 * e.zone, v = in->V(in->data, qt + dir * x);
+        in->evaluations++;
+        if (!(in->E - v >= ZONE_GAP * (fabs(in->E) + fabs(v))))
+            break;
+        e.zone = x;
+        *edge_gap = in->E - v;
+    }
+    for (e.pieces = 1;; e.pieces *= 2) {
+        bool good = true;
+        for (int i = 0; i < e.pieces; i++) {
+            double g7, k15 = dm_kronrod15(in->dV, in->data, qt + dir * (e.zone * i / e.pieces),
+                                          qt + dir * (e.zone * (i + 1) / e.pieces), &g7);
+            in->evaluations += 15;
+            e.at[i + 1] = e.at[i] - k15; /* k15 = V(piece's far end) - V(near end) */
+            good = good && fabs(k15 - g7) <= 8.0 * DBL_EPSILON * (fabs(e.at[i]) + fabs(k15));
+        }
+        if (good || 2 * e.pieces > MAX_END_PIECES)
+            break;
+    }
+    return e;
 }
 
-dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, double q0,
-                          double reach, const char *what, dm_orbit *orbit, dm_error *err)
+/* The integrand of the orbit between the turning points qm < qp, with V' (dV) or
+ * without (NULL). With V', returns in *mismatch the largest relative difference between
+ * E - V at the edge of an end's zone by the difference and by V' (NULL: not wanted). */
+static integrand orbit_integrand(dm_potential_fn V, dm_potential_fn dV, void *data, double E,
+                                 double qm, double qp, double *mismatch)
+{
+    double d = 0.5 * (qp - qm);
+    integrand in = { .V = V, .dV = dV, .data = data, .E = E, .c = 0.5 * (qp + qm), .d = d };
+    if (dV == NULL) {
+        in.minus = fit_end(V, data, E, qm, +1.0, 1e-4 * d);
+        in.plus = fit_end(V, data, E, qp, -1.0, 1e-4 * d);
+        return in;
+    }
+    double gm, gp;
+    in.minus = derivative_end(&in, qm, +1.0, &gm);
+    in.plus = derivative_end(&in, qp, -1.0, &gp);
+    if (mismatch != NULL) {
+        double sm = in.minus.zone * mean_slope(&in, &in.minus, in.minus.zone);
+        double sp = in.plus.zone * mean_slope(&in, &in.plus, in.plus.zone);
+        /* against the difference's own rounding, ~eps (|E| + |V|) */
+        double um = 1024.0 * DBL_EPSILON * (fabs(E) + fabs(E - gm));
+        double up = 1024.0 * DBL_EPSILON * (fabs(E) + fabs(E - gp));
+        *mismatch = fmax(fabs(sm - gm) / (fabs(gm) + um), fabs(sp - gp) / (fabs(gp) + up));
+    }
+    return in;
+}
+
+dm_status dm_orbit_period(dm_potential_fn V, dm_potential_fn dV, void *data, double m,
+                          double E, double q0, double reach, const char *what,
+                          dm_orbit *orbit, dm_error *err)
 {
     memset(orbit, 0, sizeof *orbit);
     double v0 = V(data, q0);
@@ -310,7 +431,12 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
                             "%.2g, below 1e-3): its period cannot be integrated to 3e-10 in "
                             "double precision", what, E, flat_m < flat_p ? qm : qp,
                             fmin(flat_m, flat_p));
-    integrand in = orbit_integrand(V, data, E, qm, qp);
+    double mismatch = 0.0;
+    integrand in = orbit_integrand(V, dV, data, E, qm, qp, &mismatch);
+    if (!(mismatch <= 1e-6))
+        return dm_error_set(err, DM_EINPUT, "%s: the derivative of V given with it does not "
+                            "match V next to the turning points %.17g and %.17g (E - V by the "
+                            "two differs by %.2g relative)", what, qm, qp, mismatch);
     double rel = NAN;
     double integral = adapt(&in, 0.0, M_PI, &rel);
     if (in.bad)
@@ -328,15 +454,15 @@ dm_status dm_orbit_period(dm_potential_fn V, void *data, double m, double E, dou
     return DM_OK;
 }
 
-double dm_orbit_time(dm_potential_fn V, void *data, double m, double E, const dm_orbit *orbit,
-                     double x)
+double dm_orbit_time(dm_potential_fn V, dm_potential_fn dV, void *data, double m, double E,
+                     const dm_orbit *orbit, double x)
 {
     double qm = orbit->q_minus, qp = orbit->q_plus;
     if (!(x > qm))
         return 0.0;
     if (!(x < qp))
         return 0.5 * orbit->period;
-    integrand in = orbit_integrand(V, data, E, qm, qp);
+    integrand in = orbit_integrand(V, dV, data, E, qm, qp, NULL);
     /* x = c - d cos(phi) */
     double phi = acos(fmax(-1.0, fmin(1.0, (in.c - x) / in.d)));
     double rel = NAN;
