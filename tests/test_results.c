@@ -472,7 +472,7 @@ static void dataset_layout(hid_t file, const char *path, hsize_t *chunk, bool *s
     H5Dclose(d);
 }
 
-/* results/README.md: a dataset of 64 KiB or more is chunked min(n, 4096) with shuffle +
+/* results/README.md: a dataset of 16 KiB or more is chunked min(n, 4096) with shuffle +
  * deflate 4; a smaller one contiguous with no filter. Run 0 gets 10000 doubles (80000
  * bytes), run 1 six (48 bytes); both read back as written. */
 static void large_datasets_are_compressed_and_small_ones_stored_plain(void **state)
