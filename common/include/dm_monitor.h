@@ -87,6 +87,10 @@ dm_monitor_step(dm_step_monitor *m, double T, double V, double q_coord)
             m->level -= m->wrap;
         return DM_STEP_QUIET;
     }
+    /* Most steps stay on their side of the level: armed and below, or disarmed and not
+     * below. Those change nothing, so they store nothing. */
+    if (m->armed == (q_coord < m->level))
+        return DM_STEP_QUIET;
     bool crossed = m->armed && q_coord >= m->level;
     m->armed = q_coord < m->level;
     if (crossed) {
