@@ -188,10 +188,10 @@ static void section_point(const dm_instance *inst, double s, double dt, const do
     point[1] = hermite(x0[2 + k], -dt * g0[k], x1[2 + k], -dt * g1[k], s);
 }
 
-/* Cubic Hermite interpolation of the section's coordinate (q[coord], or q[coord] -
- * q[ref] for a relative section) across one step from the states and the vector field
- * at both ends; returns the time in [t0, t1] where it reaches `level`. The sign change
- * is known, so Newton is safeguarded by bisection. */
+/* Cubic Hermite interpolation of the section's value (q[coord], or a body's distance
+ * from a plane through another, for a relative section) across one step from the states
+ * and the vector field at both ends; returns the time in [t0, t1] where it reaches
+ * `level`. The sign change is known, so Newton is safeguarded by bisection. */
 static double locate_crossing(const dm_instance *inst, double level, double t0,
                               const double *x0, double t1, const double *x1)
 {

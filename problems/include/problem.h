@@ -50,16 +50,22 @@ typedef struct dm_section {
     int coord;
     double level;
     double wrap;
-    /* relative: the coordinate watched is q[coord] - q[ref] instead of q[coord] (a body's
-     * orbit about another, N-body). Left false by every other problem. */
+    /* relative: the value watched is normal . (r_coord - r_ref), r_i = (q[i], q[i+1],
+     * q[i+2]): the signed distance of a body (coord) from a plane through another (ref),
+     * N-body. Left false by every other problem. */
     bool relative;
     int ref;
 } dm_section;
+    double normal[3];
 
-/* The coordinate a section watches, at q. */
+/* The value a section watches, at q (linear in q: of a velocity, its rate). */
 static inline double dm_section_value(const dm_section *s, const double *q)
 {
-    return s->relative ? q[s->coord] - q[s->ref] : q[s->coord];
+    if (!s->relative)
+        return q[s->coord];
+    const double *a = q + s->coord, *b = q + s->ref;
+    return s->normal[0] * (a[0] - b[0]) + s->normal[1] * (a[1] - b[1]) +
+           s->normal[2] * (a[2] - b[2]);
 }
 
 typedef struct dm_problem dm_problem;
