@@ -323,12 +323,15 @@ static void publish_progress(run_context *c)
 }
 
 /* dE is (H - H0) / E_scale with E_scale = H0 - V_min where the potential has a finite
- * minimum below H0, else |H0| (1 when H0 is 0). */
+ * minimum below H0 (H0 - T_min - V_min for a kinetic energy whose lowest value T_min is
+ * not 0), else |H0| (1 when H0 is 0). */
 static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, double H0)
 {
-    if (inst->has_v_min && H0 - inst->v_min > 0.0) {
-        m->energy_scale = H0 - inst->v_min;
-        m->energy_scale_rule = "H0 - V_min";
+    const char *rule;
+    double scale = dm_energy_scale(inst, H0, &rule);
+    if (inst->has_v_min && scale > 0.0) {
+        m->energy_scale = scale;
+        m->energy_scale_rule = rule;
     } else {
         m->energy_scale = fabs(H0) > 0.0 ? fabs(H0) : 1.0;
         m->energy_scale_rule = "|H0|";

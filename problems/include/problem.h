@@ -8,6 +8,7 @@
 #ifndef DM_PROBLEM_H
 #define DM_PROBLEM_H
 
+#include <math.h>
 #include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -55,8 +56,8 @@ typedef struct dm_section {
      * N-body. Left false by every other problem. */
     bool relative;
     int ref;
-} dm_section;
     double normal[3];
+} dm_section;
 
 /* The value a section watches, at q (linear in q: of a velocity, its rate). */
 static inline double dm_section_value(const dm_section *s, const double *q)
@@ -94,7 +95,9 @@ typedef struct dm_instance {
                                    no period are refused by setup), or NaN for a problem
                                    marked no_period */
     bool has_v_min;             /* the potential has a finite minimum ... */
-    double v_min;               /* ... of this value */
+    double v_min;               /* ... of this value; and, with it, ... */
+    double t_min;               /* ... the kinetic energy's lowest value: 0 for
+                                   sum p^2 / (2 m), else E_scale = H0 - (T_min + V_min) */
     dm_section section;
     double first_crossing;      /* time of the exact orbit's first section crossing
                                    in (0, period]; crossing n is at
@@ -325,6 +328,21 @@ typedef void (*dm_gradient_fn)(const dm_instance *inst, const double *q, double 
 static inline dm_gradient_fn dm_problem_gradient(const dm_problem *problem)
 {
     return problem->gradient != NULL ? problem->gradient : dm_gradient_from_force;
+}
+
+/* The energy scale of dE = (H - H0) / E_scale as the instance sets it: H0 - V_min where
+ * the potential has a finite minimum (H0 - T_min - V_min with a kinetic energy whose
+ * lowest value T_min is not 0), else |H0|; *rule names it (one of the results file's
+ * energy-scale rules). Not checked for sign: dm_instance_init refuses a scale that is
+ * not resolved, and the runner falls back to |H0| (1 when H0 is 0). */
+static inline double dm_energy_scale(const dm_instance *inst, double H0, const char **rule)
+{
+    if (!inst->has_v_min) {
+        *rule = "|H0|";
+        return fabs(H0);
+    }
+    *rule = inst->t_min != 0.0 ? "H0 - T_min - V_min" : "H0 - V_min";
+    return H0 - (inst->v_min + inst->t_min);
 }
 
 /* ---- registry (registry.c) ---- */
