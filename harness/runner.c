@@ -7,7 +7,9 @@
  * crossing location by cubic Hermite interpolation, bookkeeping) happens once per
  * bucket or once per crossing.
  */
+#include <inttypes.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include "dm_clock.h"
@@ -545,6 +547,32 @@ static void record_bucket(run_context *c)
 }
 
 /* The run's figures from what the buckets and crossings collected. */
+/* A period measured where the problem knows roughly what to expect (N-body period_of:
+ * the osculating two-body period P at the start) is dropped, NaN with a note, when it
+ * is beyond P by more than 1/10 of it either way, or when a horizon of 3 or more such
+ * periods gave fewer crossings than 9/10 of the periods it holds, less one (our
+ * thresholds: perturbations move a planet's period by far less, 2e-4 for Jupiter's; a
+ * step that jumps crossings gives some multiple of it). */
+static void trust_measured_period(dm_run_result *result, double P, uint64_t count)
+{
+    dm_run_metrics *m = &result->metrics;
+    result->period_note[0] = '\0';
+    if (!(P > 0.0) || !isfinite(P))
+        return;
+    if (isfinite(m->period_measured) && fabs(m->period_measured / P - 1.0) > 0.1)
+        snprintf(result->period_note, sizeof result->period_note,
+                 "%.6g from %" PRIu64 " crossings, against %.6g at the start: crossings "
+                 "missed (a step near half the period or above?)", m->period_measured, count,
+                 P);
+    else if (m->t_reached >= 3.0 * P && (double)count < 0.9 * (m->t_reached / P) - 1.0)
+        snprintf(result->period_note, sizeof result->period_note,
+                 "%" PRIu64 " crossings over %.3g periods of %.6g at the start: crossings "
+                 "missed (a step near half the period or above?)", count, m->t_reached / P, P);
+    else
+        return;
+    m->period_measured = NAN;
+}
+
 static void finish_metrics(run_context *c, double wall)
 {
     dm_run_result *result = c->result;
@@ -579,6 +607,7 @@ static void finish_metrics(run_context *c, double wall)
     } else { /* no period: the slope of the crossing times is the period measured */
         m->phase_error_per_period = m->period_rel_error = NAN;
         m->period_measured = slope;
+        trust_measured_period(result, c->inst->period_osculating, c->log.count);
     }
     m->phase_error_final = c->log.last_phase;
     m->max_global_error = NAN;

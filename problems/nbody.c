@@ -204,10 +204,13 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
  * the period cannot jump two crossings; the one counted (upward) is at apoapsis, where
  * the body is slowest. A nearly circular start (e < 1e-6) takes its starting radius as
  * the line, crossed half an orbit later; a start with no angular momentum (a radial
- * fall) the coordinate plane nearest its motion's line. */
-static dm_section period_section(const dm_nbody *d, double G)
+ * fall) the coordinate plane nearest its motion's line. *period gets the pair's
+ * two-body period at the start (Kepler's third law, a = -G M / (2 E) per unit reduced
+ * mass), NaN when the pair is unbound or there is no section. */
+static dm_section period_section(const dm_nbody *d, double G, double *period)
 {
     int b = d->period_body, r = d->period_around;
+    *period = NAN;
     if (b < 0 || r < 0)
         return (dm_section){ .coord = 0, .level = NAN };
     double x[3], v[3], l[3];
@@ -217,7 +220,12 @@ static dm_section period_section(const dm_nbody *d, double G)
     }
     cross(x, v, l);
     dm_section s = { .coord = 3 * b, .level = 0.0, .relative = true, .ref = 3 * r };
-    double rx = norm3(x), ln = norm3(l);
+    double rx = norm3(x), ln = norm3(l), mu = G * (d->mass[b] + d->mass[r]);
+    double energy = 0.5 * (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]) - mu / rx;
+    if (energy < 0.0) {
+        double a = -mu / (2.0 * energy);
+        *period = 2.0 * M_PI * sqrt(a * a * a / mu);
+    }
     if (!(ln > 1e-12 * rx * norm3(v))) {
         int axis = 0;
         for (int k = 1; k < 3; k++)
@@ -226,7 +234,7 @@ static dm_section period_section(const dm_nbody *d, double G)
         s.normal[axis] = 1.0;
         return s;
     }
-    double mu = G * (d->mass[b] + d->mass[r]), vl[3], e[3];
+    double vl[3], e[3];
     cross(v, l, vl);
     for (int k = 0; k < 3; k++)
         e[k] = vl[k] / mu - x[k] / rx;
@@ -312,7 +320,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     inst->first_crossing = NAN;
     inst->has_v_min = false; /* -G m_i m_j / r is unbounded below */
     inst->v_min = 0.0;
-    inst->section = period_section(d, inst->param[P_G]);
+    inst->section = period_section(d, inst->param[P_G], &inst->period_osculating);
     return DM_OK;
 }
 

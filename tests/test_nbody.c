@@ -409,11 +409,48 @@ static void eccentric_orbit_period_is_measured_at_large_steps(void **state)
             print_message("e = %.4f, T = %.9f, h = %g = T/%.1f: measured %.9f over %llu "
                           "crossings (%.2e)\n", e, T, h, T / h, P,
                           (unsigned long long)res[0].crossings.total, P / T - 1.0);
-            wrong += !(fabs(P / T - 1.0) < 1e-8) || res[0].crossings.total < 100;
+            wrong += !(fabs(P / T - 1.0) < 1e-8) || res[0].crossings.total < 100 ||
+                     res[0].period_note[0] != '\0';
             free_all(&suite, res);
         }
     }
     assert_int_equal(wrong, 0);
+}
+
+/* Beyond half the period a step can jump crossings whatever the plane: the period
+ * measured is then dropped (NaN, with a note naming the osculating period) rather than
+ * reported. Two bodies at e = 0.9, T = 6.19629 (Kepler's third law, as above): at
+ * h = 3.4 and 4.5 the crossings give 7.53 and 16.4; at h = 3.0 (T / 2.07) the period is
+ * still right and kept. */
+static void a_period_from_missed_crossings_is_dropped(void **state)
+{
+    (void)state;
+    const double M = 1.001, v = 4.3600458713125825, a = -M / (v * v - 2.0 * M / 0.1);
+    const double T = 2.0 * M_PI * sqrt(a * a * a / M), steps[] = { 3.0, 3.4, 4.5 };
+    for (size_t j = 0; j < 3; j++) {
+        char text[2048];
+        snprintf(text, sizeof text,
+                 "output: " OUT "\nhorizon: {time: 628.3}\nbuckets: 10\nproblems:\n"
+                 "  - problem: nbody\n    G: 1\n    units: code\n"
+                 "    period_of: {body: B, around: A}\n    bodies:\n"
+                 "      - {name: A, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
+                 "      - {name: B, mass: 1.0e-3, position: [0.1, 0, 0], "
+                 "velocity: [0, 4.3600458713125825, 0]}\n"
+                 "methods:\n  - {method: wisdom-holman, h: %g}\n", steps[j]);
+        dm_suite suite;
+        dm_run_result *res = run_all(text, &suite);
+        print_message("h = %g: period %.9g, note '%s'\n", steps[j],
+                      res[0].metrics.period_measured, res[0].period_note);
+        if (j == 0) {
+            assert_true(fabs(res[0].metrics.period_measured / T - 1.0) < 1e-5);
+            assert_true(res[0].period_note[0] == '\0');
+        } else {
+            assert_true(isnan(res[0].metrics.period_measured));
+            assert_non_null(strstr(res[0].period_note, "crossings missed"));
+            assert_non_null(strstr(res[0].period_note, "6.19629"));
+        }
+        free_all(&suite, res);
+    }
 }
 
 /* Each kind of bad N-body input is refused with one line FILE:LINE:COLUMN naming it. */
@@ -551,6 +588,7 @@ int main(void)
         cmocka_unit_test(fused_loop_and_per_step_path_agree_bit_for_bit),
         cmocka_unit_test(two_bodies_are_the_kepler_problem),
         cmocka_unit_test(eccentric_orbit_period_is_measured_at_large_steps),
+        cmocka_unit_test(a_period_from_missed_crossings_is_dropped),
         cmocka_unit_test(bad_bodies_are_refused_in_one_line),
         cmocka_unit_test(a_file_of_momenta_gives_the_bodies_of_velocities),
     };

@@ -72,6 +72,8 @@
       "closed-form period T of the starting state")                                        \
     X(period_measured, REAL, metrics, SA, 0, "", "",                                       \
       "period measured from section crossings")                                            \
+    X(period_note, TEXT, result, A, 0, "", "",                                             \
+      "why period_measured is NaN though it was to be measured; empty otherwise")          \
     X(period_rel_error, REAL, metrics, SA, 0, "period err", "%.3e",                        \
       "(measured - exact) / exact")                                                        \
     X(phase_error_per_period, REAL, metrics, SA, 0, "phase/period", "%.3e",                \

@@ -99,6 +99,9 @@ typedef struct dm_instance {
     double t_min;               /* ... the kinetic energy's lowest value: 0 for
                                    sum p^2 / (2 m), else E_scale = H0 - (T_min + V_min) */
     dm_section section;
+    double period_osculating;   /* no_period: a period the crossings should come near
+                                   (N-body period_of: the pair's two-body period at the
+                                   start), else NaN or 0: none */
     double first_crossing;      /* time of the exact orbit's first section crossing
                                    in (0, period]; crossing n is at
                                    first_crossing + (n - 1) * period */
