@@ -86,7 +86,7 @@ size_t dm_summary_columns(const dm_figure *columns[DM_SUMMARY_COLUMNS_MAX])
 
 /* ---- texts ---- */
 
-const char *const dm_energy_scale_rules[] = { "H0 - V_min", "|H0|", NULL };
+const char *const dm_energy_scale_rules[] = { "H0 - V_min", "|H0|", "H0 - T_min - V_min", NULL };
 
 const char *dm_energy_scale_rule_named(const char *text)
 {

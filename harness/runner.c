@@ -7,7 +7,9 @@
  * crossing location by cubic Hermite interpolation, bookkeeping) happens once per
  * bucket or once per crossing.
  */
+#include <inttypes.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include "dm_clock.h"
@@ -206,10 +208,10 @@ static void section_point(const dm_instance *inst, double s, double dt, const do
     point[1] = hermite(x0[2 + k], -dt * g0[k], x1[2 + k], -dt * g1[k], s);
 }
 
-/* Cubic Hermite interpolation of the section's coordinate (q[coord], or q[coord] -
- * q[ref] for a relative section) across one step from the states and the vector field
- * at both ends; returns the time in [t0, t1] where it reaches `level`. The sign change
- * is known, so Newton is safeguarded by bisection. */
+/* Cubic Hermite interpolation of the section's value (q[coord], or a body's distance
+ * from a plane through another, for a relative section) across one step from the states
+ * and the vector field at both ends; returns the time in [t0, t1] where it reaches
+ * `level`. The sign change is known, so Newton is safeguarded by bisection. */
 static double locate_crossing(const dm_instance *inst, double level, double t0,
                               const double *x0, double t1, const double *x1)
 {
@@ -381,12 +383,15 @@ static void publish_progress(run_context *c)
 }
 
 /* dE is (H - H0) / E_scale with E_scale = H0 - V_min where the potential has a finite
- * minimum below H0, else |H0| (1 when H0 is 0). */
+ * minimum below H0 (H0 - T_min - V_min for a kinetic energy whose lowest value T_min is
+ * not 0), else |H0| (1 when H0 is 0). */
 static void choose_energy_scale(dm_run_metrics *m, const dm_instance *inst, double H0)
 {
-    if (inst->has_v_min && H0 - inst->v_min > 0.0) {
-        m->energy_scale = H0 - inst->v_min;
-        m->energy_scale_rule = "H0 - V_min";
+    const char *rule;
+    double scale = dm_energy_scale(inst, H0, &rule);
+    if (inst->has_v_min && scale > 0.0) {
+        m->energy_scale = scale;
+        m->energy_scale_rule = rule;
     } else {
         m->energy_scale = fabs(H0) > 0.0 ? fabs(H0) : 1.0;
         m->energy_scale_rule = "|H0|";
@@ -605,6 +610,32 @@ static void record_bucket(run_context *c)
 }
 
 /* The run's figures from what the buckets and crossings collected. */
+/* A period measured where the problem knows roughly what to expect (N-body period_of:
+ * the osculating two-body period P at the start) is dropped, NaN with a note, when it
+ * is beyond P by more than 1/10 of it either way, or when a horizon of 3 or more such
+ * periods gave fewer crossings than 9/10 of the periods it holds, less one (our
+ * thresholds: perturbations move a planet's period by far less, 2e-4 for Jupiter's; a
+ * step that jumps crossings gives some multiple of it). */
+static void trust_measured_period(dm_run_result *result, double P, uint64_t count)
+{
+    dm_run_metrics *m = &result->metrics;
+    result->period_note[0] = '\0';
+    if (!(P > 0.0) || !isfinite(P))
+        return;
+    if (isfinite(m->period_measured) && fabs(m->period_measured / P - 1.0) > 0.1)
+        snprintf(result->period_note, sizeof result->period_note,
+                 "%.6g from %" PRIu64 " crossings, against %.6g at the start: crossings "
+                 "missed (a step near half the period or above?)", m->period_measured, count,
+                 P);
+    else if (m->t_reached >= 3.0 * P && (double)count < 0.9 * (m->t_reached / P) - 1.0)
+        snprintf(result->period_note, sizeof result->period_note,
+                 "%" PRIu64 " crossings over %.3g periods of %.6g at the start: crossings "
+                 "missed (a step near half the period or above?)", count, m->t_reached / P, P);
+    else
+        return;
+    m->period_measured = NAN;
+}
+
 static void finish_metrics(run_context *c, double wall)
 {
     dm_run_result *result = c->result;
@@ -640,6 +671,7 @@ static void finish_metrics(run_context *c, double wall)
     } else { /* no period: the slope of the crossing times is the period measured */
         m->phase_error_per_period = m->period_rel_error = NAN;
         m->period_measured = slope;
+        trust_measured_period(result, c->inst->period_osculating, c->log.count);
     }
     m->phase_error_final = c->log.last_phase;
     m->max_global_error = m->max_reference_error = m->reference_valid_until = NAN;

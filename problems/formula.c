@@ -10,6 +10,7 @@
 
 #include <matheval.h>
 
+#include "descent.h"
 #include "dm_hash.h"
 #include "formula_private.h"
 #include "orbit_period.h"
@@ -203,6 +204,39 @@ static dm_status setup_orbit(dm_instance *inst, const formula_problem *F, dm_orb
     return DM_OK;
 }
 
+/* Beyond one coordinate with masses: V_min is V at the local minimum reached downhill
+ * from q0 along grad V, and T_min (a kinetic formula) T at the one reached from p0 along
+ * grad T, so that E_scale = H0 - T_min - V_min moves with neither V nor T by an added
+ * constant. Where either descent finds no minimum (it leaves 10^4 max(1, |q0|) of its
+ * start, or meets a gradient or value that is not finite) there is none: |H0|. */
+static void lowest_energy(dm_instance *inst, const formula_problem *F)
+{
+    int n = F->dof;
+    double q[DM_MAX_DOF], p[DM_MAX_DOF];
+    memcpy(q, inst->q0, sizeof(double) * (size_t)n);
+    memcpy(p, inst->p0, sizeof(double) * (size_t)n);
+    inst->has_v_min = false;
+    inst->v_min = inst->t_min = 0.0;
+    double qr = 0.0, pr = 0.0;
+    for (int i = 0; i < n; i++)
+        qr = fmax(qr, fabs(q[i])), pr = fmax(pr, fabs(p[i]));
+    if (dm_descend(inst, dm_problem_gradient(inst->problem), n, q, 1e4 * fmax(1.0, qr)) !=
+        DM_DESCENT_FOUND)
+        return;
+    double v_min = inst->problem->potential(inst, q), t_min = 0.0;
+    if (F->has_kinetic) {
+        if (dm_descend(inst, inst->problem->velocity, n, p, 1e4 * fmax(1.0, pr)) !=
+            DM_DESCENT_FOUND)
+            return;
+        t_min = inst->problem->kinetic(inst, p);
+    }
+    if (!isfinite(v_min) || !isfinite(t_min))
+        return;
+    inst->has_v_min = true;
+    inst->v_min = v_min;
+    inst->t_min = t_min;
+}
+
 /* The start at rest on one side of the well around q0 at energy E. */
 static dm_status start_from_energy(dm_instance *inst, const formula_problem *F, dm_error *err)
 {
@@ -245,6 +279,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
         /* no period known to us: the user's, or none (no_period: the runner measures the
          * time between crossings); the section through the start */
         inst->period = F->period_given > 0.0 ? F->period_given : NAN;
+        lowest_energy(inst, F);
         int c = F->section_given ? F->section_coordinate : 0;
         inst->section = (dm_section){ .coord = c,
                                       .level = F->section_given ? F->section_level

@@ -199,10 +199,19 @@ static void invariants(const dm_instance *inst, const double *q, const double *p
 }
 
 /* The section of the named body's orbit about its reference body, or none (level NaN:
- * never crossed). */
-static dm_section period_section(const dm_nbody *d)
+ * never crossed): the plane through the reference body that holds the starting orbit's
+ * apsidal line (its eccentricity vector, about G (m_body + m_ref)) and its angular
+ * momentum. Each side of it holds half of a Kepler orbit, so a step shorter than half
+ * the period cannot jump two crossings; the one counted (upward) is at apoapsis, where
+ * the body is slowest. A nearly circular start (e < 1e-6) takes its starting radius as
+ * the line, crossed half an orbit later; a start with no angular momentum (a radial
+ * fall) the coordinate plane nearest its motion's line. *period gets the pair's
+ * two-body period at the start (Kepler's third law, a = -G M / (2 E) per unit reduced
+ * mass), NaN when the pair is unbound or there is no section. */
+static dm_section period_section(const dm_nbody *d, double G, double *period)
 {
     int b = d->period_body, r = d->period_around;
+    *period = NAN;
     if (b < 0 || r < 0)
         return (dm_section){ .coord = 0, .level = NAN };
     double x[3], v[3], l[3];
@@ -211,12 +220,34 @@ static dm_section period_section(const dm_nbody *d)
         v[k] = d->velocity[b][k] - d->velocity[r][k];
     }
     cross(x, v, l);
-    int axis = 0;
-    for (int k = 1; k < 3; k++)
-        if (fabs(l[k]) < fabs(l[axis]))
-            axis = k;
-    return (dm_section){ .coord = 3 * b + axis, .level = 0.0, .relative = true,
-                         .ref = 3 * r + axis };
+    dm_section s = { .coord = 3 * b, .level = 0.0, .relative = true, .ref = 3 * r };
+    double rx = norm3(x), ln = norm3(l), mu = G * (d->mass[b] + d->mass[r]);
+    double energy = 0.5 * (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]) - mu / rx;
+    if (energy < 0.0) {
+        double a = -mu / (2.0 * energy);
+        *period = 2.0 * M_PI * sqrt(a * a * a / mu);
+    }
+    if (!(ln > 1e-12 * rx * norm3(v))) {
+        int axis = 0;
+        for (int k = 1; k < 3; k++)
+            if (fabs(x[k]) < fabs(x[axis]))
+                axis = k;
+        s.normal[axis] = 1.0;
+        return s;
+    }
+    double vl[3], e[3];
+    cross(v, l, vl);
+    for (int k = 0; k < 3; k++)
+        e[k] = vl[k] / mu - x[k] / rx;
+    double en = norm3(e);
+    const double *line = en >= 1e-6 ? e : x;
+    double line_n = en >= 1e-6 ? en : rx, u[3], lu[3];
+    for (int k = 0; k < 3; k++) {
+        u[k] = line[k] / line_n;
+        lu[k] = l[k] / ln;
+    }
+    cross(u, lu, s.normal); /* value -|x| sin f: rising through 0 at f = pi */
+    return s;
 }
 
 /* A body as an error names it: its name, or its place in the list. */
@@ -290,7 +321,7 @@ static dm_status setup(dm_instance *inst, dm_error *err)
     inst->first_crossing = NAN;
     inst->has_v_min = false; /* -G m_i m_j / r is unbounded below */
     inst->v_min = 0.0;
-    inst->section = period_section(d);
+    inst->section = period_section(d, inst->param[P_G], &inst->period_osculating);
     return DM_OK;
 }
 

@@ -71,7 +71,8 @@ void dm_param_range_text(const dm_param *p, char *buf, size_t size)
  * sees its energy only as T + V in double precision (harness/runner.c):
  *  - that energy must lie in the state's own regime (morse amplitude 50: E rounds to
  *    D, the escape energy, though setup's quad arithmetic found it bound);
- *  - the run's energy scale (H0 - V_min, or |H0| without a minimum) must be resolved:
+ *  - the run's energy scale (dm_energy_scale: H0 - V_min, or |H0| without a minimum)
+ *    must be resolved:
  *    harmonic omega 1e-300 (omega^2 underflows: H0 = V_min = 0, the particle never
  *    moves) and pendulum energy -0.9999999999999999 (a scale of 1e-16) are refused. */
 static dm_status check_resolved(const dm_instance *inst, double potential, dm_error *err)
@@ -88,14 +89,15 @@ static dm_status check_resolved(const dm_instance *inst, double potential, dm_er
                             H0, problem->regimes[inst->regime].id);
     double size = fmax(fmax(fabs(kinetic), fabs(potential)), fabs(H0));
     if (inst->has_v_min)
-        size = fmax(size, fabs(inst->v_min));
-    double scale = inst->has_v_min ? H0 - inst->v_min : fabs(H0);
+        size = fmax(size, fmax(fabs(inst->v_min), fabs(inst->t_min)));
+    const char *rule;
+    double scale = dm_energy_scale(inst, H0, &rule);
     if (!(scale > 0.0) || scale < DM_ENERGY_SCALE_MIN_REL * size)
         return dm_error_set(err, DM_EINPUT,
                             "%s: the energy scale %s is %.3g beside energies of size %.3g: "
                             "below what double precision resolves (expected a scale of at "
                             "least %g of them; a larger amplitude or energy)", problem->id,
-                            inst->has_v_min ? "H0 - V_min" : "|H0|", scale, size,
+                            rule, scale, size,
                             DM_ENERGY_SCALE_MIN_REL);
     return DM_OK;
 }

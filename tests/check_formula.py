@@ -20,6 +20,7 @@ the driftmark under test and read back with h5py:
 
 usage: check_formula.py PATH/TO/driftmark   (run from the build directory by CTest)
 """
+import math
 import os
 import sys
 import tempfile
@@ -241,6 +242,49 @@ methods:
         print(f"kinetic formula: period error {got:.6g}, Verlet's {expected:.6g}")
         check(abs(got - expected) < 1e-3 * abs(expected), f"spring period error {got} against {expected}")
         check(g.attrs["formula_kinetic"] == "p^2/2", "formula_kinetic recorded")
+
+    # ---- the energy scale is a property of the system: adding a constant to V (or to a
+    # kinetic formula) moves no energy figure. E_scale = H0 - T_min - V_min by hand: V
+    # below is a positive definite quadratic form plus c (V_min = c, at the origin), T is
+    # p^2/2 or cosh(p) + k (T_min = 1 + k at p = 0); V unbounded below (a free fall) has no
+    # minimum and falls back to |H0|. ----
+    p, out = run_suite(tmp, "scale", """horizon: {time: 100}
+buckets: 16
+problems:
+  - {potential: "x^2/2 + y^2/2 + c", coordinates: [x, y], q0: [0, 0], p0: [1, 0.5],
+     c: [0, 100, -0.62499], name: round}
+  - {potential: "x^2/2 + 2*y^2 + x*y/2 + c", coordinates: [x, y], q0: [0.3, -0.2],
+     p0: [1, 0.5], c: [0, -3, 100], name: skew}
+  - {potential: "q^2/2 + c", kinetic: "cosh(p) + k", q0: 1, p0: 0.25, c: [0, 50],
+     k: [0, -3], name: kin}
+  - {potential: "x^2/2 - y", coordinates: [x, y], q0: [1, 0], p0: [0, 1], name: fall}
+methods:
+  - {method: verlet, h: 0.1}
+""")
+    with h5py.File(out) as f:
+        g = f["runs"]
+        by = {}
+        for rid in g:
+            a = g[rid].attrs
+            fam = rid.split(".")[0].split("-")[0]
+            by.setdefault(fam, []).append((rid, a["status"], a["energy_scale_rule"],
+                                           a["energy_scale"], a["max_energy_error"]))
+        want = {"round": ("H0 - V_min", 0.5 * (1 + 0.25)),
+                "skew": ("H0 - V_min", 0.5 * (1 + 0.25) + 0.5 * 0.09 + 2 * 0.04 - 0.5 * 0.06),
+                "kin": ("H0 - T_min - V_min", math.cosh(0.25) - 1 + 0.5)}
+        for fam, (rule, scale) in want.items():
+            rows = by.get(fam, [])
+            check(len(rows) >= 2, f"scale: {fam}: runs {rows}")
+            for rid, st, r, sc, de in rows:
+                check(st == "ok" and r == rule and abs(sc / scale - 1) < 1e-12,
+                      f"scale: {rid}: {st}, {r} {sc!r}, expected ok, {rule} {scale!r}")
+                check(abs(de / rows[0][4] - 1) < 1e-9,
+                      f"scale: {rid}: max |dE| {de!r} against {rows[0][0]}'s {rows[0][4]!r}")
+            print(f"scale: {fam}: {len(rows)} runs, E_scale {rows[0][3]:.17g}, max |dE| "
+                  + ", ".join(f"{x[4]:.6e}" for x in rows))
+        fall = by.get("fall", [])
+        check(len(fall) == 1 and fall[0][2] == "|H0|",
+              f"scale: V unbounded below falls back to |H0|: {fall}")
 
     # ---- the evaluator: forced (no compiler) and after a failed compile ----
     pend = """horizon: {time: 300}

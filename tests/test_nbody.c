@@ -355,6 +355,106 @@ static void two_bodies_are_the_kepler_problem(void **state)
     dm_stepper_destroy(sn);
 }
 
+/* period_of on eccentric two-body orbits against Kepler's third law for the relative
+ * orbit (closed form: a = -G M / (2 E), E = v^2 / 2 - G M / r per unit reduced mass,
+ * T = 2 pi sqrt(a^3 / (G M)), M the two masses; J. M. A. Danby, Fundamentals of Celestial
+ * Mechanics, 2nd ed., 1988). Wisdom-Holman is exact on two bodies (no interaction kick),
+ * so the measured period must be T to the crossings' interpolation, at every step up to
+ * T / 20: the counted crossing may not be one a step can jump (the section used to be
+ * a coordinate plane the body stays on one side of for a sliver of each orbit, and a
+ * step of T / 20 gave 2.6 T at e = 0.9, 55 T at e = 0.988). One start is at periapsis in
+ * the plane z = 0 (e = 0.9 and 0.988), one tilted out of it (e = 0.96), one mid-orbit
+ * in no coordinate plane, one circular (no apsidal line). */
+static void eccentric_orbit_period_is_measured_at_large_steps(void **state)
+{
+    (void)state;
+    static const struct {
+        double x[3], v[3];
+        double h[4]; /* steps (0: none), the largest about T / 20 */
+    } starts[] = {
+        { { 0.1, 0, 0 }, { 0, 4.3600458713125825, 0 }, { 0.3, 0.1, 0.01 } },
+        { { 0.01, 0, 0 }, { 0, 14.10673601213519, 0 }, { 0.239, 0.1, 0.05, 0.01 } },
+        /* periapsis speed sqrt(G M (1 + e) / r) at e = 0.96, tilted by 0.3 rad */
+        { { 0.04, 0, 0 },
+          { 0, 7.0034991254372265 * 0.955336489125606, 7.0034991254372265 * 0.29552020666133955 },
+          { 0.314, 0.1, 0.0125 } },
+        { { -0.3, 0.25, 0.1 }, { -1.1, -1.7, 0.6 }, { 0.87, 0.35, 0.035 } },
+        /* circular (speed sqrt(G M / r)): the plane through the starting radius */
+        { { 1, 0, 0 }, { 0, 1.000499875062461, 0 }, { 0.31, 0.031 } },
+    };
+    const double M = 1.001;
+    int wrong = 0;
+    for (size_t k = 0; k < sizeof starts / sizeof starts[0]; k++) {
+        const double *x = starts[k].x, *v = starts[k].v;
+        double r = sqrt(x[0] * x[0] + x[1] * x[1] + x[2] * x[2]);
+        double E = 0.5 * (v[0] * v[0] + v[1] * v[1] + v[2] * v[2]) - M / r;
+        double a = -M / (2.0 * E), T = 2.0 * M_PI * sqrt(a * a * a / M);
+        double l[3] = { x[1] * v[2] - x[2] * v[1], x[2] * v[0] - x[0] * v[2],
+                        x[0] * v[1] - x[1] * v[0] };
+        double e = sqrt(fmax(0.0, 1.0 - (l[0] * l[0] + l[1] * l[1] + l[2] * l[2]) / (M * a)));
+        for (size_t j = 0; j < 4 && starts[k].h[j] > 0.0; j++) {
+            double h = starts[k].h[j];
+            assert_true(h < T / 19.0);
+            char text[2048];
+            snprintf(text, sizeof text,
+                     "output: " OUT "\nhorizon: {time: %.17g}\nbuckets: 10\nproblems:\n"
+                     "  - problem: nbody\n    G: 1\n    units: code\n"
+                     "    period_of: {body: B, around: A}\n    bodies:\n"
+                     "      - {name: A, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
+                     "      - {name: B, mass: 1.0e-3, position: [%.17g, %.17g, %.17g], "
+                     "velocity: [%.17g, %.17g, %.17g]}\n"
+                     "methods:\n  - {method: wisdom-holman, h: %.17g}\n",
+                     101.3 * T, x[0], x[1], x[2], v[0], v[1], v[2], h);
+            dm_suite suite;
+            dm_run_result *res = run_all(text, &suite);
+            double P = res[0].metrics.period_measured;
+            print_message("e = %.4f, T = %.9f, h = %g = T/%.1f: measured %.9f over %llu "
+                          "crossings (%.2e)\n", e, T, h, T / h, P,
+                          (unsigned long long)res[0].crossings.total, P / T - 1.0);
+            wrong += !(fabs(P / T - 1.0) < 1e-8) || res[0].crossings.total < 100 ||
+                     res[0].period_note[0] != '\0';
+            free_all(&suite, res);
+        }
+    }
+    assert_int_equal(wrong, 0);
+}
+
+/* Beyond half the period a step can jump crossings whatever the plane: the period
+ * measured is then dropped (NaN, with a note naming the osculating period) rather than
+ * reported. Two bodies at e = 0.9, T = 6.19629 (Kepler's third law, as above): at
+ * h = 3.4 and 4.5 the crossings give 7.53 and 16.4; at h = 3.0 (T / 2.07) the period is
+ * still right and kept. */
+static void a_period_from_missed_crossings_is_dropped(void **state)
+{
+    (void)state;
+    const double M = 1.001, v = 4.3600458713125825, a = -M / (v * v - 2.0 * M / 0.1);
+    const double T = 2.0 * M_PI * sqrt(a * a * a / M), steps[] = { 3.0, 3.4, 4.5 };
+    for (size_t j = 0; j < 3; j++) {
+        char text[2048];
+        snprintf(text, sizeof text,
+                 "output: " OUT "\nhorizon: {time: 628.3}\nbuckets: 10\nproblems:\n"
+                 "  - problem: nbody\n    G: 1\n    units: code\n"
+                 "    period_of: {body: B, around: A}\n    bodies:\n"
+                 "      - {name: A, mass: 1, position: [0, 0, 0], velocity: [0, 0, 0]}\n"
+                 "      - {name: B, mass: 1.0e-3, position: [0.1, 0, 0], "
+                 "velocity: [0, 4.3600458713125825, 0]}\n"
+                 "methods:\n  - {method: wisdom-holman, h: %g}\n", steps[j]);
+        dm_suite suite;
+        dm_run_result *res = run_all(text, &suite);
+        print_message("h = %g: period %.9g, note '%s'\n", steps[j],
+                      res[0].metrics.period_measured, res[0].period_note);
+        if (j == 0) {
+            assert_true(fabs(res[0].metrics.period_measured / T - 1.0) < 1e-5);
+            assert_true(res[0].period_note[0] == '\0');
+        } else {
+            assert_true(isnan(res[0].metrics.period_measured));
+            assert_non_null(strstr(res[0].period_note, "crossings missed"));
+            assert_non_null(strstr(res[0].period_note, "6.19629"));
+        }
+        free_all(&suite, res);
+    }
+}
+
 /* Each kind of bad N-body input is refused with one line FILE:LINE:COLUMN naming it. */
 static int refusal_failures;
 
@@ -489,6 +589,8 @@ int main(void)
         cmocka_unit_test(splitting_methods_conserve_momentum_and_angular_momentum),
         cmocka_unit_test(fused_loop_and_per_step_path_agree_bit_for_bit),
         cmocka_unit_test(two_bodies_are_the_kepler_problem),
+        cmocka_unit_test(eccentric_orbit_period_is_measured_at_large_steps),
+        cmocka_unit_test(a_period_from_missed_crossings_is_dropped),
         cmocka_unit_test(bad_bodies_are_refused_in_one_line),
         cmocka_unit_test(a_file_of_momenta_gives_the_bodies_of_velocities),
     };

@@ -88,7 +88,10 @@ static void every_problem_sets_up_with_its_defaults(void **state)
         assert_true(inst.dof >= 1 && inst.dof <= pb->dof);
         assert_true(inst.section.coord >= 0 && inst.section.coord < inst.dof);
         assert_true(!inst.section.relative ||
-                    (inst.section.ref >= 0 && inst.section.ref < inst.dof));
+                    (inst.section.ref >= 0 && inst.section.ref + 2 < inst.dof &&
+                     inst.section.coord + 2 < inst.dof &&
+                     fabs(hypot(hypot(inst.section.normal[0], inst.section.normal[1]),
+                                inst.section.normal[2]) - 1.0) < 1e-12));
         assert_true(inst.section.wrap >= 0.0);
         assert_close(inst.energy, dm_instance_energy(&inst, inst.q0, inst.p0), 1e-15);
         double grad[DM_MAX_DOF];

@@ -193,6 +193,7 @@ typedef struct dm_run_result {
     char reason[DM_ERROR_MSG_MAX];   /* why not ok; empty when ok */
     char drift_class[DM_DRIFT_CLASS_MAX]; /* dm_drift_class_name of drift_exponent */
     char drift_note[DM_DRIFT_NOTE_MAX];   /* why drift_exponent is NaN, or a note */
+    char period_note[DM_DRIFT_NOTE_MAX];  /* why period_measured is NaN; empty otherwise */
     char regime_change[DM_REGIME_CHANGE_MAX]; /* the numerical orbit left the starting
                                                  regime: "from -> to at t = ..." */
     char reference_arithmetic[16];   /* DM_QUAD_NAME, with a reference */

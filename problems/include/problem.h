@@ -8,6 +8,7 @@
 #ifndef DM_PROBLEM_H
 #define DM_PROBLEM_H
 
+#include <math.h>
 #include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
@@ -64,16 +65,22 @@ typedef struct dm_section {
     int coord;
     double level;
     double wrap;
-    /* relative: the coordinate watched is q[coord] - q[ref] instead of q[coord] (a body's
-     * orbit about another, N-body). Left false by every other problem. */
+    /* relative: the value watched is normal . (r_coord - r_ref), r_i = (q[i], q[i+1],
+     * q[i+2]): the signed distance of a body (coord) from a plane through another (ref),
+     * N-body. Left false by every other problem. */
     bool relative;
     int ref;
+    double normal[3];
 } dm_section;
 
-/* The coordinate a section watches, at q. */
+/* The value a section watches, at q (linear in q: of a velocity, its rate). */
 static inline double dm_section_value(const dm_section *s, const double *q)
 {
-    return s->relative ? q[s->coord] - q[s->ref] : q[s->coord];
+    if (!s->relative)
+        return q[s->coord];
+    const double *a = q + s->coord, *b = q + s->ref;
+    return s->normal[0] * (a[0] - b[0]) + s->normal[1] * (a[1] - b[1]) +
+           s->normal[2] * (a[2] - b[2]);
 }
 
 typedef struct dm_problem dm_problem;
@@ -102,8 +109,13 @@ typedef struct dm_instance {
                                    no period are refused by setup), or NaN for a problem
                                    marked no_period */
     bool has_v_min;             /* the potential has a finite minimum ... */
-    double v_min;               /* ... of this value */
+    double v_min;               /* ... of this value; and, with it, ... */
+    double t_min;               /* ... the kinetic energy's lowest value: 0 for
+                                   sum p^2 / (2 m), else E_scale = H0 - (T_min + V_min) */
     dm_section section;
+    double period_osculating;   /* no_period: a period the crossings should come near
+                                   (N-body period_of: the pair's two-body period at the
+                                   start), else NaN or 0: none */
     double first_crossing;      /* time of the exact orbit's first section crossing
                                    in (0, period]; crossing n is at
                                    first_crossing + (n - 1) * period */
@@ -315,7 +327,7 @@ struct dm_problem {
 #define DM_PROBLEM_ABI 5u /* 2: DM_MAX_DOF 6 -> 384; 3: DM_RK_MAX_STAGES 4 -> 16 and
                              Runge-Kutta-Nystrom tables in the fused loop; 4: data,
                              no_period, needs_data, relative sections, closest_approach;
-                             5: gradient_quad, velocity_quad */
+                             5: gradient_quad, velocity_quad, a section's normal */
 
 typedef const dm_problem *(*dm_problem_entry_fn)(unsigned *abi);
 
@@ -343,6 +355,21 @@ typedef void (*dm_gradient_fn)(const dm_instance *inst, const double *q, double 
 static inline dm_gradient_fn dm_problem_gradient(const dm_problem *problem)
 {
     return problem->gradient != NULL ? problem->gradient : dm_gradient_from_force;
+}
+
+/* The energy scale of dE = (H - H0) / E_scale as the instance sets it: H0 - V_min where
+ * the potential has a finite minimum (H0 - T_min - V_min with a kinetic energy whose
+ * lowest value T_min is not 0), else |H0|; *rule names it (one of the results file's
+ * energy-scale rules). Not checked for sign: dm_instance_init refuses a scale that is
+ * not resolved, and the runner falls back to |H0| (1 when H0 is 0). */
+static inline double dm_energy_scale(const dm_instance *inst, double H0, const char **rule)
+{
+    if (!inst->has_v_min) {
+        *rule = "|H0|";
+        return fabs(H0);
+    }
+    *rule = inst->t_min != 0.0 ? "H0 - T_min - V_min" : "H0 - V_min";
+    return H0 - (inst->v_min + inst->t_min);
 }
 
 /* ---- registry (registry.c) ---- */
