@@ -155,8 +155,11 @@ def load_more(path, runs):
             r["force_evals_per_period"] = float(a.get("force_evals_per_period", np.nan))
             r["phase_error_per_period"] = float(a["phase_error_per_period"])
             r["reason"] = text(a["reason"])
-            # a problem without a closed-form period (nbody): time in its own units
+            # a problem without a closed-form period (nbody): time in its own units, named
+            # by the suite's `units` where it states them
             r["time_unit"] = r["period"] if np.isfinite(r["period"]) else 1.0
+            r["units"] = text(a["units"]) if "units" in a else ""
+            r["problem"] = text(a["problem"]) if "problem" in a else ""
             periods = r["t_reached"] / r["period"]
             r["seconds_per_period"] = r["wall_seconds"] / periods if periods > 0 else np.nan
         sweeps = {}
@@ -187,6 +190,7 @@ METHOD_STYLE = {
     "rk4": ("#d73027", ">"),
     "cvode-bdf": ("#e08214", "*"),
     "cvode-adams": ("#111111", "d"),
+    "wisdom-holman": ("#d4a017", "H"),
 }
 # A method id missing from the table (added to the program later) gets a colour and a
 # marker from its id's CRC-32: the same in every plot and every run of the script.
@@ -197,11 +201,11 @@ STEP_LINESTYLES = ("-", "--", ":", "-.", (0, (5, 1, 1, 1, 1, 1)))
 
 # The mark of a run that is not ok, drawn at the point where it stopped (a swamped run
 # ran to the end; it keeps its method's marker, hollow).
-STATUS_MARK = {"diverged": "X", "failed": "x", "interrupted": "|"}
+STATUS_MARK = {"diverged": "X", "failed": "x", "interrupted": ">"}
 STATUS_WORDS = {
     "diverged": "diverged: stopped where |dE|\npassed the energy limit",
     "failed": "failed: the method gave up\n(reason in the file)",
-    "interrupted": "interrupted: stopped\nbefore the horizon",
+    "interrupted": "interrupted (triangle):\nstopped before the horizon",
     "swamped": "swamped (hollow): |dE| >= 1/2\nover the whole last bucket",
 }
 
@@ -245,7 +249,9 @@ def status_label(r):
     if r["status"] == "ok":
         return method_part(r)
     if r["status"] in ("diverged", "failed", "interrupted") and np.isfinite(r["t_reached"]):
-        return f"{method_part(r)}: {r['status']} at t = {r['t_reached'] / r['period']:.4g} T"
+        if np.isfinite(r["period"]):
+            return f"{method_part(r)}: {r['status']} at t = {r['t_reached'] / r['period']:.4g} T"
+        return f"{method_part(r)}: {r['status']} at t = {r['t_reached']:.4g}"  # its own units
     return f"{method_part(r)}: {r['status']}"
 
 
@@ -332,7 +338,7 @@ def plot_energy(variant, runs, out, formats):
     if peaks:
         ax.set_ylim(10 ** (np.floor(np.log10(min(peaks))) - 1), 10 ** (np.ceil(np.log10(max(peaks))) + 0.3))
     ax.set_xlabel("time / period T" if all(np.isfinite(r["period"]) for r in runs)
-                  else "time (the suite's units: the problem has no closed-form period)")
+                  else own_time_label(runs) + ": the problem has no closed-form period")
     ax.set_ylabel("|dE| = |H - H0| / E scale")
     ax.set_title(f"{variant}: energy error", fontsize=10)
     ax.grid(True, which="major", lw=0.3, alpha=0.5)
@@ -579,6 +585,21 @@ def positive(v):
     return x
 
 
+# The surface of section's axes of the built-in problems that keep one (results/README.md,
+# section_q and section_p).
+SECTION_AXES = {
+    "henon_heiles": ("y (at x = 0, p_x > 0)", "p_y"),
+    "kepler": ("x (at y = 0, going up)", "p_x"),
+}
+
+
+def own_time_label(runs):
+    """The time axis of a problem without a closed-form period: in the units the suite
+    states (nbody's `units`), else the suite's own."""
+    units = sorted({r.get("units", "") for r in runs} - {""})
+    return f"time ({units[0]})" if len(units) == 1 else "time (the suite's units)"
+
+
 def plot_section(variant, runs, out, formats):
     """The surface of section of a problem without a closed-form period (Henon-Heiles):
     (y, p_y) at each kept crossing of x = 0, one panel per run, each run in its colour."""
@@ -593,8 +614,10 @@ def plot_section(variant, runs, out, formats):
         st = run_line_style(r)
         ax.plot(r["section"][0], r["section"][1], ls="none", marker=".", ms=1.5, color=st["color"])
         ax.set_title(status_label(r), fontsize=8)
-        ax.set_xlabel("q (the coordinate the section does not watch)", fontsize=7)
-        ax.set_ylabel("its momentum p", fontsize=7)
+        q_name, p_name = SECTION_AXES.get(r["problem"], ("q (the coordinate the section does not "
+                                                          "watch)", "its momentum p"))
+        ax.set_xlabel(q_name, fontsize=7)
+        ax.set_ylabel(p_name, fontsize=7)
         ax.tick_params(labelsize=7)
     for ax in list(axes.flat)[len(shown):]:
         ax.axis("off")
@@ -627,7 +650,7 @@ def plot_invariants(variant, runs, out, formats):
         ax.set_xscale("log")
         ax.set_yscale("log")
         ax.set_title(f"{name} error (unit-free)", fontsize=9)
-        ax.set_xlabel("time (the suite's units)", fontsize=8)
+        ax.set_xlabel(own_time_label(runs), fontsize=8)
         ax.grid(True, which="major", lw=0.3, alpha=0.5)
     legend_outside(axes.flat[-1], handles, title="run (method-step)")
     fig.suptitle(f"{variant}: invariants at bucket ends", fontsize=10)
@@ -662,7 +685,7 @@ def plot_global(variant, runs, out, formats):
     ax.set_xscale("log")
     ax.set_yscale("log")
     unit = rs[0]["time_unit"]
-    ax.set_xlabel("time / period" if unit != 1.0 else "time (the suite's units)", fontsize=8)
+    ax.set_xlabel("time / period" if unit != 1.0 else own_time_label(rs), fontsize=8)
     ax.set_ylabel("global error (phase-space distance)", fontsize=8)
     ax.grid(True, which="major", lw=0.3, alpha=0.5)
     against = "reference trajectory" if any(r["reference_error"] is not None for r in rs) \
