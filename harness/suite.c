@@ -1560,6 +1560,14 @@ static dm_status expand_runs(suite_build *b, dm_suite *suite)
                         st = fail_at(c, here, "run %s is given twice (first at line %zu; "
                                      "expected every run to differ)", spec->id,
                                      node_line(first_at));
+                    else if (b->run_variants[r]->entry != v[i].entry && v[i].entry->formula &&
+                             b->run_variants[r]->entry->formula)
+                        /* two entries of one name: a formula problem's list starts, its
+                         * masses or section are not in the id (its name is) */
+                        st = fail_at(c, v[i].entry->node, "run id %s names two different runs "
+                                     "(first at line %zu): two problems entries make runs of "
+                                     "one name (expected a name: of its own for each)",
+                                     spec->id, node_line(first_at));
                     else
                         st = fail_at(c, here, "run id %s names two different runs (first at "
                                      "line %zu; expected values that differ within 6 "

@@ -668,6 +668,14 @@ static void duplicate_runs_are_refused(void **state)
     expect_error(HEAD PROB "methods:\n  - {h: [0.1, 0.1000001], method: FIXED}\n", SRC ":6:15: ",
                  "names two different runs (first at line 6; expected values that differ "
                  "within 6 significant digits)");
+    /* two formula entries of one name that differ where the id does not show it (list
+     * starts): the second entry is named, and what to do */
+    expect_error("horizon: {time: 10}\noutput: OUT\nproblems:\n"
+                 "  - {potential: \"x^2/2 + y^2/2\", coordinates: [x, y], q0: [1, 0], name: b}\n"
+                 "  - {potential: \"x^2/2 + y^2/2\", coordinates: [x, y], q0: [2, 0], name: b}\n"
+                 "methods:\n  - {h: 0.1, method: FIXED}\n",
+                 SRC ":5:5: ", "two problems entries make runs of one name (expected a name: "
+                 "of its own for each)");
     /* two problem entries that are the same variant: the error points at the second
      * entry and names the first (both runs share the one step value, which says
      * nothing) */
