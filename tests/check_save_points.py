@@ -26,12 +26,12 @@ from checklib import check, finish, run
 
 EXE = os.path.abspath(sys.argv[1])
 
-# a long fixed-step run (77 million steps, about 3 s) and one 128 times shorter; run
+# a long fixed-step run (154 million steps, about 5 s) and one 128 times shorter; run
 # longest first
 SUITE = """\
 name: save-points
 output: {out}
-horizon: {{periods: 150000}}
+horizon: {{periods: 300000}}
 samples: 256
 problems:
   - {{problem: pendulum, amplitude: 1.0}}
@@ -185,7 +185,7 @@ def main():
 
         # runs ending before the first save point: none taken
         with open(os.path.join(tmp, "q.yaml"), "w") as f:
-            f.write(SUITE.replace("150000", "2000").format(out="quick.h5"))
+            f.write(SUITE.replace("300000", "2000").format(out="quick.h5"))
         p = run(EXE, ["run", "q.yaml", "--save-every", "600"], cwd=tmp)
         check(p.returncode == 0 and "save point" not in p.stderr,
               f"no save point before the end: {p.returncode} {p.stderr!r}")
@@ -205,10 +205,13 @@ def main():
         # a file that appears at NAME once the run has begun (its temporary file exists)
         # and before the first save point (1 s): not ours, so left as it is by the save
         # points (killed at 2.5 s); with --force the first save point replaces it
+        # (a suite ten times as long: the run must outlast 2.5 s on a fast machine too)
+        with open(os.path.join(tmp, "long.yaml"), "w") as f:
+            f.write(SUITE.replace("300000", "3000000").format(out="never.h5"))
         for force in (False, True):
             name = os.path.join(tmp, f"foreign-{int(force)}.h5")
             t0 = time.time()
-            proc = start(["s.yaml", "-o", name, "--save-every", "1"] +
+            proc = start(["long.yaml", "-o", name, "--save-every", "1"] +
                          (["--force"] if force else []), tmp)
             while time.time() < t0 + 30 and not [x for x in os.listdir(tmp) if
                                                  x.startswith(f".foreign-{int(force)}.h5.tmp-")]:
