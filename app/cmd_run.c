@@ -107,7 +107,8 @@ static void print_usage(FILE *out)
 }
 
 /* Loads the suite to run: from a file, the built-in default, or the one stored in the
- * results file being resumed (so a resumed file can only continue its own suite). */
+ * results file being resumed (so a resumed file can only continue its own suite).
+ * `output` dm_suite_output_unchecked: nothing about the output is checked (--plan). */
 static dm_status load_suite(dm_suite *suite, const char *path, const char *output,
                             const char *resume, dm_error *err)
 {
@@ -119,7 +120,8 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
     dm_status st = dm_results_read_suite_text(resume, &text, source, sizeof source, err);
     if (st != DM_OK)
         return st == DM_EIO ? DM_EINPUT : st;
-    st = dm_suite_parse(suite, text, strlen(text), source, resume, err);
+    st = dm_suite_parse(suite, text, strlen(text), source,
+                        output == dm_suite_output_unchecked ? output : resume, err);
     free(text);
     return st;
 }
@@ -473,12 +475,15 @@ static bool probe_adaptive(const dm_run_spec *spec, double *evals, double *secon
 }
 
 /* The time a force evaluation takes, from a probe of 2^20 steps of the first fixed-step
- * run (which it names); NaN when there is none. */
-static double probe_fixed(const dm_suite *suite, const char **probed)
+ * run still to run (which it names); NaN when there is none. */
+static double probe_fixed(const dm_suite *suite, const dm_run_result *done,
+                          const char **probed)
 {
     for (size_t i = 0; i < suite->n_runs; i++) {
-        if (suite->runs[i].method->adaptive)
-            continue;
+        if (suite->runs[i].method->adaptive ||
+            (done != NULL && done[i].status != DM_RUN_NOT_RUN &&
+             done[i].status != DM_RUN_INTERRUPTED))
+            continue; /* adaptive, or kept by --resume: not what is left to run */
         dm_run_spec probe = suite->runs[i];
         double steps = 1048576.0;
         if (probe.t_end > steps * fabs(probe.method_config.h))
@@ -506,27 +511,47 @@ static double probe_fixed(const dm_suite *suite, const char **probed)
  * reading for a formula problem), and the suite's total with a rough time: the fixed-
  * step work times a force evaluation's time in a probe, plus the adaptive runs' probed
  * times, shared among `jobs` threads. Runs nothing to the end; writes nothing. */
-static int print_plan(const dm_suite *suite, int jobs)
+static int print_plan(const dm_suite *suite, int jobs, const dm_run_result *done)
 {
     const char *probed = NULL;
-    double per_eval = probe_fixed(suite, &probed);
+    double per_eval = probe_fixed(suite, done, &probed);
     double work = 0.0, bytes = 0.0, fixed_work = 0.0, adaptive_seconds = 0.0,
            probe_seconds = 0.0;
-    size_t guessed = 0;
+    size_t guessed = 0, kept = 0, continued = 0, planned = 0;
     printf("%-56s %16s %16s %12s %22s\n", "run", "steps", "force evals", "memory MiB",
            "period");
     for (size_t i = 0; i < suite->n_runs; i++) {
         const dm_run_spec *spec = &suite->runs[i];
-        double cost = dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
+        /* --resume: the runs the file keeps are left out; an interrupted one counts
+         * what is left after its checkpoint */
+        double left = 1.0;
+        if (done != NULL && done[i].status != DM_RUN_NOT_RUN) {
+            if (done[i].status != DM_RUN_INTERRUPTED || done[i].checkpoint == NULL) {
+                kept += done[i].status != DM_RUN_INTERRUPTED;
+                if (done[i].status != DM_RUN_INTERRUPTED)
+                    continue;
+            } else {
+                continued++;
+                left = spec->method->adaptive
+                           ? 1.0 - done[i].metrics.t_reached / spec->t_end
+                           : 1.0 - (double)done[i].metrics.counts.steps /
+                                       (double)dm_run_fixed_steps(spec);
+                left = fmin(1.0, fmax(0.0, left));
+            }
+        }
+        planned++;
+        double cost = left * dm_run_estimated_cost(spec), mem = dm_run_memory_bytes(spec);
         char steps[32] = "adaptive", evals[32];
         if (!spec->method->adaptive) {
-            snprintf(steps, sizeof steps, "%" PRIu64, dm_run_fixed_steps(spec));
+            uint64_t all = dm_run_fixed_steps(spec);
+            snprintf(steps, sizeof steps, "%" PRIu64,
+                     left < 1.0 ? all - done[i].metrics.counts.steps : all);
             fixed_work += cost;
         } else {
             double e = NAN, sec = NAN, t0 = dm_clock_seconds();
             if (probe_seconds < PLAN_PROBE_SECONDS && probe_adaptive(spec, &e, &sec)) {
-                cost = e;
-                adaptive_seconds += sec;
+                cost = left * e;
+                adaptive_seconds += left * sec;
             } else {
                 guessed++;
                 adaptive_seconds += cost * per_eval; /* NaN without a fixed-step probe */
@@ -542,13 +567,16 @@ static int print_plan(const dm_suite *suite, int jobs)
         work += cost;
         bytes += mem;
     }
-    printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", suite->n_runs, work,
+    printf("%zu runs, about %.4g force evaluations, %.1f MiB of series\n", planned, work,
            bytes / 1048576.0);
+    if (done != NULL)
+        printf("(--resume: %zu runs kept from the file are left out; %zu continue from their "
+               "checkpoints, their steps and work what is left)\n", kept, continued);
     if (suite->n_runs > 0 && suite->runs[0].reference)
         printf("and a reference trajectory a run, in quad precision: up to %.3g gradients each "
                "(reference_force_evals), its step chosen from reference_tolerance when it runs, "
                "not in the rough time below\n", suite->runs[0].reference_force_evals);
-    int threads = jobs < (int)suite->n_runs ? jobs : (int)suite->n_runs;
+    int threads = jobs < (int)planned ? jobs : (int)(planned > 0 ? planned : 1);
     double seconds = (fixed_work > 0.0 ? fixed_work * per_eval : 0.0) + adaptive_seconds;
     if (!isfinite(seconds)) {
         printf("rough time: not estimated (%zu adaptive run%s beyond the probes' %g s and no "
@@ -584,14 +612,31 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
             return 0;
         dm_error err = { 0 };
         /* writes nothing: the output is not checked (nor stale temporary files removed) */
-        dm_status st = o.resume ? load_suite(&suite, NULL, NULL, o.resume, &err)
-                                : load_suite(&suite, o.suite_path, dm_suite_output_unchecked,
-                                             NULL, &err);
+        dm_status st = load_suite(&suite, o.suite_path, dm_suite_output_unchecked, o.resume,
+                                  &err);
         if (st != DM_OK) {
             fprintf(stderr, "driftmark: run: %s\n", err.msg);
             return st == DM_EINPUT ? 2 : 1;
         }
-        code = print_plan(&suite, o.jobs);
+        dm_run_result *done = NULL;
+        if (o.resume) {
+            size_t kept = 0;
+            done = calloc(suite.n_runs ? suite.n_runs : 1, sizeof *done);
+            st = done == NULL ? dm_error_set(&err, DM_ENOMEM, "out of memory")
+                              : dm_results_read_runs(o.resume, &suite, done, NULL, &kept, &err);
+            if (st != DM_OK) {
+                fprintf(stderr, "driftmark: run: %s\n", err.msg);
+                for (size_t i = 0; done != NULL && i < suite.n_runs; i++)
+                    dm_run_result_free(&done[i]);
+                free(done);
+                dm_suite_free(&suite);
+                return st == DM_EINPUT ? 2 : 1;
+            }
+        }
+        code = print_plan(&suite, o.jobs, done);
+        for (size_t i = 0; done != NULL && i < suite.n_runs; i++)
+            dm_run_result_free(&done[i]);
+        free(done);
         dm_suite_free(&suite);
         return code;
     }

@@ -169,6 +169,12 @@ def main():
             f.create_dataset("summary", data=rows[keep])
             f["runs"][victim].attrs["status"] = "interrupted"
             del f["runs"][gone]
+        # --plan of it: what is left (the edited run has no checkpoint: it runs again)
+        p = run(["--resume", part, "--plan"])
+        rows_planned = sorted(l.split()[0] for l in p.stdout.splitlines()[1:3])
+        check(p.returncode == 0 and p.stdout.count("\n") == 2 + 4 and
+              rows_planned == sorted([victim, gone]) and "10 runs kept" in p.stdout,
+              f"--resume --plan lists the 2 runs left: {p.returncode} {p.stdout!r} {p.stderr!r}")
         p = run(["--resume", part, "-j", "1"])
         check(p.returncode == 0, f"resume: exit {p.returncode} {p.stderr.strip()}")
         check("keeping 10 completed runs, running 2" in p.stderr, f"resume keeps 10, runs 2: {p.stderr!r}")

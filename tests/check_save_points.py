@@ -144,6 +144,15 @@ def killed_and_resumed(tmp, full, jobs, label):
         check(int(g.attrs["times_continued"]) == 0, f"{label}: never continued yet")
         check(0 < len(g["time"]) < 256, f"{label}: it keeps its series so far: {len(g['time'])}")
     check(not [x for x in os.listdir(tmp) if ".save-" in x], f"{label}: no save copy left")
+    # --plan of the killed file: what is left of the interrupted run, from its checkpoint
+    with h5py.File(out, "r") as f:
+        done = int(f["runs"][LONG].attrs["steps"])
+    p = run(EXE, ["run", "--resume", out, "--plan"], cwd=tmp)
+    planned = {l.split()[0]: l.split()[1] for l in p.stdout.splitlines()[1:]
+               if l.split() and l.split()[0] in (LONG, SHORT)}
+    check(p.returncode == 0 and planned.get(LONG) == str(512 * 300000 - done)
+          and (SHORT in planned) == (jobs == 1),
+          f"{label}: --plan lists what is left: {planned} ({done} steps done) {p.stderr!r}")
     base = os.path.basename(out)
     left = [x for x in os.listdir(tmp) if x.startswith(f".{base}.tmp-")]
     check(len(left) == 1, f"{label}: the killed process's temporary file is there: {left}")
