@@ -262,6 +262,13 @@ static dm_status check_claim(parse_ctx *c, const yaml_node_t *at, const dm_user_
                        "claimed order, or experimental: true)", t->input.name,
                        t->input.claimed_order, f->order_found, f->order_found + 1,
                        f->condition_residual[f->order_found + 1]);
+    if (!isfinite(f->measured[0].order) || !isfinite(f->measured[1].order))
+        return fail_at(c, at, "table %s claims order %d but its convergence test gave no finite "
+                       "error (measured %.2f on the %s, %.2f on the %s: coefficients too large "
+                       "for double precision?; expected coefficients whose sums and products "
+                       "stay finite)", t->input.name, t->input.claimed_order,
+                       f->measured[0].order, dm_table_check_problems[0], f->measured[1].order,
+                       dm_table_check_problems[1]);
     return fail_at(c, at, "table %s claims order %d but reaches %d (measured %.2f on the %s, "
                    "%.2f on the %s; expected the claimed order, or experimental: true)",
                    t->input.name, t->input.claimed_order, f->order_found,

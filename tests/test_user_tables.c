@@ -144,6 +144,11 @@ static void a_wrong_coefficient_gives_order_1_not_4(void **state)
              Y4_DRIFT "}, h: 0.1}\n", wrong_kick);
     expect_error(entry, SRC ":6:31: ", "claims order 4 but reaches 1 (measured 1.0");
     assert_int_equal(mismatches, 0);
+    /* coefficients that sum to 1 in doubles but overflow the test: said so, not "0" */
+    expect_error("  - {table: {name: huge, order: 1, kick: [1e300, -1e300, 1], drift: [0.5, "
+                 "0.5]}, h: 0.1}\n", SRC ":6:33: ",
+                 "claims order 1 but its convergence test gave no finite error");
+    assert_int_equal(mismatches, 0);
     snprintf(entry, sizeof entry, "  - {table: {name: j4, order: 4, experimental: true, "
              "kick: %s, drift: " Y4_DRIFT "}, h: 0.1}\n", wrong_kick);
     dm_suite suite;
