@@ -142,15 +142,21 @@ static void predict(const group *g, double x, dm_choice *c)
     c->phase_per_period = exp(dm_line_fit_at(&g->fit.phase_line, log(x)));
 }
 
-/* target / predicted over the targets given (the smallest); +inf with no target. */
+/* target / predicted over the targets given (the smallest); +inf with no target; 0 when
+ * a figure a target asks about is not a number (fmin would drop the NaN: a run without
+ * its max |dE| would "meet" any target). */
 static double margin_of(const dm_target *t, double energy, double phase)
 {
     double m = INFINITY;
-    if (!isnan(t->max_energy_error))
-        m = fmin(m, t->max_energy_error / energy);
-    if (!isnan(t->phase_per_period))
-        m = fmin(m, t->phase_per_period / phase);
-    return isnan(m) ? 0.0 : m;
+    if (!isnan(t->max_energy_error)) {
+        double r = t->max_energy_error / energy;
+        m = isnan(r) ? 0.0 : fmin(m, r);
+    }
+    if (!isnan(t->phase_per_period)) {
+        double r = t->phase_per_period / phase;
+        m = isnan(r) ? 0.0 : fmin(m, r);
+    }
+    return m;
 }
 
 /* The cheapest ok run that meets the target as measured (scaled to the horizon). */

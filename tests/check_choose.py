@@ -19,8 +19,12 @@ import io
 import json
 import math
 import os
+import shutil
 import sys
 import tempfile
+
+import h5py
+import numpy as np
 
 import checklib
 from checklib import check
@@ -105,6 +109,20 @@ methods:
     check(v["horizon_rule"] == "bounded" and v["horizon_factor"] == 1, f"verlet bounded: {v}")
     check(r["horizon_rule"].startswith("exponent") and 8 < r["horizon_factor"] < 12.5,
           f"rk4 linear: {r}")
+
+    # a run whose max |dE| is not a number (a hand-edited file) meets no target: NaN
+    # was dropped by fmin, so such a run was ranked as meeting it, with margin inf
+    nan_file = os.path.join(tmp, "nan.h5")
+    shutil.copyfile(out, nan_file)
+    with h5py.File(nan_file, "r+") as f:
+        rows = f["summary"][()]
+        for r in rows:
+            r["max_energy_error"] = np.nan
+        del f["summary"]
+        f.create_dataset("summary", data=rows)
+    p, data = choose(nan_file, tmp, "--energy-error", "1e-3")
+    bad = [c for c in (data or {"choices": []})["choices"] if c["basis"] == "measured"]
+    check(data is not None and not bad, f"NaN max |dE| meets no target: {bad}")
 
     # 5. every output format, and bad input in one line with exit 2
     for fmt in ("table", "csv"):
