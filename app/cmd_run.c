@@ -576,7 +576,11 @@ static int print_plan(const dm_suite *suite, int jobs, const dm_run_result *done
         printf("and a reference trajectory a run, in quad precision: up to %.3g gradients each "
                "(reference_force_evals), its step chosen from reference_tolerance when it runs, "
                "not in the rough time below\n", suite->runs[0].reference_force_evals);
-    int threads = jobs < (int)planned ? jobs : (int)(planned > 0 ? planned : 1);
+    if (planned == 0) {
+        printf("rough time: 0 s (nothing left to run)\n");
+        return 0;
+    }
+    int threads = jobs < (int)planned ? jobs : (int)planned;
     double seconds = (fixed_work > 0.0 ? fixed_work * per_eval : 0.0) + adaptive_seconds;
     if (!isfinite(seconds)) {
         printf("rough time: not estimated (%zu adaptive run%s beyond the probes' %g s and no "
