@@ -78,7 +78,8 @@ static void print_csv(const dm_comparison *c)
             if (isfinite(d->new_value))
                 snprintf(b, sizeof b, "%.17g", d->new_value);
         }
-        printf("%s,%s,%s,%s,", d->run_id, d->figure, a, b);
+        dm_csv_text(stdout, d->run_id); /* ids carry file stems: quoted where needed */
+        printf(",%s,%s,%s,", d->figure, a, b);
         if (isfinite(d->relative))
             printf("%.17g", d->relative);
         printf(",%s\n", dm_change_name(d->change));
