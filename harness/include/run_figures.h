@@ -56,7 +56,7 @@
       "empty, or the end of the first bucket whose every energy lay in another regime: from -> to at t")       \
     X(energy_scale, REAL, metrics, A, 0, "", "", "E_scale of dE")                          \
     X(energy_scale_rule, RULE, metrics, A, 0, "", "",                                      \
-      "how E_scale was chosen: H0 - V_min, H0 - T_min - V_min or |H0|")                                        \
+      "how E_scale was chosen: H0 - V_min, H0 - T_min - V_min or |H0|")                    \
     X(max_energy_error, REAL, metrics, SA, 0, "max |dE|", "%.3e",                          \
       "max over every step of |dE|, dE = (H - H0) / E_scale")                              \
     X(final_energy_error, REAL, metrics, SA, 0, "final dE", "%.3e", "dE at the end")       \
