@@ -795,7 +795,8 @@ dm_status dm_results_writer_open(const char *path, const dm_suite *suite,
     hdf5_silence();
     hid_t fapl = H5Pcreate(H5P_FILE_ACCESS);
     errno = 0; /* what the system said, if HDF5 fails */
-    if (fapl >= 0 && H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) >= 0)
+    if (fapl >= 0 && H5Pset_fclose_degree(fapl, H5F_CLOSE_STRONG) >= 0 &&
+        H5Pset_evict_on_close(fapl, 1) >= 0)
         w->file = H5Fcreate(w->tmp, H5F_ACC_TRUNC, H5P_DEFAULT, fapl);
     if (fapl >= 0)
         H5Pclose(fapl);
