@@ -125,12 +125,9 @@ static void walk_pack(cursor *c, const dm_suite *suite, size_t index, const dm_r
     put_u64(c, (uint64_t)s->n);
     int32_t n_inv = s->n_invariants;
     put(c, &n_inv, sizeof n_inv);
-    put_array(c, s->time, s->n);
-    put_array(c, s->energy_error, s->n);
-    put_array(c, s->energy_error_min, s->n);
-    put_array(c, s->energy_error_max, s->n);
-    put_array(c, s->global_error, s->n);
-    put_array(c, s->reference_error, s->n);
+#define PUT_SERIES(name, always) put_array(c, s->name, s->n);
+    DM_SERIES_LIST(PUT_SERIES)
+#undef PUT_SERIES
     for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++)
         put_array(c, s->invariant_error[i], s->n);
 
@@ -295,13 +292,11 @@ static bool get_series(cursor *c, const dm_run_spec *spec, dm_series *s, bool *n
     s->n = (size_t)n;
     s->capacity = spec->samples;
     s->n_invariants = n_inv;
-    if (!get_array(c, s->n, s->capacity, &s->time, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->energy_error, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->energy_error_min, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->energy_error_max, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->global_error, nomem) ||
-        !get_array(c, s->n, s->capacity, &s->reference_error, nomem))
+#define GET_SERIES(name, always)                                                          \
+    if (!get_array(c, s->n, s->capacity, &s->name, nomem))                                \
         return false;
+    DM_SERIES_LIST(GET_SERIES)
+#undef GET_SERIES
     for (int i = 0; i < n_inv; i++)
         if (!get_array(c, s->n, s->capacity, &s->invariant_error[i], nomem))
             return false;

@@ -511,14 +511,11 @@ static int write_run_series(hid_t g, const dm_problem *pr, const dm_run_result *
 {
     int rc = 0;
     const dm_series *s = &res->series;
-    rc |= dataset_double(g, "time", s->time, s->n);
-    rc |= dataset_double(g, "energy_error", s->energy_error, s->n);
-    rc |= dataset_double(g, "energy_error_min", s->energy_error_min, s->n);
-    rc |= dataset_double(g, "energy_error_max", s->energy_error_max, s->n);
-    if (s->global_error != NULL)
-        rc |= dataset_double(g, "global_error", s->global_error, s->n);
-    if (s->reference_error != NULL)
-        rc |= dataset_double(g, "reference_error", s->reference_error, s->n);
+#define WRITE_SERIES(name, always)                                                        \
+    if ((always) || s->name != NULL)                                                      \
+        rc |= dataset_double(g, #name, s->name, s->n);
+    DM_SERIES_LIST(WRITE_SERIES)
+#undef WRITE_SERIES
     for (int i = 0; i < s->n_invariants && i < DM_MAX_INVARIANTS; i++) {
         if (s->invariant_error[i] == NULL)
             continue;

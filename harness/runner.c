@@ -41,12 +41,9 @@ void dm_run_result_drop_series(dm_run_result *result)
 {
     if (result == NULL)
         return;
-    free(result->series.time);
-    free(result->series.energy_error);
-    free(result->series.energy_error_min);
-    free(result->series.energy_error_max);
-    free(result->series.global_error);
-    free(result->series.reference_error);
+#define FREE_SERIES(name, always) free(result->series.name);
+    DM_SERIES_LIST(FREE_SERIES)
+#undef FREE_SERIES
     for (int i = 0; i < DM_MAX_INVARIANTS; i++)
         free(result->series.invariant_error[i]);
     free(result->crossings.number);
@@ -308,7 +305,8 @@ typedef struct run_context {
     const dm_run_watch *watch;  /* save points (may be NULL) */
     unsigned save_seen;         /* the save request last answered */
     size_t bucket;              /* the bucket running */
-    double wall_before, t_start; /* wall seconds before this part; its clock start */
+    double wall_before, t_start; /* wall seconds before this part; its clock start (moved
+                                  * on by a snapshot's reference comparisons) */
     uint64_t times_continued;   /* continued from a checkpoint so far */
     bool fixed;                 /* fixed steps of size h ... */
     bool fused;                 /* ... run by the problem's fused loop */
@@ -704,6 +702,13 @@ static void finish_metrics(run_context *c, double wall)
     result->crossings.total = c->log.count;
 }
 
+/* The run's wall-clock seconds so far: before this part (a continued run) and since it
+ * started, less the reference comparisons a snapshot made (they moved t_start on). */
+static double run_wall(const run_context *c)
+{
+    return c->wall_before + dm_clock_seconds() - c->t_start;
+}
+
 /* The global error of the buckets recorded by this call (from ref_first) against the
  * reference, and the reference's error estimate there. */
 static void reference_pass(run_context *c)
@@ -849,6 +854,17 @@ static int copy_doubles(double **to, const double *from, size_t n, size_t capaci
  * over (the save point does without this run). */
 static void snapshot(run_context *c, size_t bucket, bool in_bucket)
 {
+    if (c->ref != NULL && c->ref_first < c->result->series.n) {
+        /* the buckets not yet compared with the reference are compared now, on the run
+         * itself (the reference steps forward alike in one pass or in several, so the
+         * run's figures do not change), and that time is left out of the run's clock as
+         * every reference pass is: a snapshot without them would hold a global error of
+         * 0 and no reference error, and --resume could not read the run back */
+        double t0 = dm_clock_seconds();
+        reference_pass(c);
+        c->ref_first = c->result->series.n;
+        c->t_start += dm_clock_seconds() - t0;
+    }
     const dm_run_result *r = c->result;
     dm_run_result *copy = malloc(sizeof *copy);
     if (copy == NULL)
@@ -866,11 +882,10 @@ static void snapshot(run_context *c, size_t bucket, bool in_bucket)
     x->capacity = r->crossings.capacity;
     x->stride = r->crossings.stride;
     size_t sn = s->n, sc = s->capacity, xn = x->n, xc = x->capacity;
-    int rc = copy_doubles(&s->time, r->series.time, sn, sc);
-    rc |= copy_doubles(&s->energy_error, r->series.energy_error, sn, sc);
-    rc |= copy_doubles(&s->energy_error_min, r->series.energy_error_min, sn, sc);
-    rc |= copy_doubles(&s->energy_error_max, r->series.energy_error_max, sn, sc);
-    rc |= copy_doubles(&s->global_error, r->series.global_error, sn, sc);
+    int rc = 0;
+#define COPY_SERIES(name, always) rc |= copy_doubles(&s->name, r->series.name, sn, sc);
+    DM_SERIES_LIST(COPY_SERIES)
+#undef COPY_SERIES
     for (int j = 0; j < s->n_invariants; j++)
         rc |= copy_doubles(&s->invariant_error[j], r->series.invariant_error[j], sn, sc);
     rc |= copy_doubles(&x->number, r->crossings.number, xn, xc);
@@ -885,7 +900,7 @@ static void snapshot(run_context *c, size_t bucket, bool in_bucket)
     }
     run_context k = *c;
     k.result = copy;
-    double wall = c->wall_before + dm_clock_seconds() - c->t_start;
+    double wall = run_wall(c);
     interrupt(&k);
     checkpoint_take(&k, bucket, in_bucket, wall);
     /* checkpoint_take read (and so restarted) the closest-approach accumulator */
@@ -898,8 +913,7 @@ static void snapshot(run_context *c, size_t bucket, bool in_bucket)
 /* The buckets from `first` (begun before a checkpoint when `inside`), each through the
  * fused loop or a step at a time, recording each bucket's end, until the horizon, a
  * divergence, a failure or a stop (which takes a checkpoint). */
-static void run_buckets(run_context *c, size_t first, bool inside, double wall_before,
-                        double t_start)
+static void run_buckets(run_context *c, size_t first, bool inside)
 {
     const dm_run_spec *spec = c->spec;
     const size_t samples = spec->samples;
@@ -926,7 +940,7 @@ static void run_buckets(run_context *c, size_t first, bool inside, double wall_b
             /* stopped inside the bucket: it is not recorded; the checkpoint keeps its
              * extremes so far */
             interrupt(c);
-            checkpoint_take(c, bucket, true, wall_before + dm_clock_seconds() - t_start);
+            checkpoint_take(c, bucket, true, run_wall(c));
             break;
         }
         record_bucket(c);
@@ -934,7 +948,7 @@ static void run_buckets(run_context *c, size_t first, bool inside, double wall_b
         bool at_horizon = c->fixed ? c->loop.k >= c->n_steps : c->cur->t >= spec->t_end;
         if (stop_requested(c) && c->status == DM_RUN_OK && !at_horizon) {
             interrupt(c);
-            checkpoint_take(c, bucket + 1, false, wall_before + dm_clock_seconds() - t_start);
+            checkpoint_take(c, bucket + 1, false, run_wall(c));
         } else if (c->status == DM_RUN_OK && !at_horizon && save_requested(c)) {
             snapshot(c, bucket + 1, false);
         }
@@ -1042,11 +1056,10 @@ static dm_status run_from(const dm_run_spec *spec, dm_run_result *result, dm_che
         }
     }
 
-    double t_start = dm_clock_seconds();
     c->wall_before = wall_before;
-    c->t_start = t_start;
-    run_buckets(c, first, inside, wall_before, t_start);
-    double wall = wall_before + dm_clock_seconds() - t_start;
+    c->t_start = dm_clock_seconds();
+    run_buckets(c, first, inside);
+    double wall = run_wall(c);
     reference_pass(c);
     finish_metrics(c, wall);
     finish_reference(c);

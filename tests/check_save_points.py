@@ -173,6 +173,65 @@ def killed_and_resumed(tmp, full, jobs, label):
                   f"{label}: {text(r['run_id'])} times_continued {int(r['times_continued'])}")
 
 
+# 1.5e8 steps (about 3 s) and a reference of about 1.4e6 quad-precision gradients (1 s)
+REFERENCE_SUITE = """\
+name: save-points-reference
+output: never.h5
+horizon: {periods: 100}
+samples: 256
+reference: true
+reference_tolerance: 1e-10
+reference_force_evals: 4e6
+problems:
+  - {problem: harmonic}
+methods:
+  - {method: symeuler-a, steps_per_period: 1500000}
+"""
+
+
+def reference_run_saved(tmp):
+    """A run measured against a reference trajectory (compared after the run), killed
+    after a save point: the save point's snapshot compared its buckets with the reference
+    (a global error, not the zeros of buckets not compared yet, and the reference's error
+    estimate), and --resume reads the run back and ends it as the uninterrupted run."""
+    with open(os.path.join(tmp, "ref.yaml"), "w") as f:
+        f.write(REFERENCE_SUITE)
+    full = os.path.join(tmp, "ref-full.h5")
+    p = run(EXE, ["run", "ref.yaml", "-o", full, "--save-every", "0"], cwd=tmp)
+    check(p.returncode == 0, f"reference, uninterrupted: {p.returncode} {p.stderr.strip()}")
+    out = os.path.join(tmp, "ref-killed.h5")
+    t = time.time()
+    proc = start(["ref.yaml", "-o", out, "--save-every", "1"], tmp)
+    saved = wait_for_save_after(out, t)
+    check(saved, "reference: a save point")
+    proc.send_signal(signal.SIGKILL)
+    proc.communicate(timeout=60)
+    if not saved:
+        return
+    run_id = "harmonic.symeuler-a-n1.5e+06"
+    with h5py.File(out, "r") as f, h5py.File(full, "r") as ff:
+        g, gf = f["runs"][run_id], ff["runs"][run_id]
+        n = len(g["time"])
+        check(g.attrs["status"] == "interrupted" and 0 < n < 256,
+              f"reference: interrupted with {n} buckets")
+        check("reference_error" in g, "reference: the snapshot has the reference's error")
+        if "reference_error" in g and n > 0:
+            # the same numbers the uninterrupted run has in these buckets
+            check(g["global_error"][()].tobytes() == gf["global_error"][:n].tobytes()
+                  and g["reference_error"][()].tobytes() == gf["reference_error"][:n].tobytes(),
+                  "reference: the snapshot's buckets are compared as the full run's")
+            check(float(g.attrs["max_global_error"]) > 0.0,
+                  f"reference: a global error, not 0: {g.attrs['max_global_error']}")
+    p = run(EXE, ["run", "--resume", out], cwd=tmp)
+    check(p.returncode == 0, f"reference: resume: {p.returncode} {p.stderr.strip()}")
+    # how the reference ran: a continued run compares only its own buckets (the one
+    # shorter step to each bucket end, on a copy), so it counts fewer evaluations
+    how = {"reference_seconds", "reference_force_evals"}
+    SKIPPED.update(how)
+    identical(full, out, "reference: resumed")
+    SKIPPED.difference_update(how)
+
+
 def main():
     with tempfile.TemporaryDirectory() as tmp:
         with open(os.path.join(tmp, "s.yaml"), "w") as f:
@@ -191,6 +250,7 @@ def main():
 
         killed_and_resumed(tmp, full, 1, "one job")
         killed_and_resumed(tmp, full, 2, "two jobs")
+        reference_run_saved(tmp)
 
         # runs ending before the first save point: none taken
         with open(os.path.join(tmp, "q.yaml"), "w") as f:

@@ -145,7 +145,15 @@ const char *dm_run_status_name(dm_run_status status);
 dm_run_status dm_run_status_named(const char *name);
 
 /* The stored series: `n` buckets covering the horizon; each keeps dE at its end and
- * the min and max of dE over every step inside it, so no peak is lost by thinning. */
+ * the min and max of dE over every step inside it, so no peak is lost by thinning.
+ * DM_SERIES_LIST names the series of one double a bucket, in their stored order (the
+ * packed result's and the file's: each is the dataset of the same name), with whether
+ * every run has it (1) or only some (0: NULL otherwise); the invariants' follow. A new
+ * series goes in the struct and in this list, and is filled where the runner records a
+ * bucket; freeing, copying, packing and writing it follow the list. */
+#define DM_SERIES_LIST(X)                                                                 \
+    X(time, 1) X(energy_error, 1) X(energy_error_min, 1) X(energy_error_max, 1)            \
+    X(global_error, 0) X(reference_error, 0)
 typedef struct dm_series {
     size_t n;                        /* buckets filled (<= capacity) */
     size_t capacity;
