@@ -1371,6 +1371,32 @@ static void mark_unmeasured(hid_t file_type, dm_summary_row *rows, size_t n)
     }
 }
 
+/* Whether a compound type read from a file lies within itself: every member a number or
+ * a fixed-length text whose bytes end inside the row. HDF5 converts a row by the
+ * members' offsets as the file states them, unchecked: a flipped bit in one offset made
+ * it read 64 MiB past the row (a crash). */
+static bool compound_within_itself(hid_t ft)
+{
+    size_t size = H5Tget_size(ft);
+    int members = H5Tget_nmembers(ft);
+    if (size == 0 || size > ((size_t)1 << 20) || members < 0)
+        return false;
+    for (int i = 0; i < members; i++) {
+        hid_t t = H5Tget_member_type(ft, (unsigned)i);
+        if (t < 0)
+            return false;
+        H5T_class_t cls = H5Tget_class(t);
+        size_t at = H5Tget_member_offset(ft, (unsigned)i), width = H5Tget_size(t);
+        bool fits = (cls == H5T_INTEGER || cls == H5T_FLOAT ||
+                     (cls == H5T_STRING && H5Tis_variable_str(t) == 0)) &&
+                    width > 0 && at <= size && width <= size - at;
+        H5Tclose(t);
+        if (!fits)
+            return false;
+    }
+    return true;
+}
+
 static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
                                    size_t *n, dm_error *err)
 {
@@ -1403,7 +1429,7 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
     hid_t mt = summary_type(false);
     hssize_t count = space >= 0 ? H5Sget_simple_extent_npoints(space) : -1;
     if (count < 0 || ft < 0 || mt < 0 || H5Tget_class(ft) != H5T_COMPOUND ||
-        H5Sget_simple_extent_ndims(space) != 1) {
+        H5Sget_simple_extent_ndims(space) != 1 || !compound_within_itself(ft)) {
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary is not a table of runs",
                           path);
     } else if (count > DM_SUITE_MAX_RUNS || (claims && (uint64_t)count > written)) {

@@ -11,6 +11,7 @@ bytes escaped.
   - /summary claiming more rows than n_runs_written or than a suite can have;
   - a FIFO and a device given as the results file (must not block);
   - a damaged HDF5 header: our one line only;
+  - /summary's datatype with a member's offset past the end of its row;
   - a run_id, reason and suite_source holding an escape sequence and a newline;
   - /tables (a suite's own tables) not a group, a table not a group, an attribute of
     the wrong shape or type, a table name holding an escape sequence.
@@ -218,6 +219,29 @@ def main():
         refused(tmp, ["show", "header.h5"], "show a damaged header", env=NO_LEAK_CHECK)
         refused(tmp, ["run", "--resume", "header.h5"], "resume a damaged header",
                 env=NO_LEAK_CHECK)
+
+        # /summary's datatype with one member's offset moved past the row (one flipped
+        # bit did this and HDF5 read 64 MiB past each row: a crash). The member's encoded
+        # offset is found after its NUL-padded name in the file's datatype message: the
+        # name padded to a multiple of 8 bytes, then the offset in 4 bytes.
+        with h5py.File(base, "r") as f:
+            offset = f["summary"].dtype.fields["energy_drift_per_period"][1]
+        with open(base, "rb") as f:
+            data = bytearray(f.read())
+        name = b"energy_drift_per_period"
+        pattern = name + b"\x00" * (8 - len(name) % 8) + offset.to_bytes(4, "little")
+        at = data.find(pattern)
+        check(at >= 0 and data.find(pattern, at + 1) < 0,
+              "the summary member's offset found once in the file")
+        if at >= 0:
+            data[at + len(pattern) - 1] ^= 0x04  # offset + 64 MiB
+            with open(os.path.join(tmp, "offset.h5"), "wb") as f:
+                f.write(data)
+            for command in (["show", "offset.h5"], ["run", "--resume", "offset.h5"],
+                            ["choose", "offset.h5", "--energy-error", "1e-3"],
+                            ["compare", "offset.h5", "offset.h5"]):
+                refused(tmp, command, f"{command[0]}: a summary member past its row",
+                        "/summary is not a table of runs")
 
         # texts from a file are printed with their control bytes escaped
         def evil_texts(f):
