@@ -67,12 +67,25 @@ static double period_by_quadrature(const dm_instance *inst, char *why, size_t si
         snprintf(why, size, "applies to one degree of freedom with T = p^2 / (2 m)");
         return NAN;
     }
+    if (strcmp(pr->regimes[inst->regime].id, "rotation") == 0) {
+        snprintf(why, size, "a rotation has no turning points: the check between them does "
+                 "not apply");
+        return NAN;
+    }
     dm_orbit o;
     dm_error err = { 0 };
     double reach = 1e3 * fmax(1.0, fabs(inst->q0[0]));
     if (dm_orbit_period(potential_of, slope_of, (void *)inst, 0.5 / t1, inst->energy,
                         inst->q0[0], reach, pr->id, &o, &err) != DM_OK) {
-        snprintf(why, size, "%s", err.msg);
+        double v0 = pr->potential(inst, inst->q0);
+        if (inst->energy < v0 + pr->kinetic(inst, inst->p0))
+            /* a start built from an energy next to a separatrix: its energy is evaluated
+             * without cancellation (results/README.md), V in double arithmetic is not */
+            snprintf(why, size, "V(q0) = %.17g in double arithmetic lies above the start's "
+                     "energy, which is evaluated without cancellation: a quadrature in double "
+                     "arithmetic cannot resolve this orbit's turning point", v0);
+        else
+            snprintf(why, size, "%s", err.msg);
         return NAN;
     }
     return o.period;

@@ -92,6 +92,27 @@ static void period_text_names_regime_energy_period_state_and_crossing(void **sta
     assert_non_null(strstr(out, "bound"));
 }
 
+/* The quadrature check of the period says why it does not apply, in words that do not
+ * contradict the lines above it: a rotation has no turning points (not "unbounded"), and
+ * a start next to a separatrix whose energy, evaluated without cancellation, lies below
+ * V(q0) in double arithmetic is not "impossible" (the program built it). Where it
+ * applies it agrees with the closed form (the pendulum's 4 K(m), GSL in the test above). */
+static void period_check_says_why_it_does_not_apply(void **state)
+{
+    (void)state;
+    assert_int_equal(run("period pendulum energy=1.5"), 0);
+    assert_non_null(strstr(out, "rotation"));
+    assert_non_null(strstr(out, "period_check    - (a rotation has no turning points"));
+    assert_null(strstr(out, "unbounded"));
+    assert_int_equal(run("period double_well energy=-1e-9"), 0);
+    assert_non_null(strstr(out, "period_check    - (V(q0) = "));
+    assert_null(strstr(out, "impossible"));
+    assert_int_equal(run("period pendulum amplitude=2.5"), 0);
+    const char *check = strstr(out, "period_check    ");
+    assert_non_null(check);
+    assert_non_null(strstr(check, "relative difference"));
+}
+
 /* One bad command: status 2, nothing on stdout, exactly one line on stderr holding
  * `needle`. */
 static void expect_bad(const char *args, const char *needle)
@@ -287,6 +308,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(period_json_reports_the_librarys_closed_form_numbers_exactly),
         cmocka_unit_test(period_text_names_regime_energy_period_state_and_crossing),
+        cmocka_unit_test(period_check_says_why_it_does_not_apply),
         cmocka_unit_test(period_refuses_every_kind_of_bad_input_with_one_line_and_status_2),
         cmocka_unit_test(period_of_the_pendulum_is_four_complete_elliptic_integrals),
         cmocka_unit_test(list_names_every_problem_parameter_regime_and_method),
