@@ -113,3 +113,18 @@ int dm_test_instance_defaults(dm_instance *inst, const dm_problem *problem, dm_e
     const void *data = problem->needs_data ? &test_bodies : NULL;
     return dm_instance_init_data(inst, problem, data, 0, NULL, NULL, err);
 }
+
+int dm_test_run_stopping_everywhere(const dm_run_spec *spec, dm_run_result *out)
+{
+    volatile int stop = 1; /* every bucket end stops the run */
+    dm_error err = { 0 };
+    assert_int_equal(dm_run(spec, out, &stop, &err), DM_OK);
+    int stops = 0;
+    while (out->status == DM_RUN_INTERRUPTED) {
+        assert_non_null(out->checkpoint);
+        stops++;
+        assert_int_equal(dm_run_resume(spec, out, &stop, &err), DM_OK);
+        assert_true(stops < 100000);
+    }
+    return stops;
+}

@@ -32,6 +32,12 @@ void dm_test_make_spec(struct dm_run_spec *spec, const char *problem, size_t n_k
                        double steps_per_period, double rtol, double periods, size_t samples,
                        int compensated);
 
+/* Runs `spec` stopped at every bucket end (a stop flag always raised) and continued from
+ * its checkpoint (dm_run_resume) until it ends: the result in *out, the number of stops
+ * returned (each checked to have left a checkpoint). */
+struct dm_run_result;
+int dm_test_run_stopping_everywhere(const struct dm_run_spec *spec, struct dm_run_result *out);
+
 /* An instance of `problem` with its parameters' defaults. A problem that needs data
  * (needs_data) gets a fixture of ours: for N-body, a made-up star of mass 1 with two
  * planets (G = 1). */

@@ -379,14 +379,7 @@ static void a_continued_run_has_the_same_reference(void **state)
     for (size_t i = 0; i < suite.n_runs; i++) {
         dm_run_result whole, part;
         assert_int_equal(dm_run(&suite.runs[i], &whole, NULL, &err), DM_OK);
-        volatile int stop = 1; /* every bucket end stops the run */
-        assert_int_equal(dm_run(&suite.runs[i], &part, &stop, &err), DM_OK);
-        int stops = 0;
-        while (part.status == DM_RUN_INTERRUPTED) {
-            stops++;
-            assert_int_equal(dm_run_resume(&suite.runs[i], &part, &stop, &err), DM_OK);
-        }
-        assert_true(stops >= 4);
+        assert_true(dm_test_run_stopping_everywhere(&suite.runs[i], &part) >= 4);
         assert_int_equal(part.status, DM_RUN_OK);
         assert_int_equal(part.series.n, whole.series.n);
         if (i == 0) { /* fixed steps continue exactly; CVODE is restarted (results/README.md) */

@@ -289,14 +289,7 @@ static void a_stopped_run_continues_bit_for_bit(void **state)
     for (size_t i = 0; i < suite.n_runs; i++) {
         dm_run_result whole, part;
         assert_int_equal(dm_run(&suite.runs[i], &whole, NULL, &err), DM_OK);
-        volatile int stop = 1; /* every bucket end stops the run */
-        assert_int_equal(dm_run(&suite.runs[i], &part, &stop, &err), DM_OK);
-        int stops = 0;
-        while (part.status == DM_RUN_INTERRUPTED) {
-            assert_non_null(part.checkpoint);
-            stops++;
-            assert_int_equal(dm_run_resume(&suite.runs[i], &part, &stop, &err), DM_OK);
-        }
+        int stops = dm_test_run_stopping_everywhere(&suite.runs[i], &part);
         print_message("%s: %d stops\n", suite.runs[i].id, stops);
         assert_true(stops >= 5);
         assert_int_equal(part.status, DM_RUN_OK);
