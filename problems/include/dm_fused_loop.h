@@ -258,6 +258,7 @@ DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
     double k[DM_RK_MAX_STAGES][2 * DM_MAX_DOF], y[2 * DM_MAX_DOF];
 #pragma GCC unroll 4
     for (int i = 0; i < S; i++) {
+#pragma GCC unroll 12
         for (int c = 0; c < 2 * N; c++) {
             double sum = 0.0;
             bool any = false;
@@ -273,9 +274,11 @@ DM_SILENCE_MAYBE_UNINITIALIZED_BEGIN
         }
         velocity(inst, y + N, k[i]);
         gradient(inst, y, k[i] + N);
+#pragma GCC unroll 12
         for (int c = N; c < 2 * N; c++)
             k[i][c] = -k[i][c];
     }
+#pragma GCC unroll 12
     for (int c = 0; c < 2 * N; c++) {
         double sum = 0.0;
         bool any = false;
