@@ -353,6 +353,51 @@ static end_model derivative_end(integrand *in, double qt, double dir, double *ed
     return e;
 }
 
+/* A point between the turning points qm < qp where V is unbounded below (a pole or a
+ * logarithm's singularity, which the turning-point search steps over as it steps over
+ * any point), or NAN. The largest E - V of 64 samples is sought further by golden-section
+ * search between its neighbours, down to adjacent doubles. At a smooth minimum of V the
+ * slope found there is ~0, at a kink (|q|) of the size (E - V) / width; at a singularity
+ * it grows without bound as the search closes in: |V'| times the orbit's width above 1e4
+ * (E - V) there, or E - V not finite, is one. Without V' the test is E - V there above
+ * 1e8 times the largest sampled. */
+static double singular_point(dm_potential_fn V, dm_potential_fn dV, void *data, double E,
+                             double qm, double qp)
+{
+    enum { N = 64 };
+    double width = qp - qm, best_gap = -INFINITY;
+    int best = 0;
+    for (int i = 0; i <= N; i++) {
+        double g = E - V(data, qm + width * i / N);
+        if (!(g <= best_gap)) /* a NaN or an infinity is taken at once */
+            best_gap = g, best = i;
+        if (!isfinite(g))
+            return qm + width * i / N;
+    }
+    double a = qm + width * (best > 0 ? best - 1 : 0) / N;
+    double b = qm + width * (best < N ? best + 1 : N) / N;
+    const double r = 0.5 * (3.0 - sqrt(5.0));
+    double x1 = a + r * (b - a), x2 = b - r * (b - a);
+    double f1 = E - V(data, x1), f2 = E - V(data, x2);
+    for (int it = 0; it < 200 && x1 < x2 && isfinite(f1) && isfinite(f2); it++) {
+        if (f1 > f2) {
+            b = x2, x2 = x1, f2 = f1;
+            x1 = a + r * (b - a);
+            f1 = E - V(data, x1);
+        } else {
+            a = x1, x1 = x2, f1 = f2;
+            x2 = b - r * (b - a);
+            f2 = E - V(data, x2);
+        }
+    }
+    double x = f1 > f2 || isnan(f1) ? x1 : x2, g = f1 > f2 || isnan(f1) ? f1 : f2;
+    if (!isfinite(g))
+        return x;
+    if (dV != NULL ? fabs(dV(data, x)) * width > 1e4 * g : g > 1e8 * fmax(best_gap, DBL_MIN))
+        return x;
+    return NAN;
+}
+
 /* The integrand of the orbit between the turning points qm < qp, with V' (dV) or
  * without (NULL). With V', returns in *mismatch the largest relative difference between
  * E - V at the edge of an end's zone by the difference and by V' (NULL: not wanted). */
@@ -412,6 +457,11 @@ dm_status dm_orbit_period(dm_potential_fn V, dm_potential_fn dV, void *data, dou
         return dm_error_set(err, DM_EINPUT, "%s: the start q0 = %.17g at energy %.17g is an "
                             "equilibrium, or next to one (no oscillation to resolve)", what,
                             q0, E);
+    double pole = singular_point(V, dV, data, E, qm, qp);
+    if (!isnan(pole))
+        return dm_error_set(err, DM_EINPUT, "%s: V is unbounded below (singular) at q = %.17g, "
+                            "on the orbit of energy %.17g through q0 = %.17g: the orbit falls "
+                            "into it and has no period", what, pole, E, q0);
     /* At a turning point that is a maximum of V (a separatrix) E - V grows like the
      * square of the distance, not linearly, and the period diverges. Next to one, the
      * slope of V at the turning point is small and E - V, a difference of two nearly

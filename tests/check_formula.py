@@ -330,6 +330,7 @@ methods:
         ('{potential: "-cos(q)", energy: 0.9999999999999999}', "separatrix"),
         ('{potential: "-q^2", q0: 1}', "unbounded"),
         ('{potential: "q^2 + log(q)", q0: -1}', "not finite"),
+        ('{potential: "-1/abs(q)", q0: 1}', "V is unbounded below (singular) at q = 0,"),
         ('{potential: "q^2 + * 3"}', "column 7 of the formula: the formula does not parse"),
         ('{potential: "q^2 + (q"}', "column 7 of the formula: '(' is never closed"),
         ('{potential: "k*q^2"}', "column 1 of the formula: unknown name 'k'"),
