@@ -286,6 +286,34 @@ methods:
         check(len(fall) == 1 and fall[0][2] == "|H0|",
               f"scale: V unbounded below falls back to |H0|: {fall}")
 
+    # ---- a start at a turning point of the watched coordinate (x at rest at its largest,
+    # the default section through the start): the orbit only touches the section, so no
+    # period is measured, and the note says why (found by a tester: it was left empty).
+    # The same orbit with the section through the inside of its range is counted: x is a
+    # harmonic oscillator of w = 1, period 2 pi (common practice) ----
+    p, out = run_suite(tmp, "touch", """horizon: {time: 100}
+buckets: 16
+problems:
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: top}
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: mid,
+     section: {coordinate: x, level: 0}}
+methods:
+  - {method: verlet, h: 0.01}
+""")
+    with h5py.File(out) as f:
+        for rid, g in f["runs"].items():
+            a = g.attrs
+            note = a["period_note"]
+            note = note.decode() if isinstance(note, bytes) else str(note)
+            print(f"touch: {rid}: period_measured {a['period_measured']!r}, note '{note}'")
+            if rid.startswith("top"):
+                check(np.isnan(a["period_measured"]) and "0 upward crossings" in note
+                      and "turning point on the section" in note,
+                      f"touch: {rid}: no period and a note: {a['period_measured']} '{note}'")
+            else:
+                check(abs(a["period_measured"] / (2 * np.pi) - 1) < 1e-4 and note == "",
+                      f"touch: {rid}: period {a['period_measured']!r} '{note}'")
+
     # ---- the evaluator: forced (no compiler) and after a failed compile ----
     pend = """horizon: {time: 300}
 buckets: 32
