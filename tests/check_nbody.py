@@ -92,6 +92,17 @@ def main():
                       f"{name}_error series")
             c = g.attrs["closest_approach"]
             check(0 < c < closest_start, f"closest approach {c} (start {closest_start})")
+        # show's text table carries the measured period too (found by a tester: only its
+        # CSV and JSON did), right-aligned under its heading as the file holds it
+        p = run(EXE, ["show", out])
+        lines = p.stdout.splitlines()
+        head = lines[0] if lines else ""
+        end = head.find("measured period") + len("measured period")
+        row = next((l for l in lines[1:] if l.startswith("nbody")), "")
+        cell = row[:end].split()[-1] if row[:end].split() else ""
+        check(p.returncode == 0 and end > len("measured period") and len(row) > end
+              and row[end:end + 2] == "  " and cell == f"{P:.10g}",
+              f"show: measured period {cell!r} against {P:.10g}: {head!r} {row!r}")
         # a bad bodies file: one line naming the file, its line and column; exit 2; no file
         bad = os.path.join(tmp, "bad.csv")
         with open(bad, "w") as f:
