@@ -348,7 +348,7 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
         if (table == NULL) {
             fprintf(stderr, "driftmark: run: out of memory for the sweep table\n");
             code = 1;
-        } else {
+        } else if (dm_sweeps_listed(table, n_table) > 0) {
             fputc('\n', stdout);
             dm_sweep_table_print(stdout, table, n_table, DM_TABLE_TEXT);
         }

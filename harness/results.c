@@ -566,6 +566,10 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     dm_error err = { 0 };
     if (dm_sweep_summary_fill(&sum, suite, sw, results, fit, &err) != DM_OK)
         return -1;
+    if (sum.n_runs == 0) { /* none of its runs started: left out, as its runs are */
+        free(sum.runs);
+        return 0;
+    }
     hid_t g = H5Gcreate2(sweeps, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
     if (g < 0) {
         free(sum.runs);

@@ -551,9 +551,11 @@ void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
 
 void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_format format);
 /* The sweep table: text (each sweep's orders and point counts, then the runs a fit
- * left out and why), or CSV and JSON (every written run of every sweep with its codes). */
+ * left out and why), or CSV and JSON (every written run of every sweep with its codes).
+ * A sweep none of whose runs started is not listed; dm_sweeps_listed counts the rest. */
 void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
                           dm_table_format format);
+size_t dm_sweeps_listed(const dm_sweep_summary *sweeps, size_t n);
 
 /* Reads /summary back from a results file (for `show`). Allocates *rows. */
 dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,
