@@ -297,6 +297,8 @@ problems:
   - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: top}
   - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: mid,
      section: {coordinate: x, level: 0}}
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], kinetic: "p_x^2/2 + p_y^2/2",
+     q0: [0, 0.5], p0: [1, 0.3], name: kin}
 methods:
   - {method: verlet, h: 0.01}
 """)
@@ -366,6 +368,12 @@ methods:
         ('{potential: "atan2(q, 2)"}', "column 8 of the formula: unexpected character ','"),
         ('{potential: "q^2", k: 1}', "parameter 'k' appears in no formula"),
         ('{potential: "q^2", coordinates: [x]}', "unknown name 'q'"),
+        # a kinetic formula's default momenta, named in the refusal: p with one
+        # coordinate, p_x for each coordinate x of more (README, `momenta`)
+        ('{potential: "x^2", coordinates: x, kinetic: "p_x^2/2"}',
+         "unknown name 'p_x' (expected the momentum p, a parameter"),
+        ('{potential: "x^2 + y^2 + z^2", coordinates: [x, y, z], kinetic: "p^2/2"}',
+         "unknown name 'p' (expected a momentum (p_x, p_y, p_z), a parameter"),
         ('{potential: "q^2.1234567"}', "exponent"),
         ('{potential: "q^2", q0: 1, section: {level: 5}}', "not crossed"),
         ('{potential: "q^2", section: {level: 0, direction: down}}', "only up"),
