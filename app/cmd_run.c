@@ -116,12 +116,13 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
         return path ? dm_suite_load(suite, path, output, err)
                     : dm_suite_default(suite, output, err);
     char *text = NULL;
-    char source[1024];
-    dm_status st = dm_results_read_suite_text(resume, &text, source, sizeof source, err);
+    char source[1024], folder[sizeof source];
+    dm_status st = dm_results_read_suite_text(resume, &text, source, folder, sizeof source, err);
     if (st != DM_OK)
         return st == DM_EIO ? DM_EINPUT : st;
-    st = dm_suite_parse(suite, text, strlen(text), source,
-                        output == dm_suite_output_unchecked ? output : resume, err);
+    /* relative paths from the suite's folder when it was first read, as recorded */
+    st = dm_suite_parse_in(suite, text, strlen(text), source, folder,
+                           output == dm_suite_output_unchecked ? output : resume, err);
     free(text);
     return st;
 }
@@ -348,7 +349,7 @@ static int write_and_report(const dm_suite *suite, const dm_run_result *results,
         if (table == NULL) {
             fprintf(stderr, "driftmark: run: out of memory for the sweep table\n");
             code = 1;
-        } else {
+        } else if (dm_sweeps_listed(table, n_table) > 0) {
             fputc('\n', stdout);
             dm_sweep_table_print(stdout, table, n_table, DM_TABLE_TEXT);
         }

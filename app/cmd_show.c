@@ -100,7 +100,7 @@ int dm_cmd_show(int argc, char **argv)
         dm_table_print(stdout, rows, n, format);
         /* CSV and JSON stay one table each: their sweeps come with --sweeps, their
          * typed tables with --tables */
-        if (format == DM_TABLE_TEXT && n_sweeps > 0) {
+        if (format == DM_TABLE_TEXT && dm_sweeps_listed(sweeps, n_sweeps) > 0) {
             fputc('\n', stdout);
             dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
         }

@@ -339,6 +339,7 @@ static int write_root(hid_t file, const dm_suite *suite, const char *start_time_
     rc |= attr_text(file, "start_time_utc", start_time_utc ? start_time_utc : "");
     rc |= attr_text(file, "suite_name", suite->name);
     rc |= attr_text(file, "suite_source", suite->source);
+    rc |= attr_text(file, "suite_folder", suite->folder);
     rc |= attr_text(file, "suite_text", suite->text ? suite->text : "");
     rc |= attr_u64(file, "n_runs_planned", suite->n_runs);
     rc |= attr_u64(file, "n_sweeps", suite->n_sweeps);
@@ -563,6 +564,10 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
     dm_error err = { 0 };
     if (dm_sweep_summary_fill(&sum, suite, sw, results, fit, &err) != DM_OK)
         return -1;
+    if (sum.n_runs == 0) { /* none of its runs started: left out, as its runs are */
+        free(sum.runs);
+        return 0;
+    }
     hid_t g = H5Gcreate2(sweeps, gname, H5P_DEFAULT, H5P_DEFAULT, H5P_DEFAULT);
     if (g < 0) {
         free(sum.runs);
@@ -1793,8 +1798,9 @@ done:
 }
 
 dm_status dm_results_read_suite_text(const char *path, char **text, char *source,
-                                     size_t source_size, dm_error *err)
+                                     char *folder, size_t size, dm_error *err)
 {
+    folder[0] = '\0';
     *text = NULL;
     dm_summary_row *rows = NULL;
     size_t n = 0;
@@ -1808,8 +1814,12 @@ dm_status dm_results_read_suite_text(const char *path, char **text, char *source
     st = dm_error_set(err, DM_EINPUT, "cannot read %s: it holds no suite text", path);
     if (file >= 0 && read_text_attr_alloc(file, "suite_text", text) == 0) {
         st = DM_OK;
-        if (read_text_attr(file, "suite_source", source, source_size) != 0)
-            snprintf(source, source_size, "%s", path);
+        if (read_text_attr(file, "suite_source", source, size) != 0)
+            snprintf(source, size, "%s", path);
+        char *value = NULL; /* absent before 2026-12-02: relative paths as before */
+        if (read_text_attr_alloc(file, "suite_folder", &value) == 0 && strlen(value) < size)
+            snprintf(folder, size, "%s", value);
+        free(value);
     }
     if (file >= 0)
         H5Fclose(file);

@@ -634,6 +634,30 @@ static void trust_measured_period(dm_run_result *result, double P, uint64_t coun
     m->period_measured = NAN;
 }
 
+/* Fewer than two crossings measure no period: the note says how many, and when the
+ * start lies on the section with the watched value at rest (a turning point: a formula
+ * problem started there with its default section through the start, found by a
+ * tester), that the orbit may only touch the section, so its upward crossings are few
+ * and left to rounding. */
+static void explain_no_crossings(dm_run_result *result, const dm_instance *inst,
+                                 uint64_t count)
+{
+    const dm_section *sec = &inst->section;
+    if (isfinite(result->metrics.period_measured) || result->period_note[0] != '\0' ||
+        isnan(sec->level)) /* no section: nothing was to be measured */
+        return;
+    double v[DM_MAX_DOF];
+    inst->problem->velocity(inst, inst->p0, v);
+    /* v holds dq/dt, so the section's value at v is its rate (linear in q) */
+    bool touching = sec->wrap == 0.0 && dm_section_value(sec, inst->q0) == sec->level &&
+                    dm_section_value(sec, v) == 0.0;
+    snprintf(result->period_note, sizeof result->period_note,
+             "%" PRIu64 " upward crossing%s, 2 needed%s", count, count == 1 ? "" : "s",
+             touching ? ": the start is a turning point on the section, which the orbit may "
+                        "only touch"
+                      : "");
+}
+
 static void finish_metrics(run_context *c, double wall)
 {
     dm_run_result *result = c->result;
@@ -670,6 +694,7 @@ static void finish_metrics(run_context *c, double wall)
         m->phase_error_per_period = m->period_rel_error = NAN;
         m->period_measured = slope;
         trust_measured_period(result, c->inst->period_osculating, c->log.count);
+        explain_no_crossings(result, c->inst, c->log.count);
     }
     m->phase_error_final = c->log.last_phase;
     m->max_global_error = m->max_reference_error = m->reference_valid_until = NAN;

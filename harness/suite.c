@@ -523,6 +523,10 @@ static dm_status parse_horizon(suite_build *b, const yaml_node_t *node)
 static bool suite_relative_path(const parse_ctx *c, const char *path, char *out, size_t size)
 {
     const char *slash = strrchr(c->source, '/');
+    if (path[0] != '/' && c->folder != NULL && c->folder[0] != '\0') {
+        int n = snprintf(out, size, "%s/%s", c->folder, path);
+        return n >= 0 && (size_t)n < size;
+    }
     int n = path[0] != '/' && slash != NULL
                 ? snprintf(out, size, "%.*s/%s", (int)(slash - c->source), c->source, path)
                 : snprintf(out, size, "%s%s", path[0] == '/' ? "" : "./", path);
@@ -1974,12 +1978,20 @@ static dm_status prescan(parse_ctx *c, const char *text, size_t length)
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          const char *source, const char *output, dm_error *err)
 {
+    return dm_suite_parse_in(suite, text, length, source, NULL, output, err);
+}
+
+dm_status dm_suite_parse_in(dm_suite *suite, const char *text, size_t length,
+                            const char *source, const char *folder, const char *output,
+                            dm_error *err)
+{
     memset(suite, 0, sizeof *suite);
     dm_error_clear(err);
     dm_error local;
     if (err == NULL)
         err = &local;
     snprintf(suite->source, sizeof suite->source, "%s", source);
+    snprintf(suite->folder, sizeof suite->folder, "%s", folder ? folder : "");
     suite->text = malloc(length + 1);
     if (suite->text == NULL)
         return dm_error_set(err, DM_ENOMEM, "out of memory reading %s", source);
@@ -2026,7 +2038,8 @@ dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
     suite_build b;
     memset(&b, 0, sizeof b);
     b.suite = suite;
-    b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .err = err,
+    b.ctx = (parse_ctx){ .doc = &doc, .source = suite->source, .folder = suite->folder,
+                         .err = err,
                          .text_tagged = scan.text_tagged, .n_text_tagged = scan.n_text_tagged };
     b.output_override = output;
     b.samples = DM_DEFAULT_SAMPLES;
@@ -2102,8 +2115,26 @@ int dm_open_regular(const char *path, const char *what, long long max_bytes, dm_
     return fd;
 }
 
+/* The folder of the suite file `path`, absolute (realpath), into out; NULL when it
+ * cannot be told or does not fit (relative paths are then taken from `path` as written). */
+static const char *suite_folder(const char *path, char *out, size_t size)
+{
+    const char *slash = strrchr(path, '/');
+    char dir[1024];
+    int n = slash == NULL ? snprintf(dir, sizeof dir, ".")
+            : slash == path ? snprintf(dir, sizeof dir, "/")
+                            : snprintf(dir, sizeof dir, "%.*s", (int)(slash - path), path);
+    char *abs = n >= 0 && (size_t)n < sizeof dir ? realpath(dir, NULL) : NULL;
+    bool fits = abs != NULL && strlen(abs) < size;
+    if (fits)
+        snprintf(out, size, "%s", strcmp(abs, "/") == 0 ? "" : abs);
+    free(abs);
+    return fits && out[0] != '\0' ? out : NULL;
+}
+
 dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err)
 {
+    char folder[1024];
     memset(suite, 0, sizeof *suite);
     int fd = dm_open_regular(path, "suite", DM_SUITE_MAX_BYTES, err);
     if (fd < 0)
@@ -2133,7 +2164,8 @@ dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, d
         st = dm_error_set(err, DM_EINPUT, "cannot read suite %s: it is longer than %d bytes "
                           "(1 MiB, the most a suite may hold)", path, DM_SUITE_MAX_BYTES);
     else
-        st = dm_suite_parse(suite, buf, n, path, output, err);
+        st = dm_suite_parse_in(suite, buf, n, path, suite_folder(path, folder, sizeof folder),
+                               output, err);
     free(buf);
     return st;
 }

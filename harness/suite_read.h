@@ -14,6 +14,7 @@
 typedef struct parse_ctx {
     yaml_document_t *doc;
     const char *source;
+    const char *folder;   /* where relative paths start: dm_suite.folder */
     dm_error *err;
     /* where scalars tagged explicitly as something other than a number (!!str ...)
      * start: the document API gives every scalar a tag, so only the events tell */

@@ -5,6 +5,7 @@
 #include <math.h>
 #include <stdbool.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "dm_json.h"
@@ -287,8 +288,9 @@ static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
                      "steps)\n", LOCAL_ORDER_SPREAD);
 }
 
-/* One row per written run of each sweep (a sweep with none: one row, its run fields
- * empty), the sweep's figures repeated on each. */
+/* One row per written run of each sweep (a sweep with none, which
+ * dm_sweep_table_print does not list: one row, its run fields empty), the sweep's
+ * figures repeated on each. */
 static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 {
     fputs("sweep,energy_order,n_points_energy,phase_order,n_points_phase,run_id,energy_fit,"
@@ -358,14 +360,35 @@ static void sweep_json(FILE *out, const dm_sweep_summary *sweeps, size_t n)
     fputs(n ? "\n]\n" : "]\n", out);
 }
 
+/* A sweep none of whose runs started (all not_run: an early stop) is not listed, as its
+ * runs are not (files written before 2026-12-02 hold such sweeps, with no runs). */
+size_t dm_sweeps_listed(const dm_sweep_summary *sweeps, size_t n)
+{
+    size_t k = 0;
+    for (size_t i = 0; i < n; i++)
+        k += sweeps[i].n_runs > 0;
+    return k;
+}
+
 void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
                           dm_table_format format)
 {
-    switch (format) {
-    case DM_TABLE_TEXT: sweep_text(out, sweeps, n); break;
-    case DM_TABLE_CSV: sweep_csv(out, sweeps, n); break;
-    case DM_TABLE_JSON: sweep_json(out, sweeps, n); break;
+    const dm_sweep_summary *use = sweeps;
+    dm_sweep_summary *kept = malloc((n ? n : 1) * sizeof *kept);
+    size_t k = n;
+    if (kept != NULL) { /* else every sweep, as the file holds them */
+        k = 0;
+        for (size_t i = 0; i < n; i++)
+            if (sweeps[i].n_runs > 0)
+                kept[k++] = sweeps[i];
+        use = kept;
     }
+    switch (format) {
+    case DM_TABLE_TEXT: sweep_text(out, use, k); break;
+    case DM_TABLE_CSV: sweep_csv(out, use, k); break;
+    case DM_TABLE_JSON: sweep_json(out, use, k); break;
+    }
+    free(kept);
 }
 
 /* ---- the tables typed in a suite ---- */

@@ -387,8 +387,18 @@ static dm_status check_used_names(const dm_formula_spec *s, const dm_formula_sca
         }
         if (find_name(nm->name, vars, s->dof) >= 0 || dm_formula_is_constant(nm->name))
             continue;
-        return dm_error_set(err, DM_EINPUT, "unknown name '%s' (expected a %s, a parameter "
-                            "given in this entry, pi or e)", nm->name, var_kind);
+        /* the names it may use, as named (a default momentum is p with one coordinate,
+         * p_x for each coordinate x of more: found by a tester), the first two and the
+         * last of many */
+        char known[160];
+        if (s->dof == 1)
+            snprintf(known, sizeof known, "the %s %.100s", var_kind, vars[0]);
+        else
+            snprintf(known, sizeof known, "a %s (%.40s, %.40s%s%.40s)", var_kind, vars[0],
+                     vars[1], s->dof == 2 ? "" : s->dof == 3 ? ", " : ", ..., ",
+                     s->dof == 2 ? "" : vars[s->dof - 1]);
+        return dm_error_set(err, DM_EINPUT, "unknown name '%s' (expected %s, a parameter "
+                            "given in this entry, pi or e)", nm->name, known);
     }
     *column = 0;
     return DM_OK;

@@ -353,6 +353,67 @@ static end_model derivative_end(integrand *in, double qt, double dir, double *ed
     return e;
 }
 
+/* A point between the turning points qm < qp where V is unbounded below (a pole or a
+ * logarithm's singularity, which the turning-point search steps over as it steps over
+ * any point), or NAN. The largest E - V of 64 samples is sought further by golden-section
+ * search between its neighbours, down to adjacent doubles, at x. Then E - V is taken at
+ * x -+ h for h halved from the samples' spacing down to 64 ulp of x: bounded (a smooth
+ * minimum of V, a kink as |q|, a cusp as |q|^a with infinite force but finite V), its
+ * rise from one halving to the next shrinks (by 2^-a at a cusp); unbounded, it does not
+ * (log 2 a halving at a logarithm, doubling at a pole). Unbounded: the rise over the
+ * third quarter of the halvings is at least half that over the first. V = -inf at a
+ * sample or at x is unbounded too. */
+static double singular_point(dm_potential_fn V, void *data, double E, double qm, double qp)
+{
+    enum { N = 64 };
+    double width = qp - qm, best_gap = -INFINITY;
+    int best = 0;
+    for (int i = 0; i <= N; i++) {
+        double g = E - V(data, qm + width * i / N);
+        if (g == INFINITY)
+            return qm + width * i / N;
+        if (g > best_gap)
+            best_gap = g, best = i;
+    }
+    double a = qm + width * (best > 0 ? best - 1 : 0) / N;
+    double b = qm + width * (best < N ? best + 1 : N) / N;
+    const double r = 0.5 * (3.0 - sqrt(5.0));
+    double x1 = a + r * (b - a), x2 = b - r * (b - a);
+    double f1 = E - V(data, x1), f2 = E - V(data, x2);
+    for (int it = 0; it < 200 && x1 < x2 && f1 < INFINITY && f2 < INFINITY; it++) {
+        if (f1 > f2) {
+            b = x2, x2 = x1, f2 = f1;
+            x1 = a + r * (b - a);
+            f1 = E - V(data, x1);
+        } else {
+            a = x1, x1 = x2, f1 = f2;
+            x2 = b - r * (b - a);
+            f2 = E - V(data, x2);
+        }
+    }
+    double x = f1 > f2 ? x1 : x2;
+    if (fmax(f1, f2) == INFINITY)
+        return f1 == INFINITY ? x1 : x2;
+    /* the rise of max(E - V(x - h), E - V(x + h)) at each halving of h */
+    double rise[1100], last = NAN;
+    int k = 0;
+    for (double h = width / N; k < 1100 && h > 64.0 * DBL_EPSILON * fabs(x) && h > DBL_MIN;
+         h *= 0.5) {
+        double g = fmax(E - V(data, x - h), E - V(data, x + h));
+        if (!isfinite(g))
+            return g == INFINITY ? x : NAN;
+        if (!isnan(last))
+            rise[k++] = g - last;
+        last = g;
+    }
+    if (k < 8)
+        return NAN;
+    double first = 0.0, third = 0.0;
+    for (int i = 0; i < k / 4; i++)
+        first += rise[i], third += rise[k / 2 + i];
+    return first > 0.0 && third >= 0.5 * first ? x : NAN;
+}
+
 /* The integrand of the orbit between the turning points qm < qp, with V' (dV) or
  * without (NULL). With V', returns in *mismatch the largest relative difference between
  * E - V at the edge of an end's zone by the difference and by V' (NULL: not wanted). */
@@ -412,6 +473,11 @@ dm_status dm_orbit_period(dm_potential_fn V, dm_potential_fn dV, void *data, dou
         return dm_error_set(err, DM_EINPUT, "%s: the start q0 = %.17g at energy %.17g is an "
                             "equilibrium, or next to one (no oscillation to resolve)", what,
                             q0, E);
+    double pole = singular_point(V, data, E, qm, qp);
+    if (!isnan(pole))
+        return dm_error_set(err, DM_EINPUT, "%s: V is unbounded below (singular) at q = %.17g, "
+                            "on the orbit of energy %.17g through q0 = %.17g: the orbit falls "
+                            "into it and has no period", what, pole, E, q0);
     /* At a turning point that is a maximum of V (a separatrix) E - V grows like the
      * square of the distance, not linearly, and the period diverges. Next to one, the
      * slope of V at the turning point is small and E - V, a difference of two nearly

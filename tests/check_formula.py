@@ -286,6 +286,36 @@ methods:
         check(len(fall) == 1 and fall[0][2] == "|H0|",
               f"scale: V unbounded below falls back to |H0|: {fall}")
 
+    # ---- a start at a turning point of the watched coordinate (x at rest at its largest,
+    # the default section through the start): the orbit only touches the section, so no
+    # period is measured, and the note says why (found by a tester: it was left empty).
+    # The same orbit with the section through the inside of its range is counted: x is a
+    # harmonic oscillator of w = 1, period 2 pi (common practice) ----
+    p, out = run_suite(tmp, "touch", """horizon: {time: 100}
+buckets: 16
+problems:
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: top}
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], q0: [1, 0.5], p0: [0, 0.3], name: mid,
+     section: {coordinate: x, level: 0}}
+  - {potential: "x^2/2 + y^2/2", coordinates: [x, y], kinetic: "p_x^2/2 + p_y^2/2",
+     q0: [0, 0.5], p0: [1, 0.3], name: kin}
+methods:
+  - {method: verlet, h: 0.01}
+""")
+    with h5py.File(out) as f:
+        for rid, g in f["runs"].items():
+            a = g.attrs
+            note = a["period_note"]
+            note = note.decode() if isinstance(note, bytes) else str(note)
+            print(f"touch: {rid}: period_measured {a['period_measured']!r}, note '{note}'")
+            if rid.startswith("top"):
+                check(np.isnan(a["period_measured"]) and "0 upward crossings" in note
+                      and "turning point on the section" in note,
+                      f"touch: {rid}: no period and a note: {a['period_measured']} '{note}'")
+            else:
+                check(abs(a["period_measured"] / (2 * np.pi) - 1) < 1e-4 and note == "",
+                      f"touch: {rid}: period {a['period_measured']!r} '{note}'")
+
     # ---- the evaluator: forced (no compiler) and after a failed compile ----
     pend = """horizon: {time: 300}
 buckets: 32
@@ -330,6 +360,7 @@ methods:
         ('{potential: "-cos(q)", energy: 0.9999999999999999}', "separatrix"),
         ('{potential: "-q^2", q0: 1}', "unbounded"),
         ('{potential: "q^2 + log(q)", q0: -1}', "not finite"),
+        ('{potential: "-1/abs(q)", q0: 1}', "V is unbounded below (singular) at q = 0,"),
         ('{potential: "q^2 + * 3"}', "column 7 of the formula: the formula does not parse"),
         ('{potential: "q^2 + (q"}', "column 7 of the formula: '(' is never closed"),
         ('{potential: "k*q^2"}', "column 1 of the formula: unknown name 'k'"),
@@ -337,6 +368,12 @@ methods:
         ('{potential: "atan2(q, 2)"}', "column 8 of the formula: unexpected character ','"),
         ('{potential: "q^2", k: 1}', "parameter 'k' appears in no formula"),
         ('{potential: "q^2", coordinates: [x]}', "unknown name 'q'"),
+        # a kinetic formula's default momenta, named in the refusal: p with one
+        # coordinate, p_x for each coordinate x of more (README, `momenta`)
+        ('{potential: "x^2", coordinates: x, kinetic: "p_x^2/2"}',
+         "unknown name 'p_x' (expected the momentum p, a parameter"),
+        ('{potential: "x^2 + y^2 + z^2", coordinates: [x, y, z], kinetic: "p^2/2"}',
+         "unknown name 'p' (expected a momentum (p_x, p_y, p_z), a parameter"),
         ('{potential: "q^2.1234567"}', "exponent"),
         ('{potential: "q^2", q0: 1, section: {level: 5}}', "not crossed"),
         ('{potential: "q^2", section: {level: 0, direction: down}}', "only up"),

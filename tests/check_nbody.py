@@ -92,6 +92,17 @@ def main():
                       f"{name}_error series")
             c = g.attrs["closest_approach"]
             check(0 < c < closest_start, f"closest approach {c} (start {closest_start})")
+        # show's text table carries the measured period too (found by a tester: only its
+        # CSV and JSON did), right-aligned under its heading as the file holds it
+        p = run(EXE, ["show", out])
+        lines = p.stdout.splitlines()
+        head = lines[0] if lines else ""
+        end = head.find("measured period") + len("measured period")
+        row = next((l for l in lines[1:] if l.startswith("nbody")), "")
+        cell = row[:end].split()[-1] if row[:end].split() else ""
+        check(p.returncode == 0 and end > len("measured period") and len(row) > end
+              and row[end:end + 2] == "  " and cell == f"{P:.10g}",
+              f"show: measured period {cell!r} against {P:.10g}: {head!r} {row!r}")
         # a bad bodies file: one line naming the file, its line and column; exit 2; no file
         bad = os.path.join(tmp, "bad.csv")
         with open(bad, "w") as f:
@@ -127,6 +138,34 @@ def main():
               f"resume after the bodies changed: exit {p.returncode}, {err!r}")
         check(p.returncode == 2 and open(f"{tmp}/sys.h5", "rb").read() == before,
               "the refused resume leaves the file as it was")
+        # --resume from another working folder (found by a tester: a relative bodies_file
+        # was looked up from there, so the resume was refused, or took another file of
+        # the same name): relative paths are taken from the suite's folder as it was when
+        # the suite was first read, recorded absolute as suite_folder; a same-named file
+        # in the working folder is not read, and a change of the bodies is still refused
+        with open(os.path.join(tmp, "rel.yaml"), "w") as f:
+            f.write("output: rel.h5\nhorizon: {time: 100}\nproblems:\n"
+                    "  - problem: nbody\n    G: 1\n    units: u\n    bodies_file: sys.csv\n"
+                    "    file_holds: velocities\nmethods:\n  - {method: verlet, h: 0.1}\n")
+        p = run(EXE, ["run", "rel.yaml"], cwd=tmp)
+        check(p.returncode == 0, f"rel run: exit {p.returncode} {p.stderr!r}")
+        with h5py.File(f"{tmp}/rel.h5", "r") as h:
+            folder = h.attrs["suite_folder"]
+            folder = folder.decode() if isinstance(folder, bytes) else str(folder)
+        check(folder == os.path.realpath(tmp), f"suite_folder {folder!r}, expected {tmp!r}")
+        elsewhere = os.path.join(tmp, "elsewhere")
+        os.mkdir(elsewhere)
+        with open(os.path.join(elsewhere, "sys.csv"), "w") as f:
+            f.write("A, 1, 0, 0, 0, 0, 0, 0\nB, 9e-3, 1, 0, 0, 0, 1, 0\n")
+        p = run(EXE, ["run", "--resume", f"{tmp}/rel.h5"], cwd=elsewhere)
+        check(p.returncode == 0 and "keeping 1 completed runs" in p.stderr,
+              f"resume from another folder: exit {p.returncode} {p.stderr!r}")
+        with open(sys_csv, "w") as f:
+            f.write("A, 1, 0, 0, 0, 0, 0, 0\nB, 2e-3, 1, 0, 0, 0, 1, 0\n")
+        p = run(EXE, ["run", "--resume", f"{tmp}/rel.h5"], cwd=elsewhere)
+        check(p.returncode == 2 and "changed since" in p.stderr,
+              f"resume from another folder after the bodies changed: exit {p.returncode} "
+              f"{p.stderr!r}")
     finish("check_nbody")
 
 

@@ -6,6 +6,7 @@ datasets then equal those of an uninterrupted run bit for bit.
 
 usage: check_resume.py PATH/TO/driftmark
 """
+import json
 import os
 import numpy as np
 import shutil
@@ -97,6 +98,42 @@ def close_enough(ga, gb, label):
 
 def run(args, **kw):
     return subprocess.run([EXE, "run"] + args, capture_output=True, text=True, **kw)
+
+
+def sweeps_listed(path, template, label):
+    """A sweep none of whose runs started is left out as its runs are (found by a tester:
+    show listed the stopped suite's sweeps of runs that never started), from the file's
+    /sweeps and from show's sweep table; and so from a file written before, which held
+    such a sweep with no runs (made here as one of `template` emptied)."""
+    with h5py.File(path, "r") as f:
+        ran = {text(g.attrs["sweep"]) for g in f["runs"].values()} - {""}
+        held = set(f["sweeps"])
+    check(held == ran, f"{label}: /sweeps holds the sweeps with a run in the file: "
+          f"{sorted(held)} vs {sorted(ran)}")
+    older = path + ".older.h5"
+    shutil.copyfile(path, older)
+    with h5py.File(template, "r") as t, h5py.File(older, "r+") as f:
+        src = t["sweeps"][sorted(t["sweeps"])[0]]
+        g = f["sweeps"].create_group("never.verlet")
+        for k, v in src.attrs.items():
+            g.attrs[k] = v
+        for k in ("n_runs", "n_points_energy", "n_points_phase"):
+            g.attrs[k] = np.uint64(0)
+        for k in ("energy_order", "phase_order"):
+            g.attrs[k] = np.nan
+        for name in src:
+            g.create_dataset(name, shape=(0,), dtype=src[name].dtype)
+    for at in (path, older):
+        p = subprocess.run([EXE, "show", at, "--sweeps", "--format", "json"],
+                           capture_output=True, text=True)
+        shown = {s["sweep"] for s in json.loads(p.stdout)} if p.returncode == 0 else None
+        check(shown == ran, f"{label}: show lists the sweeps with a run: {shown} vs {ran} "
+              f"({os.path.basename(at)}: {p.stderr!r})")
+        p = subprocess.run([EXE, "show", at], capture_output=True, text=True)
+        check(p.returncode == 0 and "never.verlet" not in p.stdout and
+              all(name in p.stdout for name in ran),
+              f"{label}: show's text lists the sweeps with a run: {p.stdout!r}")
+    os.remove(older)
 
 
 def main():
@@ -224,6 +261,7 @@ def main():
                   f"signal {sig}: file written with an interrupted run: {st}")
             check(len(st) < n_runs, f"signal {sig}: stopped before the end")
             check(not [x for x in os.listdir(tmp) if ".tmp-" in x], "no temporary file left")
+            sweeps_listed(part, full, f"signal {sig}")
             restarted = {r for r, v in st.items() if v == "interrupted" and "cvode" in r}
             p = run(["--resume", part])
             check(p.returncode == 0, f"resume after signal {sig}: {p.stderr.strip()}")

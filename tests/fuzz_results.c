@@ -69,14 +69,14 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     dm_sweep_summaries_free(sweeps, n_sweeps);
 
     char *text = NULL;
-    char source[1024];
-    st = dm_results_read_suite_text(path, &text, source, sizeof source, &err);
+    char source[1024], folder[sizeof source];
+    st = dm_results_read_suite_text(path, &text, source, folder, sizeof source, &err);
     if (st != DM_OK) {
         check_refusal(st, &err);
         return 0;
     }
     dm_suite suite;
-    st = dm_suite_parse(&suite, text, strlen(text), source, path, &err);
+    st = dm_suite_parse_in(&suite, text, strlen(text), source, folder, path, &err);
     free(text);
     if (st != DM_OK) {
         check_refusal(st, &err);

@@ -302,6 +302,58 @@ static double wrong_dV(void *data, double q)
     return 3.0 * q * q;
 }
 
+/* V unbounded below at q = 0.3, which no sample of the search lands on: a pole and a
+ * logarithm (found by a tester: -1/|q| was refused as "too close to a separatrix") */
+static double pole_V(void *data, double q)
+{
+    (void)data;
+    return -1.0 / fabs(q - 0.3);
+}
+
+static double pole_dV(void *data, double q)
+{
+    (void)data;
+    return (q > 0.3 ? 1.0 : -1.0) / ((q - 0.3) * (q - 0.3));
+}
+
+static double ln_V(void *data, double q)
+{
+    (void)data;
+    return log(fabs(q - 0.3));
+}
+
+static double ln_dV(void *data, double q)
+{
+    (void)data;
+    return 1.0 / (q - 0.3);
+}
+
+/* a kink, not a singularity: V = |q| */
+static double kink_V(void *data, double q)
+{
+    (void)data;
+    return fabs(q);
+}
+
+static double kink_dV(void *data, double q)
+{
+    (void)data;
+    return q > 0.0 ? 1.0 : q < 0.0 ? -1.0 : 0.0;
+}
+
+/* a cusp, infinite force but V bounded below: V = sqrt|q| */
+static double cusp_V(void *data, double q)
+{
+    (void)data;
+    return sqrt(fabs(q));
+}
+
+static double cusp_dV(void *data, double q)
+{
+    (void)data;
+    return q == 0.0 ? 0.0 : (q > 0.0 ? 0.5 : -0.5) / sqrt(fabs(q));
+}
+
 static void bad_orbits_are_refused_in_one_line(void **state)
 {
     (void)state;
@@ -314,6 +366,22 @@ static void bad_orbits_are_refused_in_one_line(void **state)
         refused(pendulum_V, path ? pendulum_dV : NULL, -1.0, 0.0, "equilibrium");
         refused(quartic_V, path ? quartic_dV : NULL, -1.0, 0.0, "below");
         refused(log_V, path ? log_dV : NULL, 50.0, 1.0, "not finite");
+        /* the orbit through q0 = 1 at rest falls into the singularity at 0.3 */
+        refused(pole_V, path ? pole_dV : NULL, pole_V(NULL, 1.0), 1.0,
+                "V is unbounded below (singular) at q = 0.29999999999999");
+        refused(ln_V, path ? ln_dV : NULL, ln_V(NULL, 1.0), 1.0,
+                "V is unbounded below (singular) at q = 0.29999999999999");
+        /* a kink is no singularity: V = |q| at E = 1 (m = 1) is a uniform deceleration
+         * from speed sqrt(2) for a time sqrt(2), four times: T = 4 sqrt(2) */
+        dm_orbit o = orbit_ok(kink_V, path ? kink_dV : NULL, NULL, 1.0, 1.0, 0.0);
+        assert_close(o.period, 4.0 * sqrt(2.0), 1e-12);
+        /* nor is a cusp: V = sqrt|q| at E = 1 (m = 1), q = u^2: T = 4 int_0^1 2u du /
+         * sqrt(2 (1 - u)) = (8 / sqrt 2) B(2, 1/2) = 32 / (3 sqrt 2) (the Beta function,
+         * Abramowitz and Stegun 6.2.1 and 6.2.2) */
+        o = orbit_ok(cusp_V, path ? cusp_dV : NULL, NULL, 1.0, 1.0, 0.0);
+        print_message("cusp %s: %.17g against %.17g\n", path_name[path], o.period,
+                      32.0 / (3.0 * sqrt(2.0)));
+        assert_close(o.period, 32.0 / (3.0 * sqrt(2.0)), 1e-9);
     }
     /* a derivative that is not V's */
     refused(quartic_V, wrong_dV, 1.0, 0.0, "derivative");

@@ -94,6 +94,10 @@ typedef struct dm_suite {
     char output[1024];               /* results file path */
     char *text;                      /* the suite text verbatim (owned) */
     char source[1024];               /* file name, or "(built-in default suite)" */
+    /* the folder a relative path in the suite is taken from: the suite file's, made
+     * absolute when the file was read (so a resumed suite finds the same files from any
+     * working folder), or empty (a text given otherwise: the working folder) */
+    char folder[1024];
     double energy_limit;             /* |dE| above this: diverged (default 1) */
     uint64_t step_budget;            /* runs needing more steps are refused up front */
     size_t n_runs;
@@ -113,6 +117,11 @@ typedef struct dm_suite {
  * replaces the suite's own output path (the command line's -o) and is the one checked. */
 dm_status dm_suite_parse(dm_suite *suite, const char *text, size_t length,
                          const char *source, const char *output, dm_error *err);
+/* The same, with relative paths taken from `folder` (dm_suite.folder; NULL or empty:
+ * the folder of `source` as written, or the working folder) */
+dm_status dm_suite_parse_in(dm_suite *suite, const char *text, size_t length,
+                            const char *source, const char *folder, const char *output,
+                            dm_error *err);
 dm_status dm_suite_load(dm_suite *suite, const char *path, const char *output, dm_error *err);
 /* Given as `output` to the loaders: the output file (the suite's, or its default) is
  * named but not checked, and no stale temporary file beside it is removed - for what
@@ -540,9 +549,11 @@ dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, si
 dm_status dm_results_read_tables(const char *path, dm_table_summary **tables, size_t *n,
                                  dm_error *err);
 
-/* The suite text stored in a results file, and where it came from (malloc'd text). */
+/* The suite text stored in a results file, where it came from and the folder its
+ * relative paths were taken from (suite_folder; empty in files written before
+ * 2026-12-02) (malloc'd text; source and folder of `size` bytes each). */
 dm_status dm_results_read_suite_text(const char *path, char **text, char *source,
-                                     size_t source_size, dm_error *err);
+                                     char *folder, size_t size, dm_error *err);
 
 /* ---- the summary table (table.c) ---- */
 
@@ -559,9 +570,11 @@ void dm_summary_row_fill(dm_summary_row *row, const dm_run_spec *spec,
 
 void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_format format);
 /* The sweep table: text (each sweep's orders and point counts, then the runs a fit
- * left out and why), or CSV and JSON (every written run of every sweep with its codes). */
+ * left out and why), or CSV and JSON (every written run of every sweep with its codes).
+ * A sweep none of whose runs started is not listed; dm_sweeps_listed counts the rest. */
 void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
                           dm_table_format format);
+size_t dm_sweeps_listed(const dm_sweep_summary *sweeps, size_t n);
 
 /* Reads /summary back from a results file (for `show`). Allocates *rows. */
 dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,

@@ -70,7 +70,7 @@
       "why drift_exponent is NaN, or a note on a bounded run; empty otherwise")            \
     X(period_exact, REAL, metrics, SA, 0, "", "",                                          \
       "closed-form period T of the starting state")                                        \
-    X(period_measured, REAL, metrics, SA, 0, "", "",                                       \
+    X(period_measured, REAL, metrics, SA, 0, "measured period", "%.10g",                   \
       "period measured from section crossings")                                            \
     X(period_note, TEXT, result, A, 0, "", "",                                             \
       "why period_measured is NaN though it was to be measured; empty otherwise")          \
