@@ -187,12 +187,21 @@ static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
     size_t n = k == 0 ? g->fit.n_energy_points : g->fit.n_phase_points;
     double p = dm_line_fit_slope(l);
     double rms = dm_line_fit_rms_residual(l) / log(10.0);
+    double lo = k == 0 ? g->fit.energy_local_min : g->fit.phase_local_min;
+    double hi = k == 0 ? g->fit.energy_local_max : g->fit.phase_local_max;
+    bool trend = k == 0 ? g->fit.energy_trend : g->fit.phase_trend;
     if (n < CHOOSE_MIN_POINTS)
         snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off a fit "
                  "of %d or more)", fit_what[k], n, CHOOSE_MIN_POINTS);
     else if (!(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS))
         snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g decades; "
                  "needs order > 0, rms <= %.2f)", fit_what[k], p, rms, CHOOSE_MAX_FIT_RMS);
+    else if (hi - lo > DM_LOCAL_ORDER_SPREAD || trend) /* the sweep table's * and ~ */
+        snprintf(why, why_size, "its %s fit mixes regimes (orders between neighbouring "
+                 "steps %.2f..%.2f%s; a step is read off a fit whose orders differ by at most "
+                 "%.2f and do not move one way by more than %.0f %% of the order)",
+                 fit_what[k], lo, hi, trend ? ", moving one way" : "",
+                 DM_LOCAL_ORDER_SPREAD, 100.0 * DM_ORDER_TREND);
     else
         return false;
     return true;
