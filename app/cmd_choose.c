@@ -27,6 +27,15 @@ static int parse_positive(const char *option, const char *text, double *out)
     return 0;
 }
 
+/* A predicted figure, "-" when it is not predicted (not_predicted says why). */
+static void figure_cell(char *buf, size_t size, double v)
+{
+    if (isnan(v))
+        snprintf(buf, size, "-");
+    else
+        snprintf(buf, size, "%.3g", v);
+}
+
 static void print_text(const dm_choice *c, size_t n)
 {
     for (size_t i = 0; i < n;) {
@@ -47,10 +56,16 @@ static void print_text(const dm_choice *c, size_t n)
                 snprintf(basis, sizeof basis, "extrap. x%.3g", x->beyond);
             else
                 snprintf(basis, sizeof basis, "%s", dm_choice_basis_name(x->basis));
-            printf("  %-4d %-30s %-12s %-14s %12.4g %12.3g %10.3g %10.3g %8.3g  %s\n", x->rank,
-                   x->method, step, basis, x->cost_per_period, x->seconds_per_period,
-                   x->energy_error, x->phase_per_period, x->margin, x->horizon_rule);
+            char energy[32], phase[32];
+            figure_cell(energy, sizeof energy, x->energy_error);
+            figure_cell(phase, sizeof phase, x->phase_per_period);
+            printf("  %-4d %-30s %-12s %-14s %12.4g %12.3g %10s %10s %8.3g  %s\n", x->rank,
+                   x->method, step, basis, x->cost_per_period, x->seconds_per_period, energy,
+                   phase, x->margin, x->horizon_rule);
         }
+        for (size_t k = i; k < end; k++)
+            if (c[k].ranked && c[k].not_predicted[0])
+                printf("  %s: %s\n", c[k].method, c[k].not_predicted);
         for (size_t k = i; k < end; k++)
             if (!c[k].ranked)
                 printf("  not ranked: %s: %s\n", c[k].method,
@@ -73,7 +88,7 @@ static void print_csv(const dm_choice *c, size_t n)
 #define CSV_NAME(name, field) printf("," #name);
     CHOICE_NUMBERS(CSV_NAME)
 #undef CSV_NAME
-    printf(",horizon_rule,n_points,run_id,why_not\n");
+    printf(",horizon_rule,n_points,run_id,why_not,not_predicted\n");
     for (size_t i = 0; i < n; i++) {
         const dm_choice *x = &c[i];
         dm_csv_text(stdout, x->variant);
@@ -90,6 +105,8 @@ static void print_csv(const dm_choice *c, size_t n)
         dm_csv_text(stdout, x->run_id);
         putchar(',');
         dm_csv_text(stdout, x->why_not);
+        putchar(',');
+        dm_csv_text(stdout, x->not_predicted);
         putchar('\n');
     }
 }
@@ -118,6 +135,8 @@ static void print_json(const dm_choice *c, size_t n, bool all)
         dm_json_string(stdout, x->run_id);
         printf(", \"why_not\": ");
         dm_json_string(stdout, x->why_not);
+        printf(", \"not_predicted\": ");
+        dm_json_string(stdout, x->not_predicted);
         printf("}");
     }
     printf(n ? "\n]}\n" : "]}\n");

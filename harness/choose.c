@@ -135,13 +135,6 @@ static double cost_at(const group *g, double x)
     return exp(dm_line_fit_at(&g->cost_line, log(x)));
 }
 
-/* The predictions at x from the fitted lines (NaN where there is no line). */
-static void predict(const group *g, double x, dm_choice *c)
-{
-    c->energy_error = exp(dm_line_fit_at(&g->fit.energy_line, log(x))) * g->factor;
-    c->phase_per_period = exp(dm_line_fit_at(&g->fit.phase_line, log(x)));
-}
-
 /* target / predicted over the targets given (the smallest); +inf with no target; 0 when
  * a figure a target asks about is not a number (fmin would drop the NaN: a run without
  * its max |dE| would "meet" any target). */
@@ -177,34 +170,77 @@ static const dm_summary_row *best_measured(const group *g, double *closeness)
     return best;
 }
 
+/* The names of the two fits (0: max |dE|, 1: phase per period) and of their columns. */
+static const char *const fit_what[2] = { "energy", "phase" };
+static const char *const fit_column[2] = { "max |dE|", "phase/per" };
+
+static const dm_line_fit *fit_line(const group *g, int k)
+{
+    return k == 0 ? &g->fit.energy_line : &g->fit.phase_line;
+}
+
+/* Whether fit k cannot be read (no step is read off it, nothing is predicted from it),
+ * with the reason in why; the one test and the one wording of both. */
+static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
+{
+    const dm_line_fit *l = fit_line(g, k);
+    size_t n = k == 0 ? g->fit.n_energy_points : g->fit.n_phase_points;
+    double p = dm_line_fit_slope(l);
+    double rms = dm_line_fit_rms_residual(l) / log(10.0);
+    double lo = k == 0 ? g->fit.energy_local_min : g->fit.phase_local_min;
+    double hi = k == 0 ? g->fit.energy_local_max : g->fit.phase_local_max;
+    bool trend = k == 0 ? g->fit.energy_trend : g->fit.phase_trend;
+    if (n < CHOOSE_MIN_POINTS)
+        snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off a fit "
+                 "of %d or more)", fit_what[k], n, CHOOSE_MIN_POINTS);
+    else if (!(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS))
+        snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g decades; "
+                 "needs order > 0, rms <= %.2f)", fit_what[k], p, rms, CHOOSE_MAX_FIT_RMS);
+    else if (hi - lo > DM_LOCAL_ORDER_SPREAD || trend) /* the sweep table's * and ~ */
+        snprintf(why, why_size, "its %s fit mixes regimes (orders between neighbouring "
+                 "steps %.2f..%.2f%s; a step is read off a fit whose orders differ by at most "
+                 "%.2f and do not move one way by more than %.0f %% of the order)",
+                 fit_what[k], lo, hi, trend ? ", moving one way" : "",
+                 DM_LOCAL_ORDER_SPREAD, 100.0 * DM_ORDER_TREND);
+    else
+        return false;
+    return true;
+}
+
+/* The predictions at x from the fitted lines; a figure whose fit cannot be read is not
+ * predicted (NaN), and c->not_predicted says so in the words of the refusal. */
+static void predict(const group *g, double x, dm_choice *c)
+{
+    double *out[2] = { &c->energy_error, &c->phase_per_period };
+    const double scale[2] = { g->factor, 1.0 };
+    c->not_predicted[0] = '\0';
+    for (int k = 0; k < 2; k++) {
+        char why[DM_CHOICE_TEXT];
+        if (fit_unreadable(g, k, why, sizeof why)) {
+            *out[k] = NAN;
+            size_t at = strlen(c->not_predicted);
+            snprintf(c->not_predicted + at, sizeof c->not_predicted - at, "%s%s not predicted: "
+                     "%s", at ? "; " : "", fit_column[k], why);
+            continue;
+        }
+        *out[k] = exp(dm_line_fit_at(fit_line(g, k), log(x))) * scale[k];
+    }
+}
+
 /* The step (or tolerance) where the fitted lines meet the targets (the smaller of the
  * two when both are given); NaN when a line is missing or poor. */
 static double fitted_x(const group *g, char *why, size_t why_size)
 {
     double x = INFINITY;
     const dm_target *t = g->target;
-    struct { double target; const dm_line_fit *line; size_t n; const char *what; } fits[] = {
-        { t->max_energy_error / g->factor, &g->fit.energy_line, g->fit.n_energy_points,
-          "energy" },
-        { t->phase_per_period, &g->fit.phase_line, g->fit.n_phase_points, "phase" },
-    };
-    for (size_t k = 0; k < 2; k++) {
-        if (isnan(fits[k].target))
+    const double target[2] = { t->max_energy_error / g->factor, t->phase_per_period };
+    for (int k = 0; k < 2; k++) {
+        if (isnan(target[k]))
             continue;
-        double p = dm_line_fit_slope(fits[k].line);
-        double rms = dm_line_fit_rms_residual(fits[k].line) / log(10.0);
-        if (fits[k].n < CHOOSE_MIN_POINTS || !(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS)) {
-            if (fits[k].n < CHOOSE_MIN_POINTS)
-                snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off "
-                         "a fit of %d or more)", fits[k].what, fits[k].n, CHOOSE_MIN_POINTS);
-            else
-                snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g "
-                         "decades; needs order > 0, rms <= %.2f)", fits[k].what, p, rms,
-                         CHOOSE_MAX_FIT_RMS);
+        if (fit_unreadable(g, k, why, why_size))
             return NAN;
-        }
-        const dm_line_fit *l = fits[k].line;
-        x = fmin(x, exp(l->mean_x + (log(fits[k].target) - l->mean_y) / p));
+        const dm_line_fit *l = fit_line(g, k);
+        x = fmin(x, exp(l->mean_x + (log(target[k]) - l->mean_y) / dm_line_fit_slope(l)));
     }
     return x;
 }
@@ -262,6 +298,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     c->adaptive = is_adaptive(g->rows[0]);
     c->x = c->cost_per_period = c->seconds_per_period = NAN;
     c->energy_error = c->phase_per_period = c->fit_rms = NAN;
+    c->not_predicted[0] = '\0';
     c->beyond = 1.0;
     if (!isfinite(g->rows[0]->period_exact)) { /* nbody: costs per period do not exist */
         c->closeness = NAN;

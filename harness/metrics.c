@@ -285,6 +285,7 @@ const char *dm_fit_use_name(dm_fit_use use)
     case DM_FIT_LARGE: return "large";
     case DM_FIT_ROUND_OFF: return "round_off";
     case DM_FIT_SIGN_CHANGE: return "sign_change";
+    case DM_FIT_COARSE: return "coarse";
     }
     return "unknown";
 }
@@ -293,7 +294,7 @@ int dm_fit_use_name_known(const char *name)
 {
     if (name[0] == '\0')
         return 1;
-    for (int u = DM_FIT_USED; u <= DM_FIT_SIGN_CHANGE; u++)
+    for (int u = DM_FIT_USED; u <= DM_FIT_COARSE; u++)
         if (strcmp(name, dm_fit_use_name((dm_fit_use)u)) == 0)
             return 1;
     return 0;
@@ -313,6 +314,8 @@ dm_status dm_sweep_summary_fill(dm_sweep_summary *s, const dm_suite *suite,
     s->energy_local_max = fit ? fit->energy_local_max : NAN;
     s->phase_local_min = fit ? fit->phase_local_min : NAN;
     s->phase_local_max = fit ? fit->phase_local_max : NAN;
+    s->energy_trend = fit ? fit->energy_trend : false;
+    s->phase_trend = fit ? fit->phase_trend : false;
     s->runs = calloc(sweep->n_runs ? sweep->n_runs : 1, sizeof *s->runs);
     if (s->runs == NULL)
         return dm_error_set(err, DM_ENOMEM, "%s: out of memory for its table", sweep->name);
@@ -367,6 +370,15 @@ static dm_fit_use status_use(dm_run_status status)
 #define FIT_ENERGY_FLOOR 4.0   /* max |dE| <= 4 eps sqrt(steps) */
 #define FIT_PHASE_FLOOR 0.25   /* |phase per period| <= 0.25 eps sqrt(steps) */
 #define FIT_LARGE_ENERGY 0.5   /* max |dE| >= 1/2: the error is the size of the energy */
+/* max |dE| >= 1/10: not small. An error that compounds, e^x - 1 instead of its leading
+ * term x (Euler on the oscillator: (1 + h^2)^N - 1), is off that term by x/2, 5 % at
+ * 1/10, which moves the order between two steps a factor 2 apart by up to 0.07. */
+#define FIT_COARSE_ENERGY 0.1
+/* Round-off added to a point's error, measured on Kepler (e = 0.3) sweeps of 1000
+ * periods: up to 32 eps sqrt(steps) in the phase per period and 12 in max |dE| (the
+ * excess over the truncation error the coarser points' order predicts). A point within
+ * 100 eps sqrt(steps) may carry that much. */
+#define FIT_ROUND_OFF_NEAR 100.0
 
 typedef struct fit_point {
     size_t slot;   /* position in the sweep */
@@ -383,21 +395,102 @@ static int by_x(const void *a, const void *b)
     return (p->slot > q->slot) - (p->slot < q->slot);
 }
 
-/* The running range of the slopes between neighbouring points of one fit. */
-typedef struct local_orders {
-    double x, y;          /* the last point (log x, log y); x NaN before the first */
-    double min, max;
-} local_orders;
-
-static void local_orders_add(local_orders *l, double log_x, double log_y)
+/* The order between two points of a fit (x ascending in `pts`, |error| in `y` by slot). */
+static double pair_order(const fit_point *p, const fit_point *q, const double *y)
 {
-    if (!isnan(l->x) && log_x != l->x) {
-        double slope = (log_y - l->y) / (log_x - l->x);
-        l->min = isnan(l->min) || slope < l->min ? slope : l->min;
-        l->max = isnan(l->max) || slope > l->max ? slope : l->max;
+    return (log(y[q->slot]) - log(y[p->slot])) / (log(q->x) - log(p->x));
+}
+
+/* One fit over the points `use` still marks used, `pts` sorted by x, errors |y| by slot:
+ *  1. the round-off tail: while two coarser points remain, the finest point is left out
+ *     (round_off) when its error is within FIT_ROUND_OFF_NEAR eps sqrt(steps) and the
+ *     order between it and its coarser neighbour is more than DM_LOCAL_ORDER_SPREAD
+ *     below the next order up the sweep: the error stopped falling as it did, where
+ *     round-off can account for it;
+ *  2. the least-squares line, the range of the orders between neighbours and whether
+ *     those move one way along the whole sweep by more than DM_ORDER_TREND of the order. */
+static void fit_one(const fit_point *pts, size_t n, const double *y, const double *root_steps,
+                    unsigned char *use, dm_line_fit *line, double *local_min,
+                    double *local_max, bool *trend)
+{
+    size_t k[3], m;
+    for (;;) {
+        m = 0;
+        for (size_t j = 0; j < n && m < 3; j++)
+            if (use[pts[j].slot] == DM_FIT_USED)
+                k[m++] = j;
+        if (m < 3)
+            break;
+        const fit_point *f = &pts[k[0]], *a = &pts[k[1]], *b = &pts[k[2]];
+        double near = FIT_ROUND_OFF_NEAR * DBL_EPSILON * root_steps[f->slot];
+        if (!(f->x < a->x && a->x < b->x) || !(y[f->slot] <= near) ||
+            !(pair_order(f, a, y) < pair_order(a, b, y) - DM_LOCAL_ORDER_SPREAD))
+            break;
+        use[f->slot] = DM_FIT_ROUND_OFF;
     }
-    l->x = log_x;
-    l->y = log_y;
+    *line = (dm_line_fit){ 0 };
+    *local_min = *local_max = NAN;
+    double first = NAN, last = NAN, dir = 0.0;
+    bool one_way = true;
+    const fit_point *prev = NULL;
+    size_t n_local = 0;
+    for (size_t j = 0; j < n; j++) {
+        const fit_point *p = &pts[j];
+        if (use[p->slot] != DM_FIT_USED)
+            continue;
+        dm_line_fit_add(line, log(p->x), log(y[p->slot]));
+        if (prev != NULL && p->x != prev->x) {
+            double s = pair_order(prev, p, y);
+            *local_min = isnan(*local_min) || s < *local_min ? s : *local_min;
+            *local_max = isnan(*local_max) || s > *local_max ? s : *local_max;
+            if (n_local++ == 0)
+                first = s;
+            else {
+                double d = s > last ? 1.0 : s < last ? -1.0 : 0.0;
+                one_way = one_way && d != 0.0 && (dir == 0.0 || d == dir);
+                dir = d;
+            }
+            last = s;
+        }
+        prev = p;
+    }
+    double order = dm_line_fit_slope(line);
+    *trend = n_local >= 2 && one_way && fabs(last - first) > DM_ORDER_TREND * fabs(order);
+}
+
+/* The phase fit keeps the longest run of points of one sign in step order (of two
+ * equally long, the coarser): the others are past a zero crossing of the phase error or
+ * are round-off of either sign (sign_change), so the fit never spans a sign change. */
+static void keep_one_sign(const fit_point *pts, size_t n, const dm_fit_input *in,
+                          unsigned char *use)
+{
+    size_t best_lo = 0, best_len = 0, lo = 0, len = 0;
+    double sign = 0.0;
+    for (size_t j = 0; j < n; j++) {
+        size_t i = pts[j].slot;
+        if (use[i] != DM_FIT_USED)
+            continue;
+        double s = in[i].phase_error_per_period > 0.0 ? 1.0 : -1.0;
+        if (s != sign) {
+            sign = s;
+            lo = j;
+            len = 0;
+        }
+        if (++len >= best_len) { /* >=: of two as long, the coarser */
+            best_len = len;
+            best_lo = lo;
+        }
+    }
+    size_t kept = 0;
+    for (size_t j = 0; j < n; j++) {
+        size_t i = pts[j].slot;
+        if (use[i] != DM_FIT_USED)
+            continue;
+        if (j >= best_lo && kept < best_len)
+            kept++;
+        else
+            use[i] = DM_FIT_SIGN_CHANGE;
+    }
 }
 
 dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_sweep_fit *fit,
@@ -409,8 +502,14 @@ dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_s
     fit->energy_use = calloc(n ? n : 1, sizeof *fit->energy_use);
     fit->phase_use = calloc(n ? n : 1, sizeof *fit->phase_use);
     fit_point *pts = calloc(n ? n : 1, sizeof *pts);
-    if (fit->energy_use == NULL || fit->phase_use == NULL || pts == NULL) {
+    double *ey = calloc(n ? n : 1, sizeof *ey), *py = calloc(n ? n : 1, sizeof *py);
+    double *root = calloc(n ? n : 1, sizeof *root);
+    if (fit->energy_use == NULL || fit->phase_use == NULL || pts == NULL || ey == NULL ||
+        py == NULL || root == NULL) {
         free(pts);
+        free(ey);
+        free(py);
+        free(root);
         dm_sweep_fit_free(fit);
         return dm_error_set(err, DM_ENOMEM, "%s: out of memory for the fit of %zu runs", name,
                             n);
@@ -418,67 +517,47 @@ dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_s
     for (size_t i = 0; i < n; i++) {
         double x = in[i].x;
         pts[i] = (fit_point){ .slot = i, .x = x };
-        double root_steps = sqrt((double)(in[i].steps > 0 ? in[i].steps : 1));
+        root[i] = sqrt((double)(in[i].steps > 0 ? in[i].steps : 1));
         dm_fit_use e = status_use(in[i].status), p = e;
+        double de = in[i].max_energy_error, ph = fabs(in[i].phase_error_per_period);
+        ey[i] = de;
+        py[i] = ph;
         if (e == DM_FIT_USED) {
-            double de = in[i].max_energy_error, ph = fabs(in[i].phase_error_per_period);
-            bool large = !(de < FIT_LARGE_ENERGY);
+            bool large = !(de < FIT_LARGE_ENERGY), coarse = !(de < FIT_COARSE_ENERGY);
             if (!(x > 0.0) || !isfinite(x) || !(de > 0.0) || !isfinite(de))
                 e = DM_FIT_NO_VALUE;
             else if (large)
                 e = DM_FIT_LARGE;
-            else if (de <= FIT_ENERGY_FLOOR * DBL_EPSILON * root_steps)
+            else if (coarse)
+                e = DM_FIT_COARSE;
+            else if (de <= FIT_ENERGY_FLOOR * DBL_EPSILON * root[i])
                 e = DM_FIT_ROUND_OFF;
             if (!(x > 0.0) || !isfinite(x) || !(ph > 0.0) || !isfinite(ph))
                 p = DM_FIT_NO_VALUE;
             else if (large)
                 p = DM_FIT_LARGE;
-            else if (ph <= FIT_PHASE_FLOOR * DBL_EPSILON * root_steps)
+            else if (coarse)
+                p = DM_FIT_COARSE;
+            else if (ph <= FIT_PHASE_FLOOR * DBL_EPSILON * root[i])
                 p = DM_FIT_ROUND_OFF;
         }
         fit->energy_use[i] = (unsigned char)e;
         fit->phase_use[i] = (unsigned char)p;
     }
-    /* The phase fit keeps the points of one sign, from the finest step (or tolerance)
-     * up to the first that has the other sign. */
     qsort(pts, n, sizeof *pts, by_x);
-    double sign = 0.0;
-    for (size_t k = 0; k < n; k++) {
-        size_t i = pts[k].slot;
-        if (fit->phase_use[i] != DM_FIT_USED)
-            continue;
-        double s = in[i].phase_error_per_period > 0.0 ? 1.0 : -1.0;
-        if (sign == 0.0)
-            sign = s;
-        else if (s != sign)
-            sign = NAN; /* from here on, every point is past the change */
-        if (isnan(sign))
-            fit->phase_use[i] = DM_FIT_SIGN_CHANGE;
-    }
-    local_orders le = { NAN, NAN, NAN, NAN }, lp = { NAN, NAN, NAN, NAN };
-    for (size_t k = 0; k < n; k++) {
-        size_t i = pts[k].slot;
-        double lx = log(pts[k].x);
-        if (fit->energy_use[i] == DM_FIT_USED) {
-            double ly = log(in[i].max_energy_error);
-            dm_line_fit_add(&fit->energy_line, lx, ly);
-            local_orders_add(&le, lx, ly);
-        }
-        if (fit->phase_use[i] == DM_FIT_USED) {
-            double ly = log(fabs(in[i].phase_error_per_period));
-            dm_line_fit_add(&fit->phase_line, lx, ly);
-            local_orders_add(&lp, lx, ly);
-        }
-    }
-    fit->energy_local_min = le.min;
-    fit->energy_local_max = le.max;
-    fit->phase_local_min = lp.min;
-    fit->phase_local_max = lp.max;
+    keep_one_sign(pts, n, in, fit->phase_use);
+    fit_one(pts, n, ey, root, fit->energy_use, &fit->energy_line, &fit->energy_local_min,
+            &fit->energy_local_max, &fit->energy_trend);
+    fit_one(pts, n, py, root, fit->phase_use, &fit->phase_line, &fit->phase_local_min,
+            &fit->phase_local_max, &fit->phase_trend);
     fit->energy_order = dm_line_fit_slope(&fit->energy_line);
     fit->phase_order = dm_line_fit_slope(&fit->phase_line);
     fit->n_energy_points = (size_t)fit->energy_line.n;
     fit->n_phase_points = (size_t)fit->phase_line.n;
     free(pts);
+    free(ey);
+    free(py);
+    free(root);
     return DM_OK;
 }
 

@@ -611,6 +611,8 @@ static int write_sweep(hid_t sweeps, const dm_suite *suite, const dm_sweep *sw,
         rc |= attr_double(g, "energy_order_local_max", sum.energy_local_max);
         rc |= attr_double(g, "phase_order_local_min", sum.phase_local_min);
         rc |= attr_double(g, "phase_order_local_max", sum.phase_local_max);
+        rc |= attr_bool(g, "energy_order_trend", sum.energy_trend);
+        rc |= attr_bool(g, "phase_order_trend", sum.phase_trend);
         rc |= attr_u64(g, "n_runs", n); /* runs written (those that started) */
         rc |= dataset_strings(g, "run_id", ids, n);
         rc |= dataset_double(g, sw->step_setting == DM_SET_BY_RTOL ? "rtol" : "h", h, n);
@@ -1907,6 +1909,16 @@ static const char *read_sweep(hid_t g, dm_sweep_summary *s)
         *local_at[k] = NAN;
         if (H5Aexists(g, local[k]) > 0 && read_double_attr(g, local[k], local_at[k]) != 0)
             return "a local order attribute is not one number";
+    }
+    /* the trends: absent (false) in files written before they were kept */
+    static const char *const trend[2] = { "energy_order_trend", "phase_order_trend" };
+    bool *trend_at[2] = { &s->energy_trend, &s->phase_trend };
+    for (int k = 0; k < 2; k++) {
+        long long v = 0;
+        if (H5Aexists(g, trend[k]) > 0 && (read_int_attr(g, trend[k], &v) != 0 ||
+                                           (v != 0 && v != 1)))
+            return "a trend attribute is not 0 or 1";
+        *trend_at[k] = v == 1;
     }
     if (read_u64_attr(g, "n_runs", &n_runs) != 0 || n_runs > DM_SUITE_MAX_RUNS)
         return "its n_runs attribute is not one whole number of at most the runs a suite has";

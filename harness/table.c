@@ -232,35 +232,47 @@ void dm_table_print(FILE *out, const dm_summary_row *rows, size_t n, dm_table_fo
 
 /* ---- the sweep table ---- */
 
-/* The orders between neighbouring points differ by more than this: the sweep's points
- * are not all in one regime (our threshold; results/README.md, sweeps). */
-#define LOCAL_ORDER_SPREAD 0.25
+/* What marks a fit's cell of local orders carries (the notes under the table). */
+typedef struct local_marks {
+    bool spread, trend, two;
+} local_marks;
 
-/* "1.33-1.99" (and a * when they differ by more than LOCAL_ORDER_SPREAD), "-" without. */
-static bool cell_local(char *buf, size_t size, double lo, double hi)
+/* "1.33..1.99" (a * when they differ by more than DM_LOCAL_ORDER_SPREAD, a ~ when they
+ * move one way by more than DM_ORDER_TREND of the order), "2 points" for a fit of two
+ * (its one local order is its order), "-" without. */
+static void cell_local(char *buf, size_t size, double lo, double hi, uint64_t points,
+                       bool trend, local_marks *marks)
 {
     if (isnan(lo) || isnan(hi)) {
         snprintf(buf, size, "-");
-        return false;
+        return;
     }
-    bool spread = hi - lo > LOCAL_ORDER_SPREAD;
-    snprintf(buf, size, "%.2f..%.2f%s", lo, hi, spread ? "*" : "");
-    return spread;
+    if (points == 2) {
+        marks->two = true;
+        snprintf(buf, size, "2 points");
+        return;
+    }
+    bool spread = hi - lo > DM_LOCAL_ORDER_SPREAD;
+    marks->spread |= spread;
+    marks->trend |= trend;
+    snprintf(buf, size, "%.2f..%.2f%s%s", lo, hi, spread ? "*" : "", trend ? "~" : "");
 }
 
 static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 {
     fprintf(out, "%-56s %12s %6s %12s %6s %12s %12s\n", "sweep", "energy order", "points",
             "phase order", "points", "energy local", "phase local");
-    bool any_spread = false;
+    local_marks marks = { false, false, false };
     for (size_t w = 0; w < n; w++) {
         const dm_sweep_summary *s = &sweeps[w];
         char name[4 * DM_RUN_ID_MAX], energy[32], phase[32], el[40], pl[40];
         dm_escape_controls(s->name, name, sizeof name);
         cell_number(energy, sizeof energy, s->energy_order, "%.3f");
         cell_number(phase, sizeof phase, s->phase_order, "%.3f");
-        any_spread |= cell_local(el, sizeof el, s->energy_local_min, s->energy_local_max);
-        any_spread |= cell_local(pl, sizeof pl, s->phase_local_min, s->phase_local_max);
+        cell_local(el, sizeof el, s->energy_local_min, s->energy_local_max, s->n_points_energy,
+                   s->energy_trend, &marks);
+        cell_local(pl, sizeof pl, s->phase_local_min, s->phase_local_max, s->n_points_phase,
+                   s->phase_trend, &marks);
         fprintf(out, "%-56s %12s %6" PRIu64 " %12s %6" PRIu64 " %12s %12s\n", name, energy,
                 s->n_points_energy, phase, s->n_points_phase, el, pl);
         /* the runs a fit left out, and why; a figure none of the sweep's runs has (the
@@ -281,11 +293,19 @@ static void sweep_text(FILE *out, const dm_sweep_summary *sweeps, size_t n)
             fprintf(out, "  left out: %s: energy %s, phase %s\n", id, e, p);
         }
     }
-    if (any_spread)
-        fprintf(out, "  local: the smallest and largest order between neighbouring steps; *: "
-                     "they differ by more than %.2f,\n  so not every point is in the regime "
-                     "where the error goes as h^p: the fitted order mixes regimes (add finer "
-                     "steps)\n", LOCAL_ORDER_SPREAD);
+    if (marks.spread || marks.trend)
+        fprintf(out, "  local: the smallest and largest order between neighbouring steps\n");
+    if (marks.spread)
+        fprintf(out, "  *: they differ by more than %.2f, so not every point is in the regime "
+                     "where the error goes as h^p:\n     the fitted order mixes regimes (add "
+                     "finer steps)\n", DM_LOCAL_ORDER_SPREAD);
+    if (marks.trend)
+        fprintf(out, "  ~: they move one way along the whole sweep by more than %.0f %% of the "
+                     "fitted order:\n     it is still settling, the points are not yet "
+                     "asymptotic (add finer steps)\n", 100.0 * DM_ORDER_TREND);
+    if (marks.two)
+        fprintf(out, "  2 points: a fit of two points has one order between them and cannot "
+                     "show a spread\n");
 }
 
 /* One row per written run of each sweep (a sweep with none, which
@@ -295,7 +315,7 @@ static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
 {
     fputs("sweep,energy_order,n_points_energy,phase_order,n_points_phase,run_id,energy_fit,"
           "phase_fit,energy_order_local_min,energy_order_local_max,phase_order_local_min,"
-          "phase_order_local_max\n", out);
+          "phase_order_local_max,energy_order_trend,phase_order_trend\n", out);
     for (size_t w = 0; w < n; w++) {
         const dm_sweep_summary *s = &sweeps[w];
         for (size_t i = 0; i < (s->n_runs ? s->n_runs : 1); i++) {
@@ -320,7 +340,7 @@ static void sweep_csv(FILE *out, const dm_sweep_summary *sweeps, size_t n)
                 fputc(',', out);
                 dm_csv_number(out, local[k]);
             }
-            fputc('\n', out);
+            fprintf(out, ",%d,%d\n", s->energy_trend ? 1 : 0, s->phase_trend ? 1 : 0);
         }
     }
 }
@@ -345,6 +365,8 @@ static void sweep_json(FILE *out, const dm_sweep_summary *sweeps, size_t n)
             fprintf(out, ", \"%s\": ", local_names[k]);
             dm_json_number(out, local[k], "%.17g");
         }
+        fprintf(out, ", \"energy_order_trend\": %s, \"phase_order_trend\": %s",
+                s->energy_trend ? "true" : "false", s->phase_trend ? "true" : "false");
         fputs(", \"runs\": [", out);
         for (size_t i = 0; i < s->n_runs; i++) {
             fputs(i ? ", {\"run_id\": " : "{\"run_id\": ", out);

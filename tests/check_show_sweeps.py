@@ -45,7 +45,14 @@ def text(v):
     return v.decode() if isinstance(v, bytes) else str(v)
 
 
+def number(cell):
+    """A CSV cell as a number: empty is not a number."""
+    return math.nan if cell == "" else float(cell)
+
+
 def same(a, b):
+    """Equal, or both not a number (JSON writes NaN as null)."""
+    a, b = (math.nan if v is None else v for v in (a, b))
     return (math.isnan(a) and math.isnan(b)) or a == b
 
 
@@ -86,6 +93,8 @@ def main():
                     phase_order=float(g.attrs["phase_order"]),
                     n_points_energy=int(g.attrs["n_points_energy"]),
                     n_points_phase=int(g.attrs["n_points_phase"]),
+                    energy_order_trend=int(g.attrs["energy_order_trend"]),
+                    phase_order_trend=int(g.attrs["phase_order_trend"]),
                     runs=[(text(a), text(b), text(c)) for a, b, c in
                           zip(g["run_id"][()], g["energy_fit"][()], g["phase_fit"][()])])
         check(len(want) == 4, f"four sweeps in the file: {sorted(want)}")
@@ -104,7 +113,8 @@ def main():
                 continue
             for key in ("energy_order", "phase_order"):
                 check(same(s[key], w[key]), f"json {s['sweep']} {key}: {s[key]} vs {w[key]}")
-            for key in ("n_points_energy", "n_points_phase"):
+            for key in ("n_points_energy", "n_points_phase", "energy_order_trend",
+                        "phase_order_trend"):
                 check(s[key] == w[key], f"json {s['sweep']} {key}: {s[key]} vs {w[key]}")
             check([(x["run_id"], x["energy_fit"], x["phase_fit"]) for x in s["runs"]] ==
                   w["runs"], f"json {s['sweep']} runs: {s['runs']} vs {w['runs']}")
@@ -118,8 +128,10 @@ def main():
             w = want.get(row["sweep"])
             if not check(w is not None, f"csv: unknown sweep {row['sweep']}"):
                 continue
-            check(same(float(row["energy_order"]), w["energy_order"]), f"csv {row}")
-            check(same(float(row["phase_order"]), w["phase_order"]), f"csv {row}")
+            check(same(number(row["energy_order"]), w["energy_order"]), f"csv {row}")
+            check(same(number(row["phase_order"]), w["phase_order"]), f"csv {row}")
+            for key in ("energy_order_trend", "phase_order_trend"):
+                check(int(row[key]) == w[key], f"csv {row}")
             check(int(row["n_points_energy"]) == w["n_points_energy"], f"csv {row}")
             check(int(row["n_points_phase"]) == w["n_points_phase"], f"csv {row}")
             check((row["run_id"], row["energy_fit"], row["phase_fit"]) in w["runs"],
@@ -157,6 +169,7 @@ def main():
             ("points-real.h5", attr("n_points_energy", 2.5), "n_points_energy"),
             ("runs-huge.h5", attr("n_runs", np.uint64(1 << 62)), "n_runs"),
             ("points-over.h5", attr("n_points_phase", np.uint64(99)), "more points"),
+            ("trend-two.h5", attr("phase_order_trend", np.int8(2)), "trend"),
             ("code-unknown.h5", dataset("energy_fit", np.array([b"used", b"sure", b"used",
                                                                 b"used"])), "energy_fit"),
             ("code-short.h5", dataset("phase_fit", np.array([b"used"])), "phase_fit"),

@@ -493,6 +493,7 @@ static void local_orders_show_a_pre_asymptotic_sweep(void **state)
         assert_close(fit.energy_local_min, 2.0, 1e-12);
         assert_close(fit.energy_local_max, 2.0, 1e-12);
         assert_close(fit.phase_local_max, 2.0, 1e-12);
+        assert_true(!fit.energy_trend && !fit.phase_trend);
         dm_sweep_fit_free(&fit);
         local_orders_of(h, mixed, 4, scale, &fit);
         /* e(2) = 5.52, e(1) = 2.22, e(0.5) = 0.6075, e(0.25) = 0.15515625 (times 1e-6):
@@ -501,6 +502,7 @@ static void local_orders_show_a_pre_asymptotic_sweep(void **state)
         assert_close(fit.energy_local_min, log2(5.52 / 2.22), 1e-9);
         assert_close(fit.energy_local_max, log2(0.6075 / 0.15515625), 1e-9);
         assert_true(fit.energy_local_min < 1.32 && fit.energy_local_max > 1.96);
+        assert_true(fit.energy_trend); /* 1.31, 1.87, 1.97: rising toward 2 */
         dm_sweep_fit_free(&fit);
     }
     /* one point: no neighbour, no local order */
@@ -508,6 +510,178 @@ static void local_orders_show_a_pre_asymptotic_sweep(void **state)
     local_orders_of(h, pure, 1, 1.0, &fit);
     assert_true(isnan(fit.energy_local_min) && isnan(fit.energy_local_max));
     dm_sweep_fit_free(&fit);
+}
+
+/* Points filled by hand: x[i] (times `scale`: the same sweep in other units), the
+ * error e[i] as both max |dE| and phase (phase of sign sgn[i]), steps[i]. */
+static void fit_by_hand(const double *x, const double *e, const double *sgn,
+                        const uint64_t *steps, size_t n, double scale, dm_sweep_fit *fit)
+{
+    dm_fit_input in[16];
+    assert_true(n <= 16);
+    for (size_t i = 0; i < n; i++)
+        in[i] = (dm_fit_input){ .x = x[i] * scale, .status = DM_RUN_OK, .steps = steps[i],
+                                .max_energy_error = e[i],
+                                .phase_error_per_period = sgn[i] * e[i] };
+    dm_error err = { 0 };
+    assert_int_equal(dm_fit_points("by-hand", in, n, fit, &err), DM_OK);
+}
+
+/* An 8th-order law (Yoshida 8, order 8: common practice) measured down to round-off:
+ * the finest point has the other sign, as the tester's Kepler sweep at 1024 steps per
+ * period (-4.2e-13 after +1.8e-13). The sign comes from the longest run of one sign,
+ * the coarse side: the fit is the law's, 8, in any units, and the finest point says
+ * why it is out. A sign change in the middle of a sweep (1e-3 (-h^2 + 10 h^4), zero at
+ * h^2 = 0.1) with more points on the coarse side: the fit keeps those and never spans
+ * the change. */
+static void phase_sign_comes_from_the_longest_run_of_one_sign(void **state)
+{
+    (void)state;
+    const double spp[5] = { 64, 128, 256, 512, 1024 };
+    double x[5], e[5], sgn[5] = { 1, 1, 1, 1, -1 };
+    uint64_t steps[5];
+    for (int i = 0; i < 5; i++) {
+        x[i] = 2.0 * M_PI / spp[i];
+        steps[i] = (uint64_t)(1000 * spp[i]);
+        e[i] = 4e-4 * pow(64.0 / spp[i], 8); /* 2.4e-11 at 512: above round-off */
+    }
+    e[4] = 4.2e-13; /* round-off: 1.9 eps sqrt(steps), above the floor */
+    for (int u = 0; u < 2; u++) {
+        dm_sweep_fit fit;
+        fit_by_hand(x, e, sgn, steps, 5, u == 0 ? 1.0 : 1.0 / 365.25, &fit);
+        print_message("  phase order %.6f from %zu points, finest %s\n", fit.phase_order,
+                      fit.n_phase_points, dm_fit_use_name((dm_fit_use)fit.phase_use[4]));
+        assert_int_equal(fit.n_phase_points, 4);
+        assert_close(fit.phase_order, 8.0, 1e-9);
+        assert_int_equal(fit.phase_use[4], DM_FIT_SIGN_CHANGE);
+        dm_sweep_fit_free(&fit);
+    }
+    const double hs[6] = { 0.8, 0.6, 0.5, 0.4, 0.2, 0.1 };
+    double ph[6], ones[6];
+    uint64_t st[6];
+    for (int i = 0; i < 6; i++) {
+        double g = 1e-3 * (-hs[i] * hs[i] + 10.0 * pow(hs[i], 4)); /* max |dE| small */
+        ph[i] = fabs(g);
+        ones[i] = g > 0.0 ? 1.0 : -1.0;
+        st[i] = 1000;
+    }
+    dm_sweep_fit fit;
+    fit_by_hand(hs, ph, ones, st, 6, 1.0, &fit);
+    for (int i = 0; i < 6; i++) {
+        print_message("  h %.2f phase %+.4f %s\n", hs[i], ones[i] * ph[i],
+                      dm_fit_use_name((dm_fit_use)fit.phase_use[i]));
+        /* the four coarse points are positive (h^2 > 0.1): kept; the two fine ones not */
+        assert_int_equal(fit.phase_use[i], ones[i] > 0.0 ? DM_FIT_USED : DM_FIT_SIGN_CHANGE);
+    }
+    assert_int_equal(fit.n_phase_points, 4);
+    dm_sweep_fit_free(&fit);
+}
+
+/* A 4th-order law (Yoshida 4, order 4: common practice) whose finest point carries
+ * round-off of 20 eps sqrt(steps) on top (the tester's Kepler sweep at 8192 steps per
+ * period: local order 3.03 after 4.07): it leaves both fits as round_off and the order
+ * is the law's, in any units. The same dip far above round-off (10^3 eps sqrt(steps))
+ * is no round-off: that point stays. */
+static void a_round_off_tail_leaves_the_fit(void **state)
+{
+    (void)state;
+    const double spp[6] = { 256, 512, 1024, 2048, 4096, 8192 };
+    double x[6], e[6], plus[6] = { 1, 1, 1, 1, 1, 1 };
+    uint64_t steps[6];
+    for (int i = 0; i < 6; i++) {
+        x[i] = 2.0 * M_PI / spp[i];
+        steps[i] = (uint64_t)(1000 * spp[i]);
+        e[i] = 7e-6 * pow(256.0 / spp[i], 4);
+    }
+    const double root = DBL_EPSILON * sqrt((double)steps[5]);
+    const double law = e[5];
+    e[5] = law + 20.0 * root;
+    for (int u = 0; u < 2; u++) {
+        dm_sweep_fit fit;
+        fit_by_hand(x, e, plus, steps, 6, u == 0 ? 1.0 : 1.0 / 365.25, &fit);
+        print_message("  orders %.6f %.6f from %zu %zu points\n", fit.energy_order,
+                      fit.phase_order, fit.n_energy_points, fit.n_phase_points);
+        assert_int_equal(fit.energy_use[5], DM_FIT_ROUND_OFF);
+        assert_int_equal(fit.phase_use[5], DM_FIT_ROUND_OFF);
+        assert_close(fit.energy_order, 4.0, 1e-9);
+        assert_close(fit.phase_order, 4.0, 1e-9);
+        dm_sweep_fit_free(&fit);
+    }
+    for (int i = 0; i < 6; i++)
+        e[i] *= 1e3 * root / law; /* the whole sweep far above round-off */
+    dm_sweep_fit fit;
+    fit_by_hand(x, e, plus, steps, 6, 1.0, &fit);
+    assert_int_equal(fit.energy_use[5], DM_FIT_USED);
+    assert_int_equal(fit.n_energy_points, 6);
+    dm_sweep_fit_free(&fit);
+}
+
+/* Euler on the harmonic oscillator multiplies |omega q + i p|^2 by 1 + h^2 per step
+ * (omega = 1; the amplification factor 1 + i h, Hairer, Norsett & Wanner, Solving ODEs
+ * I, 1993, sect. I.13 and II.7), so over N = t / h steps dE = (1 + h^2)^N - 1 exactly:
+ * order 1 as h -> 0, but at t = 628.3 and h = 0.0005, 0.00025 it is 0.37 and 0.17,
+ * where e^x - 1 is far from x (the tester's sweep, fitted 1.118 from those two). Points
+ * with max |dE| >= 1/10 are `coarse` and out; the rest give 1 within 0.03 (the
+ * first-order term of e^x - 1 moves the order by less than x/2 over the points kept,
+ * x < 0.082); all six would give 1.042. */
+static void coarse_points_leave_both_fits(void **state)
+{
+    (void)state;
+    double h[6], e[6], plus[6] = { 1, 1, 1, 1, 1, 1 };
+    uint64_t steps[6];
+    for (int i = 0; i < 6; i++) {
+        h[i] = 0.0005 / pow(2.0, i);
+        steps[i] = (uint64_t)(628.3 / h[i] + 0.5);
+        e[i] = expm1((double)steps[i] * log1p(h[i] * h[i]));
+    }
+    dm_sweep_fit fit;
+    fit_by_hand(h, e, plus, steps, 6, 1.0, &fit);
+    for (int i = 0; i < 6; i++) {
+        print_message("  h %.3e max |dE| %.4f: %s\n", h[i], e[i],
+                      dm_fit_use_name((dm_fit_use)fit.energy_use[i]));
+        dm_fit_use want = e[i] >= 0.1 ? DM_FIT_COARSE : DM_FIT_USED;
+        assert_int_equal(fit.energy_use[i], want);
+        assert_int_equal(fit.phase_use[i], want);
+    }
+    print_message("  energy order %.4f from %zu points\n", fit.energy_order,
+                  fit.n_energy_points);
+    assert_int_equal(fit.n_energy_points, 4);
+    assert_true(fabs(fit.energy_order - 1.0) < 0.03);
+    assert_true(!fit.energy_trend);
+    dm_sweep_fit_free(&fit);
+}
+
+/* Euler (order 1: common practice) on a Kepler orbit, e = 0.2, over 2 periods at 1000
+ * to 16000 steps per period (the tester's sweep, fitted 0.885 unflagged): its local
+ * orders rise toward 1 along the sweep (0.86, 0.92, 0.95 once n1000, max |dE| 0.125, is
+ * out as coarse), so the fit is marked as still settling. */
+static void a_settling_order_is_marked(void **state)
+{
+    (void)state;
+    dm_suite suite;
+    parse(&suite, "name: settling\n"
+                  "horizon: {periods: 2}\n"
+                  "problems:\n"
+                  "  - {problem: kepler, eccentricity: 0.2}\n"
+                  "methods:\n"
+                  "  - {method: euler, steps_per_period: [1000, 2000, 4000, 8000, 16000]}\n");
+    dm_run_result *res = calloc(suite.n_runs, sizeof *res);
+    assert_non_null(res);
+    dm_error err = { 0 };
+    for (size_t i = 0; i < suite.n_runs; i++)
+        assert_int_equal(dm_run(&suite.runs[i], &res[i], NULL, &err), DM_OK);
+    dm_sweep_fit fit;
+    assert_int_equal(dm_sweep_fit_compute(&suite, &suite.sweeps[0], res, &fit, &err), DM_OK);
+    print_message("  energy order %.4f from %zu points, local %.3f..%.3f, settling %d\n",
+                  fit.energy_order, fit.n_energy_points, fit.energy_local_min,
+                  fit.energy_local_max, fit.energy_trend);
+    assert_true(fit.n_energy_points >= 3);
+    assert_true(fit.energy_trend);
+    dm_sweep_fit_free(&fit);
+    for (size_t i = 0; i < suite.n_runs; i++)
+        dm_run_result_free(&res[i]);
+    free(res);
+    dm_suite_free(&suite);
 }
 
 static void a_300_point_sweep_uses_every_point(void **state)
@@ -559,6 +733,10 @@ int main(void)
         cmocka_unit_test(fit_codes_sign_change_floor_and_counts),
         cmocka_unit_test(a_300_point_sweep_uses_every_point),
         cmocka_unit_test(local_orders_show_a_pre_asymptotic_sweep),
+        cmocka_unit_test(phase_sign_comes_from_the_longest_run_of_one_sign),
+        cmocka_unit_test(a_round_off_tail_leaves_the_fit),
+        cmocka_unit_test(coarse_points_leave_both_fits),
+        cmocka_unit_test(a_settling_order_is_marked),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

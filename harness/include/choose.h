@@ -52,6 +52,8 @@ typedef struct dm_choice {
     double seconds_per_period;       /* wall-clock seconds per period at x */
     double energy_error;             /* predicted max |dE| at x over the horizon */
     double phase_per_period;         /* predicted |phase error per period| at x */
+    char not_predicted[DM_CHOICE_TEXT]; /* a figure read off a fit that cannot be read is
+                                        not predicted (NaN): which, and why; or "" */
     double margin;                   /* smallest target / predicted over the targets */
     double horizon_factor;           /* growth of max |dE| from the measured horizon */
     char horizon_rule[48];           /* "measured horizon", "bounded", "exponent 0.98" */

@@ -362,8 +362,17 @@ typedef enum dm_fit_use {
     DM_FIT_NO_VALUE,         /* the value or the step (tolerance) is NaN, inf or zero */
     DM_FIT_LARGE,            /* max |dE| >= 1/2: the error is the size of the energy */
     DM_FIT_ROUND_OFF,        /* at the round-off floor (results/README.md) */
-    DM_FIT_SIGN_CHANGE       /* phase only: past a sign change, seen from the finest step */
+    DM_FIT_SIGN_CHANGE,      /* phase only: outside the longest run of points of one sign */
+    DM_FIT_COARSE            /* 1/10 <= max |dE| < 1/2: too large to be asymptotic */
 } dm_fit_use;
+
+/* The orders between neighbouring points of a fit differ by more than this: the points
+ * are not all in one regime (our threshold; results/README.md, sweeps). */
+#define DM_LOCAL_ORDER_SPREAD 0.25
+/* Those orders move one way along the whole fit by more than this fraction of the fitted
+ * order: it is still settling, the points are not yet asymptotic (our threshold: 5 % of
+ * the order is 0.05 for Euler, whose 0.86, 0.92, 0.95 on a Kepler orbit it catches). */
+#define DM_ORDER_TREND 0.05
 
 const char *dm_fit_use_name(dm_fit_use use);
 
@@ -378,6 +387,9 @@ typedef struct dm_sweep_fit {
      * with fewer than 2 points): far apart, the points are not all in the regime
      * where the error goes as x^p, and the fitted slope mixes regimes */
     double energy_local_min, energy_local_max, phase_local_min, phase_local_max;
+    /* those orders move one way along the whole fit (3 or more points) by more than
+     * DM_ORDER_TREND of the fitted order: the order is still settling */
+    bool energy_trend, phase_trend;
     size_t n_runs;                   /* the sweep's runs; the arrays below have this length */
     unsigned char *energy_use;       /* dm_fit_use of each run, in sweep order (owned) */
     unsigned char *phase_use;
@@ -426,6 +438,7 @@ typedef struct dm_sweep_summary {
     uint64_t n_points_energy, n_points_phase;
     double energy_local_min, energy_local_max;  /* as in dm_sweep_fit (NaN in files */
     double phase_local_min, phase_local_max;    /* written before they were kept) */
+    bool energy_trend, phase_trend;             /* as in dm_sweep_fit (false when absent) */
     size_t n_runs;
     dm_sweep_run_use *runs;          /* owned; the runs that started, in sweep order */
 } dm_sweep_summary;
