@@ -559,4 +559,10 @@ void dm_sweep_table_print(FILE *out, const dm_sweep_summary *sweeps, size_t n,
 dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,
                                   dm_error *err);
 
+/* The `config` text of each of the n runs of `rows` (their /summary, read from the file
+ * at `path`), read from /runs/<id>, into a new array in the order of `rows` (free it).
+ * A run without its group or its config is DM_EINPUT with one line naming it. */
+dm_status dm_results_read_configs(const char *path, const dm_summary_row *rows, size_t n,
+                                  char (**configs)[DM_CONFIG_MAX], dm_error *err);
+
 #endif
