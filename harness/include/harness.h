@@ -287,7 +287,8 @@ void dm_run_order_longest_first(const dm_suite *suite, size_t *order, size_t n);
 
 /* Progress of a pool, called under its lock when a run starts or ends, and once at the
  * end with current "": runs done of total, the estimated fraction of the work done,
- * the run just started, seconds since the pool started. */
+ * the run just started (or just ended: its id, then ": STATUS" when it did not end ok),
+ * seconds since the pool started. */
 typedef void (*dm_pool_progress)(size_t done, size_t total, double work,
                                  const char *current, double elapsed);
 
