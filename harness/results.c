@@ -1997,11 +1997,16 @@ dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, si
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated", path);
         goto done;
     }
-    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0)
-        goto done;   /* no sweeps */
     long long schema = 0;
     if (read_int_attr(file, "schema_version", &schema) != 0 || schema < DM_SCHEMA_VERSION)
         goto done;   /* schema 1 kept other sweep figures (n_points): not shown */
+    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0) {
+        /* every file written has /sweeps, an empty group when its suite has none */
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /sweeps group (every "
+                          "results file has one, empty when its suite has no sweeps): the "
+                          "file is damaged", path);
+        goto done;
+    }
     H5G_info_t info;
     group = H5Gopen2(file, "sweeps", H5P_DEFAULT);
     if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {

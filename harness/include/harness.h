@@ -522,8 +522,9 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
 
 /* Every sweep of the file at `path` (its /sweeps groups), in the order of the runs
  * of /summary, into a new array (free with dm_sweep_summaries_free). A file that is not
- * ours, or a sweep whose attributes or datasets are not as results/README.md says, is
- * DM_EINPUT with one line naming it. */
+ * ours, a file without /sweeps (damaged: every file has it), or a sweep whose attributes
+ * or datasets are not as results/README.md says, is DM_EINPUT with one line naming it.
+ * A schema 1 file has none to show. */
 dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, size_t *n,
                                  dm_error *err);
 
