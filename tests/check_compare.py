@@ -143,6 +143,14 @@ with tempfile.TemporaryDirectory() as tmp:
     for fmt in ("table", "csv"):
         p = run(["compare", a, c, "--format", fmt], tmp)
         check(p.returncode == 4 and "max_energy_error" in p.stdout, f"{fmt}: {p.returncode}")
+    # a run without its config text: the file is not as the contract says
+    bare = os.path.join(tmp, "bare.h5")
+    shutil.copyfile(a, bare)
+    with h5py.File(bare, "r+") as f:
+        del f["runs"]["pendulum-amplitude2.rk4-n32"].attrs["config"]
+    p = run(["compare", a, bare], tmp)
+    check(p.returncode == 2 and p.stderr.count("\n") == 1 and "rk4-n32" in p.stderr
+          and "config" in p.stderr and p.stdout == "", f"no config: {p.returncode} {p.stderr!r}")
     for args in (["compare", a], ["compare", a, os.path.join(tmp, "missing.h5")],
                  ["compare", a, b, "--tolerance", "x"], ["compare", a, b, "--format", "xml"]):
         p = run(args, tmp)
