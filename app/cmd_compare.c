@@ -1,7 +1,8 @@
 /* cmd_compare.c — `driftmark compare OLD.h5 NEW.h5 [--tolerance R] [--time-tolerance R]
  * [--format table|csv|json]`: what changed between two results files, run by run
  * (harness/include/compare.h). Exit 0 when nothing got worse, 4 when something did or a
- * run of the old file is missing from the new. */
+ * run of the old file is missing from the new (runs that are not comparable judge
+ * nothing). */
 #include <getopt.h>
 #include <math.h>
 #include <stdio.h>
@@ -32,7 +33,7 @@ static void value_text(const dm_difference *d, bool is_new, char *buf, size_t si
     double v = is_new ? d->new_value : d->old_value;
     if (text[0] != '\0')
         snprintf(buf, size, "%s", text);
-    else if (strcmp(d->figure, "run") == 0)
+    else if (strcmp(d->figure, "run") == 0 || strcmp(d->figure, "config") == 0)
         snprintf(buf, size, "-");
     else
         snprintf(buf, size, "%.6g", v);
@@ -41,9 +42,14 @@ static void value_text(const dm_difference *d, bool is_new, char *buf, size_t si
 static void print_text(const dm_comparison *c)
 {
     printf("runs matched %zu: same %zu, within tolerance %zu, better %zu, worse %zu, changed "
-           "%zu; only in the old file %zu, only in the new %zu\n",
+           "%zu, not comparable %zu; only in the old file %zu, only in the new %zu\n",
            c->runs_matched, c->runs_same, c->runs_within, c->runs_better, c->runs_worse,
-           c->runs_changed, c->only_old, c->only_new);
+           c->runs_changed, c->runs_not_comparable, c->only_old, c->only_new);
+    if (c->runs_by_id + c->runs_not_comparable > 0)
+        printf("matched by id only, their configurations differing %zu: judged %zu (only the "
+               "method's settings or the buckets differ), not comparable %zu (what they run or "
+               "measure differs: not judged)\n",
+               c->runs_by_id + c->runs_not_comparable, c->runs_by_id, c->runs_not_comparable);
     if (c->n == 0)
         return;
     printf("\n%-48s %-24s %14s %14s %10s  %s\n", "run", "figure", "old", "new", "change",
@@ -57,18 +63,22 @@ static void print_text(const dm_comparison *c)
         value_text(d, true, b, sizeof b);
         if (isfinite(d->relative))
             snprintf(rel, sizeof rel, "%+.2e", d->relative);
-        printf("%-48s %-24s %14s %14s %10s  %s\n", d->run_id, d->figure, a, b, rel,
+        printf("%-48s %-24s %14s %14s %10s  %s", d->run_id, d->figure, a, b, rel,
                dm_change_name(d->change));
+        if (d->keys[0] != '\0')
+            printf(" (configurations differ in %s)", d->keys);
+        putchar('\n');
     }
 }
 
 static void print_csv(const dm_comparison *c)
 {
-    printf("run_id,figure,old,new,relative,change\n");
+    printf("run_id,figure,old,new,relative,change,keys\n");
     for (size_t i = 0; i < c->n; i++) {
         const dm_difference *d = &c->list[i];
         char a[40], b[40];
-        if (d->old_text[0] || strcmp(d->figure, "run") == 0) {
+        if (d->old_text[0] || strcmp(d->figure, "run") == 0 ||
+            strcmp(d->figure, "config") == 0) {
             value_text(d, false, a, sizeof a);
             value_text(d, true, b, sizeof b);
         } else {
@@ -82,17 +92,19 @@ static void print_csv(const dm_comparison *c)
         printf(",%s,%s,%s,", d->figure, a, b);
         if (isfinite(d->relative))
             printf("%.17g", d->relative);
-        printf(",%s\n", dm_change_name(d->change));
+        printf(",%s,", dm_change_name(d->change));
+        dm_csv_text(stdout, d->keys); /* comma separated: quoted */
+        putchar('\n');
     }
 }
 
 static void print_json(const dm_comparison *c)
 {
     printf("{\"runs_matched\": %zu, \"same\": %zu, \"within\": %zu, \"better\": %zu, "
-           "\"worse\": %zu, \"changed\": %zu, \"only_old\": %zu, \"only_new\": %zu, "
-           "\"differences\": [",
+           "\"worse\": %zu, \"changed\": %zu, \"not_comparable\": %zu, \"by_id\": %zu, "
+           "\"only_old\": %zu, \"only_new\": %zu, \"differences\": [",
            c->runs_matched, c->runs_same, c->runs_within, c->runs_better, c->runs_worse,
-           c->runs_changed, c->only_old, c->only_new);
+           c->runs_changed, c->runs_not_comparable, c->runs_by_id, c->only_old, c->only_new);
     for (size_t i = 0; i < c->n; i++) {
         const dm_difference *d = &c->list[i];
         printf(i ? ",\n  {\"run_id\": " : "\n  {\"run_id\": ");
@@ -112,15 +124,28 @@ static void print_json(const dm_comparison *c)
         }
         printf(", \"relative\": ");
         dm_json_number(stdout, d->relative, "%.17g");
-        printf(", \"change\": \"%s\"}", dm_change_name(d->change));
+        printf(", \"change\": \"%s\"", dm_change_name(d->change));
+        if (d->keys[0] != '\0') {
+            printf(", \"keys\": ");
+            dm_json_string(stdout, d->keys);
+        }
+        putchar('}');
     }
     printf(c->n ? "\n]}\n" : "]}\n");
 }
 
-static int read_rows(const char *path, dm_summary_row **rows, size_t *n)
+static int read_rows(const char *path, dm_summary_row **rows, char (**configs)[DM_CONFIG_MAX],
+                     size_t *n)
 {
     dm_error err = { 0 };
     dm_status st = dm_results_read_summary(path, rows, n, &err);
+    if (st == DM_OK) {
+        st = dm_results_read_configs(path, *rows, *n, configs, &err);
+        if (st != DM_OK) {
+            free(*rows);
+            *rows = NULL;
+        }
+    }
     if (st == DM_OK)
         return 0;
     fprintf(stderr, "driftmark: compare: %s\n", err.msg);
@@ -165,19 +190,25 @@ int dm_cmd_compare(int argc, char **argv)
         return dm_cli_usage_error("compare", "two results files needed, got %d (%s)",
                                   argc - optind, usage);
     dm_summary_row *old_rows = NULL, *new_rows = NULL;
+    char (*old_configs)[DM_CONFIG_MAX] = NULL, (*new_configs)[DM_CONFIG_MAX] = NULL;
     size_t n_old = 0, n_new = 0;
-    int code = read_rows(argv[optind], &old_rows, &n_old);
+    int code = read_rows(argv[optind], &old_rows, &old_configs, &n_old);
     if (code == 0)
-        code = read_rows(argv[optind + 1], &new_rows, &n_new);
+        code = read_rows(argv[optind + 1], &new_rows, &new_configs, &n_new);
     if (code != 0) {
         free(old_rows);
+        free(old_configs);
         return code;
     }
     dm_comparison cmp;
     dm_error err = { 0 };
-    dm_status st = dm_compare(old_rows, n_old, new_rows, n_new, &o, &cmp, &err);
+    dm_status st = dm_compare(old_rows, (const char(*)[DM_CONFIG_MAX])old_configs, n_old,
+                              new_rows, (const char(*)[DM_CONFIG_MAX])new_configs, n_new, &o,
+                              &cmp, &err);
     free(old_rows);
     free(new_rows);
+    free(old_configs);
+    free(new_configs);
     if (st != DM_OK) {
         fprintf(stderr, "driftmark: compare: %s\n", err.msg);
         return 1;
@@ -187,8 +218,13 @@ int dm_cmd_compare(int argc, char **argv)
     case DM_TABLE_CSV: print_csv(&cmp); break;
     case DM_TABLE_JSON: print_json(&cmp); break;
     }
-    /* a run of the old file missing from the new one is lost: worse, for a CI gate */
+    /* a run of the old file missing from the new one is lost: worse, for a CI gate; a
+     * pair that is not comparable judges nothing, but a gate's log should say so */
     code = cmp.runs_worse > 0 || cmp.only_old > 0 ? DM_EXIT_WORSE : 0;
+    if (cmp.runs_not_comparable > 0)
+        fprintf(stderr, "driftmark: compare: %zu of %zu matched runs not judged: their "
+                "configurations differ in what they run or measure (the config lines)\n",
+                cmp.runs_not_comparable, cmp.runs_matched);
     free(cmp.list);
     return code;
 }

@@ -44,7 +44,8 @@ static void time_left(char *out, size_t size, double work, double elapsed)
         snprintf(out, size, "?");
 }
 
-/* Not on a terminal: one plain line per finished run. */
+/* Not on a terminal: one plain line per finished run ("K/N done: RUN", and ": STATUS"
+ * after a run that did not end ok). */
 static void progress_lines(size_t done, size_t total, double work, const char *current,
                            double elapsed)
 {

@@ -92,7 +92,10 @@ int dm_cmd_show(int argc, char **argv)
         dm_sweep_summaries_free(sweeps, n_sweeps);
         return dm_cli_usage_error("show", "%s", err.msg);
     }
-    if (sweeps_only) {
+    if (sweeps_only && n_sweeps == 0 && format == DM_TABLE_TEXT) {
+        printf("%s has no sweeps to show (a sweep: a method entry whose step or tolerance "
+               "takes two or more values)\n", path); /* CSV and JSON: their empty table */
+    } else if (sweeps_only) {
         dm_sweep_table_print(stdout, sweeps, n_sweeps, format);
     } else if (tables_only) {
         dm_tables_print(stdout, tables, n_tables, format);

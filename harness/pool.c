@@ -120,7 +120,8 @@ static void snap_free(dm_run_result *r)
     }
 }
 
-/* Counts run i done (under the lock); the progress names it. */
+/* Counts run i done (under the lock); the progress names it, and how it ended when not
+ * ok. */
 static void count_done(dm_work_queue *q, size_t i)
 {
     q->done++;
@@ -134,7 +135,12 @@ static void count_done(dm_work_queue *q, size_t i)
         pthread_cond_broadcast(&q->save_wake);
     }
     q->cost_done += dm_run_estimated_cost(&q->suite->runs[i]);
-    show_progress(q, q->suite->runs[i].id);
+    /* a run that did not end ok says how it ended ("RUN: interrupted") */
+    char line[DM_RUN_ID_MAX + 32];
+    const char *id = q->suite->runs[i].id;
+    if (q->results[i].status != DM_RUN_OK)
+        snprintf(line, sizeof line, "%s: %s", id, dm_run_status_name(q->results[i].status));
+    show_progress(q, q->results[i].status != DM_RUN_OK ? line : id);
 }
 
 /* Keeps the first failure and wakes every waiting thread (under the lock). */

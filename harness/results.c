@@ -1830,6 +1830,44 @@ dm_status dm_results_read_suite_text(const char *path, char **text, char *source
     return st;
 }
 
+dm_status dm_results_read_configs(const char *path, const dm_summary_row *rows, size_t n,
+                                  char (**configs)[DM_CONFIG_MAX], dm_error *err)
+{
+    *configs = NULL;
+    char (*out)[DM_CONFIG_MAX] = calloc(n ? n : 1, sizeof *out);
+    if (out == NULL)
+        return dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+    hdf5_silence();
+    hid_t file = H5Fopen(path, H5F_ACC_RDONLY, H5P_DEFAULT);
+    hid_t runs = file >= 0 ? H5Gopen2(file, "runs", H5P_DEFAULT) : -1;
+    dm_status st = runs >= 0 ? DM_OK
+                             : dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /runs "
+                                            "group", path);
+    for (size_t i = 0; i < n && st == DM_OK; i++) {
+        hid_t g = H5Lexists(runs, rows[i].run_id, H5P_DEFAULT) > 0
+                      ? H5Gopen2(runs, rows[i].run_id, H5P_DEFAULT)
+                      : -1;
+        if (g < 0 || read_text_attr(g, "config", out[i], sizeof out[i]) != 0) {
+            char shown[4 * DM_RUN_ID_MAX];
+            dm_escape_controls(rows[i].run_id, shown, sizeof shown);
+            st = dm_error_set(err, DM_EINPUT, "cannot read %s: run %s has no group under "
+                              "/runs with a config text", path, shown);
+        }
+        if (g >= 0)
+            H5Gclose(g);
+    }
+    if (runs >= 0)
+        H5Gclose(runs);
+    if (file >= 0)
+        H5Fclose(file);
+    if (st != DM_OK) {
+        free(out);
+        return st;
+    }
+    *configs = out;
+    return DM_OK;
+}
+
 /* ---- the sweeps (for `show`) ---- */
 
 /* Reads a one-dimensional text dataset of exactly n elements, fixed- or variable-length,
@@ -2004,11 +2042,16 @@ dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, si
         st = dm_error_set(err, DM_EINPUT, "cannot read %s: not an HDF5 file or truncated", path);
         goto done;
     }
-    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0)
-        goto done;   /* no sweeps */
     long long schema = 0;
     if (read_int_attr(file, "schema_version", &schema) != 0 || schema < DM_SCHEMA_VERSION)
         goto done;   /* schema 1 kept other sweep figures (n_points): not shown */
+    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0) {
+        /* every file written has /sweeps, an empty group when its suite has none */
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /sweeps group (every "
+                          "results file has one, empty when its suite has no sweeps): the "
+                          "file is damaged", path);
+        goto done;
+    }
     H5G_info_t info;
     group = H5Gopen2(file, "sweeps", H5P_DEFAULT);
     if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {

@@ -28,6 +28,7 @@ is one line on stderr and exit status 2, with nothing written.
 """
 import argparse
 import os
+import re
 import sys
 import zlib
 
@@ -593,11 +594,21 @@ SECTION_AXES = {
 }
 
 
+# A part of a units text that names a unit of time ("days", "yr", "1000 years", ...)
+TIME_UNIT = re.compile(r"(\d+(\.\d*)?\s*)?(julian\s+)?(s|secs?|seconds?|min|minutes?|h|hrs?|hours?|d|"
+                       r"days?|weeks?|yrs?|years?|kyrs?|myrs?|gyrs?)", re.IGNORECASE)
+
+
 def own_time_label(runs):
-    """The time axis of a problem without a closed-form period: in the units the suite
-    states (nbody's `units`), else the suite's own."""
+    """The time axis of a problem without a closed-form period: in the unit of time the
+    suite's units text names (nbody's `units`: "AU, days, solar masses" gives days) when
+    exactly one of its comma-separated parts is a unit of time, else the whole text as
+    units, else the suite's own."""
     units = sorted({r.get("units", "") for r in runs} - {""})
-    return f"time ({units[0]})" if len(units) == 1 else "time (the suite's units)"
+    if len(units) != 1:
+        return "time (the suite's units)"
+    times = [p.strip() for p in re.split(r"[,;]", units[0]) if TIME_UNIT.fullmatch(p.strip())]
+    return f"time ({times[0]})" if len(times) == 1 else f"time (units: {units[0]})"
 
 
 def plot_section(variant, runs, out, formats):
@@ -673,8 +684,12 @@ def plot_global(variant, runs, out, formats):
         st = run_line_style(r)
         t = r["time"] / r["time_unit"]
         y = np.where(r["global_error"] > 0, r["global_error"], np.nan)
-        (line,) = ax.plot(t, y, color=st["color"], ls=st["ls"], lw=1, label=status_label(r))
+        (line,) = ax.plot(t, y, color=st["color"], ls=st["ls"], lw=1, label=status_label(r),
+                          gid=f"line/{r['status']}/{r['id']}")
         handles.append(line)
+        shown = np.flatnonzero(np.isfinite(y))
+        if r["status"] != "ok" and len(shown):  # marked as in the other plots, at its last point
+            end_mark(ax, r, t[shown[-1]], y[shown[-1]], st["color"], st["marker"])
         until = r["reference_valid_until"]
         if np.isfinite(until) and len(t) and until < r["time"][-1]:
             ax.axvline(until / r["time_unit"], color=st["color"], ls=":", lw=0.8)
@@ -686,12 +701,14 @@ def plot_global(variant, runs, out, formats):
     ax.set_yscale("log")
     unit = rs[0]["time_unit"]
     ax.set_xlabel("time / period" if unit != 1.0 else own_time_label(rs), fontsize=8)
-    ax.set_ylabel("global error (phase-space distance)", fontsize=8)
+    ax.set_ylabel("global error: distance in phase space\n"
+                  "sqrt(|dq|^2 + |dp|^2), positions and\nmomenta together", fontsize=8)
     ax.grid(True, which="major", lw=0.3, alpha=0.5)
     against = "reference trajectory" if any(r["reference_error"] is not None for r in rs) \
         else "exact solution"
     ax.set_title(f"{variant}: global error against the {against}", fontsize=10)
-    legend_outside(ax, handles + reference, title="run (method-step)")
+    legend_outside(ax, handles + reference + status_key({r["status"] for r in rs}),
+                   title="run (method-step)")
     fig.tight_layout()
     return save(fig, out, formats)
 

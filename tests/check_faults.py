@@ -261,6 +261,12 @@ methods:
     ok = runs.get("harmonic.verlet-n64")
     check(ok is not None and ok["status"] == "ok" and ok["series"] == 64 and ok["reason"] == "",
           f"harmonic.verlet-n64: ok with its whole series beside the faults: {ok}")
+    # the progress lines say how each run that was not ok ended, and nothing after ok
+    done = {l.split(" done: ")[1].split(" (")[0] for l in p.stderr.splitlines()
+            if " done: " in l}
+    check({"kepler-eccentricity0.9.symeuler-a-n20: diverged",
+           "pendulum-amplitude1.midpoint-n2: failed", "harmonic.verlet-n64"} <= done,
+          f"progress lines name how runs ended: {sorted(done)}")
     # the summary table printed at the end shows the faults too
     check("diverged" in p.stdout and "failed" in p.stdout,
           "summary table on stdout shows diverged and failed runs")

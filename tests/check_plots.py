@@ -144,6 +144,34 @@ def main():
                 check(f"end/{r['status']}/{rid}" in svgs[f"{v}-energy"], f"{rid}: marked where it stopped")
             check((f"band/{rid}" in svgs[f"{v}-energy"]) == r["one_sign"],
                   f"{rid}: an energy band exactly when some bucket keeps one sign ({r['one_sign']})")
+        # ... and in its global-error plot, marked as in the others where it is not ok
+        with h5py.File(path, "r") as f:
+            global_runs = {rid for rid in runs if len(f["runs"][rid].get("global_error", [])) > 0
+                           and np.any(f["runs"][rid]["global_error"][()] > 0)}
+        check({r["status"] for rid, r in runs.items() if rid in global_runs} >= {"swamped", "diverged"},
+              f"global errors of swamped and diverged runs to draw: {sorted(global_runs)}")
+        for rid in global_runs:
+            v = [x for x in variants if rid.startswith(x + ".")][0]
+            st = runs[rid]["status"]
+            check(f"line/{st}/{rid}" in svgs[f"{v}-global"], f"{rid}: global line with its status")
+            if st != "ok":
+                check(f"end/{st}/{rid}" in svgs[f"{v}-global"], f"{rid}: marked in {v}-global")
+        # the global error's axis says what distance it is
+        words = " ".join(t.text or "" for t in ET.parse(os.path.join(
+            d1, "kepler-eccentricity0.6-global.svg")).iter(SVG + "text"))
+        check("positions and momenta together" in words, f"the global axis: {words[:300]!r}")
+        # the time axis of a problem without a period: the unit of time the units name
+        sys.path.insert(0, os.path.dirname(PLOT))
+        import plot_results
+        for units, label in (("AU, days, solar masses", "time (days)"),
+                             ("pc; Myr; solar masses", "time (Myr)"),
+                             ("G = 1, M = 1", "time (units: G = 1, M = 1)"),
+                             ("s, h", "time (units: s, h)")):
+            got = plot_results.own_time_label([{"units": units}])
+            check(got == label, f"units {units!r}: {got!r}, expected {label!r}")
+        check(plot_results.own_time_label([{"units": ""}]) == "time (the suite's units)",
+              "no units stated: the suite's own")
+
         # and in each of the four panels of its cost figure
         tree = ET.parse(os.path.join(d1, "kepler-eccentricity0.6-work.svg"))
         ids = [g.get("id") for g in tree.iter(SVG + "g")]

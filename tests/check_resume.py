@@ -259,6 +259,10 @@ def main():
             st = statuses(part)
             check(len(st) >= 1 and "interrupted" in st.values(),
                   f"signal {sig}: file written with an interrupted run: {st}")
+            ended = [l for l in err.splitlines() if " done: " in l]
+            check({r + ": interrupted" for r, v in st.items() if v == "interrupted"}
+                  <= {l.split(" done: ")[1].split(" (")[0] for l in ended},
+                  f"signal {sig}: the progress lines say which runs ended interrupted: {ended}")
             check(len(st) < n_runs, f"signal {sig}: stopped before the end")
             check(not [x for x in os.listdir(tmp) if ".tmp-" in x], "no temporary file left")
             sweeps_listed(part, full, f"signal {sig}")

@@ -6,8 +6,10 @@
   - `show --sweeps --format csv` and `--format json` give every sweep's orders, point
     counts and each run's codes, checked against the file as h5py reads it;
   - a hostile /sweeps (an array where one value belongs, an unknown code, a dataset of
-    the wrong length, a sweep that is not a group) is one line on stderr, exit 2,
-    nothing on stdout.
+    the wrong length, a sweep that is not a group) or a deleted /sweeps is one line on
+    stderr, exit 2, nothing on stdout;
+  - a suite without sweeps leaves an empty /sweeps, and `show --sweeps` says so in one
+    line.
 
 usage: check_show_sweeps.py PATH/TO/driftmark     (CTest passes the built executable)
 """
@@ -190,11 +192,25 @@ def main():
         r = run(EXE, ["show", "ids-vlen.h5", "--sweeps"], cwd=tmp)
         check(r.returncode == 0 and r.stdout == run_table,
               f"variable-length run ids: {r.returncode} {r.stdout!r} {r.stderr!r}")
-        # a file without /sweeps (written before it or by `bench`) has none to show
+        # a file whose /sweeps was deleted is damaged (every file has one, empty when its
+        # suite has no sweeps): one line, exit 2
         hostile("no-sweeps.h5", lambda g, f: f.__delitem__("sweeps"))
-        r = run(EXE, ["show", "no-sweeps.h5", "--sweeps", "--format", "json"], cwd=tmp)
+        for args in (["--sweeps"], ["--sweeps", "--format", "json"], []):
+            refused(tmp, ["show", "no-sweeps.h5", *args], f"no /sweeps {args}", "/sweeps")
+        # a suite without sweeps: an empty /sweeps, and `show --sweeps` says so in one line
+        with open(os.path.join(tmp, "flat.yaml"), "w") as f:
+            f.write(SUITE.replace("[2, 16, 32, 64]", "16").replace("[16, 32]", "16"))
+        r = run(EXE, ["run", "flat.yaml", "-o", "flat.h5"], cwd=tmp)
+        check(r.returncode == 0, f"a suite without sweeps runs: {r.stderr}")
+        with h5py.File(os.path.join(tmp, "flat.h5"), "r") as f:
+            check(len(f["sweeps"]) == 0, "a suite without sweeps: an empty /sweeps")
+        r = run(EXE, ["show", "flat.h5", "--sweeps"], cwd=tmp)
+        check(r.returncode == 0 and r.stdout.count("\n") == 1
+              and r.stdout.startswith("flat.h5 has no sweeps"),
+              f"no sweeps: one line: {r.returncode} {r.stdout!r} {r.stderr!r}")
+        r = run(EXE, ["show", "flat.h5", "--sweeps", "--format", "json"], cwd=tmp)
         check(r.returncode == 0 and json.loads(r.stdout) == [],
-              f"no /sweeps: an empty list: {r.returncode} {r.stdout!r} {r.stderr!r}")
+              f"no sweeps: an empty list in JSON: {r.returncode} {r.stdout!r} {r.stderr!r}")
 
 
 main()

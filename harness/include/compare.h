@@ -1,6 +1,7 @@
 /* compare.h — what changed between two results files, run by run and figure by figure,
  * for a developer's CI to gate on. Runs are matched by their configuration hash, then by
- * id; every figure of /summary (the list in run_figures.h) is compared, each as the
+ * id (and then their config texts say what differs, and whether the pair is judged);
+ * every figure of /summary (the list in run_figures.h) is compared, each as the
  * kind of figure it is: an error (smaller |x| is better), a cost (smaller is better), a
  * timing (the same, with a looser tolerance: timings are noisy), or a plain value
  * (changed or not). The definitions: README.md, "Comparing two results files". */
@@ -15,11 +16,19 @@
 typedef enum dm_change {
     DM_SAME = 0,         /* bit for bit (NaN and NaN alike) */
     DM_WITHIN,           /* within the tolerance */
+    DM_NOISE,            /* differs, but the figure is noise here (README.md, "Comparing
+                            two results files"): listed, judging nothing */
     DM_BETTER,
     DM_WORSE,
     DM_CHANGED,          /* a plain value (or a text) that differs */
     DM_ONLY_OLD,         /* the run is only in the old file */
-    DM_ONLY_NEW          /* ... only in the new one */
+    DM_ONLY_NEW,         /* ... only in the new one */
+    DM_BY_ID,            /* figure "config": the pair was matched by id only, its
+                            configurations differ in `keys`, all of them the method's
+                            settings or the buckets: its figures are judged */
+    DM_NOT_COMPARABLE    /* figure "config": matched by id only, the configurations differ
+                            in what is run or measured (`keys`: t_end, the problem, ...):
+                            its figures are not compared, and judge nothing */
 } dm_change;
 
 const char *dm_change_name(dm_change change);
@@ -38,20 +47,28 @@ typedef struct dm_difference {
     const char *figure;      /* the figure's name; "run" for a run in one file only */
     double old_value, new_value;
     char old_text[32], new_text[32];   /* for status figures */
+    char keys[160];          /* figure "config": the keys whose values differ, comma
+                                separated (cut with "..." when they do not fit) */
     double relative;         /* (new - old) / |old| (NaN when it means nothing) */
     dm_change change;
 } dm_difference;
 
 typedef struct dm_comparison {
     size_t runs_matched, runs_same, runs_within, runs_better, runs_worse, runs_changed;
+    size_t runs_not_comparable; /* matched by id only, not judged (DM_NOT_COMPARABLE):
+                                   matched, but in none of the counts above */
+    size_t runs_by_id;         /* matched by id only and judged (DM_BY_ID): also in one of
+                                  same ... changed */
     size_t only_old, only_new;
     size_t n;                /* differences listed */
     dm_difference *list;     /* owned: free() */
 } dm_comparison;
 
-/* Compares the summaries of two files. Fails only when out of memory. */
-dm_status dm_compare(const dm_summary_row *old_rows, size_t n_old,
-                     const dm_summary_row *new_rows, size_t n_new,
+/* Compares the summaries of two files, with each run's config text
+ * (dm_results_read_configs). Fails only when out of memory. */
+dm_status dm_compare(const dm_summary_row *old_rows, const char (*old_configs)[DM_CONFIG_MAX],
+                     size_t n_old, const dm_summary_row *new_rows,
+                     const char (*new_configs)[DM_CONFIG_MAX], size_t n_new,
                      const dm_compare_options *options, dm_comparison *out, dm_error *err);
 
 #endif

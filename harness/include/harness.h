@@ -304,7 +304,8 @@ void dm_run_order_longest_first(const dm_suite *suite, size_t *order, size_t n);
 
 /* Progress of a pool, called under its lock when a run starts or ends, and once at the
  * end with current "": runs done of total, the estimated fraction of the work done,
- * the run just started, seconds since the pool started. */
+ * the run just started (or just ended: its id, then ": STATUS" when it did not end ok),
+ * seconds since the pool started. */
 typedef void (*dm_pool_progress)(size_t done, size_t total, double work,
                                  const char *current, double elapsed);
 
@@ -551,8 +552,9 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
 
 /* Every sweep of the file at `path` (its /sweeps groups), in the order of the runs
  * of /summary, into a new array (free with dm_sweep_summaries_free). A file that is not
- * ours, or a sweep whose attributes or datasets are not as results/README.md says, is
- * DM_EINPUT with one line naming it. */
+ * ours, a file without /sweeps (damaged: every file has it), or a sweep whose attributes
+ * or datasets are not as results/README.md says, is DM_EINPUT with one line naming it.
+ * A schema 1 file has none to show. */
 dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, size_t *n,
                                  dm_error *err);
 
@@ -592,5 +594,11 @@ size_t dm_sweeps_listed(const dm_sweep_summary *sweeps, size_t n);
 /* Reads /summary back from a results file (for `show`). Allocates *rows. */
 dm_status dm_results_read_summary(const char *path, dm_summary_row **rows, size_t *n,
                                   dm_error *err);
+
+/* The `config` text of each of the n runs of `rows` (their /summary, read from the file
+ * at `path`), read from /runs/<id>, into a new array in the order of `rows` (free it).
+ * A run without its group or its config is DM_EINPUT with one line naming it. */
+dm_status dm_results_read_configs(const char *path, const dm_summary_row *rows, size_t n,
+                                  char (**configs)[DM_CONFIG_MAX], dm_error *err);
 
 #endif
