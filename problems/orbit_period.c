@@ -231,6 +231,43 @@ static double adapt(integrand *in, double a, double b, double *rel_error)
     }
 }
 
+/* Golden-section search of E - V on [a, b] for its lowest value (sign -1) or its
+ * highest (sign +1): at most max_it steps, ending early when the two probes meet (adjacent
+ * doubles) or the highest is infinite. Sign -1 looks for E - V < 0 only: returns the
+ * first probe where it is, or NAN. Sign +1 returns the higher of the last two probes.
+ * *f: E - V at what is returned. */
+static double golden_search(dm_potential_fn V, void *data, double E, double sign, double a,
+                            double b, int max_it, double *f)
+{
+    const double r = 0.5 * (3.0 - sqrt(5.0));
+    double x1 = a + r * (b - a), x2 = b - r * (b - a);
+    double f1 = E - V(data, x1), f2 = E - V(data, x2);
+    for (int it = 0; it < max_it; it++) {
+        if (sign < 0.0 && (f1 < 0.0 || f2 < 0.0)) {
+            *f = f1 < 0.0 ? f1 : f2;
+            return f1 < 0.0 ? x1 : x2;
+        }
+        if (sign > 0.0 && !(x1 < x2 && f1 < INFINITY && f2 < INFINITY))
+            break;
+        if (sign * f1 > sign * f2) {
+            b = x2, x2 = x1, f2 = f1;
+            x1 = a + r * (b - a);
+            f1 = E - V(data, x1);
+        } else {
+            a = x1, x1 = x2, f1 = f2;
+            x2 = b - r * (b - a);
+            f2 = E - V(data, x2);
+        }
+    }
+    if (sign < 0.0) {
+        *f = NAN; /* no probe below zero */
+        return NAN;
+    }
+    bool first = f1 > f2 || f1 == INFINITY;
+    *f = first ? f1 : f2;
+    return first ? x1 : x2;
+}
+
 /* Within one step from a point `a` inside the orbit (E - V >= 0) to a point `b` also
  * inside: is there a forbidden zone between them (a barrier the step went over)? The
  * midpoint is tested; when it lies below the chord (E - V dips) the dip's bottom is
@@ -243,25 +280,12 @@ static double zone_between(dm_potential_fn V, void *data, double E, double a, do
         return m;
     if (!(fm < 0.5 * (fa + fb)))
         return NAN;
-    const double r = 0.5 * (3.0 - sqrt(5.0));
-    double x1 = a + r * (b - a), x2 = b - r * (b - a);
-    double f1 = E - V(data, x1), f2 = E - V(data, x2);
-    for (int it = 0; it < 80; it++) {
-        if (f1 < 0.0)
-            return x1;
-        if (f2 < 0.0)
-            return x2;
-        if (f1 < f2) {
-            b = x2, x2 = x1, f2 = f1;
-            x1 = a + r * (b - a);
-            f1 = E - V(data, x1);
-        } else {
-            a = x1, x1 = x2, f1 = f2;
-            x2 = b - r * (b - a);
-            f2 = E - V(data, x2);
-        }
-    }
-    return NAN;
+    /* 80 steps narrow the bracket to 2e-17 of the step and no further: a search left to
+     * converge onto an end where E - V is 0 (a start at its turning point) finds a
+     * rounding of E - V below zero there, a false zone (the pendulum's period came out
+     * three times too long when the 81st probe was looked at) */
+    double f, x = golden_search(V, data, E, -1.0, a, b, 80, &f);
+    return f < 0.0 ? x : NAN;
 }
 
 /* The turning point on one side (direction +1 or -1) of q0: stepped out to the first
@@ -377,23 +401,9 @@ static double singular_point(dm_potential_fn V, void *data, double E, double qm,
     }
     double a = qm + width * (best > 0 ? best - 1 : 0) / N;
     double b = qm + width * (best < N ? best + 1 : N) / N;
-    const double r = 0.5 * (3.0 - sqrt(5.0));
-    double x1 = a + r * (b - a), x2 = b - r * (b - a);
-    double f1 = E - V(data, x1), f2 = E - V(data, x2);
-    for (int it = 0; it < 200 && x1 < x2 && f1 < INFINITY && f2 < INFINITY; it++) {
-        if (f1 > f2) {
-            b = x2, x2 = x1, f2 = f1;
-            x1 = a + r * (b - a);
-            f1 = E - V(data, x1);
-        } else {
-            a = x1, x1 = x2, f1 = f2;
-            x2 = b - r * (b - a);
-            f2 = E - V(data, x2);
-        }
-    }
-    double x = f1 > f2 ? x1 : x2;
-    if (fmax(f1, f2) == INFINITY)
-        return f1 == INFINITY ? x1 : x2;
+    double f, x = golden_search(V, data, E, 1.0, a, b, 200, &f);
+    if (f == INFINITY)
+        return x;
     /* the rise of max(E - V(x - h), E - V(x + h)) at each halving of h */
     double rise[1100], last = NAN;
     int k = 0;
