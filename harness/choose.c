@@ -79,10 +79,14 @@ typedef struct group {
     const dm_summary_row *const *rows;
     size_t n;
     const dm_target *target;
-    dm_sweep_fit fit;
+    dm_sweep_fit fit;            /* the sweep's fit at the measured horizon */
+    /* The energy fit at the target's horizon: the runs fit's energy fit uses, each
+     * max |dE| grown by its own drift law (run_growth); fit's when not extended. */
+    dm_sweep_fit far;
+    double *growth;              /* by row: run_growth (NaN: cannot be extended) */
+    bool extended;               /* the target's horizon is longer than a run's */
     dm_line_fit cost_line;       /* log cost per period against log x, ok runs */
     double seconds_per_eval;     /* median wall seconds per force evaluation, ok runs */
-    double factor;               /* max |dE| growth to the target horizon */
 } group;
 
 static int by_value(const void *a, const void *b)
@@ -91,43 +95,52 @@ static int by_value(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-/* The growth of max |dE| from the measured horizon to the target's, from the drift law
- * of the runs the energy fit uses; false (with the reason) when it cannot be known. */
-static bool horizon_growth(group *g, dm_choice *c)
+/* A run's growth of max |dE| from its own horizon to the target's, by its own drift
+ * law: 1 when the target's is no longer or the run is bounded (its drift class: the
+ * bound holds over any horizon), (N'/N)^p for a run whose error grows as t^p, NaN when
+ * p is unmeasured. Each run by its own law: a coarse step that drifts says nothing of a
+ * finer one that is bounded (a symplectic method near its stability limit), nor a fine
+ * step whose round-off walks of a coarse one bounded by its truncation error. */
+static double run_growth(const dm_summary_row *r, double want)
 {
-    double measured = INFINITY, q = 0.0;
-    bool all_bounded = true, unknown = false;
+    double measured = periods_of(r);
+    if (isnan(want) || !(want > measured * (1.0 + 1e-9)))
+        return 1.0;
+    if (strcmp(r->drift_class, "bounded") == 0)
+        return 1.0;
+    if (!isfinite(r->drift_exponent))
+        return NAN;
+    return pow(want / measured, r->drift_exponent);
+}
+
+/* The horizon rule of the ok runs a fit uses (use not NULL), of run `only` (not
+ * SIZE_MAX), or of all: "measured horizon", "bounded", "exponent p" or "exponents p..q". */
+static void horizon_rule(const group *g, const unsigned char *use, size_t only, dm_choice *c)
+{
+    double lo = INFINITY, hi = -INFINITY;
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
-        if (!ok_row(r))
+        if (!ok_row(r) || (use != NULL && use[i] != DM_FIT_USED) ||
+            (only != SIZE_MAX && i != only) || g->growth[i] == 1.0)
             continue;
-        measured = fmin(measured, periods_of(r));
-        if (strcmp(r->drift_class, "bounded") != 0)
-            all_bounded = false;
-        if (isnan(r->drift_exponent))
-            unknown = true;
-        else
-            q = fmax(q, r->drift_exponent);
+        lo = fmin(lo, r->drift_exponent);
+        hi = fmax(hi, r->drift_exponent);
     }
-    double want = g->target->periods;
-    g->factor = 1.0;
-    if (isnan(want) || !(want > measured * (1.0 + 1e-9))) {
+    if (!g->extended)
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "measured horizon");
-        return true;
-    }
-    if (all_bounded) {
+    else if (!(hi >= lo))
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "bounded");
-        return true;
-    }
-    if (unknown) {
-        snprintf(c->why_not, sizeof c->why_not,
-                 "cannot extend %.3g measured periods to %.3g: a drift exponent is unmeasured",
-                 measured, want);
-        return false;
-    }
-    g->factor = pow(want / measured, q);
-    snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponent %.2f", q);
-    return true;
+    else if (hi - lo < 0.005)
+        snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponent %.2f", hi);
+    else
+        snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponents %.2f..%.2f", lo, hi);
+}
+
+/* The horizon growth and rule of run i alone into *c. */
+static void run_horizon(const group *g, size_t i, dm_choice *c)
+{
+    horizon_rule(g, NULL, i, c);
+    c->horizon_factor = g->growth[i];
 }
 
 static double cost_at(const group *g, double x)
@@ -152,31 +165,40 @@ static double margin_of(const dm_target *t, double energy, double phase)
     return m;
 }
 
-/* The cheapest ok run that meets the target as measured (scaled to the horizon). */
-static const dm_summary_row *best_measured(const group *g, double *closeness)
+/* The cheapest ok run that meets the target as measured (grown to the horizon), or
+ * SIZE_MAX; *closest: the run nearest to meeting it, *closeness its predicted / target. */
+static size_t best_measured(const group *g, double *closeness, size_t *closest)
 {
-    const dm_summary_row *best = NULL;
+    size_t best = SIZE_MAX;
     *closeness = INFINITY;
+    *closest = SIZE_MAX;
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
         if (!ok_row(r))
             continue;
-        double m = margin_of(g->target, r->max_energy_error * g->factor,
+        if (isnan(g->growth[i]))
+            continue;
+        double m = margin_of(g->target, r->max_energy_error * g->growth[i],
                              fabs(r->phase_error_per_period));
-        *closeness = fmin(*closeness, m > 0.0 ? 1.0 / m : INFINITY);
-        if (m >= 1.0 && (best == NULL || r->force_evals_per_period < best->force_evals_per_period))
-            best = r;
+        double over = m > 0.0 ? 1.0 / m : INFINITY;
+        if (*closest == SIZE_MAX || over < *closeness)
+            *closeness = over, *closest = i;
+        if (m >= 1.0 && (best == SIZE_MAX ||
+                         r->force_evals_per_period < g->rows[best]->force_evals_per_period))
+            best = i;
     }
     return best;
 }
 
 /* The names of the two fits (0: max |dE|, 1: phase per period) and of their columns. */
 static const char *const fit_what[2] = { "energy", "phase" };
+/* ... and the energy fit's name when its errors are grown to a longer horizon */
+#define FIT_WHAT(g, k) ((k) == 0 && (g)->extended ? "energy (at the horizon asked)" : fit_what[k])
 static const char *const fit_column[2] = { "max |dE|", "phase/per" };
 
 static const dm_line_fit *fit_line(const group *g, int k)
 {
-    return k == 0 ? &g->fit.energy_line : &g->fit.phase_line;
+    return k == 0 ? &g->far.energy_line : &g->fit.phase_line;
 }
 
 /* Whether fit k cannot be read (no step is read off it, nothing is predicted from it),
@@ -184,23 +206,23 @@ static const dm_line_fit *fit_line(const group *g, int k)
 static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
 {
     const dm_line_fit *l = fit_line(g, k);
-    size_t n = k == 0 ? g->fit.n_energy_points : g->fit.n_phase_points;
+    size_t n = k == 0 ? g->far.n_energy_points : g->fit.n_phase_points;
     double p = dm_line_fit_slope(l);
     double rms = dm_line_fit_rms_residual(l) / log(10.0);
-    double lo = k == 0 ? g->fit.energy_local_min : g->fit.phase_local_min;
-    double hi = k == 0 ? g->fit.energy_local_max : g->fit.phase_local_max;
-    bool trend = k == 0 ? g->fit.energy_trend : g->fit.phase_trend;
+    double lo = k == 0 ? g->far.energy_local_min : g->fit.phase_local_min;
+    double hi = k == 0 ? g->far.energy_local_max : g->fit.phase_local_max;
+    bool trend = k == 0 ? g->far.energy_trend : g->fit.phase_trend;
     if (n < CHOOSE_MIN_POINTS)
         snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off a fit "
-                 "of %d or more)", fit_what[k], n, CHOOSE_MIN_POINTS);
+                 "of %d or more)", FIT_WHAT(g, k), n, CHOOSE_MIN_POINTS);
     else if (!(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS))
         snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g decades; "
-                 "needs order > 0, rms <= %.2f)", fit_what[k], p, rms, CHOOSE_MAX_FIT_RMS);
+                 "needs order > 0, rms <= %.2f)", FIT_WHAT(g, k), p, rms, CHOOSE_MAX_FIT_RMS);
     else if (hi - lo > DM_LOCAL_ORDER_SPREAD || trend) /* the sweep table's * and ~ */
         snprintf(why, why_size, "its %s fit mixes regimes (orders between neighbouring "
                  "steps %.2f..%.2f%s; a step is read off a fit whose orders differ by at most "
                  "%.2f and do not move one way by more than %.0f %% of the order)",
-                 fit_what[k], lo, hi, trend ? ", moving one way" : "",
+                 FIT_WHAT(g, k), lo, hi, trend ? ", moving one way" : "",
                  DM_LOCAL_ORDER_SPREAD, 100.0 * DM_ORDER_TREND);
     else
         return false;
@@ -212,7 +234,6 @@ static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
 static void predict(const group *g, double x, dm_choice *c)
 {
     double *out[2] = { &c->energy_error, &c->phase_per_period };
-    const double scale[2] = { g->factor, 1.0 };
     c->not_predicted[0] = '\0';
     for (int k = 0; k < 2; k++) {
         char why[DM_CHOICE_TEXT];
@@ -223,7 +244,7 @@ static void predict(const group *g, double x, dm_choice *c)
                      "%s", at ? "; " : "", fit_column[k], why);
             continue;
         }
-        *out[k] = exp(dm_line_fit_at(fit_line(g, k), log(x))) * scale[k];
+        *out[k] = exp(dm_line_fit_at(fit_line(g, k), log(x)));
     }
 }
 
@@ -233,7 +254,7 @@ static double fitted_x(const group *g, char *why, size_t why_size)
 {
     double x = INFINITY;
     const dm_target *t = g->target;
-    const double target[2] = { t->max_energy_error / g->factor, t->phase_per_period };
+    const double target[2] = { t->max_energy_error, t->phase_per_period };
     for (int k = 0; k < 2; k++) {
         if (isnan(target[k]))
             continue;
@@ -266,18 +287,31 @@ static const dm_summary_row *bad_run_in_range(const group *g, double x)
 static dm_status group_fits(group *g, const char *name, dm_error *err)
 {
     dm_fit_input *in = calloc(g->n ? g->n : 1, sizeof *in);
+    double *fx = calloc(g->n ? g->n : 1, sizeof *fx), *fy = calloc(g->n ? g->n : 1, sizeof *fy);
     double *spe = calloc(g->n ? g->n : 1, sizeof *spe);
-    if (in == NULL || spe == NULL) {
+    g->growth = calloc(g->n ? g->n : 1, sizeof *g->growth);
+    if (in == NULL || fx == NULL || fy == NULL || spe == NULL || g->growth == NULL) {
         free(in);
+        free(fx);
+        free(fy);
         free(spe);
         return dm_error_set(err, DM_ENOMEM, "out of memory choosing for %s", name);
     }
     size_t ns = 0;
+    const double want = g->target->periods;
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
         in[i] = (dm_fit_input){ .x = x_of(r), .status = dm_run_status_named(r->status),
                                 .steps = r->steps, .max_energy_error = r->max_energy_error,
                                 .phase_error_per_period = r->phase_error_per_period };
+        /* at the target's horizon: which runs the fit uses is judged at the measured
+         * one (an error grown past 1/10 is still from a step in the regime of h^p);
+         * the line goes through the grown errors */
+        g->growth[i] = run_growth(r, want);
+        g->extended = g->extended ||
+                      (ok_row(r) && !isnan(want) && want > periods_of(r) * (1.0 + 1e-9));
+        fx[i] = x_of(r);
+        fy[i] = r->max_energy_error * g->growth[i];
         if (ok_row(r) && r->force_evals_per_period > 0.0 && isfinite(r->force_evals_per_period)) {
             dm_line_fit_add(&g->cost_line, log(x_of(r)), log(r->force_evals_per_period));
             if (r->force_evals > 0 && isfinite(r->wall_seconds))
@@ -287,7 +321,11 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
     qsort(spe, ns, sizeof *spe, by_value);
     g->seconds_per_eval = ns ? spe[ns / 2] : NAN;
     dm_status st = dm_fit_points(name, in, g->n, &g->fit, err);
+    if (st == DM_OK)
+        st = dm_fit_energy_through(&g->fit, fx, fy, &g->far, err);
     free(in);
+    free(fx);
+    free(fy);
     free(spe);
     return st;
 }
@@ -309,22 +347,42 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     dm_status st = group_fits(g, c->method, err);
     if (st != DM_OK)
         return st;
-    c->n_points = g->fit.n_energy_points;
-    c->fit_rms = dm_line_fit_rms_residual(&g->fit.energy_line) / log(10.0);
-    if (!horizon_growth(g, c))
-        return DM_OK;
-    c->horizon_factor = g->factor;
+    c->n_points = g->far.n_energy_points;
+    c->fit_rms = dm_line_fit_rms_residual(&g->far.energy_line) / log(10.0);
+    c->horizon_factor = 1.0;
+    if (g->extended) {
+        double measured = INFINITY;
+        bool any = false;
+        for (size_t i = 0; i < g->n; i++)
+            if (ok_row(g->rows[i])) {
+                measured = fmin(measured, periods_of(g->rows[i]));
+                any = any || !isnan(g->growth[i]);
+            }
+        if (!any) {
+            snprintf(c->horizon_rule, sizeof c->horizon_rule, "unmeasured");
+            snprintf(c->why_not, sizeof c->why_not, "cannot extend %.3g measured periods to "
+                     "%.3g: no run's drift exponent is measured", measured,
+                     g->target->periods);
+            return DM_OK;
+        }
+    }
+    horizon_rule(g, NULL, SIZE_MAX, c); /* of every ok run, until the answer names its runs */
     double closeness;
-    const dm_summary_row *m = best_measured(g, &closeness);
+    size_t closest, mi = best_measured(g, &closeness, &closest);
+    const dm_summary_row *m = mi == SIZE_MAX ? NULL : g->rows[mi];
     c->closeness = closeness;
     char why[DM_CHOICE_TEXT] = "";
     double xf = fitted_x(g, why, sizeof why);
     /* the fitted step is used where it is cheaper than the best measured run */
     bool use_fit = !isnan(xf) && (m == NULL || xf > x_of(m) * (1.0 + 1e-12));
     if (use_fit) {
+        /* the range of the fits the targets are read off */
+        bool on_energy = !isnan(g->target->max_energy_error);
+        bool on_phase = !isnan(g->target->phase_per_period);
         double lo = INFINITY, hi = 0.0;
         for (size_t i = 0; i < g->n; i++)
-            if (g->fit.energy_use[i] == DM_FIT_USED || g->fit.phase_use[i] == DM_FIT_USED) {
+            if ((on_energy && g->far.energy_use[i] == DM_FIT_USED) ||
+                (on_phase && g->fit.phase_use[i] == DM_FIT_USED)) {
                 lo = fmin(lo, x_of(g->rows[i]));
                 hi = fmax(hi, x_of(g->rows[i]));
             }
@@ -341,17 +399,26 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
             c->beyond = xf < lo ? lo / xf : 1.0;
             predict(g, xf, c);
             c->cost_per_period = cost_at(g, xf);
+            /* the growth at xf: the two energy lines' ratio there */
+            c->horizon_factor = g->far.n_energy_points >= 2 && g->fit.n_energy_points >= 2
+                ? exp(dm_line_fit_at(&g->far.energy_line, log(xf)) -
+                      dm_line_fit_at(&g->fit.energy_line, log(xf)))
+                : NAN;
+            horizon_rule(g, g->far.energy_use, SIZE_MAX, c);
         }
     }
     if (!use_fit && m != NULL) {
         c->x = x_of(m);
         c->basis = DM_BASIS_MEASURED;
         snprintf(c->run_id, sizeof c->run_id, "%s", m->run_id);
-        c->energy_error = m->max_energy_error * g->factor;
+        c->energy_error = m->max_energy_error * g->growth[mi];
+        run_horizon(g, mi, c);
         c->phase_per_period = fabs(m->phase_error_per_period);
         c->cost_per_period = m->force_evals_per_period;
     }
     if (c->basis == DM_BASIS_NONE) {
+        if (closest != SIZE_MAX)
+            run_horizon(g, closest, c);
         char best[64] = "no run ended ok";
         if (isfinite(closeness))
             snprintf(best, sizeof best, "its best run is %.3g times over it", closeness);
@@ -419,9 +486,11 @@ dm_status dm_choose(const dm_summary_row *rows, size_t n, const dm_target *targe
         for (size_t i = 0; i < n; i++)
             if (group_of[i] == k)
                 members[m++] = &rows[i];
-        group g = { .rows = members, .n = m, .target = target, .factor = 1.0 };
+        group g = { .rows = members, .n = m, .target = target };
         st = answer_group(&g, &out[k], err);
         dm_sweep_fit_free(&g.fit);
+        dm_sweep_fit_free(&g.far);
+        free(g.growth);
     }
     free(members);
     free(group_of);

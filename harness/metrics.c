@@ -401,14 +401,17 @@ static double pair_order(const fit_point *p, const fit_point *q, const double *y
     return (log(y[q->slot]) - log(y[p->slot])) / (log(q->x) - log(p->x));
 }
 
+static void line_orders(const fit_point *pts, size_t n, const double *y,
+                        const unsigned char *use, dm_line_fit *line, double *local_min,
+                        double *local_max, bool *trend);
+
 /* One fit over the points `use` still marks used, `pts` sorted by x, errors |y| by slot:
  *  1. the round-off tail: while two coarser points remain, the finest point is left out
  *     (round_off) when its error is within FIT_ROUND_OFF_NEAR eps sqrt(steps) and the
  *     order between it and its coarser neighbour is more than DM_LOCAL_ORDER_SPREAD
  *     below the next order up the sweep: the error stopped falling as it did, where
  *     round-off can account for it;
- *  2. the least-squares line, the range of the orders between neighbours and whether
- *     those move one way along the whole sweep by more than DM_ORDER_TREND of the order. */
+ *  2. line_orders. */
 static void fit_one(const fit_point *pts, size_t n, const double *y, const double *root_steps,
                     unsigned char *use, dm_line_fit *line, double *local_min,
                     double *local_max, bool *trend)
@@ -428,6 +431,16 @@ static void fit_one(const fit_point *pts, size_t n, const double *y, const doubl
             break;
         use[f->slot] = DM_FIT_ROUND_OFF;
     }
+    line_orders(pts, n, y, use, line, local_min, local_max, trend);
+}
+
+/* The least-squares line through the points `use` marks used (`pts` sorted by x, |y| by
+ * slot), the range of the orders between neighbours and whether those move one way
+ * along the whole sweep by more than DM_ORDER_TREND of the order. */
+static void line_orders(const fit_point *pts, size_t n, const double *y,
+                        const unsigned char *use, dm_line_fit *line, double *local_min,
+                        double *local_max, bool *trend)
+{
     *line = (dm_line_fit){ 0 };
     *local_min = *local_max = NAN;
     double first = NAN, last = NAN, dir = 0.0;
@@ -637,4 +650,34 @@ dm_run_status dm_run_status_named(const char *name)
         if (strcmp(name, dm_run_status_name(all[i])) == 0)
             return all[i];
     return DM_RUN_NOT_RUN;
+}
+
+dm_status dm_fit_energy_through(const dm_sweep_fit *fit, const double *x, const double *y,
+                                dm_sweep_fit *out, dm_error *err)
+{
+    size_t n = fit->n_runs;
+    *out = (dm_sweep_fit){ .energy_order = NAN, .phase_order = NAN, .n_runs = n,
+                           .energy_local_min = NAN, .energy_local_max = NAN,
+                           .phase_local_min = NAN, .phase_local_max = NAN };
+    out->energy_use = malloc(n ? n : 1);
+    fit_point *pts = calloc(n ? n : 1, sizeof *pts);
+    if (out->energy_use == NULL || pts == NULL) {
+        free(pts);
+        dm_sweep_fit_free(out);
+        return dm_error_set(err, DM_ENOMEM, "out of memory refitting %zu runs", n);
+    }
+    for (size_t i = 0; i < n; i++) {
+        pts[i] = (fit_point){ .slot = i, .x = x[i] };
+        bool usable = fit->energy_use[i] == DM_FIT_USED && y[i] > 0.0 && isfinite(y[i]);
+        out->energy_use[i] = usable ? DM_FIT_USED
+                             : fit->energy_use[i] == DM_FIT_USED ? DM_FIT_NO_VALUE
+                                                                 : fit->energy_use[i];
+    }
+    qsort(pts, n, sizeof *pts, by_x);
+    line_orders(pts, n, y, out->energy_use, &out->energy_line, &out->energy_local_min,
+                &out->energy_local_max, &out->energy_trend);
+    out->energy_order = dm_line_fit_slope(&out->energy_line);
+    out->n_energy_points = (size_t)out->energy_line.n;
+    free(pts);
+    return DM_OK;
 }

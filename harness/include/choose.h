@@ -8,7 +8,7 @@
  * fitted line, and its cost is read off a second line through the group's costs. How
  * each number was obtained is part of the answer: measured, interpolated inside the
  * measured range, or extrapolated beyond it (and how far); a horizon longer than the
- * measured one is reached with the measured drift law. Groups that cannot be trusted
+ * measured one is reached with each run's own measured drift law. Groups that cannot be trusted
  * are not ranked, with the reason. The definitions: README.md, "Choosing a method".
  */
 #ifndef DM_CHOOSE_H
@@ -56,7 +56,8 @@ typedef struct dm_choice {
                                         not predicted (NaN): which, and why; or "" */
     double margin;                   /* smallest target / predicted over the targets */
     double horizon_factor;           /* growth of max |dE| from the measured horizon */
-    char horizon_rule[48];           /* "measured horizon", "bounded", "exponent 0.98" */
+    char horizon_rule[48];           /* "measured horizon", "bounded", "exponent 0.98",
+                                        "exponents 0.50..1.00", "unmeasured" */
     double fit_rms;                  /* rms residual of the energy fit in log10 (NaN: none) */
     size_t n_points;                 /* runs in the energy fit */
     double closeness;                /* largest predicted / target of its best run (> 1

@@ -422,6 +422,12 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
                                const dm_run_result *results, dm_sweep_fit *fit,
                                dm_error *err);
 void dm_sweep_fit_free(dm_sweep_fit *fit);
+/* The energy fit of `fit` through other errors y[i] at the same x[i] (its n_runs runs;
+ * choose: each run's max |dE| grown to a longer horizon): the runs fit's energy fit uses
+ * (those whose y is not a positive number become no_value), the line, the local
+ * orders and their trend; *out has no phase fit. Fails only when out of memory. */
+dm_status dm_fit_energy_through(const dm_sweep_fit *fit, const double *x, const double *y,
+                                dm_sweep_fit *out, dm_error *err);
 
 /* What the sweep table shows of one sweep, from a run's fits or read back from
  * /sweeps/<name> (results/README.md): the fitted orders, their point counts and each

@@ -1,0 +1,171 @@
+/* test_choose.c — how choose carries a sweep to a longer horizon than it was run over.
+ *
+ * The rows are built here with errors that follow a power law exactly (C h^p), so the
+ * answer is known in advance from the rule itself (README.md, "Choosing a method"): each
+ * run's max |dE| grows by its own drift law, (N'/N)^q, or not at all when it is bounded.
+ * tests/check_choose.py checks the same command on real runs. */
+#include <math.h>
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <cmocka.h>
+
+#include "choose.h"
+
+#define MEASURED_PERIODS 1000.0
+
+/* A run of `method` at step h over MEASURED_PERIODS periods of 2 pi, with max |dE| =
+ * energy and the drift exponent q (its class as the writer names it). */
+static dm_summary_row row(const char *method, double h, double energy, double q)
+{
+    dm_summary_row r;
+    memset(&r, 0, sizeof r);
+    snprintf(r.run_id, sizeof r.run_id, "spring-k1.%s-h%.17g", method, h);
+    snprintf(r.method, sizeof r.method, "%s", method);
+    snprintf(r.status, sizeof r.status, "ok");
+    snprintf(r.drift_class, sizeof r.drift_class, "%s",
+             dm_drift_class_name(dm_drift_classify(q)));
+    r.h = h;
+    r.rtol = NAN;
+    r.period_exact = 2.0 * M_PI;
+    r.force_evals_per_period = 2.0 * M_PI / h;
+    r.steps = (uint64_t)llround(MEASURED_PERIODS * r.force_evals_per_period);
+    r.force_evals = r.steps;
+    r.force_evals_per_period = (double)r.force_evals / MEASURED_PERIODS;
+    r.wall_seconds = 1e-8 * (double)r.force_evals;
+    r.max_energy_error = energy;
+    r.phase_error_per_period = 0.1 * energy;
+    r.drift_exponent = q;
+    return r;
+}
+
+static dm_choice choose_one(const dm_summary_row *rows, size_t n, double energy, double periods)
+{
+    dm_target t = { .max_energy_error = energy, .phase_per_period = NAN, .periods = periods };
+    dm_choice *c = NULL;
+    size_t nc = 0;
+    bool all = false;
+    dm_error err = { 0 };
+    assert_int_equal(dm_choose(rows, n, &t, &c, &nc, &all, &err), DM_OK);
+    assert_int_equal(nc, 1);
+    dm_choice one = c[0];
+    free(c);
+    print_message("%s: ranked %d basis %s x %.17g E %.6g factor %.6g rule '%s' why '%s'\n",
+                  one.method, one.ranked, dm_choice_basis_name(one.basis), one.x,
+                  one.energy_error, one.horizon_factor, one.horizon_rule, one.why_not);
+    return one;
+}
+
+static const double steps_h[4] = { 0.1, 0.05, 0.025, 0.0125 };
+
+/* A fourth-order method whose coarsest step drifts linearly (near its stability limit)
+ * while the three finer ones are bounded: over 1000 times the horizon the coarse error
+ * grows 1000 times and the finer ones not at all. The finest run (2.44e-8) meets 1e-7 as
+ * it is. Before each run had its own law, the coarse run's exponent was applied to all:
+ * no run met the target and the fitted step came out 4 times finer than the finest. */
+static void a_coarse_drift_does_not_spread_to_bounded_steps(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("yoshida4", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 4), i == 0 ? 1.0 : 0.05);
+    dm_choice c = choose_one(r, 4, 1e-7, 1e3 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_MEASURED);
+    assert_true(c.x == 0.0125);
+    assert_true(c.energy_error == r[3].max_energy_error);
+    assert_true(c.horizon_factor == 1.0);
+    assert_string_equal(c.horizon_rule, "bounded");
+    assert_int_equal(c.n_points, 4); /* the fit at the horizon has them all ... */
+    /* ... and the grown coarse point bends its line (orders 14 then 4: rms 0.82 decades
+     * off it): no step is read off it, where the measured line alone would give one */
+    c = choose_one(r, 4, 1e-8, 1e3 * MEASURED_PERIODS);
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "energy (at the horizon asked) fit cannot be read"));
+}
+
+/* A fifth-order energy error (C h^5) drifting linearly at every step: over 10 times
+ * the horizon every error grows 10 times, so the step is where C h^5 = target / 10:
+ * h = 0.1 (1e-7 / 1e-3)^(1/5), inside the measured range. */
+static void linear_drift_grows_every_error_alike(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("rk4", steps_h[i], 1e-3 * pow(steps_h[i] / 0.1, 5), 1.0);
+    dm_choice c = choose_one(r, 4, 1e-6, 10.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_INTERPOLATED);
+    double h = 0.1 * pow(1e-4, 0.2);
+    assert_true(fabs(c.x / h - 1.0) < 1e-12);
+    assert_true(fabs(c.horizon_factor / 10.0 - 1.0) < 1e-12);
+    assert_string_equal(c.horizon_rule, "exponent 1.00");
+    /* the same sweep at its own horizon: the step where C h^5 = 1e-6 */
+    c = choose_one(r, 4, 1e-6, NAN);
+    assert_true(fabs(c.x / (0.1 * pow(1e-3, 0.2)) - 1.0) < 1e-12);
+    assert_string_equal(c.horizon_rule, "measured horizon");
+}
+
+/* Runs of different drift exponents: each grows by its own. Half-order steps apart,
+ * errors C h^4 with exponents 1 at the two coarse steps and 0.5 (round-off walking) at
+ * the two fine ones: over 100 times the horizon they grow 100 and 10 times, the line
+ * through them bends (orders 4, 7.3, 4: rms 0.22 decades off it) and the answer is the
+ * finest run as measured if it meets the target, else none. */
+static void each_run_grows_by_its_own_exponent(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("verlet", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 4), i < 2 ? 1.0 : 0.5);
+    dm_choice c = choose_one(r, 4, 2.5e-7, 100.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_MEASURED);
+    assert_true(c.x == 0.0125);
+    assert_true(fabs(c.horizon_factor / 10.0 - 1.0) < 1e-12);
+    assert_true(fabs(c.energy_error / (10.0 * r[3].max_energy_error) - 1.0) < 1e-12);
+    assert_string_equal(c.horizon_rule, "exponent 0.50");
+    c = choose_one(r, 4, 2e-7, 100.0 * MEASURED_PERIODS);
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "energy (at the horizon asked) fit cannot be read"));
+}
+
+/* A run whose drift exponent is unmeasured cannot be carried to a longer horizon: it
+ * drops out of the fit there; when every run's is, nothing can be said. */
+static void unmeasured_exponents_are_not_extended(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("verlet", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 2), i == 3 ? NAN : 0.0);
+    /* the finest (unmeasured) run would meet 1e-6 as measured; over a longer horizon
+     * only the three bounded ones count, and the line through them (order 2) gives
+     * h = 0.1 (1e-6 / 1e-4)^(1/2) = 0.01, 2.5 times finer than the finest of them */
+    dm_choice c = choose_one(r, 4, 1e-6, 10.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_EXTRAPOLATED);
+    assert_true(fabs(c.x / 0.01 - 1.0) < 1e-12);
+    assert_true(fabs(c.beyond / 2.5 - 1.0) < 1e-12);
+    assert_int_equal(c.n_points, 3);
+    for (int i = 0; i < 4; i++)
+        r[i] = row("verlet", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 2), NAN);
+    c = choose_one(r, 4, 1e-6, 10.0 * MEASURED_PERIODS);
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "cannot extend"));
+    c = choose_one(r, 4, 1e-6, MEASURED_PERIODS); /* its own horizon: nothing to extend */
+    assert_true(c.ranked);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(a_coarse_drift_does_not_spread_to_bounded_steps),
+        cmocka_unit_test(linear_drift_grows_every_error_alike),
+        cmocka_unit_test(each_run_grows_by_its_own_exponent),
+        cmocka_unit_test(unmeasured_exponents_are_not_extended),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}
