@@ -72,6 +72,13 @@ static void print_text(const dm_choice *c, size_t n)
                        c[k].why_not[0] ? c[k].why_not : "it does not meet the target");
         i = end;
     }
+    bool carried = false;
+    for (size_t k = 0; k < n; k++)
+        carried = carried || (c[k].ranked && strcmp(c[k].horizon_rule, "measured horizon") != 0);
+    if (carried)
+        printf("\nhorizon: an answer carried past the horizon its runs measured assumes each "
+               "run's drift law (or bound)\nholds that long; near a method's stability limit "
+               "it may not: confirm the step chosen with one run\nover the whole horizon\n");
 }
 
 /* The numbers of a choice, by name (CSV header and JSON key) and field: one list, so
@@ -155,7 +162,9 @@ static void print_closest(const dm_choice *c, size_t n)
                 best = end;
             end++;
         }
-        if (!answered && !isfinite(c[best].closeness))
+        /* a best run within the target that is still not ranked (refused for another
+         * reason): its reason, not "0.07 times over it" */
+        if (!answered && !(isfinite(c[best].closeness) && c[best].closeness > 1.0))
             fprintf(stderr, "driftmark: choose: %s: no method ranked: %s\n", c[i].variant,
                     c[best].why_not);
         else if (!answered)

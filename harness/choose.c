@@ -1,5 +1,6 @@
 /* choose.c — the cheapest method for a target, from a results file's summary
  * (choose.h; definitions in README.md, "Choosing a method"). */
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -84,6 +85,8 @@ typedef struct group {
      * max |dE| grown by its own drift law (run_growth); fit's when not extended. */
     dm_sweep_fit far;
     double *growth;              /* by row: run_growth (NaN: cannot be extended) */
+    double *grown;               /* by row: max |dE| at the target's horizon (growth, and
+                                    never under the round-off floor there); NaN: unknown */
     bool extended;               /* the target's horizon is longer than a run's */
     dm_line_fit cost_line;       /* log cost per period against log x, ok runs */
     double seconds_per_eval;     /* median wall seconds per force evaluation, ok runs */
@@ -130,17 +133,22 @@ static void horizon_rule(const group *g, const unsigned char *use, size_t only, 
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "measured horizon");
     else if (!(hi >= lo))
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "bounded");
-    else if (hi - lo < 0.005)
-        snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponent %.2f", hi);
-    else
-        snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponents %.2f..%.2f", lo, hi);
+    else {
+        char a[16], b[16];
+        snprintf(a, sizeof a, "%.2f", lo);
+        snprintf(b, sizeof b, "%.2f", hi);
+        if (strcmp(a, b) == 0) /* they differ only past the digits shown */
+            snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponent %s", a);
+        else
+            snprintf(c->horizon_rule, sizeof c->horizon_rule, "exponents %s..%s", a, b);
+    }
 }
 
 /* The horizon growth and rule of run i alone into *c. */
 static void run_horizon(const group *g, size_t i, dm_choice *c)
 {
     horizon_rule(g, NULL, i, c);
-    c->horizon_factor = g->growth[i];
+    c->horizon_factor = g->grown[i] / g->rows[i]->max_energy_error;
 }
 
 static double cost_at(const group *g, double x)
@@ -165,6 +173,22 @@ static double margin_of(const dm_target *t, double energy, double phase)
     return m;
 }
 
+/* Whether run i's phase error per period holds at the target's horizon: only when its
+ * energy error does not grow there. A drifting energy moves the period with it, so the
+ * phase error grows faster than the periods (as t^2 for a linear drift). */
+static bool phase_carried(const group *g, size_t i)
+{
+    return g->growth[i] == 1.0;
+}
+
+/* Why the phase per period is not carried to the target's horizon (see phase_carried). */
+static void phase_not_carried(const group *g, char *why, size_t why_size)
+{
+    snprintf(why, why_size, "its runs' energy drifts, and the period with it: a phase "
+             "error per period measured over %.3g periods does not hold over %.3g",
+             periods_of(g->rows[0]), g->target->periods);
+}
+
 /* The cheapest ok run that meets the target as measured (grown to the horizon), or
  * SIZE_MAX; *closest: the run nearest to meeting it, *closeness its predicted / target. */
 static size_t best_measured(const group *g, double *closeness, size_t *closest)
@@ -176,10 +200,10 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest)
         const dm_summary_row *r = g->rows[i];
         if (!ok_row(r))
             continue;
-        if (isnan(g->growth[i]))
+        if (isnan(g->grown[i]))
             continue;
-        double m = margin_of(g->target, r->max_energy_error * g->growth[i],
-                             fabs(r->phase_error_per_period));
+        double m = margin_of(g->target, g->grown[i],
+                             phase_carried(g, i) ? fabs(r->phase_error_per_period) : NAN);
         double over = m > 0.0 ? 1.0 / m : INFINITY;
         if (*closest == SIZE_MAX || over < *closeness)
             *closeness = over, *closest = i;
@@ -205,6 +229,12 @@ static const dm_line_fit *fit_line(const group *g, int k)
  * with the reason in why; the one test and the one wording of both. */
 static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
 {
+    if (k == 1)
+        for (size_t i = 0; i < g->n; i++)
+            if (g->fit.phase_use[i] == DM_FIT_USED && !phase_carried(g, i)) {
+                phase_not_carried(g, why, why_size);
+                return true;
+            }
     const dm_line_fit *l = fit_line(g, k);
     size_t n = k == 0 ? g->far.n_energy_points : g->fit.n_phase_points;
     double p = dm_line_fit_slope(l);
@@ -290,7 +320,9 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
     double *fx = calloc(g->n ? g->n : 1, sizeof *fx), *fy = calloc(g->n ? g->n : 1, sizeof *fy);
     double *spe = calloc(g->n ? g->n : 1, sizeof *spe);
     g->growth = calloc(g->n ? g->n : 1, sizeof *g->growth);
-    if (in == NULL || fx == NULL || fy == NULL || spe == NULL || g->growth == NULL) {
+    g->grown = calloc(g->n ? g->n : 1, sizeof *g->grown);
+    if (in == NULL || fx == NULL || fy == NULL || spe == NULL || g->growth == NULL ||
+        g->grown == NULL) {
         free(in);
         free(fx);
         free(fy);
@@ -306,12 +338,18 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
                                 .phase_error_per_period = r->phase_error_per_period };
         /* at the target's horizon: which runs the fit uses is judged at the measured
          * one (an error grown past 1/10 is still from a step in the regime of h^p);
-         * the line goes through the grown errors */
+         * the line goes through the grown errors, none under the round-off floor of
+         * the steps to that horizon (a bounded error does not stay under the walk of
+         * the rounding errors: 4 eps sqrt(steps)) */
         g->growth[i] = run_growth(r, want);
-        g->extended = g->extended ||
-                      (ok_row(r) && !isnan(want) && want > periods_of(r) * (1.0 + 1e-9));
+        bool longer = ok_row(r) && !isnan(want) && want > periods_of(r) * (1.0 + 1e-9);
+        g->extended = g->extended || longer;
+        g->grown[i] = r->max_energy_error * g->growth[i];
+        if (longer && !isnan(g->grown[i]))
+            g->grown[i] = fmax(g->grown[i], DM_ENERGY_ROUND_OFF_FLOOR * DBL_EPSILON *
+                                                sqrt((double)r->steps * want / periods_of(r)));
         fx[i] = x_of(r);
-        fy[i] = r->max_energy_error * g->growth[i];
+        fy[i] = g->grown[i];
         if (ok_row(r) && r->force_evals_per_period > 0.0 && isfinite(r->force_evals_per_period)) {
             dm_line_fit_add(&g->cost_line, log(x_of(r)), log(r->force_evals_per_period));
             if (r->force_evals > 0 && isfinite(r->wall_seconds))
@@ -359,6 +397,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
                 any = any || !isnan(g->growth[i]);
             }
         if (!any) {
+            c->closeness = INFINITY; /* no run can be judged there */
             snprintf(c->horizon_rule, sizeof c->horizon_rule, "unmeasured");
             snprintf(c->why_not, sizeof c->why_not, "cannot extend %.3g measured periods to "
                      "%.3g: no run's drift exponent is measured", measured,
@@ -399,6 +438,13 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
             c->beyond = xf < lo ? lo / xf : 1.0;
             predict(g, xf, c);
             c->cost_per_period = cost_at(g, xf);
+            /* never under the round-off floor of the steps to the horizon (fixed steps:
+             * their number is known) */
+            if (g->extended && !c->adaptive)
+                c->energy_error = fmax(c->energy_error,
+                                       DM_ENERGY_ROUND_OFF_FLOOR * DBL_EPSILON *
+                                           sqrt(g->target->periods * g->rows[0]->period_exact /
+                                                xf));
             /* the growth at xf: the two energy lines' ratio there */
             c->horizon_factor = g->far.n_energy_points >= 2 && g->fit.n_energy_points >= 2
                 ? exp(dm_line_fit_at(&g->far.energy_line, log(xf)) -
@@ -411,23 +457,48 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
         c->x = x_of(m);
         c->basis = DM_BASIS_MEASURED;
         snprintf(c->run_id, sizeof c->run_id, "%s", m->run_id);
-        c->energy_error = m->max_energy_error * g->growth[mi];
+        c->energy_error = g->grown[mi];
         run_horizon(g, mi, c);
         c->phase_per_period = fabs(m->phase_error_per_period);
+        c->not_predicted[0] = '\0';
+        if (!phase_carried(g, mi)) {
+            c->phase_per_period = NAN;
+            char text[DM_CHOICE_TEXT - 32];
+            phase_not_carried(g, text, sizeof text);
+            snprintf(c->not_predicted, sizeof c->not_predicted, "%s not predicted: %s",
+                     fit_column[1], text);
+        }
         c->cost_per_period = m->force_evals_per_period;
     }
     if (c->basis == DM_BASIS_NONE) {
         if (closest != SIZE_MAX)
             run_horizon(g, closest, c);
-        char best[64] = "no run ended ok";
+        char best[96] = "no run ended ok";
         if (isfinite(closeness))
             snprintf(best, sizeof best, "its best run is %.3g times over it", closeness);
+        else if (closest != SIZE_MAX)
+            snprintf(best, sizeof best, "none of its runs can be judged on every target "
+                     "over that horizon");
         snprintf(c->why_not, sizeof c->why_not, "no run meets the target (%s)%s%s", best,
                  why[0] ? " and " : "", why);
         return DM_OK;
     }
     c->seconds_per_period = c->cost_per_period * g->seconds_per_eval;
     c->margin = margin_of(g->target, c->energy_error, c->phase_per_period);
+    if (c->basis != DM_BASIS_MEASURED && c->margin < 1.0 - 1e-9) {
+        /* the line meets the target where round-off alone exceeds it */
+        snprintf(c->why_not, sizeof c->why_not, "over %.3g periods round-off alone (%g eps "
+                 "sqrt(steps)) reaches %.3g at the step its fit gives", g->target->periods,
+                 DM_ENERGY_ROUND_OFF_FLOOR, c->energy_error);
+        return DM_OK;
+    }
+    if (g->extended && !(c->energy_error < DM_ENERGY_COARSE)) {
+        snprintf(c->why_not, sizeof c->why_not, "its max |dE| over %.3g periods would be "
+                 "%.3g: an error of %g or more is outside the regime its drift law was "
+                 "measured in (a step near the method's stability limit)", g->target->periods,
+                 c->energy_error, DM_ENERGY_COARSE);
+        return DM_OK;
+    }
     const dm_summary_row *bad = bad_run_in_range(g, c->x);
     if (bad != NULL) {
         snprintf(c->why_not, sizeof c->why_not, "run %s ended %s at %s = %.3g, inside the "
@@ -491,6 +562,7 @@ dm_status dm_choose(const dm_summary_row *rows, size_t n, const dm_target *targe
         dm_sweep_fit_free(&g.fit);
         dm_sweep_fit_free(&g.far);
         free(g.growth);
+        free(g.grown);
     }
     free(members);
     free(group_of);

@@ -367,13 +367,13 @@ static dm_fit_use status_use(dm_run_status status)
 }
 
 /* Round-off floors of a sweep point (our own choices, measured on plain and compensated runs; results/README.md, sweeps). */
-#define FIT_ENERGY_FLOOR 4.0   /* max |dE| <= 4 eps sqrt(steps) */
+#define FIT_ENERGY_FLOOR DM_ENERGY_ROUND_OFF_FLOOR
 #define FIT_PHASE_FLOOR 0.25   /* |phase per period| <= 0.25 eps sqrt(steps) */
 #define FIT_LARGE_ENERGY 0.5   /* max |dE| >= 1/2: the error is the size of the energy */
 /* max |dE| >= 1/10: not small. An error that compounds, e^x - 1 instead of its leading
  * term x (Euler on the oscillator: (1 + h^2)^N - 1), is off that term by x/2, 5 % at
  * 1/10, which moves the order between two steps a factor 2 apart by up to 0.07. */
-#define FIT_COARSE_ENERGY 0.1
+#define FIT_COARSE_ENERGY DM_ENERGY_COARSE
 /* Round-off added to a point's error, measured on Kepler (e = 0.3) sweeps of 1000
  * periods: up to 32 eps sqrt(steps) in the phase per period and 12 in max |dE| (the
  * excess over the truncation error the coarser points' order predicts). A point within

@@ -4,6 +4,7 @@
  * answer is known in advance from the rule itself (README.md, "Choosing a method"): each
  * run's max |dE| grows by its own drift law, (N'/N)^q, or not at all when it is bounded.
  * tests/check_choose.py checks the same command on real runs. */
+#include <float.h>
 #include <math.h>
 #include <setjmp.h>
 #include <stdarg.h>
@@ -159,6 +160,97 @@ static void unmeasured_exponents_are_not_extended(void **state)
     assert_true(c.ranked);
 }
 
+/* A drifting energy moves the period with it: the phase error per period of a run
+ * whose energy grows is not carried to a longer horizon (the phase error grows as t^2
+ * under a linear drift: measured 95 times the carried figure on a Kepler RK4 run over
+ * 100 times its horizon). Bounded runs keep it. */
+static void phase_is_carried_only_with_a_bounded_energy(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("rk4", steps_h[i], 1e-3 * pow(steps_h[i] / 0.1, 5), 1.0);
+    dm_target t = { .max_energy_error = 1e-4, .phase_per_period = 1e-3,
+                    .periods = 10.0 * MEASURED_PERIODS };
+    dm_choice *c = NULL;
+    size_t nc = 0;
+    bool all = false;
+    dm_error err = { 0 };
+    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
+    print_message("why: %s\n", c[0].why_not);
+    assert_false(c[0].ranked);
+    assert_non_null(strstr(c[0].why_not, "does not hold over 1e+04"));
+    free(c);
+    t.periods = MEASURED_PERIODS; /* its own horizon: both targets read off the lines */
+    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
+    assert_true(c[0].ranked);
+    free(c);
+    /* an energy target alone: ranked, its phase not predicted, and said why */
+    dm_choice one = choose_one(r, 4, 1e-4, 10.0 * MEASURED_PERIODS);
+    assert_true(one.ranked);
+    assert_true(isnan(one.phase_per_period));
+    assert_non_null(strstr(one.not_predicted, "energy drifts"));
+    for (int i = 0; i < 4; i++) /* bounded: carried as measured */
+        r[i] = row("verlet", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 2), 0.0);
+    one = choose_one(r, 4, 1e-5, 10.0 * MEASURED_PERIODS);
+    assert_true(one.ranked);
+    assert_false(isnan(one.phase_per_period));
+    assert_string_equal(one.not_predicted, "");
+}
+
+/* A bounded error does not stay under the walk of the rounding errors: over 10^9
+ * periods of 64 steps (6.4e10 steps) round-off reaches 4 eps sqrt(steps) = 2.2e-10 (our
+ * floor, the sweep fits' own), so a run bounded at 1e-13 over 1000 periods does not meet
+ * 1e-10 there, and neither does any step the fit gives. */
+static void a_longer_horizon_never_predicts_under_round_off(void **state)
+{
+    (void)state;
+    const double h = 2.0 * M_PI / 64.0;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++) /* 64, 128, 256, 512 steps a period, order 8 */
+        r[i] = row("yoshida8", h / (1 << i), 1e-13 * pow(0.5, 8 * i), 0.0);
+    dm_choice c = choose_one(r, 4, 1e-10, 1e9);
+    assert_false(c.ranked);
+    assert_true(isinf(c.closeness) || c.closeness > 1.0);
+    double floor64 = 4.0 * DBL_EPSILON * sqrt(64.0 * 1e9);
+    c = choose_one(r, 1, 1e-9, 1e9); /* the 64-step run alone meets 1e-9 */
+    assert_true(c.ranked);
+    assert_true(fabs(c.energy_error / floor64 - 1.0) < 1e-9);
+    assert_true(fabs(c.horizon_factor / (floor64 / 1e-13) - 1.0) < 1e-9);
+}
+
+/* An error carried to 1/10 or more is outside the regime its law was measured in: a
+ * step near the method's stability limit (a Kepler Yoshida 4 step recommended for 0.2
+ * over 1000 periods, predicted 0.118, diverged at 626 periods). Not ranked. */
+static void a_carried_error_of_a_tenth_is_refused(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("yoshida4", steps_h[i], 1e-2 * pow(steps_h[i] / 0.1, 4), 1.0);
+    dm_choice c = choose_one(r, 4, 0.5, 20.0 * MEASURED_PERIODS); /* 1e-2 x 20 = 0.2 */
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "outside the regime"));
+    c = choose_one(r, 4, 0.5, MEASURED_PERIODS); /* as measured: the run did it */
+    assert_true(c.ranked);
+}
+
+/* Exponents that differ only past the two digits shown are one exponent. */
+static void the_horizon_names_one_exponent_as_shown(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    const double q[4] = { 1.0041, 0.9994, 0.9971, 1.0001 };
+    for (int i = 0; i < 4; i++)
+        r[i] = row("rk4", steps_h[i], 1e-3 * pow(steps_h[i] / 0.1, 5), q[i]);
+    dm_choice c = choose_one(r, 4, 1e-6, 10.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_string_equal(c.horizon_rule, "exponent 1.00");
+    r[0].drift_exponent = 1.02;
+    c = choose_one(r, 4, 1e-6, 10.0 * MEASURED_PERIODS);
+    assert_string_equal(c.horizon_rule, "exponents 1.00..1.02");
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -166,6 +258,10 @@ int main(void)
         cmocka_unit_test(linear_drift_grows_every_error_alike),
         cmocka_unit_test(each_run_grows_by_its_own_exponent),
         cmocka_unit_test(unmeasured_exponents_are_not_extended),
+        cmocka_unit_test(phase_is_carried_only_with_a_bounded_energy),
+        cmocka_unit_test(a_longer_horizon_never_predicts_under_round_off),
+        cmocka_unit_test(a_carried_error_of_a_tenth_is_refused),
+        cmocka_unit_test(the_horizon_names_one_exponent_as_shown),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
