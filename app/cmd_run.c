@@ -18,6 +18,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "cli.h"
@@ -143,6 +144,20 @@ static int prepare(dm_suite *suite, dm_run_result **results, dm_results_writer *
         fprintf(stderr, "driftmark: run: %s\n", err.msg);
         return st == DM_EINPUT ? 2 : 1;
     }
+    /* the file is put in place by a rename over NAME: never over a device, a folder or
+     * a pipe (as root, --force once turned /dev/null into a results file), nor over the
+     * suite being read */
+    struct stat out_st, suite_st;
+    if (stat(suite->output, &out_st) == 0 &&
+        (!S_ISREG(out_st.st_mode) ||
+         (path != NULL && stat(path, &suite_st) == 0 && suite_st.st_dev == out_st.st_dev &&
+          suite_st.st_ino == out_st.st_ino))) {
+        fprintf(stderr, "driftmark: run: %s is %s: results are written only to a file of "
+                        "their own (name another with -o)\n", suite->output,
+                !S_ISREG(out_st.st_mode) ? "not a regular file" : "the suite file itself");
+        dm_suite_free(suite);
+        return 2;
+    }
     if (resume == NULL && !force && access(suite->output, F_OK) == 0) {
         fprintf(stderr, "driftmark: run: %s already exists (add --force to replace it, or "
                         "--resume %s to continue it)\n", suite->output, suite->output);
@@ -181,7 +196,7 @@ static int prepare(dm_suite *suite, dm_run_result **results, dm_results_writer *
     return 0;
 }
 
-/* Ctrl-C and kill end the runs at their next bucket; the file is still written.
+/* Ctrl-C, kill and a hangup end the runs at their next bucket; the file is still written.
  * SIGUSR1 does the same: mpirun forwards it to every rank as it is (it turns SIGINT and
  * SIGTERM into SIGTERM followed by SIGKILL one second later), and batch schedulers can
  * send it ahead of a time limit. SIGXFSZ is ignored so that a file-size limit shows as
@@ -195,6 +210,11 @@ static void catch_signals(void)
     sigaction(SIGINT, &sa, NULL);
     sigaction(SIGTERM, &sa, NULL);
     sigaction(SIGUSR1, &sa, NULL);
+    /* a hangup (a dropped terminal or ssh session) stops the runs the same way, unless
+     * it is ignored (nohup): then the run goes on, as asked */
+    struct sigaction hup;
+    if (sigaction(SIGHUP, NULL, &hup) == 0 && hup.sa_handler != SIG_IGN)
+        sigaction(SIGHUP, &sa, NULL);
     signal(SIGXFSZ, SIG_IGN);
 }
 

@@ -1,7 +1,7 @@
 #!/usr/bin/python3
-"""Nothing lost: an existing file is not replaced without --force; SIGINT and SIGTERM
+"""Nothing lost: an existing file is not replaced without --force; SIGINT, SIGTERM and SIGHUP
 stop a suite with a valid file holding every completed run (the running one marked
-interrupted) and exit 130 / 143; --resume runs only what is missing, and the numerical
+interrupted) and exit 130 / 143 / 129; --resume runs only what is missing, and the numerical
 datasets then equal those of an uninterrupted run bit for bit.
 
 usage: check_resume.py PATH/TO/driftmark
@@ -192,6 +192,17 @@ def main():
         check(p.returncode == 2 and "already exists" in p.stderr and p.stderr.count("\n") == 1,
               f"existing file refused in one line, exit 2: {p.returncode} {p.stderr!r}")
         check(open(full, "rb").read() == before, "refused run leaves the file untouched")
+        # ... and with --force, never a device (the rename would replace it: as root
+        # /dev/null became a results file) nor the suite being read
+        suite_bytes = open(suite, "rb").read()
+        for target, why in (("/dev/null", "not a regular file"), (suite, "the suite file itself")):
+            p = run([suite, "-o", target, "--force"])
+            check(p.returncode == 2 and why in p.stderr and p.stderr.count("\n") == 1,
+                  f"-o {target} --force refused in one line, exit 2: {p.returncode} {p.stderr!r}")
+        check(os.path.exists("/dev/null") and not os.path.isfile("/dev/null"),
+              "/dev/null is still a device")
+        check(open(suite, "rb").read() == suite_bytes, "the suite file is untouched")
+        check(not [x for x in os.listdir(tmp) if ".tmp-" in x], "no temporary file left")
 
         # a file whose runs are partly complete: edit one run to 'interrupted' and drop
         # another, the way an interrupted suite leaves it (deterministic, no timing)
@@ -245,7 +256,12 @@ def main():
         # two runs when none is running): two jobs start the two longest runs at once, and
         # the signal goes when the first of them has ended (its progress line), so the
         # other is running then, whatever the load.
-        for sig, code in ((signal.SIGINT, 130), (signal.SIGTERM, 143)):
+        # a hangup too (a dropped ssh session), unless this test itself runs under nohup:
+        # an ignored SIGHUP stays ignored, as nohup asks
+        sigs = [(signal.SIGINT, 130), (signal.SIGTERM, 143)]
+        if signal.getsignal(signal.SIGHUP) != signal.SIG_IGN:
+            sigs.append((signal.SIGHUP, 129))
+        for sig, code in sigs:
             os.remove(part)
             proc = subprocess.Popen([EXE, "run", suite, "-j", "2"], stdout=subprocess.PIPE,
                                     stderr=subprocess.PIPE, text=True)
