@@ -80,6 +80,14 @@ valgrind --quiet --fair-sched=yes --leak-check=full --show-leak-kinds=all \
   --errors-for-leak-kinds=all --error-exitcode=99 --suppressions="$here/valgrind.supp" \
   --log-file=vg.int.log "$exe" run long.yaml -o long.h5 -j 2 >/dev/null 2>vg.int.stderr &
 vg_pid=$!       # valgrind runs the program in its own process: this is driftmark's pid
+# not a fixed delay (a loaded machine was still reading the suite at 5 s, and a stop
+# before any run starts writes nothing, by design): the results' temporary file is made
+# just before the runs start; then 5 s more
+for _ in $(seq 600); do
+  compgen -G ".long.h5.tmp-*" >/dev/null && break
+  kill -0 "$vg_pid" 2>/dev/null || break
+  sleep 0.5
+done
 sleep 5
 kill -INT "$vg_pid"
 ( for _ in $(seq 300); do sleep 1; kill -0 "$vg_pid" 2>/dev/null || exit 0; done
