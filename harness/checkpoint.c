@@ -140,6 +140,7 @@ static bool fits_run(const dm_checkpoint *ck, size_t n_words, const dm_run_spec 
 {
     size_t header = HEADER_WORDS(ck->version);
     return ck->dof == (uint64_t)spec->inst.dof && ck->bucket < spec->samples &&
+           (spec->method->adaptive || ck->k <= dm_run_fixed_steps(spec)) &&
            ck->series_n == r->series.n && ck->series_n <= ck->bucket &&
            ck->crossings_n == r->crossings.n && ck->crossing_stride >= 1 &&
            ck->crossings_n <= ck->crossing_count && ck->n_stepper <= DM_STEPPER_RECORD_MAX &&

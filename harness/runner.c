@@ -817,8 +817,7 @@ static dm_status checkpoint_restore(run_context *c, const dm_checkpoint *ck, siz
     if (ck->dof != (uint64_t)n || ck->bucket >= spec->samples || ser->n > ck->bucket ||
         ser->capacity != spec->samples || ck->crossing_stride < 1 ||
         (c->fixed && ck->k > c->n_steps))
-        return dm_error_set(err, DM_EINPUT, "%s: its checkpoint does not fit the run",
-                            spec->id);
+        return dm_error_set(err, DM_EINPUT, "its checkpoint does not fit the run");
     c->loop.k = ck->k;
     memcpy(c->loop.x, ck->x, sizeof(double) * 2 * (size_t)n);
     memcpy(c->cur->x, ck->x, sizeof(double) * 2 * (size_t)n);

@@ -229,6 +229,48 @@ static void a_checkpoint_that_does_not_fit_is_refused(void **state)
     }
 }
 
+/* A checkpoint in a file whose step count lies past the run's horizon (word 4: one
+ * tester set it to 2^64 - 1) is refused as the file is read, before anything is
+ * written: it was read, the run then failed, and --resume rewrote the file without it. */
+static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **state)
+{
+    (void)state;
+    char path[64];
+    snprintf(path, sizeof path, "/tmp/dm-checkpoint-k-%ld.h5", (long)getpid());
+    volatile int stop = 1;
+    dm_error err = { 0 };
+    dm_run_result r;
+    assert_int_equal(dm_run(&suite.runs[0], &r, &stop, &err), DM_OK);
+    dm_run_result *all = calloc(suite.n_runs, sizeof *all);
+    assert_non_null(all);
+    all[0] = r;
+    assert_int_equal(dm_results_write(path, &suite, all, NULL, "2000-01-01T00:00:00Z", &err),
+                     DM_OK);
+    dm_run_result_free(&r);
+    hid_t f = H5Fopen(path, H5F_ACC_RDWR, H5P_DEFAULT);
+    char name[DM_RUN_ID_MAX + 32];
+    snprintf(name, sizeof name, "runs/%s/checkpoint", suite.runs[0].id);
+    hid_t d = H5Dopen2(f, name, H5P_DEFAULT);
+    assert_true(d >= 0);
+    hid_t space = H5Dget_space(d);
+    hsize_t n = (hsize_t)H5Sget_simple_extent_npoints(space);
+    uint64_t *w = calloc(n, sizeof *w);
+    assert_int_equal(H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
+    assert_true(w[4] > 0 && w[4] <= dm_run_fixed_steps(&suite.runs[0])); /* k, as taken */
+    w[4] = UINT64_MAX;
+    assert_int_equal(H5Dwrite(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
+    free(w);
+    H5Sclose(space);
+    H5Dclose(d);
+    H5Fclose(f);
+    memset(all, 0, suite.n_runs * sizeof *all);
+    size_t kept = 0;
+    assert_int_equal(dm_results_read_runs(path, &suite, all, NULL, &kept, &err), DM_EINPUT);
+    assert_non_null(strstr(err.msg, "damaged"));
+    free(all);
+    unlink(path);
+}
+
 /* One bucket (samples: 1): a stop inside it ends the run interrupted, not ok, and a
  * fixed-step run stops within 2^16 steps instead of at its bucket's end. */
 static void a_stop_inside_the_only_bucket_interrupts(void **state)
@@ -406,6 +448,7 @@ int main(void)
         cmocka_unit_test(a_layout_2_checkpoint_is_read),
         cmocka_unit_test(cvode_restarts_at_the_saved_state),
         cmocka_unit_test(a_checkpoint_that_does_not_fit_is_refused),
+        cmocka_unit_test(a_file_checkpoint_past_the_horizon_is_refused_on_reading),
         cmocka_unit_test(a_stop_inside_the_only_bucket_interrupts),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
