@@ -45,6 +45,14 @@ void dm_cli_utc_now(char *buf, size_t size);
 /* A path "$TMPDIR/NAME" (or /tmp/NAME when TMPDIR is unset or empty). */
 void dm_cli_temp_path(char *buf, size_t size, const char *name);
 
+/* While a results file from outside is read (show, compare, choose, run --resume): a
+ * fault inside HDF5 (a damaged global heap makes it copy past its memory; nothing tells
+ * such a file beforehand) prints "driftmark: COMMAND: cannot read WHAT: the file is
+ * damaged ..." and exits 2, after removing `temp` (NULL: nothing). Unguard when done:
+ * a fault elsewhere is a bug and must show as one. */
+void dm_cli_guard_reads(const char *command, const char *what, const char *temp);
+void dm_cli_unguard_reads(void);
+
 /* Frees results[0..n) and the array itself; NULL is fine. */
 void dm_cli_free_results(dm_run_result *results, size_t n);
 

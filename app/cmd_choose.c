@@ -216,7 +216,9 @@ int dm_cmd_choose(int argc, char **argv)
     dm_summary_row *rows = NULL;
     size_t n = 0;
     dm_error err = { 0 };
+    dm_cli_guard_reads("choose", argv[optind], NULL);
     dm_status st = dm_results_read_summary(argv[optind], &rows, &n, &err);
+    dm_cli_unguard_reads();
     if (st != DM_OK) {
         fprintf(stderr, "driftmark: choose: %s\n", err.msg);
         return st == DM_ENOMEM ? 1 : 2; /* a file we cannot read as ours is bad input */

@@ -192,9 +192,12 @@ int dm_cmd_compare(int argc, char **argv)
     dm_summary_row *old_rows = NULL, *new_rows = NULL;
     char (*old_configs)[DM_CONFIG_MAX] = NULL, (*new_configs)[DM_CONFIG_MAX] = NULL;
     size_t n_old = 0, n_new = 0;
+    dm_cli_guard_reads("compare", argv[optind], NULL);
     int code = read_rows(argv[optind], &old_rows, &old_configs, &n_old);
+    dm_cli_guard_reads("compare", argv[optind + 1], NULL);
     if (code == 0)
         code = read_rows(argv[optind + 1], &new_rows, &new_configs, &n_new);
+    dm_cli_unguard_reads();
     if (code != 0) {
         free(old_rows);
         free(old_configs);

@@ -119,7 +119,9 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
                     : dm_suite_default(suite, output, err);
     char *text = NULL;
     char source[1024], folder[sizeof source];
+    dm_cli_guard_reads("run", resume, NULL);
     dm_status st = dm_results_read_suite_text(resume, &text, source, folder, sizeof source, err);
+    dm_cli_unguard_reads();
     if (st != DM_OK)
         return st == DM_EIO ? DM_EINPUT : st;
     /* relative paths from the suite's folder when it was first read, as recorded */
@@ -172,8 +174,13 @@ static int prepare(dm_suite *suite, dm_run_result **results, dm_results_writer *
     }
     st = dm_results_writer_open(suite->output, suite, started, writer, &err);
     size_t kept = 0;
-    if (st == DM_OK && resume != NULL)
+    if (st == DM_OK && resume != NULL) {
+        char temp[4096];
+        bool named = dm_results_temp_path(suite->output, (long)getpid(), temp, sizeof temp) == 0;
+        dm_cli_guard_reads("run", resume, named ? temp : NULL);
         st = dm_results_read_runs(resume, suite, *results, *writer, &kept, &err);
+        dm_cli_unguard_reads();
+    }
     if (st != DM_OK) {
         fprintf(stderr, "driftmark: run: %s\n", err.msg);
         dm_results_writer_abort(*writer);
@@ -648,8 +655,10 @@ static int run_command(int argc, char **argv, dm_mpi_world *world)
         if (o.resume) {
             size_t kept = 0;
             done = calloc(suite.n_runs ? suite.n_runs : 1, sizeof *done);
+            dm_cli_guard_reads("run", o.resume, NULL);
             st = done == NULL ? dm_error_set(&err, DM_ENOMEM, "out of memory")
                               : dm_results_read_runs(o.resume, &suite, done, NULL, &kept, &err);
+            dm_cli_unguard_reads();
             if (st != DM_OK) {
                 fprintf(stderr, "driftmark: run: %s\n", err.msg);
                 for (size_t i = 0; done != NULL && i < suite.n_runs; i++)

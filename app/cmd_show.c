@@ -78,16 +78,17 @@ int dm_cmd_show(int argc, char **argv)
     size_t n_sweeps = 0;
     dm_error err;
     dm_error_clear(&err);
-    /* both read before anything is printed: a damaged file prints one line, no half */
-    if (dm_results_read_summary(path, &rows, &n, &err) != DM_OK)
-        return dm_cli_usage_error("show", "%s", err.msg);
-    if (dm_results_read_sweeps(path, &sweeps, &n_sweeps, &err) != DM_OK) {
-        free(rows);
-        return dm_cli_usage_error("show", "%s", err.msg);
-    }
+    /* all read before anything is printed: a damaged file prints one line, no half */
+    dm_cli_guard_reads("show", path, NULL);
     dm_table_summary *tables = NULL;
     size_t n_tables = 0;
-    if (dm_results_read_tables(path, &tables, &n_tables, &err) != DM_OK) {
+    dm_status st = dm_results_read_summary(path, &rows, &n, &err);
+    if (st == DM_OK)
+        st = dm_results_read_sweeps(path, &sweeps, &n_sweeps, &err);
+    if (st == DM_OK)
+        st = dm_results_read_tables(path, &tables, &n_tables, &err);
+    dm_cli_unguard_reads();
+    if (st != DM_OK) {
         free(rows);
         dm_sweep_summaries_free(sweeps, n_sweeps);
         return dm_cli_usage_error("show", "%s", err.msg);
