@@ -75,6 +75,13 @@ static bool ok_row(const dm_summary_row *r)
     return dm_run_status_named(r->status) == DM_RUN_OK;
 }
 
+/* An ok run whose numerical orbit stayed in its starting regime: one that left it (a
+ * pendulum going over the top) measured another orbit, and is no answer. */
+static bool usable_row(const dm_summary_row *r)
+{
+    return ok_row(r) && r->regime_change[0] == '\0';
+}
+
 /* Everything one group of runs needs to be answered. */
 typedef struct group {
     const dm_summary_row *const *rows;
@@ -198,7 +205,7 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest)
     *closest = SIZE_MAX;
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
-        if (!ok_row(r))
+        if (!usable_row(r))
             continue;
         if (isnan(g->grown[i]))
             continue;
@@ -296,18 +303,18 @@ static double fitted_x(const group *g, char *why, size_t why_size)
     return x;
 }
 
-/* A run that did not end ok at a step between x and the coarsest ok step: the method
- * is not to be trusted there. */
+/* A run that did not end ok, or whose orbit left its regime, at a step between x and
+ * the coarsest usable step: the method is not to be trusted there. */
 static const dm_summary_row *bad_run_in_range(const group *g, double x)
 {
     double top = 0.0;
     for (size_t i = 0; i < g->n; i++)
-        if (ok_row(g->rows[i]))
+        if (usable_row(g->rows[i]))
             top = fmax(top, x_of(g->rows[i]));
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
         double xr = x_of(r);
-        if (!ok_row(r) && xr >= x * (1.0 - 1e-12) && xr <= top * (1.0 + 1e-12))
+        if (!usable_row(r) && xr >= x * (1.0 - 1e-12) && xr <= top * (1.0 + 1e-12))
             return r;
     }
     return NULL;
@@ -335,7 +342,8 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
         const dm_summary_row *r = g->rows[i];
         in[i] = (dm_fit_input){ .x = x_of(r), .status = dm_run_status_named(r->status),
                                 .steps = r->steps, .max_energy_error = r->max_energy_error,
-                                .phase_error_per_period = r->phase_error_per_period };
+                                .phase_error_per_period = r->phase_error_per_period,
+                                .regime_changed = r->regime_change[0] != '\0' };
         /* at the target's horizon: which runs the fit uses is judged at the measured
          * one (an error grown past 1/10 is still from a step in the regime of h^p);
          * the line goes through the grown errors, none under the round-off floor of
@@ -501,8 +509,14 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     }
     const dm_summary_row *bad = bad_run_in_range(g, c->x);
     if (bad != NULL) {
-        snprintf(c->why_not, sizeof c->why_not, "run %s ended %s at %s = %.3g, inside the "
-                 "range used", bad->run_id, bad->status, c->adaptive ? "rtol" : "h", x_of(bad));
+        if (ok_row(bad))
+            snprintf(c->why_not, sizeof c->why_not, "run %s's orbit left its regime (%s) at "
+                     "%s = %.3g, inside the range used", bad->run_id, bad->regime_change,
+                     c->adaptive ? "rtol" : "h", x_of(bad));
+        else
+            snprintf(c->why_not, sizeof c->why_not, "run %s ended %s at %s = %.3g, inside "
+                     "the range used", bad->run_id, bad->status, c->adaptive ? "rtol" : "h",
+                     x_of(bad));
         return DM_OK;
     }
     c->ranked = true;

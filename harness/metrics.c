@@ -286,6 +286,7 @@ const char *dm_fit_use_name(dm_fit_use use)
     case DM_FIT_ROUND_OFF: return "round_off";
     case DM_FIT_SIGN_CHANGE: return "sign_change";
     case DM_FIT_COARSE: return "coarse";
+    case DM_FIT_REGIME_CHANGE: return "regime_change";
     }
     return "unknown";
 }
@@ -294,7 +295,7 @@ int dm_fit_use_name_known(const char *name)
 {
     if (name[0] == '\0')
         return 1;
-    for (int u = DM_FIT_USED; u <= DM_FIT_COARSE; u++)
+    for (int u = DM_FIT_USED; u <= DM_FIT_REGIME_CHANGE; u++)
         if (strcmp(name, dm_fit_use_name((dm_fit_use)u)) == 0)
             return 1;
     return 0;
@@ -532,6 +533,8 @@ dm_status dm_fit_points(const char *name, const dm_fit_input *in, size_t n, dm_s
         pts[i] = (fit_point){ .slot = i, .x = x };
         root[i] = sqrt((double)(in[i].steps > 0 ? in[i].steps : 1));
         dm_fit_use e = status_use(in[i].status), p = e;
+        if (e == DM_FIT_USED && in[i].regime_changed)
+            e = p = DM_FIT_REGIME_CHANGE; /* its error is of another orbit */
         double de = in[i].max_energy_error, ph = fabs(in[i].phase_error_per_period);
         ey[i] = de;
         py[i] = ph;
@@ -595,6 +598,7 @@ dm_status dm_sweep_fit_compute(const dm_suite *suite, const dm_sweep *sweep,
             .steps = res->metrics.steps,
             .max_energy_error = res->metrics.max_energy_error,
             .phase_error_per_period = res->metrics.phase_error_per_period,
+            .regime_changed = res->regime_change[0] != '\0',
         };
     }
     dm_status st = dm_fit_points(sweep->name, in, n, fit, err);

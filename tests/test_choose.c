@@ -251,6 +251,30 @@ static void the_horizon_names_one_exponent_as_shown(void **state)
     assert_string_equal(c.horizon_rule, "exponents 1.00..1.02");
 }
 
+/* A run whose numerical orbit left its starting regime (a pendulum near its separatrix
+ * going over the top at a coarse step) measured another orbit: it is in no fit and no
+ * answer, even when its max |dE| meets the target (a tester's lantern at amplitude 3.1:
+ * Verlet at 32 steps a period was recommended after going over the top). */
+static void a_run_that_left_its_regime_is_no_answer(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("verlet", steps_h[i], 1e-2 * pow(steps_h[i] / 0.1, 2), 0.0);
+    snprintf(r[0].regime_change, sizeof r[0].regime_change, "libration -> rotation at t = 2.6");
+    dm_choice c = choose_one(r, 4, 2e-2, NAN); /* the coarsest (1e-2) would meet it */
+    assert_true(c.ranked);
+    assert_true(c.x == steps_h[1]); /* the next one, as measured: the fit is not used
+                                      past the coarsest step it has */
+    assert_int_equal(c.n_points, 3);
+    /* the same left in the middle of the range: the range is not trusted */
+    snprintf(r[0].regime_change, sizeof r[0].regime_change, "%s", "");
+    snprintf(r[1].regime_change, sizeof r[1].regime_change, "libration -> rotation at t = 9");
+    c = choose_one(r, 4, 1e-3, NAN);
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "left its regime"));
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -262,6 +286,7 @@ int main(void)
         cmocka_unit_test(a_longer_horizon_never_predicts_under_round_off),
         cmocka_unit_test(a_carried_error_of_a_tenth_is_refused),
         cmocka_unit_test(the_horizon_names_one_exponent_as_shown),
+        cmocka_unit_test(a_run_that_left_its_regime_is_no_answer),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

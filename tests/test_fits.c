@@ -720,6 +720,34 @@ static void a_300_point_sweep_uses_every_point(void **state)
     free(suite.runs);
 }
 
+/* A run whose numerical orbit left its starting regime measured another orbit: out of
+ * both fits (regime_change), decided after its status and before everything else, so
+ * an exact h^2 law through the other points is fitted exactly. */
+static void a_run_that_left_its_regime_leaves_both_fits(void **state)
+{
+    (void)state;
+    dm_fit_input in[5];
+    for (int i = 0; i < 5; i++) {
+        double h = 0.1 / pow(2.0, i);
+        in[i] = (dm_fit_input){ .x = h, .status = DM_RUN_OK, .steps = 1000u << i,
+                                .max_energy_error = 1e-2 * (h / 0.1) * (h / 0.1),
+                                .phase_error_per_period = 1e-3 * (h / 0.1) * (h / 0.1),
+                                .regime_changed = i == 0 };
+    }
+    in[0].max_energy_error = 0.3; /* coarse too: the regime decides */
+    dm_sweep_fit fit;
+    dm_error err = { 0 };
+    assert_int_equal(dm_fit_points("regime", in, 5, &fit, &err), DM_OK);
+    assert_int_equal(fit.energy_use[0], DM_FIT_REGIME_CHANGE);
+    assert_int_equal(fit.phase_use[0], DM_FIT_REGIME_CHANGE);
+    assert_string_equal(dm_fit_use_name(DM_FIT_REGIME_CHANGE), "regime_change");
+    assert_true(dm_fit_use_name_known("regime_change"));
+    assert_int_equal(fit.n_energy_points, 4);
+    assert_true(fabs(fit.energy_order - 2.0) < 1e-12);
+    assert_true(fabs(fit.phase_order - 2.0) < 1e-12);
+    dm_sweep_fit_free(&fit);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -737,6 +765,7 @@ int main(void)
         cmocka_unit_test(a_round_off_tail_leaves_the_fit),
         cmocka_unit_test(coarse_points_leave_both_fits),
         cmocka_unit_test(a_settling_order_is_marked),
+        cmocka_unit_test(a_run_that_left_its_regime_leaves_both_fits),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

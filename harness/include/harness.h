@@ -364,7 +364,8 @@ typedef enum dm_fit_use {
     DM_FIT_LARGE,            /* max |dE| >= 1/2: the error is the size of the energy */
     DM_FIT_ROUND_OFF,        /* at the round-off floor (results/README.md) */
     DM_FIT_SIGN_CHANGE,      /* phase only: outside the longest run of points of one sign */
-    DM_FIT_COARSE            /* 1/10 <= max |dE| < 1/2: too large to be asymptotic */
+    DM_FIT_COARSE,           /* 1/10 <= max |dE| < 1/2: too large to be asymptotic */
+    DM_FIT_REGIME_CHANGE     /* the numerical orbit left the starting regime: another orbit */
 } dm_fit_use;
 
 /* The orders between neighbouring points of a fit differ by more than this: the points
@@ -410,6 +411,7 @@ typedef struct dm_fit_input {
     uint64_t steps;
     double max_energy_error;
     double phase_error_per_period;
+    bool regime_changed;             /* the numerical orbit left its starting regime */
 } dm_fit_input;
 
 /* The fits of the points in[0..n): which runs each fit can use (results/README.md,
