@@ -101,7 +101,8 @@ def read(path):
             refuse(f"{shown}: not an HDF5 file")
         runs = load(path)
         return runs, load_more(path, runs)
-    except (OSError, KeyError, ValueError, TypeError, IndexError) as e:
+    except (OSError, KeyError, ValueError, TypeError, IndexError, RuntimeError) as e:
+        # RuntimeError: h5py's own, e.g. a soft link that leads to itself
         why = " ".join(str(e).split()) or type(e).__name__
         refuse(f"{shown}: not a readable driftmark results file ({why})")
 
@@ -282,6 +283,9 @@ def legend_outside(ax, handles, title=None):
               bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0, frameon=False)
 
 
+SAVED = []  # every file written so far, removed again if a later plot fails
+
+
 def save(fig, out, formats):
     written = []
     for fmt in formats:
@@ -290,6 +294,7 @@ def save(fig, out, formats):
         with matplotlib.rc_context({"svg.fonttype": "none"}):
             fig.savefig(path, dpi=100)
         written.append(path)
+        SAVED.append(path)
     plt.close(fig)
     return written
 
@@ -317,7 +322,7 @@ def plot_energy(variant, runs, out, formats):
         one_sign = r["dE_min"] * r["dE_max"] > 0
         low = np.where(one_sign, np.minimum(np.abs(r["dE_min"]), np.abs(r["dE_max"])), np.nan)
         (line,) = ax.plot(t, peak, color=st["color"], ls=st["ls"], lw=1.1, marker=st["marker"], ms=4,
-                          markevery=0.12 if len(t) > 8 else None, label=label, zorder=3,
+                          markevery=every(t, peak), label=label, zorder=3,
                           gid=f"line/{r['status']}/{r['id']}")
         if one_sign.any():
             ax.fill_between(t, low, peak, where=one_sign, color=st["color"], alpha=0.12, lw=0, zorder=1,
@@ -356,11 +361,18 @@ def plot_energy(variant, runs, out, formats):
 # Phase error against time
 
 
+def every(x, y):
+    """Markers on about 8 points of a long line; matplotlib's fraction form fails on a
+    line with no finite point (a damaged file's NaN series): none then."""
+    return 0.12 if (np.isfinite(x) & np.isfinite(y)).sum() > 8 else None
+
+
 def phase_linthresh(runs):
     """The linear part of the symmetric log axis, from the data: a decade below the
     smallest final |phase error| of any run, so every curve reaches the logarithmic part
     and no empty decades sit between zero and the data."""
-    ends = [np.nanmax(np.abs(r["phase_error"])) for r in runs if len(r["phase_error"])]
+    ends = [np.nanmax(np.abs(r["phase_error"])) for r in runs
+            if np.isfinite(r["phase_error"]).any()]
     ends = [e for e in ends if np.isfinite(e) and e > 0]
     if not ends:
         return 1.0
@@ -374,13 +386,13 @@ def plot_phase(variant, runs, out, formats):
     for r in sorted(runs, key=lambda r: (r["method"], r["rank"])):
         st = run_line_style(r)
         label = status_label(r)
-        if len(r["crossing_time"]) == 0:
+        t, ph = r["crossing_time"] / r["period"], r["phase_error"]
+        if not (np.isfinite(t) & np.isfinite(ph)).any():
             handles.append(Line2D([], [], color=st["color"], ls="none", marker=st["marker"], mfc="none",
                                   label=label + " (no section crossing)"))
             continue
-        t, ph = r["crossing_time"] / r["period"], r["phase_error"]
         (line,) = ax.plot(t, ph, color=st["color"], ls=st["ls"], lw=1.1, marker=st["marker"], ms=4,
-                          markevery=0.12 if len(t) > 8 else None, label=label, zorder=3,
+                          markevery=every(t, ph), label=label, zorder=3,
                           gid=f"line/{r['status']}/{r['id']}")
         handles.append(line)
         fin = ph[np.isfinite(ph)]
@@ -732,6 +744,20 @@ def main():
         os.makedirs(outdir, exist_ok=True)
     except OSError as e:
         refuse(f"cannot make the folder {outdir}: {e.strerror}")
+    try:
+        written = plot_all(runs, sweeps, targets, outdir, formats)
+    except Exception as e:  # a file that reads but cannot be drawn: one line, no half
+        for path in SAVED:
+            try:
+                os.remove(path)
+            except OSError:
+                pass
+        refuse(f"cannot plot {a.results}: {type(e).__name__}: {str(e).splitlines()[0] if str(e) else ''}")
+    for w in written:
+        print(w)
+
+
+def plot_all(runs, sweeps, targets, outdir, formats):
     groups = {}
     for r in runs:
         groups.setdefault(r["variant"], []).append(r)
@@ -751,8 +777,7 @@ def main():
     periodic = {v: rs for v, rs in groups.items() if all(np.isfinite(r["period"]) for r in rs)}
     if periodic:
         written += plot_cost(periodic, sweeps, targets, os.path.join(outdir, "cost"), formats)
-    for w in written:
-        print(w)
+    return written
 
 
 if __name__ == "__main__":

@@ -246,6 +246,29 @@ def main():
                             (no_summary, "not a readable driftmark results file"),
                             (truncated, "not a readable driftmark results file")):
             one_line(plot(bad, os.path.join(tmp, "bad")), os.path.basename(bad), needle)
+        # a soft link that leads to itself (h5py's RuntimeError): one line too
+        loop = os.path.join(tmp, "loop.h5")
+        with open(loop, "wb") as f:
+            f.write(data)
+        with h5py.File(loop, "r+") as f:
+            del f["runs"]
+            f["runs"] = h5py.SoftLink("/runs")
+        one_line(plot(loop, os.path.join(tmp, "bad")), "a soft link loop",
+                 "not a readable driftmark results file")
+        # crossings that are all NaN (a damaged file that still reads): drawn without
+        # them (matplotlib's markers failed on a line with no finite point: a traceback
+        # after six files were written)
+        nan_crossings = os.path.join(tmp, "nan-crossings.h5")
+        with open(nan_crossings, "wb") as f:
+            f.write(data)
+        with h5py.File(nan_crossings, "r+") as f:
+            for rid in f["runs"]:
+                for name in ("crossing_time", "phase_error"):
+                    if name in f["runs"][rid] and f["runs"][rid][name].shape[0] > 0:
+                        f["runs"][rid][name][...] = np.nan
+        q = plot(nan_crossings, os.path.join(tmp, "nan-plots"))
+        check(q.returncode == 0 and "Traceback" not in q.stderr,
+              f"NaN crossings drawn: exit {q.returncode} {q.stderr[-300:]!r}")
         if os.geteuid() != 0:   # root reads a file of mode 000
             unreadable = os.path.join(tmp, "unreadable.h5")
             with open(unreadable, "wb") as f:
