@@ -74,7 +74,8 @@ static void print_text(const dm_choice *c, size_t n)
     }
     bool carried = false;
     for (size_t k = 0; k < n; k++)
-        carried = carried || (c[k].ranked && strcmp(c[k].horizon_rule, "measured horizon") != 0);
+        carried = carried || (c[k].ranked && strncmp(c[k].horizon_rule, "measured horizon",
+                                                     strlen("measured horizon")) != 0);
     if (carried)
         printf("\nhorizon: an answer carried past the horizon its runs measured assumes each "
                "run's drift law (or bound)\nholds that long; near a method's stability limit "
@@ -205,6 +206,9 @@ int dm_cmd_choose(int argc, char **argv)
         if (bad)
             return bad;
     }
+    if (target.periods > DM_MAX_PERIODS)
+        return dm_cli_usage_error("choose", "--periods = %g is beyond %g periods, the longest "
+                                  "horizon a suite may ask for", target.periods, DM_MAX_PERIODS);
     if (optind >= argc)
         return dm_cli_usage_error("choose", "no results file given (%s)", usage);
     if (argc - optind > 1)

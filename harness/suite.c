@@ -36,7 +36,6 @@
 #define DM_DEFAULT_SAMPLES 4096
 #define DM_MAX_SAMPLES 10000000
 #define DM_DEFAULT_STEP_BUDGET 1e10
-#define DM_MAX_PERIODS 1e12
 #define DM_RTOL_MIN 1e-14
 #define DM_RTOL_MAX 1e-1
 #define DM_RANGE_MAX 100          /* values one {from, to, factor} range may give */
@@ -1697,10 +1696,15 @@ static dm_status check_output(suite_build *b, const char *output, const yaml_nod
     if (dm_results_temp_path(output, (long)getpid(), tmp, sizeof tmp) != 0)
         return output_fail(b, at, "output '%s' is too long (expected a shorter path)", output);
     int fd = open(tmp, O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0644);
-    if (fd < 0 && errno != EEXIST)
+    if (fd < 0 && errno != EEXIST) {
+        int e = errno;
         return output_fail(b, at, "output '%s' cannot be written: creating its temporary file "
-                       "(.NAME.tmp-PID beside it) failed: %s (expected a shorter or plainer "
-                       "file name)", output, strerror(errno));
+                           "(.NAME.tmp-PID beside it) failed: %s (expected %s)", output,
+                           strerror(e),
+                           e == ENAMETOOLONG || e == EILSEQ || e == EINVAL
+                               ? "a shorter or plainer file name"
+                               : "a folder this user may create files in");
+    }
     if (fd >= 0) {
         close(fd);
         unlink(tmp);

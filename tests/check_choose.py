@@ -169,6 +169,15 @@ methods:
               f"{name}: the same words as the refusal: {v.get('not_predicted')!r} / "
               f"{r['why_not']!r}")
 
+    # a shorter horizon than measured: the answer as measured, and says so
+    p, data = choose(out, tmp, "--energy-error", "1e-3", "--periods", "20")
+    v = one(data, "pendulum-amplitude1", "verlet")
+    check(v["horizon_rule"] == "measured horizon (longer)" and v["horizon_factor"] == 1,
+          f"a shorter horizon: {v}")
+    check("horizon: an answer carried" not in run(["choose", out, "--energy-error", "1e-3",
+                                                   "--periods", "20"], tmp).stdout,
+          "no caution line when nothing is carried")
+
     # 5. every output format, and bad input in one line with exit 2
     for fmt in ("table", "csv"):
         p = run(["choose", out, "--energy-error", "1e-3", "--format", fmt], tmp)
@@ -189,7 +198,8 @@ methods:
             check(same, f"csv {key} = {value!r} but json {j[key]!r} ({r['run_id']})")
     for args in (["choose", out], ["choose", out, "--energy-error", "-1"],
                  ["choose", os.path.join(tmp, "missing.h5"), "--energy-error", "1e-3"],
-                 ["choose", out, "--energy-error", "1e-3", "--format", "xml"]):
+                 ["choose", out, "--energy-error", "1e-3", "--format", "xml"],
+                 ["choose", out, "--energy-error", "1e-3", "--periods", "1e300"]):
         p = run(args, tmp)
         check(p.returncode == 2 and p.stderr.count("\n") == 1, f"{args[2:]}: {p.returncode} {p.stderr!r}")
 

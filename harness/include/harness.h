@@ -289,6 +289,8 @@ double dm_run_memory_bytes(const dm_run_spec *spec);
  * period are N n steps even when t_end / h rounds a hair above); 0 for adaptive runs. */
 uint64_t dm_run_fixed_steps(const dm_run_spec *spec);
 #define DM_DEFAULT_MEMORY_LIMIT_GIB 8.0
+/* The longest horizon a suite may ask for, and choose may carry a sweep to, in periods. */
+#define DM_MAX_PERIODS 1e12
 
 /* ---- many runs at once (pool.c): `run --jobs` and `bench` ---- */
 
