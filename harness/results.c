@@ -1420,6 +1420,10 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
         return dm_error_set(err, DM_EINPUT, "%s was written by a newer driftmark (schema %lld; "
                             "this one reads schema %d and older)", path, schema,
                             DM_SCHEMA_VERSION);
+    if (schema < 1) /* no driftmark wrote it: a damaged or forged root */
+        return dm_error_set(err, DM_EINPUT, "cannot read %s: its schema_version is %lld "
+                            "(expected 1 to %d): the file is damaged", path, schema,
+                            DM_SCHEMA_VERSION);
     if (H5Lexists(file, "summary", H5P_DEFAULT) <= 0)
         return dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /summary dataset", path);
     uint64_t written = 0;
@@ -1699,6 +1703,12 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     hid_t runs = -1;
     dm_run_index ids = { 0 };
     long long schema = 0;
+    if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 && schema < 1) {
+        st = dm_error_set(err, DM_EINPUT, "cannot read %s: its schema_version is %lld "
+                          "(expected 1 to %d): the file is damaged", path, schema,
+                          DM_SCHEMA_VERSION);
+        goto done;
+    }
     if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 &&
         schema < DM_SCHEMA_VERSION) {
         /* Its runs were measured by other definitions (results/README.md, Changes): a

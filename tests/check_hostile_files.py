@@ -124,14 +124,20 @@ def main():
                                                         np.arange(4096, dtype="u8"))),
             # a status the reader does not know was run again under "running 0"
             ("status-unknown.h5", lambda f: replace_attr(first_run(f), "status", "weird")),
+            # no driftmark writes a schema below 1: show, choose and compare read it
+            ("schema-negative.h5", lambda f: replace_attr(f, "schema_version", np.int32(-1))),
         ]
         for name, edit in cases:
             hostile(base, name, edit)
             refused(tmp, ["run", "--resume", name], f"resume {name}")
         # `show` reads the root, /summary and /sweeps (tests/check_show_sweeps.py), not
         # the runs' groups: the root's attributes are checked
-        for name in ("schema-array.h5", "written-array.h5"):
+        for name in ("schema-array.h5", "written-array.h5", "schema-negative.h5"):
             refused(tmp, ["show", name], f"show {name}")
+        refused(tmp, ["choose", "schema-negative.h5", "--energy-error", "1"],
+                "choose schema -1", "schema_version is -1")
+        refused(tmp, ["compare", "schema-negative.h5", "good.h5"], "compare schema -1",
+                "schema_version is -1")
 
         # a /summary status none of ours: show, choose and compare refuse it in one line
         # (they printed and ranked it)
