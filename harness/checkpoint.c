@@ -180,10 +180,15 @@ int dm_checkpoint_read(hid_t group, const dm_run_spec *spec, const dm_run_result
     if (ck == NULL)
         return -1;
     /* the header first: it says how many stepper words follow. A record of layout 1 is
-     * no checkpoint: the run starts again, as in a file from before them. */
-    if (words[0] != 2 && words[0] != DM_CHECKPOINT_VERSION) {
+     * no checkpoint: the run starts again, as in a file from before them. Any other
+     * layout than 1 to ours (0, or a newer driftmark's) is damage, not a restart. */
+    if (words[0] == 1) {
         free(ck);
         return 1;
+    }
+    if (words[0] != 2 && words[0] != DM_CHECKPOINT_VERSION) {
+        free(ck);
+        return -1;
     }
     if (transfer(ck, words, false, true) == 0 || !fits_run(ck, (size_t)count, spec, r)) {
         free(ck);

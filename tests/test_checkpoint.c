@@ -231,10 +231,11 @@ static void a_checkpoint_that_does_not_fit_is_refused(void **state)
 
 /* A checkpoint in a file whose step count lies past the run's horizon (word 4: one
  * tester set it to 2^64 - 1) is refused as the file is read, before anything is
- * written: it was read, the run then failed, and --resume rewrote the file without it. */
+ * written: it was read, the run then failed, and --resume rewrote the file without it.
+ * So is one of a layout no driftmark wrote (0) or a newer one's (9): it restarted the
+ * run silently from step 0. */
 static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **state)
 {
-    (void)state;
     char path[64];
     snprintf(path, sizeof path, "/tmp/dm-checkpoint-k-%ld.h5", (long)getpid());
     volatile int stop = 1;
@@ -257,7 +258,11 @@ static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **stat
     uint64_t *w = calloc(n, sizeof *w);
     assert_int_equal(H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
     assert_true(w[4] > 0 && w[4] <= dm_run_fixed_steps(&suite.runs[0])); /* k, as taken */
-    w[4] = UINT64_MAX;
+    int layout = *(int *)*state; /* 0: the step count damaged; else the layout word (-1: 0) */
+    if (layout == 0)
+        w[4] = UINT64_MAX;
+    else
+        w[0] = layout < 0 ? 0 : (uint64_t)layout;
     assert_int_equal(H5Dwrite(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
     free(w);
     H5Sclose(space);
@@ -440,6 +445,8 @@ static void a_layout_2_checkpoint_is_read(void **state)
     dm_run_result_free(&full);
 }
 
+static int damage[3] = { 0, 9, -1 }; /* k, layout 9, layout 0 */
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -448,7 +455,12 @@ int main(void)
         cmocka_unit_test(a_layout_2_checkpoint_is_read),
         cmocka_unit_test(cvode_restarts_at_the_saved_state),
         cmocka_unit_test(a_checkpoint_that_does_not_fit_is_refused),
-        cmocka_unit_test(a_file_checkpoint_past_the_horizon_is_refused_on_reading),
+        cmocka_unit_test_prestate(a_file_checkpoint_past_the_horizon_is_refused_on_reading,
+                                  &damage[0]),
+        cmocka_unit_test_prestate(a_file_checkpoint_past_the_horizon_is_refused_on_reading,
+                                  &damage[1]),
+        cmocka_unit_test_prestate(a_file_checkpoint_past_the_horizon_is_refused_on_reading,
+                                  &damage[2]),
         cmocka_unit_test(a_stop_inside_the_only_bucket_interrupts),
     };
     return cmocka_run_group_tests(tests, setup, teardown);
