@@ -75,6 +75,22 @@ static bool ok_row(const dm_summary_row *r)
     return dm_run_status_named(r->status) == DM_RUN_OK;
 }
 
+/* The horizon the group's ok runs measured, in periods: the shortest of theirs (a run
+ * that diverged early covered fewer, and says nothing of this); NaN with no ok run.
+ * *step: that run's step in periods (a run ends on the step that reaches its horizon,
+ * so it covers up to one step more than asked). */
+static double measured_periods(const dm_summary_row *const *rows, size_t n, double *step)
+{
+    double m = NAN;
+    *step = 0.0;
+    for (size_t i = 0; i < n; i++)
+        if (ok_row(rows[i]) && !(periods_of(rows[i]) >= m)) {
+            m = periods_of(rows[i]);
+            *step = rows[i]->steps > 0 ? m / (double)rows[i]->steps : 0.0;
+        }
+    return m;
+}
+
 /* An ok run whose numerical orbit stayed in its starting regime: one that left it (a
  * pendulum going over the top) measured another orbit, and is no answer. */
 static bool usable_row(const dm_summary_row *r)
@@ -136,8 +152,9 @@ static void horizon_rule(const group *g, const unsigned char *use, size_t only, 
         lo = fmin(lo, r->drift_exponent);
         hi = fmax(hi, r->drift_exponent);
     }
+    double step, measured = measured_periods(g->rows, g->n, &step);
     if (!g->extended && !isnan(g->target->periods) &&
-        g->target->periods < periods_of(g->rows[0]) * (1.0 - 1e-9))
+        g->target->periods < (measured - step) * (1.0 - 1e-9))
         /* max |dE| over a shorter horizon is at most that over the runs' own */
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "measured horizon (longer)");
     else if (!g->extended)
@@ -197,16 +214,19 @@ static void phase_not_carried(const group *g, char *why, size_t why_size)
 {
     snprintf(why, why_size, "its runs' energy drifts, and the period with it: a phase "
              "error per period measured over %.3g periods does not hold over %.3g",
-             periods_of(g->rows[0]), g->target->periods);
+             measured_periods(g->rows, g->n, &(double){ 0.0 }), g->target->periods);
 }
 
 /* The cheapest ok run that meets the target as measured (grown to the horizon), or
- * SIZE_MAX; *closest: the run nearest to meeting it, *closeness its predicted / target. */
-static size_t best_measured(const group *g, double *closeness, size_t *closest)
+ * SIZE_MAX; *closest: the run nearest to meeting it, *closeness its predicted / target;
+ * *coarse_met: a run that meets it only with a carried max |dE| of 1/10 or more. */
+static size_t best_measured(const group *g, double *closeness, size_t *closest,
+                            size_t *coarse_met)
 {
     size_t best = SIZE_MAX;
     *closeness = INFINITY;
     *closest = SIZE_MAX;
+    *coarse_met = SIZE_MAX;
     for (size_t i = 0; i < g->n; i++) {
         const dm_summary_row *r = g->rows[i];
         if (!usable_row(r))
@@ -218,7 +238,13 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest)
         double over = m > 0.0 ? 1.0 / m : INFINITY;
         if (*closest == SIZE_MAX || over < *closeness)
             *closeness = over, *closest = i;
-        if (m >= 1.0 && (best == SIZE_MAX ||
+        /* at a longer horizon a carried error of 1/10 or more is outside the regime
+         * its law was measured in: no answer, though a target that large it meets */
+        bool coarse = g->extended && !(g->grown[i] < DM_ENERGY_COARSE);
+        if (m >= 1.0 && coarse &&
+            (*coarse_met == SIZE_MAX || g->grown[i] < g->grown[*coarse_met]))
+            *coarse_met = i;
+        if (m >= 1.0 && !coarse && (best == SIZE_MAX ||
                          r->force_evals_per_period < g->rows[best]->force_evals_per_period))
             best = i;
     }
@@ -290,10 +316,12 @@ static void predict(const group *g, double x, dm_choice *c)
 }
 
 /* The step (or tolerance) where the fitted lines meet the targets (the smaller of the
- * two when both are given); NaN when a line is missing or poor. */
-static double fitted_x(const group *g, char *why, size_t why_size)
+ * two when both are given; *binding: which, 0 energy, 1 phase); NaN when a line is
+ * missing or poor. */
+static double fitted_x(const group *g, int *binding, char *why, size_t why_size)
 {
     double x = INFINITY;
+    *binding = 0;
     const dm_target *t = g->target;
     const double target[2] = { t->max_energy_error, t->phase_per_period };
     for (int k = 0; k < 2; k++) {
@@ -302,7 +330,9 @@ static double fitted_x(const group *g, char *why, size_t why_size)
         if (fit_unreadable(g, k, why, why_size))
             return NAN;
         const dm_line_fit *l = fit_line(g, k);
-        x = fmin(x, exp(l->mean_x + (log(target[k]) - l->mean_y) / dm_line_fit_slope(l)));
+        double xk = exp(l->mean_x + (log(target[k]) - l->mean_y) / dm_line_fit_slope(l));
+        if (xk < x)
+            x = xk, *binding = k;
     }
     return x;
 }
@@ -380,6 +410,15 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
     return st;
 }
 
+/* The refusal of a max |dE| carried to the target's horizon at 1/10 or more. */
+static void coarse_refusal(const group *g, double energy, dm_choice *c)
+{
+    snprintf(c->why_not, sizeof c->why_not, "its max |dE| over %.3g periods would be %.3g: "
+             "an error of %g or more is outside the regime its drift law was measured in (a "
+             "step near the method's stability limit)", g->target->periods, energy,
+             DM_ENERGY_COARSE);
+}
+
 /* One group's answer into *c. */
 static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
 {
@@ -401,13 +440,11 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     c->fit_rms = dm_line_fit_rms_residual(&g->far.energy_line) / log(10.0);
     c->horizon_factor = 1.0;
     if (g->extended) {
-        double measured = INFINITY;
+        double step, measured = measured_periods(g->rows, g->n, &step);
         bool any = false;
         for (size_t i = 0; i < g->n; i++)
-            if (ok_row(g->rows[i])) {
-                measured = fmin(measured, periods_of(g->rows[i]));
+            if (ok_row(g->rows[i]))
                 any = any || !isnan(g->growth[i]);
-            }
         if (!any) {
             c->closeness = INFINITY; /* no run can be judged there */
             snprintf(c->horizon_rule, sizeof c->horizon_rule, "unmeasured");
@@ -419,21 +456,21 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     }
     horizon_rule(g, NULL, SIZE_MAX, c); /* of every ok run, until the answer names its runs */
     double closeness;
-    size_t closest, mi = best_measured(g, &closeness, &closest);
+    size_t closest, coarse_met, mi = best_measured(g, &closeness, &closest, &coarse_met);
     const dm_summary_row *m = mi == SIZE_MAX ? NULL : g->rows[mi];
     c->closeness = closeness;
     char why[DM_CHOICE_TEXT] = "";
-    double xf = fitted_x(g, why, sizeof why);
+    int binding;
+    double xf = fitted_x(g, &binding, why, sizeof why);
     /* the fitted step is used where it is cheaper than the best measured run */
     bool use_fit = !isnan(xf) && (m == NULL || xf > x_of(m) * (1.0 + 1e-12));
     if (use_fit) {
-        /* the range of the fits the targets are read off */
-        bool on_energy = !isnan(g->target->max_energy_error);
-        bool on_phase = !isnan(g->target->phase_per_period);
+        /* the range of the fit the step is read off (a target met further out on the
+         * other fit does not move the step) */
+        const unsigned char *use = binding == 0 ? g->far.energy_use : g->fit.phase_use;
         double lo = INFINITY, hi = 0.0;
         for (size_t i = 0; i < g->n; i++)
-            if ((on_energy && g->far.energy_use[i] == DM_FIT_USED) ||
-                (on_phase && g->fit.phase_use[i] == DM_FIT_USED)) {
+            if (use[i] == DM_FIT_USED) {
                 lo = fmin(lo, x_of(g->rows[i]));
                 hi = fmax(hi, x_of(g->rows[i]));
             }
@@ -463,6 +500,11 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
                       dm_line_fit_at(&g->fit.energy_line, log(xf)))
                 : NAN;
             horizon_rule(g, g->far.energy_use, SIZE_MAX, c);
+            if (g->extended && !(c->energy_error < DM_ENERGY_COARSE) && m != NULL) {
+                /* outside the regime of its law (below); a run that meets it is not */
+                use_fit = false;
+                c->beyond = 1.0;
+            }
         }
     }
     if (!use_fit && m != NULL) {
@@ -481,6 +523,11 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
                      fit_column[1], text);
         }
         c->cost_per_period = m->force_evals_per_period;
+    }
+    if (c->basis == DM_BASIS_NONE && coarse_met != SIZE_MAX) {
+        run_horizon(g, coarse_met, c);
+        coarse_refusal(g, g->grown[coarse_met], c);
+        return DM_OK;
     }
     if (c->basis == DM_BASIS_NONE) {
         if (closest != SIZE_MAX)
@@ -505,10 +552,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
         return DM_OK;
     }
     if (g->extended && !(c->energy_error < DM_ENERGY_COARSE)) {
-        snprintf(c->why_not, sizeof c->why_not, "its max |dE| over %.3g periods would be "
-                 "%.3g: an error of %g or more is outside the regime its drift law was "
-                 "measured in (a step near the method's stability limit)", g->target->periods,
-                 c->energy_error, DM_ENERGY_COARSE);
+        coarse_refusal(g, c->energy_error, c);
         return DM_OK;
     }
     const dm_summary_row *bad = bad_run_in_range(g, c->x);

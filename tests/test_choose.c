@@ -228,11 +228,74 @@ static void a_carried_error_of_a_tenth_is_refused(void **state)
     dm_summary_row r[4];
     for (int i = 0; i < 4; i++)
         r[i] = row("yoshida4", steps_h[i], 1e-2 * pow(steps_h[i] / 0.1, 4), 1.0);
-    dm_choice c = choose_one(r, 4, 0.5, 20.0 * MEASURED_PERIODS); /* 1e-2 x 20 = 0.2 */
+    /* the coarsest run alone: 1e-2 x 20 = 0.2 meets 0.5, but not as an answer */
+    dm_choice c = choose_one(r, 1, 0.5, 20.0 * MEASURED_PERIODS);
     assert_false(c.ranked);
-    assert_non_null(strstr(c.why_not, "outside the regime"));
-    c = choose_one(r, 4, 0.5, MEASURED_PERIODS); /* as measured: the run did it */
+    assert_non_null(strstr(c.why_not, "would be 0.2:"));
+    /* with the sweep, the cheapest run that meets it inside the regime: the next step
+     * (1e-2 / 16 x 20 = 0.0125), not a refusal of the whole method (a tester's harmonic
+     * RK4 was refused though its 64-step run carried 7.95e-3) */
+    c = choose_one(r, 4, 0.5, 20.0 * MEASURED_PERIODS);
     assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_MEASURED);
+    assert_true(c.x == steps_h[1]);
+    assert_true(fabs(c.energy_error / 0.0125 - 1.0) < 1e-12);
+    /* a step read off the fit that lands at 1/10 or more falls back the same way */
+    c = choose_one(r, 4, 0.15, 20.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_true(c.x == steps_h[1]);
+    c = choose_one(r, 1, 0.5, MEASURED_PERIODS); /* as measured: the run did it */
+    assert_true(c.ranked);
+}
+
+/* With both targets, the step is read off the fit that binds, and whether it is inside
+ * that fit's range (interpolated) or beyond it (extrapolated) is judged on that fit
+ * alone: here the phase fit lacks the finest run (no phase figure), so a phase target
+ * met at h = 0.02 lies beyond its finest step 0.025, though inside the energy fit's. */
+static void the_binding_fit_names_the_basis(void **state)
+{
+    (void)state;
+    dm_summary_row r[4];
+    for (int i = 0; i < 4; i++)
+        r[i] = row("verlet", steps_h[i], 1e-4 * pow(steps_h[i] / 0.1, 4), 0.0);
+    r[3].phase_error_per_period = NAN;
+    dm_target t = { .max_energy_error = 1e-3, .periods = NAN,
+                    .phase_per_period = 1e-5 * pow(0.2, 4) }; /* 0.1 C (h/0.1)^4 at 0.02 */
+    dm_choice *c = NULL;
+    size_t nc = 0;
+    bool all = false;
+    dm_error err = { 0 };
+    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
+    print_message("basis %s x %.17g beyond %g\n", dm_choice_basis_name(c[0].basis), c[0].x,
+                  c[0].beyond);
+    assert_true(c[0].ranked);
+    assert_int_equal(c[0].basis, DM_BASIS_EXTRAPOLATED);
+    assert_true(fabs(c[0].x / 0.02 - 1.0) < 1e-12);
+    assert_true(fabs(c[0].beyond / 1.25 - 1.0) < 1e-12);
+    free(c);
+}
+
+/* The horizon the runs measured is that of the ok runs, not of the first row (a coarse
+ * run that diverged early), and a run covers up to one step past its horizon: asked for
+ * that horizon, the answer is at the measured horizon, not "(longer)". */
+static void the_measured_horizon_is_the_ok_runs(void **state)
+{
+    (void)state;
+    dm_summary_row r[5];
+    r[0] = row("rk4", 0.2, 1.0, NAN);
+    snprintf(r[0].status, sizeof r[0].status, "diverged");
+    r[0].force_evals /= 100; /* 10 periods */
+    for (int i = 0; i < 4; i++) {
+        r[i + 1] = row("rk4", steps_h[i], 1e-3 * pow(steps_h[i] / 0.1, 5), 1.0);
+        r[i + 1].force_evals += 1; /* the step that reaches the horizon */
+    }
+    dm_choice c = choose_one(r, 5, 1e-4, 10.0 * MEASURED_PERIODS);
+    assert_true(c.ranked);
+    assert_non_null(strstr(c.not_predicted, "measured over 1e+03 periods"));
+    c = choose_one(r, 5, 1e-4, MEASURED_PERIODS);
+    assert_string_equal(c.horizon_rule, "measured horizon");
+    c = choose_one(r, 5, 1e-4, 0.5 * MEASURED_PERIODS);
+    assert_string_equal(c.horizon_rule, "measured horizon (longer)");
 }
 
 /* Exponents that differ only past the two digits shown are one exponent. */
@@ -287,6 +350,8 @@ int main(void)
         cmocka_unit_test(a_carried_error_of_a_tenth_is_refused),
         cmocka_unit_test(the_horizon_names_one_exponent_as_shown),
         cmocka_unit_test(a_run_that_left_its_regime_is_no_answer),
+        cmocka_unit_test(the_binding_fit_names_the_basis),
+        cmocka_unit_test(the_measured_horizon_is_the_ok_runs),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }
