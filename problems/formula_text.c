@@ -120,9 +120,13 @@ static dm_status add_number(const char *s, size_t *i, char *o, size_t *used, dou
         v = strtod(buf, &end);
     }
     if (end == NULL || *end != '\0' || name_char((unsigned char)s[*i + n]) ||
-        s[*i + n] == '.' || !isfinite(v))
-        return dm_error_set(err, DM_EINPUT, "malformed number '%.*s'", (int)(n < 40 ? n : 40),
-                            s + *i);
+        s[*i + n] == '.' || !isfinite(v)) {
+        size_t shown = n; /* with what stuck to it: "1e", "2q", "1.2.3" */
+        while (name_char((unsigned char)s[*i + shown]) || s[*i + shown] == '.')
+            shown++;
+        return dm_error_set(err, DM_EINPUT, "malformed number '%.*s'",
+                            (int)(shown < 40 ? shown : 40), s + *i);
+    }
     if (is_exponent(s, *i)) {
         if (!survives_print(v) || !survives_print(v - 1.0))
             return dm_error_set(err, DM_EINPUT, "the exponent %s has more digits than the "
@@ -191,10 +195,22 @@ dm_status dm_formula_scan_text(const char *s, double *constants, int *n_constant
             out->text[used++] = (char)ch;
             i++;
         } else {
-            st = dm_error_set(err, DM_EINPUT, "unexpected character '%c'%s",
-                              isprint(ch) ? ch : '?',
-                              ch == ',' ? " (functions take one argument; write a power as "
-                                          "x^y)" : "");
+            if (ch >= 0x80) { /* one UTF-8 character, shown whole: '²', 'π' */
+                size_t n = 1;
+                while (n < 4 && ((unsigned char)s[i + n] & 0xC0) == 0x80)
+                    n++;
+                bool power = n == 2 && ch == 0xC2 &&
+                             ((unsigned char)s[i + 1] == 0xB2 || (unsigned char)s[i + 1] == 0xB3);
+                st = dm_error_set(err, DM_EINPUT, "unexpected character '%.*s' (a formula is "
+                                  "plain ASCII%s)", (int)n, s + i,
+                                  power ? ": write a power as x^2" : "");
+            } else if (!isprint(ch))
+                st = dm_error_set(err, DM_EINPUT, "unexpected control character (byte 0x%02X)",
+                                  (unsigned)ch);
+            else
+                st = dm_error_set(err, DM_EINPUT, "unexpected character '%c'%s", ch,
+                                  ch == ',' ? " (functions take one argument; write a power "
+                                              "as x^y)" : "");
         }
         if (st != DM_OK)
             *column = (int)start + 1;
