@@ -1404,6 +1404,17 @@ static bool compound_within_itself(hid_t ft)
     return true;
 }
 
+/* Every file of this schema has /sweeps, an empty group when its suite has none: one
+ * without it is damaged, for every reader alike. */
+static dm_status check_has_sweeps(hid_t file, const char *path, dm_error *err)
+{
+    if (H5Lexists(file, "sweeps", H5P_DEFAULT) > 0)
+        return DM_OK;
+    return dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /sweeps group (every "
+                        "results file has one, empty when its suite has no sweeps): the "
+                        "file is damaged", path);
+}
+
 static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
                                    size_t *n, dm_error *err)
 {
@@ -1426,6 +1437,8 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
                             DM_SCHEMA_VERSION);
     if (H5Lexists(file, "summary", H5P_DEFAULT) <= 0)
         return dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /summary dataset", path);
+    if (schema >= DM_SCHEMA_VERSION && check_has_sweeps(file, path, err) != DM_OK)
+        return DM_EINPUT;
     uint64_t written = 0;
     bool claims = H5Aexists(file, "n_runs_written") > 0;
     if (claims && read_u64_attr(file, "n_runs_written", &written) != 0)
@@ -1703,12 +1716,6 @@ dm_status dm_results_read_runs(const char *path, const dm_suite *suite,
     hid_t runs = -1;
     dm_run_index ids = { 0 };
     long long schema = 0;
-    if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 && schema < 1) {
-        st = dm_error_set(err, DM_EINPUT, "cannot read %s: its schema_version is %lld "
-                          "(expected 1 to %d): the file is damaged", path, schema,
-                          DM_SCHEMA_VERSION);
-        goto done;
-    }
     if (file >= 0 && read_int_attr(file, "schema_version", &schema) == 0 &&
         schema < DM_SCHEMA_VERSION) {
         /* Its runs were measured by other definitions (results/README.md, Changes): a
@@ -2055,13 +2062,8 @@ dm_status dm_results_read_sweeps(const char *path, dm_sweep_summary **sweeps, si
     long long schema = 0;
     if (read_int_attr(file, "schema_version", &schema) != 0 || schema < DM_SCHEMA_VERSION)
         goto done;   /* schema 1 kept other sweep figures (n_points): not shown */
-    if (H5Lexists(file, "sweeps", H5P_DEFAULT) <= 0) {
-        /* every file written has /sweeps, an empty group when its suite has none */
-        st = dm_error_set(err, DM_EINPUT, "cannot read %s: it has no /sweeps group (every "
-                          "results file has one, empty when its suite has no sweeps): the "
-                          "file is damaged", path);
+    if ((st = check_has_sweeps(file, path, err)) != DM_OK)
         goto done;
-    }
     H5G_info_t info;
     group = H5Gopen2(file, "sweeps", H5P_DEFAULT);
     if (group < 0 || H5Gget_info(group, &info) < 0 || info.nlinks > DM_SUITE_MAX_RUNS) {

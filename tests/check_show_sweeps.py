@@ -7,7 +7,8 @@
     counts and each run's codes, checked against the file as h5py reads it;
   - a hostile /sweeps (an array where one value belongs, an unknown code, a dataset of
     the wrong length, a sweep that is not a group) or a deleted /sweeps is one line on
-    stderr, exit 2, nothing on stdout;
+    stderr, exit 2, nothing on stdout (a deleted /sweeps for choose, compare and
+    run --resume alike);
   - a suite without sweeps leaves an empty /sweeps, and `show --sweeps` says so in one
     line.
 
@@ -197,6 +198,15 @@ def main():
         hostile("no-sweeps.h5", lambda g, f: f.__delitem__("sweeps"))
         for args in (["--sweeps"], ["--sweeps", "--format", "json"], []):
             refused(tmp, ["show", "no-sweeps.h5", *args], f"no /sweeps {args}", "/sweeps")
+        # ... for every reader alike, the file untouched by --resume
+        before = open(os.path.join(tmp, "no-sweeps.h5"), "rb").read()
+        for args in (["choose", "no-sweeps.h5", "--energy-error", "1e-3"],
+                     ["compare", "no-sweeps.h5", "a.h5"], ["compare", "a.h5", "no-sweeps.h5"],
+                     ["run", "--resume", "no-sweeps.h5"],
+                     ["run", "--resume", "no-sweeps.h5", "--plan"]):
+            refused(tmp, args, f"no /sweeps: {' '.join(args)}", "/sweeps")
+        check(open(os.path.join(tmp, "no-sweeps.h5"), "rb").read() == before,
+              "no /sweeps: --resume left the file as it was")
         # a suite without sweeps: an empty /sweeps, and `show --sweeps` says so in one line
         with open(os.path.join(tmp, "flat.yaml"), "w") as f:
             f.write(SUITE.replace("[2, 16, 32, 64]", "16").replace("[16, 32]", "16"))
