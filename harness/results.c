@@ -1415,6 +1415,29 @@ static dm_status check_has_sweeps(hid_t file, const char *path, dm_error *err)
                         "file is damaged", path);
 }
 
+/* A run id two rows of a summary share (a file as we write it has none: readers find
+ * a run by its id), or NULL; *st DM_ENOMEM when the index could not be made. */
+static const char *twin_id(const dm_summary_row *rows, size_t n, dm_status *st)
+{
+    dm_run_index ids;
+    *st = DM_OK;
+    if (dm_run_index_init(&ids, n) != 0) {
+        *st = DM_ENOMEM;
+        return NULL;
+    }
+    const char *twin = NULL;
+    for (size_t i = 0; i < n && twin == NULL; i++) {
+        uint64_t key = dm_hash_text(rows[i].run_id);
+        size_t probe = 0;
+        for (size_t r; twin == NULL && (r = dm_run_index_next(&ids, key, &probe)) != SIZE_MAX;)
+            if (strcmp(rows[r].run_id, rows[i].run_id) == 0)
+                twin = rows[i].run_id;
+        dm_run_index_add(&ids, key, i);
+    }
+    dm_run_index_free(&ids);
+    return twin;
+}
+
 static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row **rows,
                                    size_t *n, dm_error *err)
 {
@@ -1488,7 +1511,18 @@ static dm_status read_summary_open(hid_t file, const char *path, dm_summary_row 
                         dm_run_status_named(text) == DM_RUN_NOT_RUN)
                         unknown = text;
                 }
-            if (unknown != NULL) {
+            const char *twin = unknown == NULL ? twin_id(buf, (size_t)count, &st) : NULL;
+            if (st != DM_OK) {
+                st = dm_error_set(err, DM_ENOMEM, "out of memory reading %s", path);
+                free(buf);
+            } else if (twin != NULL) {
+                char shown[4 * DM_RUN_ID_MAX];
+                dm_escape_controls(twin, shown, sizeof shown);
+                st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary holds run %s "
+                                  "twice (a run has one row): the file is damaged", path,
+                                  shown);
+                free(buf);
+            } else if (unknown != NULL) {
                 char shown[4 * DM_RUN_ID_MAX];
                 dm_escape_controls(unknown, shown, sizeof shown);
                 st = dm_error_set(err, DM_EINPUT, "cannot read %s: /summary holds a status "

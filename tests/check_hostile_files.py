@@ -8,7 +8,8 @@ bytes escaped.
     elements, a run's max_energy_error or steps): refused, not read past its end
     (under the sanitizer build, which CI runs this with, a crash is a failure);
   - a text where a number belongs, a number where a text belongs;
-  - /summary claiming more rows than n_runs_written or than a suite can have;
+  - /summary claiming more rows than n_runs_written or than a suite can have, or
+    holding one run id twice;
   - a FIFO and a device given as the results file (must not block);
   - a damaged HDF5 header: our one line only;
   - /summary's datatype with a member's offset past the end of its row;
@@ -151,6 +152,19 @@ def main():
                      ["choose", "summary-status.h5", "--energy-error", "1e-3"],
                      ["compare", "good.h5", "summary-status.h5"]):
             refused(tmp, args, " ".join(args), "status 'weird'")
+        # two /summary rows of one run id: readers find a run by its id (choose named
+        # such an id as a problem variant)
+        def summary_twins(f):
+            rows = f["summary"][()]
+            rows["run_id"][1] = rows["run_id"][0]
+            del f["summary"]
+            f.create_dataset("summary", data=rows)
+        hostile(base, "summary-twins.h5", summary_twins)
+        for args in (["show", "summary-twins.h5"],
+                     ["choose", "summary-twins.h5", "--energy-error", "1e-3"],
+                     ["compare", "good.h5", "summary-twins.h5"],
+                     ["run", "--resume", "summary-twins.h5"]):
+            refused(tmp, args, " ".join(args), "twice")
         r = run(["show", "steps-array.h5"], tmp)
         check(r.returncode == 0, f"show steps-array.h5: /summary alone is still readable "
                                  f"(exit {r.returncode}: {r.stderr!r})")
