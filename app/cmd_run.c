@@ -128,6 +128,12 @@ static dm_status load_suite(dm_suite *suite, const char *path, const char *outpu
     st = dm_suite_parse_in(suite, text, strlen(text), source, folder,
                            output == dm_suite_output_unchecked ? output : resume, err);
     free(text);
+    if (st == DM_EINPUT) { /* the places named are in the copy the file holds */
+        char msg[sizeof err->msg];
+        snprintf(msg, sizeof msg, "%s", err->msg);
+        dm_error_set(err, st, "the suite %s holds (a copy of %s) does not read: %s", resume,
+                     source, msg);
+    }
     return st;
 }
 

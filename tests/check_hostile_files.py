@@ -331,6 +331,10 @@ def main():
         hostile(base, "evil-source.h5", evil_source_bad_suite)
         refused(tmp, ["run", "--resume", "evil-source.h5"], "resume with a hostile source",
                 "src\\x1b[2J\\nsecond.yaml")
+        # the places named are in the copy the file holds, and the message says so
+        refused(tmp, ["run", "--resume", "evil-source.h5"], "resume a garbled stored suite",
+                "the suite evil-source.h5 holds (a copy of src\\x1b[2J\\nsecond.yaml) does "
+                "not read: src\\x1b[2J\\nsecond.yaml:")
 
         # a path with a newline: still one line
         weird = os.path.join(tmp, "a\nb.h5")
