@@ -229,15 +229,13 @@ static void a_checkpoint_that_does_not_fit_is_refused(void **state)
     }
 }
 
-/* A checkpoint in a file whose step count lies past the run's horizon (word 4: one
- * tester set it to 2^64 - 1) is refused as the file is read, before anything is
- * written: it was read, the run then failed, and --resume rewrote the file without it.
- * So is one of a layout no driftmark wrote (0) or a newer one's (9): it restarted the
- * run silently from step 0. */
-static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **state)
+/* Writes run 0 stopped at its first poll (interrupted, with a checkpoint) to a file at
+ * path, opens that file for writing and reads the checkpoint's words: *f, *d (its
+ * dataset), *space, *w (allocated) and *n (their count); `all` (suite.n_runs results)
+ * is returned for reading back. */
+static dm_run_result *write_checkpoint_words(const char *path, hid_t *f, hid_t *d, hid_t *space,
+                                             uint64_t **w, hsize_t *n)
 {
-    char path[64];
-    snprintf(path, sizeof path, "/tmp/dm-checkpoint-k-%ld.h5", (long)getpid());
     volatile int stop = 1;
     dm_error err = { 0 };
     dm_run_result r;
@@ -248,15 +246,34 @@ static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **stat
     assert_int_equal(dm_results_write(path, &suite, all, NULL, "2000-01-01T00:00:00Z", &err),
                      DM_OK);
     dm_run_result_free(&r);
-    hid_t f = H5Fopen(path, H5F_ACC_RDWR, H5P_DEFAULT);
+    memset(all, 0, suite.n_runs * sizeof *all);
+    *f = H5Fopen(path, H5F_ACC_RDWR, H5P_DEFAULT);
     char name[DM_RUN_ID_MAX + 32];
     snprintf(name, sizeof name, "runs/%s/checkpoint", suite.runs[0].id);
-    hid_t d = H5Dopen2(f, name, H5P_DEFAULT);
-    assert_true(d >= 0);
-    hid_t space = H5Dget_space(d);
-    hsize_t n = (hsize_t)H5Sget_simple_extent_npoints(space);
-    uint64_t *w = calloc(n, sizeof *w);
-    assert_int_equal(H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
+    *d = H5Dopen2(*f, name, H5P_DEFAULT);
+    assert_true(*d >= 0);
+    *space = H5Dget_space(*d);
+    *n = (hsize_t)H5Sget_simple_extent_npoints(*space);
+    *w = calloc(*n, sizeof **w);
+    assert_non_null(*w);
+    assert_int_equal(H5Dread(*d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, *w), 0);
+    return all;
+}
+
+/* A checkpoint in a file whose step count lies past the run's horizon (word 4: one
+ * tester set it to 2^64 - 1) is refused as the file is read, before anything is
+ * written: it was read, the run then failed, and --resume rewrote the file without it.
+ * So is one of a layout no driftmark wrote (0) or a newer one's (9): it restarted the
+ * run silently from step 0. */
+static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **state)
+{
+    char path[64];
+    snprintf(path, sizeof path, "/tmp/dm-checkpoint-k-%ld.h5", (long)getpid());
+    dm_error err = { 0 };
+    hid_t f, d, space;
+    uint64_t *w;
+    hsize_t n;
+    dm_run_result *all = write_checkpoint_words(path, &f, &d, &space, &w, &n);
     assert_true(w[4] > 0 && w[4] <= dm_run_fixed_steps(&suite.runs[0])); /* k, as taken */
     int layout = *(int *)*state; /* 0: the step count damaged; else the layout word (-1: 0) */
     if (layout == 0)
@@ -268,7 +285,6 @@ static void a_file_checkpoint_past_the_horizon_is_refused_on_reading(void **stat
     H5Sclose(space);
     H5Dclose(d);
     H5Fclose(f);
-    memset(all, 0, suite.n_runs * sizeof *all);
     size_t kept = 0;
     assert_int_equal(dm_results_read_runs(path, &suite, all, NULL, &kept, &err), DM_EINPUT);
     assert_non_null(strstr(err.msg, "damaged"));
@@ -390,24 +406,13 @@ static void a_layout_2_checkpoint_is_read(void **state)
     dm_error err = { 0 };
     assert_int_equal(dm_run(&suite.runs[0], &full, NULL, &err), DM_OK);
     for (int layout = 1; layout <= 2; layout++) {
-        volatile int stop = 1;
-        assert_int_equal(dm_run(&suite.runs[0], &r, &stop, &err), DM_OK);
-        dm_run_result *all = calloc(suite.n_runs, sizeof *all);
-        assert_non_null(all);
-        all[0] = r;
-        assert_int_equal(dm_results_write(path, &suite, all, NULL, "2000-01-01T00:00:00Z",
-                                          &err), DM_OK);
-        dm_run_result_free(&r);
+        hid_t f, d, space;
+        uint64_t *w;
+        hsize_t n;
+        dm_run_result *all = write_checkpoint_words(path, &f, &d, &space, &w, &n);
         /* the record rewritten in the older layout: word 12 dropped */
-        hid_t f = H5Fopen(path, H5F_ACC_RDWR, H5P_DEFAULT);
         char name[DM_RUN_ID_MAX + 32];
         snprintf(name, sizeof name, "runs/%s/checkpoint", suite.runs[0].id);
-        hid_t d = H5Dopen2(f, name, H5P_DEFAULT);
-        assert_true(d >= 0);
-        hid_t space = H5Dget_space(d);
-        hsize_t n = (hsize_t)H5Sget_simple_extent_npoints(space);
-        uint64_t *w = calloc(n, sizeof *w);
-        assert_int_equal(H5Dread(d, H5T_NATIVE_UINT64, H5S_ALL, H5S_ALL, H5P_DEFAULT, w), 0);
         assert_int_equal(w[0], 3);
         assert_int_equal(w[12], 0); /* never continued */
         memmove(w + 12, w + 13, (size_t)(n - 13) * sizeof *w);
@@ -423,7 +428,6 @@ static void a_layout_2_checkpoint_is_read(void **state)
         H5Dclose(d);
         H5Sclose(space);
         H5Fclose(f);
-        memset(all, 0, suite.n_runs * sizeof *all);
         size_t kept = 99;
         assert_int_equal(dm_results_read_runs(path, &suite, all, NULL, &kept, &err), DM_OK);
         r = all[0];
