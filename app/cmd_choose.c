@@ -166,8 +166,8 @@ static void print_closest(const dm_choice *c, size_t n)
         /* a best run within the target that is still not ranked (refused for another
          * reason): its reason, not "0.07 times over it" */
         if (!answered && !(isfinite(c[best].closeness) && c[best].closeness > 1.0))
-            fprintf(stderr, "driftmark: choose: %s: no method ranked: %s\n", c[i].variant,
-                    c[best].why_not);
+            fprintf(stderr, "driftmark: choose: %s: no method ranked; %s: %s\n", c[i].variant,
+                    c[best].method, c[best].why_not);
         else if (!answered)
             fprintf(stderr, "driftmark: choose: %s: no method meets the target; closest: %s, "
                     "whose best run is %.3g times over it\n", c[i].variant, c[best].method,
@@ -207,7 +207,7 @@ int dm_cmd_choose(int argc, char **argv)
             return bad;
     }
     if (target.periods > DM_MAX_PERIODS)
-        return dm_cli_usage_error("choose", "--periods = %g is beyond %g periods, the longest "
+        return dm_cli_usage_error("choose", "--periods = %.10g is beyond %g periods, the longest "
                                   "horizon a suite may ask for", target.periods, DM_MAX_PERIODS);
     if (optind >= argc)
         return dm_cli_usage_error("choose", "no results file given (%s)", usage);

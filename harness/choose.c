@@ -153,7 +153,9 @@ static void horizon_rule(const group *g, const unsigned char *use, size_t only, 
         hi = fmax(hi, r->drift_exponent);
     }
     double step, measured = measured_periods(g->rows, g->n, &step);
-    if (!g->extended && !isnan(g->target->periods) &&
+    if (isnan(measured)) /* no ok run: no horizon was measured */
+        snprintf(c->horizon_rule, sizeof c->horizon_rule, "-");
+    else if (!g->extended && !isnan(g->target->periods) &&
         g->target->periods < (measured - step) * (1.0 - 1e-9))
         /* max |dE| over a shorter horizon is at most that over the runs' own */
         snprintf(c->horizon_rule, sizeof c->horizon_rule, "measured horizon (longer)");
@@ -213,7 +215,7 @@ static bool phase_carried(const group *g, size_t i)
 static void phase_not_carried(const group *g, char *why, size_t why_size)
 {
     snprintf(why, why_size, "its runs' energy drifts, and the period with it: a phase "
-             "error per period measured over %.3g periods does not hold over %.3g",
+             "error per period measured over %.7g periods does not hold over %.7g",
              measured_periods(g->rows, g->n, &(double){ 0.0 }), g->target->periods);
 }
 
@@ -235,12 +237,13 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest,
             continue;
         double m = margin_of(g->target, g->grown[i],
                              phase_carried(g, i) ? fabs(r->phase_error_per_period) : NAN);
-        double over = m > 0.0 ? 1.0 / m : INFINITY;
+        /* at a longer horizon a carried error of 1/10 or more is outside the regime
+         * its law was measured in: no answer, though a target that large it meets, and
+         * not judged against the target either (its closeness would read as met) */
+        bool coarse = g->extended && !(g->grown[i] < DM_ENERGY_COARSE);
+        double over = m > 0.0 && !coarse ? 1.0 / m : INFINITY;
         if (*closest == SIZE_MAX || over < *closeness)
             *closeness = over, *closest = i;
-        /* at a longer horizon a carried error of 1/10 or more is outside the regime
-         * its law was measured in: no answer, though a target that large it meets */
-        bool coarse = g->extended && !(g->grown[i] < DM_ENERGY_COARSE);
         if (m >= 1.0 && coarse &&
             (*coarse_met == SIZE_MAX || g->grown[i] < g->grown[*coarse_met]))
             *coarse_met = i;
@@ -323,7 +326,13 @@ static double fitted_x(const group *g, int *binding, char *why, size_t why_size)
     double x = INFINITY;
     *binding = 0;
     const dm_target *t = g->target;
-    const double target[2] = { t->max_energy_error, t->phase_per_period };
+    /* at a longer horizon the energy line is read no further than just under 1/10 (an
+     * error that large is no answer there: the cheapest step that is, for a looser
+     * target) */
+    const double target[2] = { g->extended && !isnan(t->max_energy_error)
+                                   ? fmin(t->max_energy_error, DM_ENERGY_COARSE * (1.0 - 1e-3))
+                                   : t->max_energy_error,
+                               t->phase_per_period };
     for (int k = 0; k < 2; k++) {
         if (isnan(target[k]))
             continue;
@@ -413,10 +422,9 @@ static dm_status group_fits(group *g, const char *name, dm_error *err)
 /* The refusal of a max |dE| carried to the target's horizon at 1/10 or more. */
 static void coarse_refusal(const group *g, double energy, dm_choice *c)
 {
-    snprintf(c->why_not, sizeof c->why_not, "its max |dE| over %.3g periods would be %.3g: "
-             "an error of %g or more is outside the regime its drift law was measured in (a "
-             "step near the method's stability limit)", g->target->periods, energy,
-             DM_ENERGY_COARSE);
+    snprintf(c->why_not, sizeof c->why_not, "its max |dE| over %.7g periods would be %.3g: "
+             "an error of %g or more is outside the regime its drift law was measured in",
+             g->target->periods, energy, DM_ENERGY_COARSE);
 }
 
 /* One group's answer into *c. */
@@ -448,7 +456,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
         if (!any) {
             c->closeness = INFINITY; /* no run can be judged there */
             snprintf(c->horizon_rule, sizeof c->horizon_rule, "unmeasured");
-            snprintf(c->why_not, sizeof c->why_not, "cannot extend %.3g measured periods to "
+            snprintf(c->why_not, sizeof c->why_not, "cannot extend %.7g measured periods to "
                      "%.3g: no run's drift exponent is measured", measured,
                      g->target->periods);
             return DM_OK;
@@ -487,21 +495,33 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
             c->beyond = xf < lo ? lo / xf : 1.0;
             predict(g, xf, c);
             c->cost_per_period = cost_at(g, xf);
-            /* never under the round-off floor of the steps to the horizon (fixed steps:
-             * their number is known) */
-            if (g->extended && !c->adaptive)
-                c->energy_error = fmax(c->energy_error,
-                                       DM_ENERGY_ROUND_OFF_FLOOR * DBL_EPSILON *
-                                           sqrt(g->target->periods * g->rows[0]->period_exact /
-                                                xf));
+            /* never under the round-off floor of the steps to the horizon, measured or
+             * asked (fixed steps: their number is known; a fit is read past the runs it
+             * left out as round-off no more than past any other) */
+            if (!c->adaptive) {
+                double periods = isnan(g->target->periods) ? measured_periods(g->rows, g->n,
+                                                                              &(double){ 0 })
+                                                           : g->target->periods;
+                double root = sqrt(periods * g->rows[0]->period_exact / xf);
+                /* (a figure not predicted stays NaN: fmax would drop it) */
+                if (!isnan(c->energy_error))
+                    c->energy_error = fmax(c->energy_error,
+                                           DM_ENERGY_ROUND_OFF_FLOOR * DBL_EPSILON * root);
+                if (!isnan(c->phase_per_period))
+                    c->phase_per_period = fmax(c->phase_per_period,
+                                               DM_PHASE_ROUND_OFF_FLOOR * DBL_EPSILON * root);
+            }
             /* the growth at xf: the two energy lines' ratio there */
             c->horizon_factor = g->far.n_energy_points >= 2 && g->fit.n_energy_points >= 2
                 ? exp(dm_line_fit_at(&g->far.energy_line, log(xf)) -
                       dm_line_fit_at(&g->fit.energy_line, log(xf)))
                 : NAN;
             horizon_rule(g, g->far.energy_use, SIZE_MAX, c);
-            if (g->extended && !(c->energy_error < DM_ENERGY_COARSE) && m != NULL) {
-                /* outside the regime of its law (below); a run that meets it is not */
+            /* a step the refusals below would refuse (round-off alone over the target,
+             * or 1/10 carried), where a run meets the target: that run */
+            if (m != NULL && (margin_of(g->target, c->energy_error, c->phase_per_period) <
+                                  1.0 - 1e-9 ||
+                              (g->extended && !(c->energy_error < DM_ENERGY_COARSE)))) {
                 use_fit = false;
                 c->beyond = 1.0;
             }
@@ -546,9 +566,15 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     c->margin = margin_of(g->target, c->energy_error, c->phase_per_period);
     if (c->basis != DM_BASIS_MEASURED && c->margin < 1.0 - 1e-9) {
         /* the line meets the target where round-off alone exceeds it */
-        snprintf(c->why_not, sizeof c->why_not, "over %.3g periods round-off alone (%g eps "
-                 "sqrt(steps)) reaches %.3g at the step its fit gives", g->target->periods,
-                 DM_ENERGY_ROUND_OFF_FLOOR, c->energy_error);
+        bool energy = !isnan(g->target->max_energy_error) &&
+                      c->energy_error > g->target->max_energy_error;
+        snprintf(c->why_not, sizeof c->why_not, "at the step its fit gives (%s = %.4g) "
+                 "round-off alone reaches %s %.3g (%g eps sqrt(steps) over %.7g periods)",
+                 c->adaptive ? "rtol" : "h", c->x, energy ? "max |dE|" : "phase/per",
+                 energy ? c->energy_error : c->phase_per_period,
+                 energy ? DM_ENERGY_ROUND_OFF_FLOOR : DM_PHASE_ROUND_OFF_FLOOR,
+                 isnan(g->target->periods) ? measured_periods(g->rows, g->n, &(double){ 0 })
+                                           : g->target->periods);
         return DM_OK;
     }
     if (g->extended && !(c->energy_error < DM_ENERGY_COARSE)) {

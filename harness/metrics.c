@@ -369,7 +369,7 @@ static dm_fit_use status_use(dm_run_status status)
 
 /* Round-off floors of a sweep point (our own choices, measured on plain and compensated runs; results/README.md, sweeps). */
 #define FIT_ENERGY_FLOOR DM_ENERGY_ROUND_OFF_FLOOR
-#define FIT_PHASE_FLOOR 0.25   /* |phase per period| <= 0.25 eps sqrt(steps) */
+#define FIT_PHASE_FLOOR DM_PHASE_ROUND_OFF_FLOOR /* |phase per period| */
 #define FIT_LARGE_ENERGY 0.5   /* max |dE| >= 1/2: the error is the size of the energy */
 /* max |dE| >= 1/10: not small. An error that compounds, e^x - 1 instead of its leading
  * term x (Euler on the oscillator: (1 + h^2)^N - 1), is off that term by x/2, 5 % at

@@ -400,10 +400,12 @@ typedef struct dm_sweep_fit {
 } dm_sweep_fit;
 
 /* A max |dE| at or under this many eps sqrt(steps) is round-off (the sweep fits leave
- * it out; choose never predicts less at a longer horizon), and one of this size or more
+ * it out; choose never predicts less), as is a |phase per period| at or under
+ * DM_PHASE_ROUND_OFF_FLOOR eps sqrt(steps); a max |dE| of DM_ENERGY_COARSE or more
  * is not small (compounding errors are off their leading term by 5 %: results/README.md,
  * sweeps). Our own thresholds, measured on plain and compensated runs. */
 #define DM_ENERGY_ROUND_OFF_FLOOR 4.0
+#define DM_PHASE_ROUND_OFF_FLOOR 0.25
 #define DM_ENERGY_COARSE 0.1
 
 /* What a fit needs to know of one run of a sweep. */
