@@ -238,10 +238,10 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest,
         double m = margin_of(g->target, g->grown[i],
                              phase_carried(g, i) ? fabs(r->phase_error_per_period) : NAN);
         /* at a longer horizon a carried error of 1/10 or more is outside the regime
-         * its law was measured in: no answer, though a target that large it meets, and
-         * not judged against the target either (its closeness would read as met) */
+         * its law was measured in: no answer, though a target that large it meets (and
+         * then not judged against it: its closeness would read as met) */
         bool coarse = g->extended && !(g->grown[i] < DM_ENERGY_COARSE);
-        double over = m > 0.0 && !coarse ? 1.0 / m : INFINITY;
+        double over = m > 0.0 && !(coarse && m >= 1.0) ? 1.0 / m : INFINITY;
         if (*closest == SIZE_MAX || over < *closeness)
             *closeness = over, *closest = i;
         if (m >= 1.0 && coarse &&
