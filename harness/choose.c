@@ -254,10 +254,11 @@ static size_t best_measured(const group *g, double *closeness, size_t *closest,
     return best;
 }
 
-/* The names of the two fits (0: max |dE|, 1: phase per period) and of their columns. */
-static const char *const fit_what[2] = { "energy", "phase" };
-/* ... and the energy fit's name when its errors are grown to a longer horizon */
-#define FIT_WHAT(g, k) ((k) == 0 && (g)->extended ? "energy (at the horizon asked)" : fit_what[k])
+/* The names of the two fits (0: max |dE|, 1: phase per period) and of their columns;
+ * the fit's name: the energy fit's says when its errors are grown to a longer
+ * horizon */
+#define FIT_WHAT(g, k) ((k) == 0 && (g)->extended ? "energy fit at the horizon asked" \
+                                                  : (k) == 0 ? "energy fit" : "phase fit")
 static const char *const fit_column[2] = { "max |dE|", "phase/per" };
 
 static const dm_line_fit *fit_line(const group *g, int k)
@@ -283,13 +284,13 @@ static bool fit_unreadable(const group *g, int k, char *why, size_t why_size)
     double hi = k == 0 ? g->far.energy_local_max : g->fit.phase_local_max;
     bool trend = k == 0 ? g->far.energy_trend : g->fit.phase_trend;
     if (n < CHOOSE_MIN_POINTS)
-        snprintf(why, why_size, "its %s fit has %zu usable runs (a step is read off a fit "
-                 "of %d or more)", FIT_WHAT(g, k), n, CHOOSE_MIN_POINTS);
+        snprintf(why, why_size, "its %s has %zu usable run%s (a step is read off a fit "
+                 "of %d or more)", FIT_WHAT(g, k), n, n == 1 ? "" : "s", CHOOSE_MIN_POINTS);
     else if (!(p > 0.0) || !(rms <= CHOOSE_MAX_FIT_RMS))
-        snprintf(why, why_size, "its %s fit cannot be read (order %.3g, rms %.3g decades; "
+        snprintf(why, why_size, "its %s cannot be read (order %.3g, rms %.3g decades; "
                  "needs order > 0, rms <= %.2f)", FIT_WHAT(g, k), p, rms, CHOOSE_MAX_FIT_RMS);
     else if (hi - lo > DM_LOCAL_ORDER_SPREAD || trend) /* the sweep table's * and ~ */
-        snprintf(why, why_size, "its %s fit mixes regimes (orders between neighbouring "
+        snprintf(why, why_size, "its %s mixes regimes (orders between neighbouring "
                  "steps %.2f..%.2f%s; a step is read off a fit whose orders differ by at most "
                  "%.2f and do not move one way by more than %.0f %% of the order)",
                  FIT_WHAT(g, k), lo, hi, trend ? ", moving one way" : "",

@@ -86,7 +86,7 @@ static void a_coarse_drift_does_not_spread_to_bounded_steps(void **state)
      * off it): no step is read off it, where the measured line alone would give one */
     c = choose_one(r, 4, 1e-8, 1e3 * MEASURED_PERIODS);
     assert_false(c.ranked);
-    assert_non_null(strstr(c.why_not, "energy (at the horizon asked) fit cannot be read"));
+    assert_non_null(strstr(c.why_not, "energy fit at the horizon asked cannot be read"));
 }
 
 /* A fifth-order energy error (C h^5) drifting linearly at every step: over 10 times
@@ -131,7 +131,7 @@ static void each_run_grows_by_its_own_exponent(void **state)
     assert_string_equal(c.horizon_rule, "exponent 0.50");
     c = choose_one(r, 4, 2e-7, 100.0 * MEASURED_PERIODS);
     assert_false(c.ranked);
-    assert_non_null(strstr(c.why_not, "energy (at the horizon asked) fit cannot be read"));
+    assert_non_null(strstr(c.why_not, "energy fit at the horizon asked cannot be read"));
 }
 
 /* A run whose drift exponent is unmeasured cannot be carried to a longer horizon: it
