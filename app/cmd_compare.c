@@ -50,6 +50,9 @@ static void print_text(const dm_comparison *c)
                "method's settings or the buckets differ), not comparable %zu (what they run or "
                "measure differs: not judged)\n",
                c->runs_by_id + c->runs_not_comparable, c->runs_by_id, c->runs_not_comparable);
+    if (c->runs_renamed > 0)
+        printf("matched by configuration under another id %zu (figure run_id, renamed): "
+               "judged as any pair\n", c->runs_renamed);
     if (c->n == 0)
         return;
     printf("\n%-48s %-24s %14s %14s %10s  %s\n", "run", "figure", "old", "new", "change",
@@ -58,7 +61,7 @@ static void print_text(const dm_comparison *c)
         const dm_difference *d = &c->list[i];
         if (d->change == DM_WITHIN)
             continue; /* counted above; every field in csv and json */
-        char a[40], b[40], rel[24] = "";
+        char a[DM_RUN_ID_MAX], b[DM_RUN_ID_MAX], rel[24] = "";
         value_text(d, false, a, sizeof a);
         value_text(d, true, b, sizeof b);
         if (isfinite(d->relative))
@@ -76,7 +79,7 @@ static void print_csv(const dm_comparison *c)
     printf("run_id,figure,old,new,relative,change,keys\n");
     for (size_t i = 0; i < c->n; i++) {
         const dm_difference *d = &c->list[i];
-        char a[40], b[40];
+        char a[DM_RUN_ID_MAX], b[DM_RUN_ID_MAX];
         if (d->old_text[0] || strcmp(d->figure, "run") == 0 ||
             strcmp(d->figure, "config") == 0) {
             value_text(d, false, a, sizeof a);
@@ -102,9 +105,10 @@ static void print_json(const dm_comparison *c)
 {
     printf("{\"runs_matched\": %zu, \"same\": %zu, \"within\": %zu, \"better\": %zu, "
            "\"worse\": %zu, \"changed\": %zu, \"not_comparable\": %zu, \"by_id\": %zu, "
-           "\"only_old\": %zu, \"only_new\": %zu, \"differences\": [",
+           "\"renamed\": %zu, \"only_old\": %zu, \"only_new\": %zu, \"differences\": [",
            c->runs_matched, c->runs_same, c->runs_within, c->runs_better, c->runs_worse,
-           c->runs_changed, c->runs_not_comparable, c->runs_by_id, c->only_old, c->only_new);
+           c->runs_changed, c->runs_not_comparable, c->runs_by_id, c->runs_renamed,
+           c->only_old, c->only_new);
     for (size_t i = 0; i < c->n; i++) {
         const dm_difference *d = &c->list[i];
         printf(i ? ",\n  {\"run_id\": " : "\n  {\"run_id\": ");

@@ -20,6 +20,7 @@ const char *dm_change_name(dm_change change)
     case DM_NOISE: return "noise";
     case DM_BY_ID: return "by_id";
     case DM_NOT_COMPARABLE: return "not_comparable";
+    case DM_RENAMED: return "renamed";
     }
     return "changed";
 }
@@ -305,6 +306,23 @@ dm_status dm_compare(const dm_summary_row *old_rows, const char (*old_configs)[D
         }
         taken[at] = true;
         out->runs_matched++;
+        if (strcmp(old_rows[i].hash, b->hash) == 0 &&
+            strcmp(old_rows[i].run_id, b->run_id) != 0) {
+            /* the same configuration under another id (a suite whose names changed):
+             * judged as any pair, and said, so that no pair is matched unseen */
+            dm_difference *d = add(&s);
+            if (d == NULL) {
+                rc = -1;
+                break;
+            }
+            snprintf(d->run_id, sizeof d->run_id, "%s", b->run_id);
+            d->figure = "run_id";
+            snprintf(d->old_text, sizeof d->old_text, "%s", old_rows[i].run_id);
+            snprintf(d->new_text, sizeof d->new_text, "%s", b->run_id);
+            d->old_value = d->new_value = d->relative = NAN;
+            d->change = DM_RENAMED;
+            out->runs_renamed++;
+        }
         bool judged_pair = true, buckets_differ = false;
         if (strcmp(old_rows[i].hash, b->hash) != 0) {
             /* matched by id only: say so, and what differs */

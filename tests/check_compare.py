@@ -228,5 +228,28 @@ with tempfile.TemporaryDirectory() as tmp:
         changes = {x["figure"]: x["change"] for x in d["differences"]}
         check(p.returncode == code and changes == {"energy_drift_per_period": verdict},
               f"drift {old:.3g} -> {new:.3g}: {verdict} expected: {p.returncode} {changes}")
+    # 10. the same configuration under another id (a suite whose names changed): matched
+    # by its configuration and judged, and said (a renamed pair was matched unseen)
+    r = os.path.join(tmp, "renamed.h5")
+    shutil.copyfile(a, r)
+    with h5py.File(r, "r+") as f:
+        rows = f["summary"][()]
+        ids = [x.decode() for x in rows["run_id"]]
+        rows["run_id"][ids.index(bounded)] = b"swing-a2.verlet-n32"
+        f["summary"][...] = rows
+        f.move("runs/" + bounded, "runs/swing-a2.verlet-n32")
+    p, d = compare(a, r, tmp)
+    renamed = [x for x in d["differences"] if x["change"] == "renamed"]
+    check(p.returncode == 0 and d["renamed"] == 1 and d["only_old"] == 0 and d["only_new"] == 0
+          and d["same"] == d["runs_matched"]
+          and renamed == [{"run_id": "swing-a2.verlet-n32", "figure": "run_id", "old": bounded,
+                           "new": "swing-a2.verlet-n32", "relative": None,
+                           "change": "renamed"}], f"a renamed pair: {p.returncode} {d}")
+    p = run(["compare", a, r], tmp)
+    check("matched by configuration under another id 1" in p.stdout
+          and bounded in p.stdout, f"the table says so: {p.stdout}")
+    p = run(["compare", a, r, "--format", "csv"], tmp)
+    check(f"swing-a2.verlet-n32,run_id,{bounded},swing-a2.verlet-n32,,renamed," in p.stdout,
+          f"csv: {p.stdout}")
 
 checklib.finish("compare")

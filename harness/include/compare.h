@@ -26,9 +26,11 @@ typedef enum dm_change {
     DM_BY_ID,            /* figure "config": the pair was matched by id only, its
                             configurations differ in `keys`, all of them the method's
                             settings or the buckets: its figures are judged */
-    DM_NOT_COMPARABLE    /* figure "config": matched by id only, the configurations differ
+    DM_NOT_COMPARABLE,   /* figure "config": matched by id only, the configurations differ
                             in what is run or measured (`keys`: t_end, the problem, ...):
                             its figures are not compared, and judge nothing */
+    DM_RENAMED           /* figure "run_id": matched by its configuration, under another id
+                            (old_text, new_text): judged as any pair; judges nothing itself */
 } dm_change;
 
 const char *dm_change_name(dm_change change);
@@ -46,7 +48,7 @@ typedef struct dm_difference {
     char run_id[DM_RUN_ID_MAX];
     const char *figure;      /* the figure's name; "run" for a run in one file only */
     double old_value, new_value;
-    char old_text[32], new_text[32];   /* for status figures */
+    char old_text[DM_RUN_ID_MAX], new_text[DM_RUN_ID_MAX]; /* status and run_id figures */
     char keys[160];          /* figure "config": the keys whose values differ, comma
                                 separated (cut with "..." when they do not fit) */
     double relative;         /* (new - old) / |old| (NaN when it means nothing) */
@@ -59,6 +61,8 @@ typedef struct dm_comparison {
                                    matched, but in none of the counts above */
     size_t runs_by_id;         /* matched by id only and judged (DM_BY_ID): also in one of
                                   same ... changed */
+    size_t runs_renamed;       /* matched by configuration under another id (DM_RENAMED):
+                                  also in one of same ... changed */
     size_t only_old, only_new;
     size_t n;                /* differences listed */
     dm_difference *list;     /* owned: free() */
