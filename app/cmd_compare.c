@@ -31,7 +31,9 @@ static void value_text(const dm_difference *d, bool is_new, char *buf, size_t si
 {
     const char *text = is_new ? d->new_text : d->old_text;
     double v = is_new ? d->new_value : d->old_value;
-    if (text[0] != '\0')
+    if (d->change == DM_RENAMED) /* the two ids */
+        snprintf(buf, size, "%s", is_new ? d->run_id : d->keys);
+    else if (text[0] != '\0')
         snprintf(buf, size, "%s", text);
     else if (strcmp(d->figure, "run") == 0 || strcmp(d->figure, "config") == 0)
         snprintf(buf, size, "-");
@@ -68,7 +70,7 @@ static void print_text(const dm_comparison *c)
             snprintf(rel, sizeof rel, "%+.2e", d->relative);
         printf("%-48s %-24s %14s %14s %10s  %s", d->run_id, d->figure, a, b, rel,
                dm_change_name(d->change));
-        if (d->keys[0] != '\0')
+        if (d->keys[0] != '\0' && d->change != DM_RENAMED)
             printf(" (configurations differ in %s)", d->keys);
         putchar('\n');
     }
@@ -80,7 +82,7 @@ static void print_csv(const dm_comparison *c)
     for (size_t i = 0; i < c->n; i++) {
         const dm_difference *d = &c->list[i];
         char a[DM_RUN_ID_MAX], b[DM_RUN_ID_MAX];
-        if (d->old_text[0] || strcmp(d->figure, "run") == 0 ||
+        if (d->old_text[0] || d->change == DM_RENAMED || strcmp(d->figure, "run") == 0 ||
             strcmp(d->figure, "config") == 0) {
             value_text(d, false, a, sizeof a);
             value_text(d, true, b, sizeof b);
@@ -96,7 +98,7 @@ static void print_csv(const dm_comparison *c)
         if (isfinite(d->relative))
             printf("%.17g", d->relative);
         printf(",%s,", dm_change_name(d->change));
-        dm_csv_text(stdout, d->keys); /* comma separated: quoted */
+        dm_csv_text(stdout, d->change == DM_RENAMED ? "" : d->keys); /* comma separated */
         putchar('\n');
     }
 }
@@ -115,7 +117,12 @@ static void print_json(const dm_comparison *c)
         dm_json_string(stdout, d->run_id);
         printf(", \"figure\": ");
         dm_json_string(stdout, d->figure);
-        if (d->old_text[0]) {
+        if (d->change == DM_RENAMED) {
+            printf(", \"old\": ");
+            dm_json_string(stdout, d->keys);
+            printf(", \"new\": ");
+            dm_json_string(stdout, d->run_id);
+        } else if (d->old_text[0]) {
             printf(", \"old\": ");
             dm_json_string(stdout, d->old_text);
             printf(", \"new\": ");
@@ -129,7 +136,7 @@ static void print_json(const dm_comparison *c)
         printf(", \"relative\": ");
         dm_json_number(stdout, d->relative, "%.17g");
         printf(", \"change\": \"%s\"", dm_change_name(d->change));
-        if (d->keys[0] != '\0') {
+        if (d->keys[0] != '\0' && d->change != DM_RENAMED) {
             printf(", \"keys\": ");
             dm_json_string(stdout, d->keys);
         }

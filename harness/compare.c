@@ -317,8 +317,7 @@ dm_status dm_compare(const dm_summary_row *old_rows, const char (*old_configs)[D
             }
             snprintf(d->run_id, sizeof d->run_id, "%s", b->run_id);
             d->figure = "run_id";
-            snprintf(d->old_text, sizeof d->old_text, "%s", old_rows[i].run_id);
-            snprintf(d->new_text, sizeof d->new_text, "%s", b->run_id);
+            snprintf(d->keys, sizeof d->keys, "%s", old_rows[i].run_id);
             d->old_value = d->new_value = d->relative = NAN;
             d->change = DM_RENAMED;
             out->runs_renamed++;

@@ -30,7 +30,7 @@ typedef enum dm_change {
                             in what is run or measured (`keys`: t_end, the problem, ...):
                             its figures are not compared, and judge nothing */
     DM_RENAMED           /* figure "run_id": matched by its configuration, under another id
-                            (old_text, new_text): judged as any pair; judges nothing itself */
+                            (keys: the old one): judged as any pair; judges nothing itself */
 } dm_change;
 
 const char *dm_change_name(dm_change change);
@@ -48,9 +48,10 @@ typedef struct dm_difference {
     char run_id[DM_RUN_ID_MAX];
     const char *figure;      /* the figure's name; "run" for a run in one file only */
     double old_value, new_value;
-    char old_text[DM_RUN_ID_MAX], new_text[DM_RUN_ID_MAX]; /* status and run_id figures */
-    char keys[160];          /* figure "config": the keys whose values differ, comma
-                                separated (cut with "..." when they do not fit) */
+    char old_text[32], new_text[32];   /* for status figures */
+    char keys[DM_RUN_ID_MAX]; /* figure "config": the keys whose values differ, comma
+                                separated (cut with "..." when they do not fit); figure
+                                "run_id": the old id (the new one is run_id) */
     double relative;         /* (new - old) / |old| (NaN when it means nothing) */
     dm_change change;
 } dm_difference;
