@@ -149,10 +149,11 @@ dm_status dm_instance_init_data(dm_instance *inst, const dm_problem *problem,
         bool below = (p->flags & DM_PARAM_MIN_OPEN) ? !(v > p->min) : !(v >= p->min);
         bool above = (p->flags & DM_PARAM_MAX_OPEN) ? !(v < p->max) : !(v <= p->max);
         if (below || above) {
-            char range[160];
+            char range[160], typed[32];
             dm_param_range_text(p, range, sizeof range);
-            return dm_error_set(err, DM_EINPUT, "%s: %s = %.17g is outside its range %s",
-                                problem->id, p->name, v, range);
+            dm_number_text(v, typed, sizeof typed); /* 0.3 as typed, not 0.29999999999999999 */
+            return dm_error_set(err, DM_EINPUT, "%s: %s = %s is outside its range %s",
+                                problem->id, p->name, typed, range);
         }
         if (p->flags & DM_PARAM_START) {
             if (start_given >= 0)

@@ -332,6 +332,8 @@ static void every_bad_input_is_refused_with_a_message_naming_it(void **state)
     expect_refusal("amplitude", -M_PI, NULL, 0, "separatrix");
     expect_refusal("amplitude", 0.0, NULL, 0, "equilibrium");
     expect_refusal("amplitude", 3.5, NULL, 0, "amplitude = 3.5 is outside its range");
+    /* as typed, not 3.2999999999999998 */
+    expect_refusal("amplitude", 3.3, NULL, 0, "amplitude = 3.3 is outside its range");
     expect_refusal("amplitude", -4.0, NULL, 0, "amplitude = -4 is outside its range");
     expect_refusal("energy", 1.0, NULL, 0, "separatrix");
     expect_refusal("energy", 2.0, "g_over_l", 2.0, "separatrix");
