@@ -91,6 +91,13 @@ static double measured_periods(const dm_summary_row *const *rows, size_t n, doub
     return m;
 }
 
+/* The horizon the answer is for, in periods: the one asked, else the one measured. */
+static double horizon_periods(const dm_summary_row *const *rows, size_t n,
+                              const dm_target *t)
+{
+    return isnan(t->periods) ? measured_periods(rows, n, &(double){ 0.0 }) : t->periods;
+}
+
 /* An ok run whose numerical orbit stayed in its starting regime: one that left it (a
  * pendulum going over the top) measured another orbit, and is no answer. */
 static bool usable_row(const dm_summary_row *r)
@@ -449,7 +456,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
     c->fit_rms = dm_line_fit_rms_residual(&g->far.energy_line) / log(10.0);
     c->horizon_factor = 1.0;
     if (g->extended) {
-        double step, measured = measured_periods(g->rows, g->n, &step);
+        double measured = measured_periods(g->rows, g->n, &(double){ 0.0 });
         bool any = false;
         for (size_t i = 0; i < g->n; i++)
             if (ok_row(g->rows[i]))
@@ -500,10 +507,8 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
              * asked (fixed steps: their number is known; a fit is read past the runs it
              * left out as round-off no more than past any other) */
             if (!c->adaptive) {
-                double periods = isnan(g->target->periods) ? measured_periods(g->rows, g->n,
-                                                                              &(double){ 0 })
-                                                           : g->target->periods;
-                double root = sqrt(periods * g->rows[0]->period_exact / xf);
+                double root = sqrt(horizon_periods(g->rows, g->n, g->target) *
+                                   g->rows[0]->period_exact / xf);
                 /* (a figure not predicted stays NaN: fmax would drop it) */
                 if (!isnan(c->energy_error))
                     c->energy_error = fmax(c->energy_error,
@@ -574,8 +579,7 @@ static dm_status answer_group(group *g, dm_choice *c, dm_error *err)
                  c->adaptive ? "rtol" : "h", c->x, energy ? "max |dE|" : "phase/per",
                  energy ? c->energy_error : c->phase_per_period,
                  energy ? DM_ENERGY_ROUND_OFF_FLOOR : DM_PHASE_ROUND_OFF_FLOOR,
-                 isnan(g->target->periods) ? measured_periods(g->rows, g->n, &(double){ 0 })
-                                           : g->target->periods);
+                 horizon_periods(g->rows, g->n, g->target));
         return DM_OK;
     }
     if (g->extended && !(c->energy_error < DM_ENERGY_COARSE)) {

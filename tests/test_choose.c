@@ -44,9 +44,9 @@ static dm_summary_row row(const char *method, double h, double energy, double q)
     return r;
 }
 
-static dm_choice choose_one(const dm_summary_row *rows, size_t n, double energy, double periods)
+/* The one answer for rows (one group) and target t. */
+static dm_choice choose_for(const dm_summary_row *rows, size_t n, dm_target t)
 {
-    dm_target t = { .max_energy_error = energy, .phase_per_period = NAN, .periods = periods };
     dm_choice *c = NULL;
     size_t nc = 0;
     bool all = false;
@@ -59,6 +59,13 @@ static dm_choice choose_one(const dm_summary_row *rows, size_t n, double energy,
                   one.method, one.ranked, dm_choice_basis_name(one.basis), one.x,
                   one.energy_error, one.horizon_factor, one.horizon_rule, one.why_not);
     return one;
+}
+
+/* ... for a target on max |dE| alone. */
+static dm_choice choose_one(const dm_summary_row *rows, size_t n, double energy, double periods)
+{
+    return choose_for(rows, n, (dm_target){ .max_energy_error = energy,
+                                            .phase_per_period = NAN, .periods = periods });
 }
 
 static const double steps_h[4] = { 0.1, 0.05, 0.025, 0.0125 };
@@ -172,21 +179,13 @@ static void phase_is_carried_only_with_a_bounded_energy(void **state)
         r[i] = row("rk4", steps_h[i], 1e-3 * pow(steps_h[i] / 0.1, 5), 1.0);
     dm_target t = { .max_energy_error = 1e-4, .phase_per_period = 1e-3,
                     .periods = 10.0 * MEASURED_PERIODS };
-    dm_choice *c = NULL;
-    size_t nc = 0;
-    bool all = false;
-    dm_error err = { 0 };
-    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
-    print_message("why: %s\n", c[0].why_not);
-    assert_false(c[0].ranked);
-    assert_non_null(strstr(c[0].why_not, "does not hold over 10000"));
-    free(c);
+    dm_choice one = choose_for(r, 4, t);
+    assert_false(one.ranked);
+    assert_non_null(strstr(one.why_not, "does not hold over 10000"));
     t.periods = MEASURED_PERIODS; /* its own horizon: both targets read off the lines */
-    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
-    assert_true(c[0].ranked);
-    free(c);
+    assert_true(choose_for(r, 4, t).ranked);
     /* an energy target alone: ranked, its phase not predicted, and said why */
-    dm_choice one = choose_one(r, 4, 1e-4, 10.0 * MEASURED_PERIODS);
+    one = choose_one(r, 4, 1e-4, 10.0 * MEASURED_PERIODS);
     assert_true(one.ranked);
     assert_true(isnan(one.phase_per_period));
     assert_non_null(strstr(one.not_predicted, "energy drifts"));
@@ -240,23 +239,12 @@ static void a_fitted_step_is_never_under_round_off(void **state)
     assert_non_null(strstr(c.why_not, "round-off alone reaches max |dE|"));
     /* the phase alike: 0.1 of the energy here, 6e-15 at the finest step */
     dm_target t = { .max_energy_error = 1.0, .phase_per_period = 1e-14, .periods = NAN };
-    for (size_t n = 4; n >= 3; n--) {
-        dm_choice *out = NULL;
-        size_t nc = 0;
-        bool all = false;
-        dm_error err = { 0 };
-        assert_int_equal(dm_choose(r, n, &t, &out, &nc, &all, &err), DM_OK);
-        print_message("phase, %zu runs: ranked %d basis %s x %g why '%s'\n", n, out[0].ranked,
-                      dm_choice_basis_name(out[0].basis), out[0].x, out[0].why_not);
-        if (n == 4) {
-            assert_true(out[0].ranked);
-            assert_true(out[0].x == steps_h[3]);
-        } else {
-            assert_false(out[0].ranked);
-            assert_non_null(strstr(out[0].why_not, "round-off alone reaches phase/per"));
-        }
-        free(out);
-    }
+    c = choose_for(r, 4, t);
+    assert_true(c.ranked);
+    assert_true(c.x == steps_h[3]);
+    c = choose_for(r, 3, t);
+    assert_false(c.ranked);
+    assert_non_null(strstr(c.why_not, "round-off alone reaches phase/per"));
 }
 
 /* An error carried to 1/10 or more is outside the regime its law was measured in: a
@@ -309,18 +297,11 @@ static void the_binding_fit_names_the_basis(void **state)
     r[3].phase_error_per_period = NAN;
     dm_target t = { .max_energy_error = 1e-3, .periods = NAN,
                     .phase_per_period = 1e-5 * pow(0.2, 4) }; /* 0.1 C (h/0.1)^4 at 0.02 */
-    dm_choice *c = NULL;
-    size_t nc = 0;
-    bool all = false;
-    dm_error err = { 0 };
-    assert_int_equal(dm_choose(r, 4, &t, &c, &nc, &all, &err), DM_OK);
-    print_message("basis %s x %.17g beyond %g\n", dm_choice_basis_name(c[0].basis), c[0].x,
-                  c[0].beyond);
-    assert_true(c[0].ranked);
-    assert_int_equal(c[0].basis, DM_BASIS_EXTRAPOLATED);
-    assert_true(fabs(c[0].x / 0.02 - 1.0) < 1e-12);
-    assert_true(fabs(c[0].beyond / 1.25 - 1.0) < 1e-12);
-    free(c);
+    dm_choice c = choose_for(r, 4, t);
+    assert_true(c.ranked);
+    assert_int_equal(c.basis, DM_BASIS_EXTRAPOLATED);
+    assert_true(fabs(c.x / 0.02 - 1.0) < 1e-12);
+    assert_true(fabs(c.beyond / 1.25 - 1.0) < 1e-12);
 }
 
 /* The horizon the runs measured is that of the ok runs, not of the first row (a coarse
